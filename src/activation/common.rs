@@ -1,0 +1,106 @@
+//! Pieces shared by several catalog functions.
+//!
+//! The tails: for |x| ≥ 2^12 every exponential piece is below e^−4096 < 2^−5900, so a function
+//! there equals its asymptote a up to a relative 2^−1000 or less, on a known side.  Rounding
+//! boundaries of every supported format are at least 2^−150 apart absolutely and 2^−25
+//! relatively, so none lies strictly between a and a ± |a|·2^−1000 except possibly a itself:
+//! every point of the open interval (a, a + |a|·2^−1000] rounds the same way.  [`above`] and
+//! [`below`] return a sub-interval of it, which therefore decides the rounding of the true value
+//! and keeps MPFR's exponent range out of reach (e^−(3.4e38) would underflow it).
+
+use super::{Limit, Value};
+use crate::reference::Ival;
+use rug::float::Round;
+use rug::{Float, Rational};
+use std::cmp::Ordering;
+
+/// Inputs with |x| ≥ 2^TAIL_LOG2 use the asymptotic tails.
+pub const TAIL_LOG2: i32 = 12;
+
+/// Precision of tail intervals: enough for a + |a|·2^−2000 with a of up to 128 bits.
+const TAIL_PRECISION: u32 = 2200;
+
+/// Whether |x| ≥ 2^12.
+pub fn in_tail(x: &Float) -> bool {
+    x.get_exp().is_some_and(|e| e > TAIL_LOG2)
+}
+
+/// x as an exact rational (x is finite).
+pub fn rational(x: &Float) -> Rational {
+    x.to_rational().expect("finite input")
+}
+
+/// The exact point x.
+pub fn point(x: &Float) -> Ival {
+    Ival::point(x)
+}
+
+fn offset(a: &Rational, exponent: i32, sign: Ordering) -> Rational {
+    let step = Rational::from(a.abs_ref()) >> exponent;
+    match sign {
+        Ordering::Greater => Rational::from(a + &step),
+        _ => Rational::from(a - &step),
+    }
+}
+
+/// A value just above a nonzero rational a: (a, a + |a|·2^−1000].
+pub fn above(a: &Rational) -> Value {
+    let lo = offset(a, 2000, Ordering::Greater);
+    let hi = offset(a, 1000, Ordering::Greater);
+    Value::Enclosed(Ival::new(
+        Float::with_val_round(TAIL_PRECISION, &lo, Round::Down).0,
+        Float::with_val_round(TAIL_PRECISION, &hi, Round::Up).0,
+    ))
+}
+
+/// A value just below a nonzero rational a: [a − |a|·2^−1000, a).
+pub fn below(a: &Rational) -> Value {
+    let lo = offset(a, 1000, Ordering::Less);
+    let hi = offset(a, 2000, Ordering::Less);
+    Value::Enclosed(Ival::new(
+        Float::with_val_round(TAIL_PRECISION, &lo, Round::Down).0,
+        Float::with_val_round(TAIL_PRECISION, &hi, Round::Up).0,
+    ))
+}
+
+/// A nonzero value of magnitude below 2^−1000 and of the given sign.
+pub fn tiny(negative: bool) -> Value {
+    let small = Float::with_val(64, Float::i_exp(1, -2000));
+    let large = Float::with_val(64, Float::i_exp(1, -1000));
+    Value::Enclosed(if negative {
+        Ival::new(-large, -small)
+    } else {
+        Ival::new(small, large)
+    })
+}
+
+/// σ(z) = 1/(1 + e^−z), without cancellation for any z.
+pub fn sigmoid(z: &Ival, prec: u32) -> Ival {
+    let t = z.neg().exp(prec);
+    Ival::int(1).div(&Ival::int(1).add(&t, prec), prec)
+}
+
+/// softplus(z) = max(z, 0) + ln(1 + e^−|z|) for a point z.
+pub fn softplus_point(z: &Float, prec: u32) -> Ival {
+    let magnitude = Ival::point(&Float::with_val(z.prec(), z.abs_ref()));
+    let correction = magnitude.neg().exp(prec).ln_1p(prec);
+    if z.is_sign_positive() && !z.is_zero() {
+        correction.add(&Ival::point(z), prec)
+    } else {
+        correction
+    }
+}
+
+/// The limit for a rational value: zero becomes +0.
+pub fn limit_of(q: Rational) -> Limit {
+    if q.is_zero() {
+        Limit::Zero { negative: false }
+    } else {
+        Limit::Finite(q)
+    }
+}
+
+/// The rational 1.
+pub fn one() -> Rational {
+    Rational::from(1)
+}

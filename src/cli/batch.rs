@@ -1,0 +1,60 @@
+//! `ulpgauge batch`: references for many bit patterns at once (used by the independent
+//! cross-check script and by scripts of users).
+
+use super::{resolve, Failure, FunctionArgs};
+use crate::format::{hex, parse_hex};
+use rayon::prelude::*;
+use std::io::{Read, Write};
+
+/// Arguments of `batch`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// Catalog function.
+    function: String,
+    /// Target format.
+    #[arg(long, value_name = "f32|f16|bf16")]
+    format: String,
+    /// Evaluate f′ instead of f.
+    #[arg(long)]
+    derivative: bool,
+    #[command(flatten)]
+    function_args: FunctionArgs,
+}
+
+/// Reads 0x-hex patterns (whitespace separated) from stdin; prints `0xIN 0xOUT` per input.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    let target = resolve(
+        &args.function,
+        &args.format,
+        args.derivative,
+        &args.function_args,
+    )?;
+    let evaluator = &target.evaluator;
+    let format = evaluator.format();
+    let mut text = String::new();
+    std::io::stdin()
+        .read_to_string(&mut text)
+        .map_err(|e| Failure::bad_input(format!("cannot read stdin: {e}")))?;
+    let inputs = text
+        .split_whitespace()
+        .enumerate()
+        .map(|(i, token)| {
+            parse_hex(format, token)
+                .map_err(|e| Failure::bad_input(format!("stdin item {}: {e}", i + 1)))
+        })
+        .collect::<Result<Vec<u32>, Failure>>()?;
+    let outputs = inputs
+        .par_iter()
+        .map(|&x| evaluator.reference(x).map(|r| r.bits))
+        .collect::<Result<Vec<u32>, _>>()
+        .map_err(|e| Failure {
+            code: 1,
+            message: e.to_string(),
+        })?;
+    let mut out = std::io::BufWriter::new(std::io::stdout().lock());
+    for (x, y) in inputs.iter().zip(&outputs) {
+        writeln!(out, "{} {}", hex(format, *x), hex(format, *y))
+            .map_err(|e| Failure::bad_input(e.to_string()))?;
+    }
+    Ok(0)
+}

@@ -1,0 +1,211 @@
+//! `ulpgauge eval`: the correctly rounded value of one function at one input.
+
+use super::{resolve, Failure, FunctionArgs};
+use crate::activation::{Ctx, Role, Value};
+use crate::format::{hex, parse_hex, Class, Format};
+use crate::reference::{parse_decimal, round_rational, Evaluator};
+use crate::report::{display_value, BitsValue};
+use rug::Float;
+use serde_json::json;
+
+/// Arguments of `eval`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// Catalog function (see `ulpgauge functions`).
+    function: String,
+    /// Input: a decimal (rounded to nearest, ties to even, if the format cannot hold it), `inf`,
+    /// `-inf`, `nan`, or the format's bit pattern as 0x-hex.
+    #[arg(allow_hyphen_values = true)]
+    x: String,
+    /// Target format.
+    #[arg(long, value_name = "f32|f16|bf16")]
+    format: String,
+    /// Evaluate f′ instead of f.
+    #[arg(long)]
+    derivative: bool,
+    /// Print one JSON object instead of text.
+    #[arg(long)]
+    json: bool,
+    #[command(flatten)]
+    function_args: FunctionArgs,
+}
+
+/// How the input was given.
+struct Input {
+    bits: u32,
+    /// The decimal text when it was not exactly representable.
+    rounded_from: Option<String>,
+}
+
+fn parse_input(format: &dyn Format, text: &str) -> Result<Input, Failure> {
+    let exact = |bits| {
+        Ok(Input {
+            bits,
+            rounded_from: None,
+        })
+    };
+    if text.starts_with("0x") || text.starts_with("0X") {
+        return parse_hex(format, text)
+            .map_err(Failure::bad_input)
+            .and_then(exact);
+    }
+    match text.to_ascii_lowercase().as_str() {
+        "nan" => return exact(format.quiet_nan()),
+        "inf" | "+inf" | "infinity" => return exact(format.infinity(false)),
+        "-inf" | "-infinity" => return exact(format.infinity(true)),
+        _ => {}
+    }
+    let q = parse_decimal(text).map_err(|e| Failure::bad_input(format!("input {e}")))?;
+    let bits = round_rational(&q, text.trim_start().starts_with('-'), format);
+    let representable = format.classify(bits) != Class::Infinite
+        && rug::Rational::from_f64(format.to_f64(bits)).is_some_and(|r| r == q);
+    Ok(Input {
+        bits,
+        rounded_from: (!representable).then(|| text.to_string()),
+    })
+}
+
+/// Exact value to 40 significant digits, from a 320-bit enclosure or the exact rational.
+fn exact_digits(evaluator: &Evaluator, format: &dyn Format, bits: u32) -> Option<String> {
+    if matches!(format.classify(bits), Class::Nan | Class::Infinite) {
+        return None;
+    }
+    let x = Float::with_val(64, format.to_f64(bits));
+    let x = if format.is_sign_negative(bits) && x.is_zero() {
+        -x
+    } else {
+        x
+    };
+    let ctx = Ctx {
+        prec: 320,
+        constants: evaluator.constants(),
+    };
+    let v = match evaluator.function().eval(&x, evaluator.role(), &ctx) {
+        Value::Exact(q) => Float::with_val(320, &q),
+        Value::Enclosed(iv) => Float::with_val(321, &iv.lo + &iv.hi) / 2u32,
+    };
+    Some(v.to_string_radix(10, Some(40)))
+}
+
+/// Runs `eval`.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    let target = resolve(
+        &args.function,
+        &args.format,
+        args.derivative,
+        &args.function_args,
+    )?;
+    let evaluator = &target.evaluator;
+    let format = evaluator.format();
+    let input = parse_input(format, &args.x)?;
+    let reference = evaluator.reference(input.bits).map_err(|e| Failure {
+        code: 1,
+        message: e.to_string(),
+    })?;
+    let out = reference.bits;
+    let finite_out = !matches!(format.classify(out), Class::Nan | Class::Infinite);
+    let below = finite_out.then(|| format.next_down(out));
+    let above = finite_out.then(|| format.next_up(out));
+    let ulp = reference.exact.map(|e| e.ulp(format));
+    let rounding_error = reference
+        .exact
+        .filter(|_| finite_out)
+        .map(|e| crate::format::ulp_error(format, out, &e));
+    let kink = (evaluator.role() == Role::Derivative)
+        .then(|| {
+            let x = format.to_f64(input.bits);
+            evaluator
+                .function()
+                .kinks(evaluator.constants())
+                .into_iter()
+                .find(|k| k.at as f64 == x)
+        })
+        .flatten();
+    let exact = exact_digits(evaluator, format, input.bits);
+    let params: serde_json::Map<String, serde_json::Value> = evaluator
+        .constants()
+        .entries()
+        .iter()
+        .map(|(name, value)| {
+            let text = match value {
+                crate::reference::Real::Exact(q) => q.to_string(),
+                crate::reference::Real::Irrational(name, _) => name.to_string(),
+            };
+            (name.to_string(), json!(text))
+        })
+        .collect();
+    let role = if args.derivative {
+        "derivative"
+    } else {
+        "forward"
+    };
+    if args.json {
+        let kink_json = kink.as_ref().map(|k| {
+            json!({"at": k.at, "left": k.left.to_f64(), "right": k.right.to_f64(), "convention": "right"})
+        });
+        let report = json!({
+            "function": evaluator.function().name(),
+            "role": role,
+            "format": format.name(),
+            "params": params,
+            "param_rounding": args.function_args.param_rounding,
+            "input": BitsValue::new(format, input.bits),
+            "input_rounded_from": input.rounded_from,
+            "exact": exact,
+            "rounded": BitsValue::new(format, out),
+            "neighbours": {
+                "below": below.map(|b| BitsValue::new(format, b)),
+                "above": above.map(|b| BitsValue::new(format, b)),
+            },
+            "ulp": ulp,
+            "rounding_error_ulp": rounding_error,
+            "kink": kink_json,
+        });
+        println!("{}", serde_json::to_string_pretty(&report).expect("json"));
+        return Ok(0);
+    }
+    let show = |bits: u32| format!("{} = {}", hex(format, bits), display_value(format, bits));
+    println!(
+        "{} {} in {}",
+        evaluator.function().name(),
+        role,
+        format.name()
+    );
+    if !params.is_empty() {
+        let list: Vec<_> = params
+            .iter()
+            .map(|(k, v)| format!("{k}={}", v.as_str().unwrap_or("")))
+            .collect();
+        println!(
+            "  constants  {} ({:?})",
+            list.join(", "),
+            args.function_args.param_rounding
+        );
+    }
+    match &input.rounded_from {
+        Some(text) => println!("  input      {}  (rounded from {text})", show(input.bits)),
+        None => println!("  input      {}", show(input.bits)),
+    }
+    if let Some(digits) = &exact {
+        println!("  exact      {digits}");
+    }
+    println!("  rounded    {}", show(out));
+    if let (Some(b), Some(a)) = (below, above) {
+        println!("  neighbours {}  |  {}", show(b), show(a));
+    }
+    if let Some(u) = ulp {
+        println!("  ulp        {u:e}");
+    }
+    if let Some(e) = rounding_error {
+        println!("  |RN(y)-y|  {e:.6} ulp");
+    }
+    if let Some(k) = kink {
+        println!(
+            "  kink       f' jumps at {}: left {}, right {}; eval gives the right-hand value",
+            k.at,
+            k.left.to_f64(),
+            k.right.to_f64()
+        );
+    }
+    Ok(0)
+}

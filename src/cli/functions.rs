@@ -1,0 +1,96 @@
+//! `ulpgauge functions`: the catalog.
+
+use super::Failure;
+use crate::activation::{catalog, Constants, Role};
+use crate::format::Binary32;
+use crate::reference::ParamRounding;
+use serde_json::json;
+
+/// Arguments of `functions`.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// Print JSON instead of text.
+    #[arg(long)]
+    json: bool,
+}
+
+fn limit_text(limit: &crate::activation::Limit) -> String {
+    use crate::activation::Limit;
+    match limit {
+        Limit::Finite(q) => q.to_f64().to_string(),
+        Limit::Zero { negative: true } => "-0".to_string(),
+        Limit::Zero { negative: false } => "+0".to_string(),
+        Limit::Infinite { negative: true } => "-inf".to_string(),
+        Limit::Infinite { negative: false } => "+inf".to_string(),
+    }
+}
+
+/// Runs `functions`.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    let mut all = Vec::new();
+    for f in catalog() {
+        let constants = Constants::resolve(*f, &[], ParamRounding::Exact, &Binary32);
+        let limits = |role| json!({"-inf": limit_text(&f.limit(role, false, &constants)), "+inf": limit_text(&f.limit(role, true, &constants))});
+        let kinks: Vec<_> = f
+            .kinks(&constants)
+            .iter()
+            .map(|k| json!({"at": k.at, "left": k.left.to_f64(), "right": k.right.to_f64()}))
+            .collect();
+        let params: Vec<_> = f
+            .params()
+            .iter()
+            .map(|p| json!({"name": p.name, "default": p.default, "doc": p.doc}))
+            .collect();
+        all.push(json!({
+            "name": f.name(),
+            "definition": f.definition(),
+            "derivative": f.derivative_definition(),
+            "params": params,
+            "facts": f.facts(),
+            "kinks": kinks,
+            "limits": {"forward": limits(Role::Forward), "derivative": limits(Role::Derivative)},
+        }));
+    }
+    if args.json {
+        println!("{}", serde_json::to_string_pretty(&all).expect("json"));
+        return Ok(0);
+    }
+    for entry in &all {
+        println!("{}", entry["name"].as_str().unwrap_or(""));
+        println!("  f(x)   {}", entry["definition"].as_str().unwrap_or(""));
+        println!("  f'(x)  {}", entry["derivative"].as_str().unwrap_or(""));
+        for p in entry["params"].as_array().into_iter().flatten() {
+            println!(
+                "  param  {} = {} ({})",
+                p["name"].as_str().unwrap_or(""),
+                p["default"].as_str().unwrap_or(""),
+                p["doc"].as_str().unwrap_or("")
+            );
+        }
+        let facts = &entry["facts"];
+        let yes = |k: &str| {
+            if facts[k].as_bool() == Some(true) {
+                "yes"
+            } else {
+                "no"
+            }
+        };
+        println!(
+            "  facts  monotone {}, bounded below {}, bounded above {}, continuous {}, f(-0) = -0 {}",
+            yes("monotone"), yes("bounded_below"), yes("bounded_above"), yes("continuous"), yes("keeps_negative_zero")
+        );
+        let lim = &entry["limits"]["forward"];
+        println!(
+            "  limits f(-inf) = {}, f(+inf) = {}",
+            lim["-inf"].as_str().unwrap_or(""),
+            lim["+inf"].as_str().unwrap_or("")
+        );
+        for k in entry["kinks"].as_array().into_iter().flatten() {
+            println!(
+                "  kink   at {}: f' left {}, right {} (derivative references use the right value)",
+                k["at"], k["left"], k["right"]
+            );
+        }
+    }
+    Ok(0)
+}

@@ -1,0 +1,129 @@
+//! Command-line interface: one file per subcommand.
+//!
+//! Exit status: 0 clean, 1 a finding failed, 2 bad input (one line on stderr), 3 the kernel
+//! crashed or hung.
+
+mod batch;
+mod eval;
+mod functions;
+mod golden;
+
+use clap::{Parser, Subcommand};
+
+/// Exit status for bad input.
+pub const EXIT_BAD_INPUT: i32 = 2;
+
+/// An error that ends the command: a one-line message and an exit status.
+#[derive(Debug)]
+pub struct Failure {
+    /// Exit status.
+    pub code: i32,
+    /// One line, printed on stderr after `ulpgauge: `.
+    pub message: String,
+}
+
+impl Failure {
+    /// Bad input (exit status 2).
+    pub fn bad_input(message: impl Into<String>) -> Self {
+        Failure {
+            code: EXIT_BAD_INPUT,
+            message: message.into(),
+        }
+    }
+}
+
+/// Measures how accurate activation-function kernels are, in ulps, against correctly rounded
+/// MPFR references.
+#[derive(Parser, Debug)]
+#[command(name = "ulpgauge", version, about)]
+pub struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand, Debug)]
+enum Command {
+    /// Correctly rounded value of a catalog function at one input.
+    Eval(eval::Args),
+    /// List the catalog: definitions, parameters, defaults and facts.
+    Functions(functions::Args),
+    /// Correctly rounded references for bit patterns read from stdin, one line each.
+    Batch(batch::Args),
+    /// Write or verify the golden tables of every 16-bit reference.
+    Golden(golden::Args),
+}
+
+/// Parses the command line, runs the command and returns the exit status.
+pub fn run() -> i32 {
+    let cli = match Cli::try_parse() {
+        Ok(cli) => cli,
+        Err(e) => {
+            let code = match e.kind() {
+                clap::error::ErrorKind::DisplayHelp | clap::error::ErrorKind::DisplayVersion => 0,
+                _ => EXIT_BAD_INPUT,
+            };
+            let _ = e.print();
+            return code;
+        }
+    };
+    let result = match cli.command {
+        Command::Eval(args) => eval::run(args),
+        Command::Functions(args) => functions::run(args),
+        Command::Batch(args) => batch::run(args),
+        Command::Golden(args) => golden::run(args),
+    };
+    match result {
+        Ok(code) => code,
+        Err(failure) => {
+            eprintln!("ulpgauge: {}", failure.message);
+            failure.code
+        }
+    }
+}
+
+/// Options shared by every command that evaluates a catalog function.
+#[derive(clap::Args, Debug, Clone)]
+pub struct FunctionArgs {
+    /// Parameter as NAME=VALUE (exact decimal), repeatable.
+    #[arg(long = "param", value_name = "NAME=VALUE")]
+    pub params: Vec<String>,
+    /// How parameters and built-in constants enter the reference.
+    #[arg(long, value_enum, default_value_t = crate::reference::ParamRounding::Exact)]
+    pub param_rounding: crate::reference::ParamRounding,
+}
+
+/// A resolved function, format and role, ready to evaluate.
+pub struct Target {
+    /// The evaluator.
+    pub evaluator: crate::reference::Evaluator<'static>,
+}
+
+/// Resolves names and parameters into an evaluator, or a bad-input failure.
+pub fn resolve(
+    function: &str,
+    format: &str,
+    derivative: bool,
+    args: &FunctionArgs,
+) -> Result<Target, Failure> {
+    use crate::activation::{catalog, lookup, Constants, Role};
+    let f = lookup(function).ok_or_else(|| {
+        let names: Vec<_> = catalog().iter().map(|f| f.name()).collect();
+        Failure::bad_input(format!(
+            "unknown function '{function}' (known: {})",
+            names.join(", ")
+        ))
+    })?;
+    let fmt = crate::format::by_name(format).ok_or_else(|| {
+        Failure::bad_input(format!("unknown format '{format}' (known: f32, f16, bf16)"))
+    })?;
+    let user = Constants::parse_params(f, &args.params).map_err(Failure::bad_input)?;
+    let constants = Constants::resolve(f, &user, args.param_rounding, fmt);
+    let role = if derivative {
+        Role::Derivative
+    } else {
+        Role::Forward
+    };
+    Ok(Target {
+        evaluator: crate::reference::Evaluator::new(f, role, constants, fmt),
+    })
+}

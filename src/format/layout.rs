@@ -1,0 +1,211 @@
+//! Bit-level arithmetic shared by every IEEE 754-style binary format.
+
+use super::Class;
+
+/// Field widths of an IEEE 754-style binary format: one sign bit, `exp_bits` biased exponent
+/// bits and `mant_bits` trailing significand bits, with subnormals, infinities and NaNs encoded
+/// as in IEEE 754-2019 §3.4.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Layout {
+    exp_bits: u32,
+    mant_bits: u32,
+}
+
+impl Layout {
+    /// A layout with the given exponent and trailing significand widths (at most 31 bits in all).
+    pub const fn new(exp_bits: u32, mant_bits: u32) -> Self {
+        assert!(exp_bits >= 2 && mant_bits >= 1 && 1 + exp_bits + mant_bits <= 32);
+        Layout {
+            exp_bits,
+            mant_bits,
+        }
+    }
+    /// Storage width in bits.
+    pub const fn width(self) -> u32 {
+        1 + self.exp_bits + self.mant_bits
+    }
+    /// Precision p = trailing significand bits + 1.
+    pub const fn precision(self) -> u32 {
+        self.mant_bits + 1
+    }
+    /// Exponent bias 2^(w−1) − 1.
+    pub const fn bias(self) -> i32 {
+        (1 << (self.exp_bits - 1)) - 1
+    }
+    /// emax = bias.
+    pub const fn emax(self) -> i32 {
+        self.bias()
+    }
+    /// emin = 1 − emax.
+    pub const fn emin(self) -> i32 {
+        1 - self.emax()
+    }
+    fn sign_bit(self) -> u32 {
+        1 << (self.exp_bits + self.mant_bits)
+    }
+    fn exp_mask(self) -> u32 {
+        ((1 << self.exp_bits) - 1) << self.mant_bits
+    }
+    fn mant_mask(self) -> u32 {
+        (1 << self.mant_bits) - 1
+    }
+    fn magnitude_mask(self) -> u32 {
+        self.sign_bit() - 1
+    }
+    /// Whether the sign bit is set.
+    pub fn is_sign_negative(self, bits: u32) -> bool {
+        bits & self.sign_bit() != 0
+    }
+    /// IEEE class of a pattern.
+    pub fn classify(self, bits: u32) -> Class {
+        let exp = bits & self.exp_mask();
+        let mant = bits & self.mant_mask();
+        match (exp, mant) {
+            (0, 0) => Class::Zero,
+            (0, _) => Class::Subnormal,
+            (e, 0) if e == self.exp_mask() => Class::Infinite,
+            (e, _) if e == self.exp_mask() => Class::Nan,
+            _ => Class::Normal,
+        }
+    }
+    /// Exact value of a pattern as binary64.
+    pub fn to_f64(self, bits: u32) -> f64 {
+        let negative = self.is_sign_negative(bits);
+        let field = (bits & self.exp_mask()) >> self.mant_bits;
+        let mant = (bits & self.mant_mask()) as f64;
+        let magnitude = match self.classify(bits) {
+            Class::Nan => return f64::NAN,
+            Class::Infinite => f64::INFINITY,
+            Class::Zero => 0.0,
+            Class::Subnormal => mant * pow2(self.emin() - self.mant_bits as i32),
+            Class::Normal => {
+                (mant + pow2(self.mant_bits as i32))
+                    * pow2(field as i32 - self.bias() - self.mant_bits as i32)
+            }
+        };
+        if negative {
+            -magnitude
+        } else {
+            magnitude
+        }
+    }
+    /// Pattern of an exactly representable binary64 value.
+    pub fn from_f64_exact(self, value: f64) -> Option<u32> {
+        if value.is_nan() {
+            return Some(self.quiet_nan());
+        }
+        let negative = value.is_sign_negative();
+        if value.is_infinite() {
+            return Some(self.infinity(negative));
+        }
+        if value == 0.0 {
+            return Some(if negative { self.sign_bit() } else { 0 });
+        }
+        let (k, e) = integer_significand(value.abs());
+        let zeros = k.trailing_zeros();
+        let (k, e) = (k >> zeros, e + zeros as i32);
+        if e < self.emin() - self.mant_bits as i32 || k >= 1u64 << self.precision() {
+            return None;
+        }
+        let bits = self.encode(negative, k, e);
+        (self.classify(bits) != Class::Infinite).then_some(bits)
+    }
+    /// Pattern of `±k·2^quantum_exp` where k ≤ 2^p is an already rounded integer significand.
+    pub fn encode(self, negative: bool, mut k: u64, mut quantum_exp: i32) -> u32 {
+        let sign = if negative { self.sign_bit() } else { 0 };
+        if k == 0 {
+            return sign;
+        }
+        let p = self.precision();
+        let min_quantum = self.emin() - self.mant_bits as i32;
+        while k >= 1u64 << p {
+            debug_assert!(k & 1 == 0, "significand {k} is not rounded to {p} bits");
+            k >>= 1;
+            quantum_exp += 1;
+        }
+        while k < 1u64 << (p - 1) && quantum_exp > min_quantum {
+            k <<= 1;
+            quantum_exp -= 1;
+        }
+        debug_assert!(
+            quantum_exp >= min_quantum,
+            "value below the subnormal quantum"
+        );
+        if k < 1u64 << (p - 1) {
+            return sign | k as u32;
+        }
+        let field = quantum_exp - min_quantum + 1;
+        if field >= (1 << self.exp_bits) - 1 {
+            return self.infinity(negative);
+        }
+        sign | ((field as u32) << self.mant_bits) | (k as u32 & self.mant_mask())
+    }
+    /// The canonical quiet NaN (positive, top significand bit set).
+    pub fn quiet_nan(self) -> u32 {
+        self.exp_mask() | (1 << (self.mant_bits - 1))
+    }
+    /// Infinity of a sign.
+    pub fn infinity(self, negative: bool) -> u32 {
+        self.exp_mask() | if negative { self.sign_bit() } else { 0 }
+    }
+    /// Largest finite magnitude of a sign.
+    pub fn max_finite(self, negative: bool) -> u32 {
+        self.infinity(negative) - 1
+    }
+    /// Position on the number line; ±0 → 0.
+    pub fn ordinal(self, bits: u32) -> i64 {
+        let magnitude = (bits & self.magnitude_mask()) as i64;
+        if self.is_sign_negative(bits) {
+            -magnitude
+        } else {
+            magnitude
+        }
+    }
+    /// Inverse of [`Layout::ordinal`].
+    pub fn from_ordinal(self, ordinal: i64) -> u32 {
+        if ordinal < 0 {
+            self.sign_bit() | (-ordinal) as u32
+        } else {
+            ordinal as u32
+        }
+    }
+    /// IEEE nextUp.
+    pub fn next_up(self, bits: u32) -> u32 {
+        match self.classify(bits) {
+            Class::Nan => bits,
+            Class::Infinite if !self.is_sign_negative(bits) => bits,
+            Class::Zero => 1,
+            _ => self.from_ordinal(self.ordinal(bits) + 1),
+        }
+    }
+    /// IEEE nextDown.
+    pub fn next_down(self, bits: u32) -> u32 {
+        match self.classify(bits) {
+            Class::Nan => bits,
+            Class::Infinite if self.is_sign_negative(bits) => bits,
+            Class::Zero => self.sign_bit() | 1,
+            _ => self.from_ordinal(self.ordinal(bits) - 1),
+        }
+    }
+}
+
+/// 2^e as binary64, exact for −1074 ≤ e ≤ 1023.
+pub(crate) fn pow2(e: i32) -> f64 {
+    if e >= -1022 {
+        f64::from_bits(((e + 1023) as u64) << 52)
+    } else {
+        f64::from_bits(1u64 << (e + 1074))
+    }
+}
+
+/// Writes a positive finite binary64 as k·2^e with an integer k < 2^53.
+fn integer_significand(value: f64) -> (u64, i32) {
+    let bits = value.to_bits();
+    let field = ((bits >> 52) & 0x7ff) as i32;
+    let mant = bits & ((1u64 << 52) - 1);
+    if field == 0 {
+        (mant, -1074)
+    } else {
+        (mant | (1u64 << 52), field - 1075)
+    }
+}

@@ -1,0 +1,11 @@
+//! ulpgauge: measures how accurate activation-function kernels are.
+//!
+//! Data flows one way: inputs → kernel and [`reference`] → measures → report.  [`format`]
+//! holds the bit-level number formats, [`activation`] the catalog of functions with their exact
+//! definitions, [`reference`] the correctly rounded MPFR engine.
+
+pub mod activation;
+pub mod cli;
+pub mod format;
+pub mod reference;
+pub mod report;

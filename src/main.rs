@@ -1,0 +1,5 @@
+//! The `ulpgauge` command.
+
+fn main() {
+    std::process::exit(ulpgauge::cli::run());
+}

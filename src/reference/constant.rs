@@ -1,0 +1,95 @@
+//! Parameters and built-in constants, exact by default or rounded the way kernels store them.
+
+use super::interval::Ival;
+use super::round::round_rational;
+use crate::format::{Binary32, Format};
+use rug::Rational;
+
+/// A real constant: an exact rational, or an irrational number given by an enclosure at any
+/// precision.
+#[derive(Clone, Debug)]
+pub enum Real {
+    /// An exact rational (decimal parameters are exact rationals: 0.01 is 1/100).
+    Exact(Rational),
+    /// An irrational constant: a name for reports and a function enclosing it at a precision.
+    Irrational(&'static str, fn(u32) -> Ival),
+}
+
+impl Real {
+    /// Encloses the constant at `prec` bits.
+    pub fn enclose(&self, prec: u32) -> Ival {
+        match self {
+            Real::Exact(q) => Ival::rational(q, prec),
+            Real::Irrational(_, f) => f(prec),
+        }
+    }
+    /// The exact rational, if the constant is rational.
+    pub fn exact(&self) -> Option<&Rational> {
+        match self {
+            Real::Exact(q) => Some(q),
+            Real::Irrational(..) => None,
+        }
+    }
+}
+
+/// How parameters and built-in constants enter the reference.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ParamRounding {
+    /// Exactly as written (alpha=0.01 is the real number 1/100; √(2/π) is irrational).
+    #[default]
+    Exact,
+    /// Rounded to the nearest binary32, as a kernel holding `float` constants sees them.
+    F32,
+    /// Rounded to the nearest value of the kernel's own format.
+    Format,
+}
+
+impl ParamRounding {
+    /// Applies the rounding to a constant for a kernel in `format`.
+    pub fn apply(self, value: &Real, format: &dyn Format) -> Real {
+        let target: &dyn Format = match self {
+            ParamRounding::Exact => return value.clone(),
+            ParamRounding::F32 => &Binary32,
+            ParamRounding::Format => format,
+        };
+        let bits = match value {
+            Real::Exact(q) => round_rational(q, false, target),
+            Real::Irrational(..) => super::engine::round_constant(value, target),
+        };
+        let rounded = target.to_f64(bits);
+        Real::Exact(Rational::from_f64(rounded).expect("rounded constant is finite"))
+    }
+}
+
+/// Parses a decimal such as `0.01`, `-1.5e-3` or `7` into the exact rational it denotes.
+pub fn parse_decimal(text: &str) -> Result<Rational, String> {
+    let bad = || format!("'{text}' is not a decimal number");
+    let (mantissa, exponent) = match text.find(['e', 'E']) {
+        Some(i) => (&text[..i], text[i + 1..].parse::<i32>().map_err(|_| bad())?),
+        None => (text, 0),
+    };
+    let (negative, digits) = match mantissa.strip_prefix('-') {
+        Some(rest) => (true, rest),
+        None => (false, mantissa.strip_prefix('+').unwrap_or(mantissa)),
+    };
+    let (int_part, frac_part) = digits.split_once('.').unwrap_or((digits, ""));
+    let all_digits = |s: &str| s.bytes().all(|b| b.is_ascii_digit());
+    if int_part.len() + frac_part.len() == 0 || !all_digits(int_part) || !all_digits(frac_part) {
+        return Err(bad());
+    }
+    if exponent.unsigned_abs() > 10_000 {
+        return Err(format!("'{text}' has an exponent out of range"));
+    }
+    let numerator: rug::Integer = format!("{int_part}{frac_part}")
+        .parse()
+        .map_err(|_| bad())?;
+    let scale = exponent - frac_part.len() as i32;
+    let mut value = Rational::from(numerator);
+    if scale >= 0 {
+        value *= Rational::from(rug::Integer::u_pow_u(10, scale as u32));
+    } else {
+        value /= Rational::from(rug::Integer::u_pow_u(10, scale.unsigned_abs()));
+    }
+    Ok(if negative { -value } else { value })
+}

@@ -1,0 +1,268 @@
+//! The Ziv loop: evaluate an enclosure, widen the precision until both ends round to the same
+//! value of the target format.
+
+use super::interval::Ival;
+use super::round::{floor_log2, floor_log2_rational, round_float, round_rational};
+use super::Real;
+use crate::activation::{Activation, Constants, Ctx, Limit, Role, Value};
+use crate::format::{Class, ExactValue, Format};
+use rug::{Float, Rational};
+
+/// First working precision, in bits: 40 guard bits over binary32's 24 decide almost every case
+/// in one pass.
+const START_PRECISION: u32 = 64;
+
+/// Precision at which the loop gives up. Only an exact rational hidden behind an interval
+/// formula could get this far, and catalog functions return those as [`Value::Exact`].
+pub const MAX_PRECISION: u32 = 1 << 14;
+
+/// A correctly rounded reference value and what the measures need of the exact value.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Reference {
+    /// RN(y) in the target format.
+    pub bits: u32,
+    /// y itself (approximation and binade); `None` when y is NaN or ±∞.
+    pub exact: Option<ExactValue>,
+    /// Working precision that decided the rounding (0 for exact values).
+    pub precision: u32,
+}
+
+/// Why a reference could not be computed.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ReferenceError(pub String);
+
+impl std::fmt::Display for ReferenceError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(&self.0)
+    }
+}
+
+/// Computes references of one function, role, parameter set and format.
+pub struct Evaluator<'a> {
+    function: &'a dyn Activation,
+    role: Role,
+    constants: Constants,
+    format: &'static dyn Format,
+    /// Multiplies the value before rounding (a gradient's upstream g), exact.
+    scale: Option<Rational>,
+}
+
+impl<'a> Evaluator<'a> {
+    /// An evaluator; `constants` must come from [`Constants::resolve`] for the same function.
+    pub fn new(
+        function: &'a dyn Activation,
+        role: Role,
+        constants: Constants,
+        format: &'static dyn Format,
+    ) -> Self {
+        Evaluator {
+            function,
+            role,
+            constants,
+            format,
+            scale: None,
+        }
+    }
+    /// The same evaluator computing g·value (for gradient kernels); g must be finite.
+    pub fn with_scale(&self, g: Option<Rational>) -> Evaluator<'a> {
+        Evaluator {
+            function: self.function,
+            role: self.role,
+            constants: self.constants.clone(),
+            format: self.format,
+            scale: g,
+        }
+    }
+    /// The target format.
+    pub fn format(&self) -> &'static dyn Format {
+        self.format
+    }
+    /// The function.
+    pub fn function(&self) -> &'a dyn Activation {
+        self.function
+    }
+    /// The role.
+    pub fn role(&self) -> Role {
+        self.role
+    }
+    /// The resolved constants.
+    pub fn constants(&self) -> &Constants {
+        &self.constants
+    }
+
+    /// The correctly rounded reference at the input pattern `x_bits`.
+    pub fn reference(&self, x_bits: u32) -> Result<Reference, ReferenceError> {
+        let format = self.format;
+        let negative_input = format.is_sign_negative(x_bits);
+        match format.classify(x_bits) {
+            Class::Nan => {
+                return Ok(Reference {
+                    bits: format.quiet_nan(),
+                    exact: None,
+                    precision: 0,
+                })
+            }
+            Class::Infinite => return Ok(self.at_infinity(!negative_input)),
+            _ => {}
+        }
+        let x = Float::with_val(64, format.to_f64(x_bits));
+        let x = if x.is_zero() && negative_input { -x } else { x };
+        let mut prec = START_PRECISION;
+        loop {
+            let ctx = Ctx {
+                prec,
+                constants: &self.constants,
+            };
+            let value = self.function.eval(&x, self.role, &ctx);
+            let value = self.scaled(value, prec);
+            match value {
+                Value::Exact(q) => return Ok(self.exact(&q, negative_input)),
+                Value::Enclosed(iv) if iv.is_point() => {
+                    let q = iv.lo.to_rational().ok_or_else(|| {
+                        ReferenceError(format!(
+                            "{} produced a non-finite point",
+                            self.function.name()
+                        ))
+                    })?;
+                    return Ok(self.exact(&q, negative_input));
+                }
+                Value::Enclosed(iv) => {
+                    if let Some(r) = self.decided(&iv, prec) {
+                        return Ok(r);
+                    }
+                }
+            }
+            prec *= 2;
+            if prec > MAX_PRECISION {
+                return Err(ReferenceError(format!(
+                    "{} {:?} at {}: rounding undecided at {MAX_PRECISION} bits",
+                    self.function.name(),
+                    self.role,
+                    crate::format::hex(format, x_bits)
+                )));
+            }
+        }
+    }
+
+    fn scaled(&self, value: Value, prec: u32) -> Value {
+        match (&self.scale, value) {
+            (None, v) => v,
+            (Some(g), Value::Exact(q)) => Value::Exact(q * g),
+            (Some(g), Value::Enclosed(iv)) => Value::Enclosed(iv.mul_rational(g, prec)),
+        }
+    }
+
+    /// Rounds an exact rational; an exact zero is +0 except f(−0) = −0 for forward functions
+    /// that keep the sign of zero.
+    fn exact(&self, q: &Rational, negative_input: bool) -> Reference {
+        let keeps = self.role == Role::Forward
+            && self.scale.is_none()
+            && self.function.facts().keeps_negative_zero;
+        let negative_zero = keeps && negative_input && q.is_zero();
+        let bits = round_rational(q, negative_zero, self.format);
+        let binade = if q.is_zero() {
+            self.format.emin()
+        } else {
+            floor_log2_rational(q).max(self.format.emin())
+        };
+        Reference {
+            bits,
+            exact: Some(ExactValue {
+                approx: q.to_f64(),
+                binade,
+            }),
+            precision: 0,
+        }
+    }
+
+    /// Both ends round to the same pattern and lie in the same (clamped) binade.
+    fn decided(&self, iv: &Ival, prec: u32) -> Option<Reference> {
+        if iv.lo.is_nan() || iv.hi.is_nan() {
+            return None;
+        }
+        let lo = round_float(&iv.lo, self.format);
+        let hi = round_float(&iv.hi, self.format);
+        if lo != hi {
+            return None;
+        }
+        let binade = |v: &Float| {
+            if v.is_zero() || v.is_infinite() {
+                None
+            } else {
+                Some(floor_log2(v).max(self.format.emin()))
+            }
+        };
+        let emin = self.format.emin();
+        let (b_lo, b_hi) = (binade(&iv.lo), binade(&iv.hi));
+        let binade = match (b_lo, b_hi) {
+            (Some(a), Some(b)) if a == b => a,
+            // A zero end: the other end must already sit in the clamped bottom binade.
+            (None, Some(b)) | (Some(b), None)
+                if b == emin && !iv.lo.is_infinite() && !iv.hi.is_infinite() =>
+            {
+                emin
+            }
+            // Both ends beyond the overflow threshold: the binade no longer matters.
+            _ if self.format.classify(lo) == Class::Infinite => self.format.emax() + 1,
+            _ => return None,
+        };
+        Some(Reference {
+            bits: lo,
+            exact: Some(ExactValue {
+                approx: iv.approx_f64(),
+                binade,
+            }),
+            precision: prec,
+        })
+    }
+
+    fn at_infinity(&self, positive: bool) -> Reference {
+        let limit = self.function.limit(self.role, positive, &self.constants);
+        let value = match (limit, &self.scale) {
+            (Limit::Finite(q), g) => Limit::Finite(match g {
+                Some(g) => q * g,
+                None => q,
+            }),
+            (Limit::Zero { negative }, Some(g)) if g.cmp0().is_lt() => Limit::Zero {
+                negative: !negative,
+            },
+            (Limit::Infinite { negative }, Some(g)) if g.cmp0().is_lt() => Limit::Infinite {
+                negative: !negative,
+            },
+            (Limit::Zero { .. } | Limit::Infinite { .. }, Some(g)) if g.is_zero() => {
+                Limit::Finite(Rational::new())
+            }
+            (l, _) => l,
+        };
+        match value {
+            Limit::Finite(q) => self.exact(&q, false),
+            Limit::Zero { negative } => Reference {
+                bits: self.format.encode(negative, 0, 0),
+                exact: Some(ExactValue {
+                    approx: 0.0,
+                    binade: self.format.emin(),
+                }),
+                precision: 0,
+            },
+            Limit::Infinite { negative } => Reference {
+                bits: self.format.infinity(negative),
+                exact: None,
+                precision: 0,
+            },
+        }
+    }
+}
+
+/// Rounds a constant (rational or irrational) into a format, by the same Ziv loop.
+pub fn round_constant(value: &Real, format: &dyn Format) -> u32 {
+    let mut prec = START_PRECISION;
+    loop {
+        let iv = value.enclose(prec);
+        let (lo, hi) = (round_float(&iv.lo, format), round_float(&iv.hi, format));
+        if lo == hi {
+            return lo;
+        }
+        prec *= 2;
+        assert!(prec <= MAX_PRECISION, "constant undecided");
+    }
+}

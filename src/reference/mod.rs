@@ -1,0 +1,12 @@
+//! Correctly rounded references: exact values of the catalog functions, rounded once into a
+//! target format.
+
+mod constant;
+mod engine;
+mod interval;
+mod round;
+
+pub use constant::{parse_decimal, ParamRounding, Real};
+pub use engine::{round_constant, Evaluator, Reference, ReferenceError, MAX_PRECISION};
+pub use interval::Ival;
+pub use round::{floor_log2, floor_log2_rational, round_float, round_rational};

@@ -1,0 +1,9 @@
+#!/usr/bin/env bash
+# The test command: installs what the build and the independent checks need, then runs every
+# test (Rust unit and integration tests, the mpmath cross-check, the golden tables).
+set -euo pipefail
+cd "$(dirname "$0")/.."
+source tests/setup.sh
+cargo build --release --locked
+python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge
+cargo test --release --locked
