@@ -63,6 +63,9 @@ impl Activation for Celu {
         match role {
             Role::Forward if tail => above(&-alpha.clone()),
             Role::Derivative if tail => tiny(false),
+            Role::Forward if scaled <= -1 => {
+                common::near(-alpha.clone(), z.exp(prec).mul_rational(alpha, prec))
+            }
             Role::Forward => Value::Enclosed(z.exp_m1(prec).mul_rational(alpha, prec)),
             Role::Derivative => Value::Enclosed(z.exp(prec)),
         }

@@ -4,21 +4,16 @@
 //! there equals its asymptote a up to a relative 2^−1000 or less, on a known side.  Rounding
 //! boundaries of every supported format are at least 2^−150 apart absolutely and 2^−25
 //! relatively, so none lies strictly between a and a ± |a|·2^−1000 except possibly a itself:
-//! every point of the open interval (a, a + |a|·2^−1000] rounds the same way.  [`above`] and
-//! [`below`] return a sub-interval of it, which therefore decides the rounding of the true value
-//! and keeps MPFR's exponent range out of reach (e^−(3.4e38) would underflow it).
+//! every point of the open interval (a, a + |a|·2^−1000] rounds the same way and lies in the
+//! same binade.  [`above`] and [`below`] return a [`Value::Near`] whose offset carries only that
+//! sign, which keeps MPFR's exponent range out of reach (e^−(3.4e38) would underflow it).
 
 use super::{Limit, Value};
 use crate::reference::Ival;
-use rug::float::Round;
 use rug::{Float, Rational};
-use std::cmp::Ordering;
 
 /// Inputs with |x| ≥ 2^TAIL_LOG2 use the asymptotic tails.
 pub const TAIL_LOG2: i32 = 12;
-
-/// Precision of tail intervals: enough for a + |a|·2^−2000 with a of up to 128 bits.
-const TAIL_PRECISION: u32 = 2200;
 
 /// Whether |x| ≥ 2^12.
 pub fn in_tail(x: &Float) -> bool {
@@ -35,32 +30,37 @@ pub fn point(x: &Float) -> Ival {
     Ival::point(x)
 }
 
-fn offset(a: &Rational, exponent: i32, sign: Ordering) -> Rational {
-    let step = Rational::from(a.abs_ref()) >> exponent;
-    match sign {
-        Ordering::Greater => Rational::from(a + &step),
-        _ => Rational::from(a - &step),
+/// A sign-only offset of magnitude far below 2^−1000·|a|: the engine decides by its sign.
+fn sign_only(a: &Rational, positive: bool) -> Ival {
+    let e = crate::reference::floor_log2_rational(a);
+    let small = Float::with_val(64, Float::i_exp(1, e - 2000));
+    let large = Float::with_val(64, Float::i_exp(1, e - 1000));
+    if positive {
+        Ival::new(small, large)
+    } else {
+        Ival::new(-large, -small)
     }
 }
 
-/// A value just above a nonzero rational a: (a, a + |a|·2^−1000].
+/// A value just above a nonzero rational a: a + δ with 0 < δ < |a|·2^−1000.
 pub fn above(a: &Rational) -> Value {
-    let lo = offset(a, 2000, Ordering::Greater);
-    let hi = offset(a, 1000, Ordering::Greater);
-    Value::Enclosed(Ival::new(
-        Float::with_val_round(TAIL_PRECISION, &lo, Round::Down).0,
-        Float::with_val_round(TAIL_PRECISION, &hi, Round::Up).0,
-    ))
+    Value::Near {
+        base: a.clone(),
+        delta: sign_only(a, true),
+    }
 }
 
-/// A value just below a nonzero rational a: [a − |a|·2^−1000, a).
+/// A value just below a nonzero rational a: a − δ with 0 < δ < |a|·2^−1000.
 pub fn below(a: &Rational) -> Value {
-    let lo = offset(a, 1000, Ordering::Less);
-    let hi = offset(a, 2000, Ordering::Less);
-    Value::Enclosed(Ival::new(
-        Float::with_val_round(TAIL_PRECISION, &lo, Round::Down).0,
-        Float::with_val_round(TAIL_PRECISION, &hi, Round::Up).0,
-    ))
+    Value::Near {
+        base: a.clone(),
+        delta: sign_only(a, false),
+    }
+}
+
+/// base + delta (see [`Value::Near`]).
+pub fn near(base: Rational, delta: Ival) -> Value {
+    Value::Near { base, delta }
 }
 
 /// A nonzero value of magnitude below 2^−1000 and of the given sign.
@@ -78,6 +78,16 @@ pub fn tiny(negative: bool) -> Value {
 pub fn sigmoid(z: &Ival, prec: u32) -> Ival {
     let t = z.neg().exp(prec);
     Ival::int(1).div(&Ival::int(1).add(&t, prec), prec)
+}
+
+/// σ(x) for a point x, as 1 − σ(−x) near its upper asymptote (x ≥ 1).
+pub fn sigmoid_value(x: &Float, prec: u32) -> Value {
+    if *x >= 1 {
+        let minus = Ival::point(&Float::with_val(x.prec(), -x));
+        near(one(), sigmoid(&minus, prec).neg())
+    } else {
+        Value::Enclosed(sigmoid(&point(x), prec))
+    }
 }
 
 /// softplus(z) = max(z, 0) + ln(1 + e^−|z|) for a point z.

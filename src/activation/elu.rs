@@ -77,6 +77,11 @@ pub fn exponential_linear(
         Role::Derivative if x.is_zero() || *x > 0 => Value::Exact(scale.clone()),
         Role::Forward if common::in_tail(x) => above(&-left_factor),
         Role::Derivative if common::in_tail(x) => tiny(false),
+        // −sα + sα·e^x, kept apart from the asymptote −sα for x ≤ −1.
+        Role::Forward if *x <= -1 => {
+            let delta = common::point(x).exp(prec).mul_rational(&left_factor, prec);
+            common::near(-left_factor, delta)
+        }
         Role::Forward => Value::Enclosed(
             common::point(x)
                 .exp_m1(prec)

@@ -62,6 +62,18 @@ impl Activation for Gelu {
             };
         }
         let (cdf, x_density) = phi_parts(x, prec);
+        if *x >= 1 {
+            // x·Φ(x) = x − x·Q(x) and Φ + xφ = 1 + (xφ − Q), with Q(x) = erfc(x/√2)/2
+            // computed directly (no cancellation).
+            let sqrt2 = Ival::int(2).sqrt(prec);
+            let q = common::point(x).div(&sqrt2, prec).erfc(prec).scale2(-1);
+            return match role {
+                Role::Forward => {
+                    common::near(common::rational(x), q.mul(&common::point(x), prec).neg())
+                }
+                Role::Derivative => common::near(one(), x_density.sub(&q, prec)),
+            };
+        }
         match role {
             Role::Forward => Value::Enclosed(cdf.mul(&common::point(x), prec)),
             Role::Derivative => Value::Enclosed(cdf.add(&x_density, prec)),

@@ -67,6 +67,25 @@ impl Activation for GeluTanh {
         let two_u = Ival::rational(&inner, prec + 8).mul(&c, prec).scale2(1);
         let s = common::sigmoid(&two_u, prec);
         let xi = common::point(x);
+        if *x >= 1 {
+            // x·σ(2u) = x − x·σ(−2u); f′ = 1 + σ(−2u)·(2x·u′·σ(2u) − 1).
+            let s_neg = common::sigmoid(&two_u.neg(), prec);
+            return match role {
+                Role::Forward => common::near(q, s_neg.mul(&xi, prec).neg()),
+                Role::Derivative => {
+                    let slope_poly =
+                        Rational::from(q.square_ref()) * Rational::from(k * 3u32) + 1u32;
+                    let two_u_prime = Ival::rational(&slope_poly, prec + 8)
+                        .mul(&c, prec)
+                        .scale2(1);
+                    let inner = xi
+                        .mul(&two_u_prime, prec)
+                        .mul(&s, prec)
+                        .sub(&Ival::int(1), prec);
+                    common::near(one(), s_neg.mul(&inner, prec))
+                }
+            };
+        }
         match role {
             Role::Forward => Value::Enclosed(s.mul(&xi, prec)),
             Role::Derivative => {

@@ -3,7 +3,7 @@
 use super::common::{self, one};
 use super::{Activation, Constants, Ctx, Facts, Kink, Limit, Role, Value};
 use super::{Domain, ParamSpec};
-use rug::{Float, Rational};
+use rug::Float;
 
 /// Leaky ReLU with slope alpha on the left.
 pub struct LeakyRelu;

@@ -1,8 +1,7 @@
 //! Log-sigmoid: ln σ(x) = −softplus(−x).
 
-use super::common::{self, above, below, one, tiny};
+use super::common::{self, below, one, tiny};
 use super::{Activation, Constants, Ctx, Facts, Limit, Role, Value};
-use crate::reference::Ival;
 use rug::Float;
 
 /// log σ(x).
@@ -55,7 +54,7 @@ impl Activation for LogSigmoid {
                     below(&one())
                 }
             }
-            Role::Derivative => Value::Enclosed(common::sigmoid(&common::point(&minus_x), prec)),
+            Role::Derivative => common::sigmoid_value(&minus_x, prec),
         }
     }
 }

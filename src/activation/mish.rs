@@ -46,8 +46,29 @@ impl Activation for Mish {
             };
         }
         let sp = common::softplus_point(x, prec);
-        let t = sp.tanh(prec);
         let xi = common::point(x);
+        if *x >= 1 {
+            // 1 − tanh(sp) = 2σ(−2sp) and sech²(sp) = 4σ(2sp)σ(−2sp), so
+            // f = x − 2x·σ(−2sp) and f′ = 1 + σ(−2sp)·(4x·σ(2sp)·σ(x) − 2).
+            let two_sp = sp.scale2(1);
+            let s_neg = common::sigmoid(&two_sp.neg(), prec);
+            return match role {
+                Role::Forward => {
+                    common::near(common::rational(x), s_neg.mul(&xi, prec).scale2(1).neg())
+                }
+                Role::Derivative => {
+                    let s_pos = common::sigmoid(&two_sp, prec);
+                    let sx = common::sigmoid(&xi, prec);
+                    let inner = xi
+                        .mul(&s_pos, prec)
+                        .mul(&sx, prec)
+                        .scale2(2)
+                        .sub(&Ival::int(2), prec);
+                    common::near(one(), s_neg.mul(&inner, prec))
+                }
+            };
+        }
+        let t = sp.tanh(prec);
         match role {
             Role::Forward => Value::Enclosed(t.mul(&xi, prec)),
             Role::Derivative => {

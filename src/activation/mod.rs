@@ -50,6 +50,16 @@ pub enum Value {
     Exact(Rational),
     /// An interval that contains the (irrational or hard to write) exact value.
     Enclosed(Ival),
+    /// base + delta, with delta's interval excluding 0 (once the precision suffices): how a
+    /// function states that it sits just above or below an asymptote such as 1 or x.  When
+    /// |delta| is far below half an ulp of base, the sign of delta alone decides the rounding
+    /// and the binade, however many bits |delta| would need.
+    Near {
+        /// The exact value approached.
+        base: Rational,
+        /// The (small) signed distance to it.
+        delta: Ival,
+    },
 }
 
 /// A limit of f or f′ as x → ±∞.

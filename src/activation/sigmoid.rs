@@ -1,6 +1,6 @@
 //! Logistic sigmoid: 1/(1 + e^−x).
 
-use super::common::{self, above, below, one, tiny};
+use super::common::{self, below, one, tiny};
 use super::{Activation, Constants, Ctx, Facts, Limit, Role, Value};
 use crate::reference::Ival;
 use rug::Float;
@@ -43,7 +43,7 @@ impl Activation for Sigmoid {
                     tiny(false)
                 }
             }
-            Role::Forward => Value::Enclosed(common::sigmoid(&common::point(x), prec)),
+            Role::Forward => common::sigmoid_value(x, prec),
             Role::Derivative if common::in_tail(x) => tiny(false),
             Role::Derivative => Value::Enclosed(logistic_density(x, prec)),
         }

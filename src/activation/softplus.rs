@@ -2,7 +2,6 @@
 
 use super::common::{self, above, below, one, tiny};
 use super::{Activation, Constants, Ctx, Facts, Limit, Role, Value};
-use crate::reference::Ival;
 use rug::Float;
 
 /// Softplus.
@@ -53,7 +52,7 @@ impl Activation for Softplus {
                     tiny(false)
                 }
             }
-            Role::Derivative => Value::Enclosed(common::sigmoid(&common::point(x), prec)),
+            Role::Derivative => common::sigmoid_value(x, prec),
         }
     }
 }

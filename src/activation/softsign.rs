@@ -1,7 +1,7 @@
 //! Softsign: x/(1 + |x|).
 
 use super::common::{self, one};
-use super::{Activation, Constants, Ctx, Facts, Kink, Limit, Role, Value};
+use super::{Activation, Constants, Ctx, Facts, Limit, Role, Value};
 use rug::{Float, Rational};
 
 /// Softsign.

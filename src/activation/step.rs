@@ -1,7 +1,7 @@
 //! Heaviside step: 1 for x ≥ 0 (so step(−0) = 1), 0 for x < 0.
 
 use super::common::{self, one};
-use super::{Activation, Constants, Ctx, Facts, Kink, Limit, Role, Value};
+use super::{Activation, Constants, Ctx, Facts, Limit, Role, Value};
 use rug::{Float, Rational};
 
 /// The unit step.

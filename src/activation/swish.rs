@@ -81,6 +81,17 @@ impl Activation for Swish {
         }
         let zi = Ival::rational(&z, prec.max(64));
         let s = common::sigmoid(&zi, prec);
+        if z >= 1 {
+            // x·σ(z) = x − x·σ(−z); f′ = 1 + σ(−z)·(z·σ(z) − 1).
+            let s_neg = common::sigmoid(&zi.neg(), prec);
+            return match role {
+                Role::Forward => common::near(q, s_neg.mul(&common::point(x), prec).neg()),
+                Role::Derivative => {
+                    let inner = zi.mul(&s, prec).sub(&Ival::int(1), prec);
+                    common::near(one(), s_neg.mul(&inner, prec))
+                }
+            };
+        }
         match role {
             Role::Forward => Value::Enclosed(s.mul(&common::point(x), prec)),
             Role::Derivative => {

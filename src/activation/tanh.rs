@@ -44,6 +44,16 @@ impl Activation for Tanh {
                     above(&-one())
                 }
             }
+            // 1 − tanh|x| = 2σ(−2|x|), kept apart from 1 for |x| ≥ 1.
+            Role::Forward if x.clone().abs() >= 1 => {
+                let twice_abs = Ival::point(&Float::with_val(x.prec(), x.abs_ref())).scale2(1);
+                let gap = common::sigmoid(&twice_abs.neg(), prec).scale2(1);
+                if *x > 0 {
+                    common::near(one(), gap.neg())
+                } else {
+                    common::near(-one(), gap)
+                }
+            }
             Role::Forward => Value::Enclosed(common::point(x).tanh(prec)),
             Role::Derivative if common::in_tail(x) => tiny(false),
             Role::Derivative => {

@@ -83,6 +83,9 @@ fn exact_digits(evaluator: &Evaluator, format: &dyn Format, bits: u32) -> Option
     let v = match evaluator.function().eval(&x, evaluator.role(), &ctx) {
         Value::Exact(q) => Float::with_val(320, &q),
         Value::Enclosed(iv) => Float::with_val(321, &iv.lo + &iv.hi) / 2u32,
+        Value::Near { base, delta } => {
+            Float::with_val(640, &base) + (Float::with_val(321, &delta.lo + &delta.hi) / 2u32)
+        }
     };
     Some(v.to_string_radix(10, Some(40)))
 }

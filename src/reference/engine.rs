@@ -131,6 +131,14 @@ impl<'a> Evaluator<'a> {
                         return Ok(r);
                     }
                 }
+                Value::Near { base, delta } => {
+                    if delta.is_point() && delta.lo.is_zero() {
+                        return Ok(self.exact(&base, negative_input));
+                    }
+                    if let Some(r) = self.near(&base, &delta, prec) {
+                        return Ok(r);
+                    }
+                }
             }
             prec *= 2;
             if prec > MAX_PRECISION {
@@ -149,6 +157,10 @@ impl<'a> Evaluator<'a> {
             (None, v) => v,
             (Some(g), Value::Exact(q)) => Value::Exact(q * g),
             (Some(g), Value::Enclosed(iv)) => Value::Enclosed(iv.mul_rational(g, prec)),
+            (Some(g), Value::Near { base, delta }) => Value::Near {
+                base: base * g,
+                delta: delta.mul_rational(g, prec),
+            },
         }
     }
 
@@ -214,6 +226,39 @@ impl<'a> Evaluator<'a> {
             }),
             precision: prec,
         })
+    }
+
+    /// base + delta: decided by delta's sign alone when |delta| < 2^(b − p − 3), b the clamped
+    /// binade of base, because no rounding boundary and no power of two then lies strictly
+    /// between base and base + delta (the nearest ones are ≥ 2^(b − p − 1) away); otherwise
+    /// an ordinary enclosure of the sum.
+    fn near(&self, base: &Rational, delta: &Ival, prec: u32) -> Option<Reference> {
+        if base.is_zero() {
+            return self.decided(delta, prec);
+        }
+        let emin = self.format.emin();
+        let p = self.format.precision() as i32;
+        let limit_exp = floor_log2_rational(base).max(emin) - p - 3;
+        let limit = Float::with_val(64, Float::i_exp(1, limit_exp));
+        let signed = delta.is_positive() || delta.is_negative();
+        if signed && delta.lo.clone().abs() < limit && delta.hi.clone().abs() < limit {
+            // Any point strictly between base and base + delta rounds like the true value.
+            let nudge = Rational::from(1) << (limit_exp - 60);
+            let probe = if delta.is_positive() {
+                Rational::from(base + &nudge)
+            } else {
+                Rational::from(base - &nudge)
+            };
+            let bits = round_rational(&probe, false, self.format);
+            let binade = floor_log2_rational(&probe).max(emin);
+            let approx = base.to_f64() + delta.approx_f64();
+            return Some(Reference {
+                bits,
+                exact: Some(ExactValue { approx, binade }),
+                precision: prec,
+            });
+        }
+        self.decided(&Ival::rational(base, prec).add(delta, prec), prec)
     }
 
     fn at_infinity(&self, positive: bool) -> Reference {
