@@ -74,7 +74,7 @@ impl Layout {
         let field = (bits & self.exp_mask()) >> self.mant_bits;
         let mant = (bits & self.mant_mask()) as f64;
         let magnitude = match self.classify(bits) {
-            Class::Nan => return f64::NAN,
+            Class::Nan => f64::NAN,
             Class::Infinite => f64::INFINITY,
             Class::Zero => 0.0,
             Class::Subnormal => mant * pow2(self.emin() - self.mant_bits as i32),

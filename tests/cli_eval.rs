@@ -1,0 +1,181 @@
+//! `ulpgauge eval`, `functions` and `batch` as a user's script sees them.
+
+use std::process::Command;
+
+fn ulpgauge(args: &[&str]) -> (i32, String, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+        .args(args)
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn eval_json(args: &[&str]) -> serde_json::Value {
+    let mut all = vec!["eval"];
+    all.extend_from_slice(args);
+    all.push("--json");
+    let (code, out, err) = ulpgauge(&all);
+    assert_eq!(code, 0, "{err}");
+    serde_json::from_str(&out).unwrap()
+}
+
+#[test]
+fn eval_json_contract() {
+    // σ(1) in binary32 is 0x3f3b26a8 (0.7310585975646973; numpy.float32(1/(1+exp(-1))) agrees).
+    let v = eval_json(&["sigmoid", "1", "--format", "f32"]);
+    assert_eq!(v["rounded"]["bits"], "0x3f3b26a8");
+    assert!((v["rounded"]["value"].as_f64().unwrap() - 0.7310585975646973).abs() < 1e-16);
+    assert_eq!(v["input"]["bits"], "0x3f800000");
+    // Bit-pattern input, leading zeros optional, either case.
+    let v = eval_json(&["tanh", "0x3C00", "--format", "f16"]);
+    assert_eq!(v["input"]["value"], 1.0);
+    let v = eval_json(&["relu", "0x1", "--format", "f32"]);
+    assert_eq!(v["rounded"]["bits"], "0x00000001");
+    // Derivative at a kink: both one-sided values, the right one returned.
+    let v = eval_json(&["relu6", "6", "--format", "bf16", "--derivative"]);
+    assert_eq!(v["rounded"]["value"], 0.0);
+    assert_eq!(v["kink"]["left"], 1.0);
+}
+
+#[test]
+fn eval_states_the_rounded_input() {
+    // 0.1 is not a binary16 value: RN(0.1) = 0x2e66 (numpy.float16(0.1) gives the same bits).
+    let v = eval_json(&["relu", "0.1", "--format", "f16"]);
+    assert_eq!(v["input"]["bits"], "0x2e66");
+    assert_eq!(v["input_rounded_from"], "0.1");
+    let v = eval_json(&["relu", "0.5", "--format", "f16"]);
+    assert!(v["input_rounded_from"].is_null());
+}
+
+#[test]
+fn eval_parameters_and_rounding() {
+    let exact = eval_json(&[
+        "leaky-relu",
+        "-1",
+        "--format",
+        "f32",
+        "--param",
+        "alpha=0.01",
+    ]);
+    let f16 = eval_json(&[
+        "leaky-relu",
+        "-1",
+        "--format",
+        "f32",
+        "--param",
+        "alpha=0.01",
+        "--param-rounding",
+        "format",
+    ]);
+    // With --param-rounding format the parameter is RN_f32(0.01) itself.
+    assert_eq!(f16["rounded"]["value"].as_f64().unwrap(), -(0.01f32 as f64));
+    assert_eq!(
+        exact["rounded"]["value"].as_f64().unwrap(),
+        -(0.01f32 as f64)
+    );
+    let bf = eval_json(&[
+        "leaky-relu",
+        "-1",
+        "--format",
+        "bf16",
+        "--param",
+        "alpha=0.01",
+        "--param-rounding",
+        "f32",
+    ]);
+    // RN_bf16(RN_f32(0.01)) here equals RN_bf16(0.01) = 0xbc24 (ml_dtypes.bfloat16(-0.01) agrees).
+    assert_eq!(bf["rounded"]["bits"], "0xbc24");
+}
+
+#[test]
+fn bad_input_is_one_line_and_exit_2() {
+    let cases: &[&[&str]] = &[
+        &["eval", "sigmod", "1", "--format", "f32"],
+        &["eval", "sigmoid", "1", "--format", "f64"],
+        &["eval", "sigmoid", "1.2.3", "--format", "f32"],
+        &["eval", "sigmoid", "0x10000", "--format", "f16"],
+        &["eval", "sigmoid", "0xzz", "--format", "f16"],
+        &[
+            "eval",
+            "elu",
+            "1",
+            "--format",
+            "f32",
+            "--param",
+            "alpha=nan",
+        ],
+        &["eval", "elu", "1", "--format", "f32", "--param", "beta=2"],
+        &["eval", "elu", "1", "--format", "f32", "--param", "alpha"],
+        &["eval", "relu", "1", "--format", "f32", "--param", "alpha=1"],
+    ];
+    for args in cases {
+        let (code, out, err) = ulpgauge(args);
+        assert_eq!(code, 2, "{args:?}: {err}");
+        assert!(out.is_empty(), "{args:?}");
+        assert!(!err.contains("panicked"), "{args:?}: {err}");
+        assert_eq!(err.trim_end().lines().count(), 1, "{args:?}: {err}");
+        assert!(err.starts_with("ulpgauge: "), "{args:?}: {err}");
+    }
+}
+
+#[test]
+fn functions_lists_the_catalog() {
+    let (code, out, _) = ulpgauge(&["functions", "--json"]);
+    assert_eq!(code, 0);
+    let list: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let names: Vec<&str> = list
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|e| e["name"].as_str().unwrap())
+        .collect();
+    for name in [
+        "step",
+        "sigmoid",
+        "tanh",
+        "relu",
+        "leaky-relu",
+        "elu",
+        "swish",
+        "silu",
+        "gelu",
+        "gelu-tanh",
+        "softplus",
+        "mish",
+        "selu",
+        "hard-sigmoid",
+        "hard-swish",
+        "relu6",
+        "celu",
+        "log-sigmoid",
+        "softsign",
+    ] {
+        assert!(names.contains(&name), "{name}");
+    }
+}
+
+#[test]
+fn batch_reads_patterns_from_stdin() {
+    use std::io::Write;
+    let mut child = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+        .args(["batch", "relu", "--format", "f16"])
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(b"0x3c00 0xbc00\n0x7e00")
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    assert_eq!(
+        String::from_utf8_lossy(&out.stdout),
+        "0x3c00 0x3c00\n0xbc00 0x0000\n0x7e00 0x7e00\n"
+    );
+}
