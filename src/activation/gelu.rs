@@ -8,11 +8,20 @@ use rug::Float;
 /// GELU (erf form).
 pub struct Gelu;
 
-/// Φ(x) = erfc(−x/√2)/2 and x·φ(x) = x·e^(−x²/2)/√(2π), for a point x.
-fn phi_parts(x: &Float, prec: u32) -> (Ival, Ival) {
-    let xi = common::point(x);
+/// erfc(s·x/√2)/2 for a point x and a sign s: Φ(x) with s = −1, Q(x) = 1 − Φ(x) with s = +1.
+fn half_erfc(x: &Float, negate: bool, prec: u32) -> Ival {
+    let xi = if negate {
+        common::point(x).neg()
+    } else {
+        common::point(x)
+    };
     let sqrt2 = Ival::int(2).sqrt(prec);
-    let cdf = xi.neg().div(&sqrt2, prec).erfc(prec).scale2(-1);
+    xi.div(&sqrt2, prec).erfc(prec).scale2(-1)
+}
+
+/// x·φ(x) = x·e^(−x²/2)/√(2π), for a point x.
+fn x_density(x: &Float, prec: u32) -> Ival {
+    let xi = common::point(x);
     let sqrt_2pi = Ival::pi(prec).scale2(1).sqrt(prec);
     let density = xi
         .square(prec)
@@ -20,7 +29,7 @@ fn phi_parts(x: &Float, prec: u32) -> (Ival, Ival) {
         .neg()
         .exp(prec)
         .div(&sqrt_2pi, prec);
-    (cdf, density.mul(&xi, prec))
+    density.mul(&xi, prec)
 }
 
 impl Activation for Gelu {
@@ -61,22 +70,20 @@ impl Activation for Gelu {
                 (_, false) => tiny(true),
             };
         }
-        let (cdf, x_density) = phi_parts(x, prec);
+        let xi = common::point(x);
         if *x >= 1 {
             // x·Φ(x) = x − x·Q(x) and Φ + xφ = 1 + (xφ − Q), with Q(x) = erfc(x/√2)/2
             // computed directly (no cancellation).
-            let sqrt2 = Ival::int(2).sqrt(prec);
-            let q = common::point(x).div(&sqrt2, prec).erfc(prec).scale2(-1);
+            let q = half_erfc(x, false, prec);
             return match role {
-                Role::Forward => {
-                    common::near(common::rational(x), q.mul(&common::point(x), prec).neg())
-                }
-                Role::Derivative => common::near(one(), x_density.sub(&q, prec)),
+                Role::Forward => common::near(common::rational(x), q.mul(&xi, prec).neg()),
+                Role::Derivative => common::near(one(), x_density(x, prec).sub(&q, prec)),
             };
         }
+        let cdf = half_erfc(x, true, prec);
         match role {
-            Role::Forward => Value::Enclosed(cdf.mul(&common::point(x), prec)),
-            Role::Derivative => Value::Enclosed(cdf.add(&x_density, prec)),
+            Role::Forward => Value::Enclosed(cdf.mul(&xi, prec)),
+            Role::Derivative => Value::Enclosed(cdf.add(&x_density(x, prec), prec)),
         }
     }
 }
