@@ -72,6 +72,7 @@ pub trait Format: Send + Sync + std::fmt::Debug + 'static {
     }
     /// Bit pattern of a value the format represents exactly, `None` otherwise (NaN maps to the
     /// canonical quiet NaN).
+    #[allow(clippy::wrong_self_convention)]
     fn from_f64_exact(&self, value: f64) -> Option<u32> {
         self.layout().from_f64_exact(value)
     }
@@ -102,6 +103,7 @@ pub trait Format: Send + Sync + std::fmt::Debug + 'static {
         self.layout().ordinal(bits)
     }
     /// The pattern at an ordinal (0 gives +0); the inverse of [`Format::ordinal`].
+    #[allow(clippy::wrong_self_convention)]
     fn from_ordinal(&self, ordinal: i64) -> u32 {
         self.layout().from_ordinal(ordinal)
     }

@@ -78,7 +78,10 @@ impl Ival {
     }
     /// [lo, hi] from two ends; the caller guarantees lo ≤ hi.
     pub fn new(lo: Float, hi: Float) -> Ival {
-        debug_assert!(!(lo > hi), "inverted interval [{lo}, {hi}]");
+        debug_assert!(
+            lo.partial_cmp(&hi) != Some(Ordering::Greater),
+            "inverted interval [{lo}, {hi}]"
+        );
         Ival { lo, hi }
     }
     /// Whether the interval is a single point (±0 count as one point).

@@ -12,7 +12,7 @@ present, are compared at the same points.
 Usage (from the repository root):
   python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge
       [--points N] [--extra-points N] [--seed S] [--only FUNC[,FUNC]] [--formats f32,f16]
-      [--workers 2] [--golden-dir tests/golden]
+      [--workers 2] [--golden-dir tests/golden] [--exhaustive-16] [--max-lines 50]
 Prints one line per mismatch and ends with `crosscheck: N passed, M failed`; exit status 1 on
 any mismatch (or any problem in the format self-checks), 0 otherwise.
 """
@@ -52,6 +52,7 @@ EXTRA_RUNS = [
     ("gelu-tanh", {}, "f32"),
     ("selu", {}, "f32"),
     ("selu", {}, "format"),
+    ("gelu-tanh", {}, "format"),
 ]
 
 
@@ -124,6 +125,19 @@ def golden_table(golden_dir, fmt, name, deriv):
     return struct.unpack("<65536H", raw), path
 
 
+def kinds_of(fmt, x_bits, y_bits, value, kinds):
+    """Counts the hard outcomes among the checked points (finite inputs only)."""
+    if fmt.decode(x_bits)[0] != "num":
+        return
+    y = fmt.decode(y_bits)
+    if y[0] == "inf":
+        kinds["overflow"] += 1
+    elif y[0] == "num" and y[1] == 0 and value not in ("0",):
+        kinds["underflow"] += 1  # a nonzero exact value rounded to a signed zero
+    elif y[0] == "num" and abs(y[1]) < Fraction(2) ** fmt.emin:
+        kinds["subnormal"] += 1
+
+
 def task(job):
     """One (function, format, role, params) combination; returns counts and failure lines."""
     name, fmt_name, deriv, params, rounding, n, opts = job
@@ -131,7 +145,10 @@ def task(job):
     role = "derivative" if deriv else "forward"
     started = time.time()
     rng = sampling.rng_for(opts["seed"], name, fmt_name, role, sorted(params.items()), rounding)
-    points = sampling.sample(fmt, n, rng)
+    if opts["exhaustive16"] and fmt.width == 16:
+        points = list(range(1 << 16))
+    else:
+        points = sampling.sample(fmt, n, rng)
     proc, cmd = run_ulpgauge(opts["ulpgauge"], name, fmt, deriv, params, rounding)
     # ulpgauge reads all of stdin before it starts, so this write does not deadlock.
     proc.stdin.write("\n".join(fmt.hex(b) for b in points) + "\n")
@@ -155,42 +172,44 @@ def task(job):
     if proc.returncode != 0:
         lines.append("FAIL %s: `%s` exited %d: %s" % (label, " ".join(cmd), proc.returncode,
                                                        err.strip()))
-        return label, 0, len(points), lines, (0, 0, None), time.time() - started
+        return label, 0, len(points), lines, (0, None, {}), time.time() - started
     theirs = {}
     for line in out.split("\n"):
         if line.strip():
             a, b = line.split()
             theirs.setdefault(int(a, 16), int(b, 16))
-    passed = failed = 0
-    for b, (bits_out, value) in zip(points, ours):
-        t = theirs.get(b)
-        if t is not None and bits_out is not None and t == bits_out:
-            passed += 1
-            continue
-        failed += 1
-        lines.append("FAIL %s in=%s ulpgauge=%s mine=%s exact=%s" % (
-            label, fmt.hex(b), "missing" if t is None else fmt.hex(t),
-            "undecided" if bits_out is None else fmt.hex(bits_out), value))
     # Golden tables: 16-bit formats, default parameters, exact constants only.
-    golden = (0, 0, None)
+    table, golden_note = None, None
     if fmt.width == 16 and not params and rounding == "exact":
         table, path = golden_table(opts["golden_dir"], fmt, name, deriv)
         if table is None:
-            golden = (0, 0, "missing " + path)
+            golden_note = "missing " + path
         elif table == "bad":
-            golden = (0, 1, "bad size " + path)
             lines.append("FAIL golden %s: not 131072 bytes" % path)
+            table, golden_note = None, "bad " + path
+    passed = failed = golden_checked = 0
+    kinds = {"subnormal": 0, "overflow": 0, "underflow": 0}
+    for b, (bits_out, value) in zip(points, ours):
+        if bits_out is not None:
+            kinds_of(fmt, b, bits_out, value, kinds)
+        t = theirs.get(b)
+        ok = t is not None and bits_out is not None and t == bits_out
+        if not ok:
+            lines.append("FAIL %s in=%s ulpgauge=%s mine=%s exact=%s" % (
+                label, fmt.hex(b), "missing" if t is None else fmt.hex(t),
+                "undecided" if bits_out is None else fmt.hex(bits_out), value))
+        if table is not None:
+            golden_checked += 1
+            if table[b] != bits_out:
+                ok = False
+                lines.append("FAIL golden %s in=%s table=%s mine=%s exact=%s" % (
+                    label, fmt.hex(b), fmt.hex(table[b]),
+                    "undecided" if bits_out is None else fmt.hex(bits_out), value))
+        if ok:
+            passed += 1
         else:
-            gp = gf = 0
-            for b, (bits_out, value) in zip(points, ours):
-                if bits_out is not None and table[b] == bits_out:
-                    gp += 1
-                else:
-                    gf += 1
-                    lines.append("FAIL golden %s in=%s table=%s mine=%s exact=%s" % (
-                        label, fmt.hex(b), fmt.hex(table[b]),
-                        "undecided" if bits_out is None else fmt.hex(bits_out), value))
-            golden = (gp, gf, None)
+            failed += 1
+    golden = (golden_checked, golden_note, kinds)
     return label, passed, failed, lines, golden, time.time() - started
 
 
@@ -200,7 +219,8 @@ def jobs(args):
         if nm not in functions.NAMES:
             sys.exit("crosscheck: unknown function %r" % nm)
     fmts = args.formats.split(",")
-    opts = {"seed": args.seed, "ulpgauge": args.ulpgauge, "golden_dir": args.golden_dir}
+    opts = {"seed": args.seed, "ulpgauge": args.ulpgauge, "golden_dir": args.golden_dir,
+            "exhaustive16": args.exhaustive_16}
     out = []
     for nm in names:
         for f in fmts:
@@ -223,12 +243,14 @@ def main():
     ap.add_argument("--ulpgauge", default="target/release/ulpgauge")
     ap.add_argument("--points", type=int, default=10000,
                     help="points per function x format x role (default 10000)")
-    ap.add_argument("--extra-points", type=int, default=2000,
+    ap.add_argument("--extra-points", type=int, default=3000,
                     help="points per non-default parameter run (0 to skip)")
     ap.add_argument("--seed", default="1")
     ap.add_argument("--only", default="", help="comma-separated function names")
     ap.add_argument("--formats", default="f32,f16,bf16")
     ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--exhaustive-16", action="store_true",
+                    help="check all 65,536 inputs of f16 and bf16 instead of a sample")
     ap.add_argument("--golden-dir", default="tests/golden")
     ap.add_argument("--max-lines", type=int, default=50,
                     help="failure lines printed per combination")
@@ -247,9 +269,9 @@ def main():
     print("format self-checks (IEEE 754-2019 limits, numpy float16/float32, ml_dtypes bfloat16): "
           + ("ok" if not problems else "%d problem(s)" % len(problems)))
 
-    passed = failed = 0
-    golden_pass = golden_fail = 0
+    passed = failed = golden_checked = 0
     golden_missing = []
+    kinds = {"subnormal": 0, "overflow": 0, "underflow": 0}
     todo = jobs(args)
     with multiprocessing.Pool(args.workers) as pool:
         for label, p, f, lines, golden, secs in pool.imap_unordered(task, todo):
@@ -259,20 +281,22 @@ def main():
                 print(line)
             if len(lines) > args.max_lines:
                 print("FAIL %s: ... %d more" % (label, len(lines) - args.max_lines))
-            golden_pass += golden[0]
-            golden_fail += golden[1]
-            if golden[2] and golden[2].startswith("missing"):
-                golden_missing.append(golden[2])
+            golden_checked += golden[0]
+            if golden[1]:
+                golden_missing.append(golden[1])
+            for k, v in golden[2].items():
+                kinds[k] += v
             if f:
                 print("%s: %d passed, %d failed (%.1f s)" % (label, p, f, secs), flush=True)
     if golden_missing:
-        print("golden tables: %d of the 16-bit tables are absent (e.g. %s); not compared"
-              % (len(golden_missing), golden_missing[0].split(" ", 1)[1]))
-    if golden_pass or golden_fail:
-        print("golden tables: %d points agree, %d differ" % (golden_pass, golden_fail))
+        print("golden tables: %d of the 16-bit tables absent or unreadable (e.g. %s); "
+              "not compared" % (len(golden_missing), golden_missing[0].split(" ", 1)[1]))
+    print("golden tables: compared at %d of the points" % golden_checked)
+    print("hard outcomes among the points: %d subnormal results, %d overflows to infinity, "
+          "%d nonzero values rounded to a signed zero" % (
+              kinds["subnormal"], kinds["overflow"], kinds["underflow"]))
     print("combinations: %d; time %.1f s" % (len(todo), time.time() - started))
-    passed += golden_pass
-    failed += golden_fail + len(problems)
+    failed += len(problems)
     print("crosscheck: %d passed, %d failed" % (passed, failed))
     return 1 if failed else 0
 
