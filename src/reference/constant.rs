@@ -93,3 +93,35 @@ pub fn parse_decimal(text: &str) -> Result<Rational, String> {
     }
     Ok(if negative { -value } else { value })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn decimals_are_exact_rationals() {
+        assert_eq!(parse_decimal("0.01").unwrap(), Rational::from((1, 100)));
+        assert_eq!(
+            parse_decimal("-1.5e-3").unwrap(),
+            Rational::from((-3, 2000))
+        );
+        assert_eq!(parse_decimal("7").unwrap(), Rational::from(7));
+        assert_eq!(parse_decimal("+.5").unwrap(), Rational::from((1, 2)));
+        assert_eq!(parse_decimal("2E3").unwrap(), Rational::from(2000));
+        for bad in [
+            "", ".", "nan", "inf", "1e", "1.2.3", "0x10", "1e99999", "--1", "1 ",
+        ] {
+            assert!(parse_decimal(bad).is_err(), "{bad:?}");
+        }
+    }
+
+    #[test]
+    fn rounding_constants_follows_the_target() {
+        // RN_f32(0.01) = 0x3c23d70a (Rust's correctly rounded parser gives the same bits).
+        let rounded =
+            ParamRounding::F32.apply(&Real::Exact(parse_decimal("0.01").unwrap()), &Binary32);
+        assert_eq!(rounded.exact().unwrap().to_f64(), 0.01f32 as f64);
+        let same = ParamRounding::Exact.apply(&Real::Exact(Rational::from((1, 100))), &Binary32);
+        assert_eq!(same.exact().unwrap(), &Rational::from((1, 100)));
+    }
+}

@@ -264,3 +264,35 @@ impl Ival {
         mid.to_f64()
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn operations_enclose_the_true_value() {
+        let x = Ival::rational(&Rational::from((1, 3)), 64);
+        assert!(x.lo < x.hi);
+        let y = x.mul(&Ival::int(3), 64);
+        assert!(y.lo <= 1 && y.hi >= 1);
+        let e = Ival::int(1).exp(64);
+        let reference = Float::with_val(256, 1).exp();
+        assert!(e.lo <= reference && e.hi >= reference);
+        let neg = Ival::int(-2).mul(&x, 64);
+        assert!(neg.hi < 0 && neg.lo < neg.hi);
+        let q = Ival::int(1).div(
+            &Ival::new(Float::with_val(8, -1), Float::with_val(8, 1)),
+            64,
+        );
+        assert!(q.lo.is_infinite() && q.hi.is_infinite());
+    }
+
+    #[test]
+    fn underflow_and_overflow_stay_bounds() {
+        let big = Ival::point(&Float::with_val(64, 1e30));
+        let e = big.neg().exp(64);
+        assert!(e.lo.is_zero() && e.hi > 0);
+        let e = big.exp(64);
+        assert!(e.lo.is_finite() && e.hi.is_infinite());
+    }
+}

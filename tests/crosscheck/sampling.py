@@ -39,6 +39,7 @@ def regions(fmt):
             (-6.0, -2.5, 0.06, "ord"),              # GELU's left tail turns subnormal in f16
             (-100.0, -20.0, 0.02, "ord"),
             (16384.0, max_v, 0.03, "ord"),          # overflow edge (selu's lambda*x, ...)
+            (0.9 * max_v, max_v, 0.02, "ord"),
             (-max_v, -16384.0, 0.02, "ord"),
             (-1100.0, -900.0, 0.01, "ord"),         # around our own |x| = 1024 tail switch
             (900.0, 1100.0, 0.01, "ord"),
@@ -52,6 +53,7 @@ def regions(fmt):
         (-16.0, -8.0, 0.05, "ord"),                 # GELU (x ~ -13..-14), gelu-tanh (~ -10) tails
         (-1.0e4, -16.0, 0.03, "ord"),               # GELU's far left tail
         (1.0e37, max_v, 0.03, "ord"),               # overflow edge
+        (0.9 * max_v, max_v, 0.02, "ord"),          # selu's lambda*x overflows above max/lambda
         (-max_v, -1.0e37, 0.02, "ord"),
         (-1100.0, -900.0, 0.01, "ord"),
         (900.0, 1100.0, 0.01, "ord"),
@@ -72,8 +74,11 @@ def specials(fmt):
 
 def landmarks(fmt):
     """Kinks and other landmarks whose neighbours are checked step by step."""
-    ln_max = math.log(float(fmt.decode(fmt.max_bits)[1]))
-    return [3.0, -3.0, 6.0, -6.0, 1.0, -1.0, 0.5, -0.5, 2.0, ln_max, -ln_max, 1024.0, -1024.0]
+    max_v = float(fmt.decode(fmt.max_bits)[1])
+    ln_max = math.log(max_v)
+    selu_edge = max_v / 1.0507009873554805  # lambda*x crosses the overflow threshold near here
+    return [3.0, -3.0, 6.0, -6.0, 1.0, -1.0, 0.5, -0.5, 2.0, ln_max, -ln_max, 1024.0, -1024.0,
+            selu_edge, -selu_edge]
 
 
 def sample(fmt, n, rng):
