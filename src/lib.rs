@@ -7,5 +7,6 @@
 pub mod activation;
 pub mod cli;
 pub mod format;
+pub mod kernel;
 pub mod reference;
 pub mod report;

@@ -7,6 +7,7 @@ mod batch;
 mod eval;
 mod functions;
 mod golden;
+mod worker;
 
 use clap::{Parser, Subcommand};
 
@@ -51,6 +52,9 @@ enum Command {
     Batch(batch::Args),
     /// Write or verify the golden tables of every 16-bit reference.
     Golden(golden::Args),
+    /// Runs a kernel for the main process (internal).
+    #[command(hide = true)]
+    Worker(worker::Args),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -71,6 +75,7 @@ pub fn run() -> i32 {
         Command::Functions(args) => functions::run(args),
         Command::Batch(args) => batch::run(args),
         Command::Golden(args) => golden::run(args),
+        Command::Worker(args) => worker::run(args),
     };
     match result {
         Ok(code) => code,

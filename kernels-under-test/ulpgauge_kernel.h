@@ -1,0 +1,48 @@
+/*
+ * ulpgauge_kernel.h — the C ABI ulpgauge calls.
+ *
+ * A kernel is an exported C function with one of these shapes.  T is `float` for f32 and
+ * `uint16_t` (the raw bit pattern) for f16 and bf16.  ulpgauge never passes overlapping buffers
+ * unless the manifest declares `in-place = true`, in which case it may also call with y == x.
+ *
+ *   forward:     void NAME(const T *x, T *y, size_t n);              y[i] = f(x[i])
+ *   derivative:  void NAME(const T *x, T *y, size_t n);              y[i] = f'(x[i])
+ *   gradient:    void NAME(const T *x, const T *g, T *dx, size_t n); dx[i] = g[i] * f'(x[i])
+ *   gradient from the forward output (sigmoid, tanh, elu):
+ *                void NAME(const T *y, const T *g, T *dx, size_t n); dx[i] = g[i] * h(y[i])
+ *                where h(f(x)) = f'(x).
+ *
+ * Parameters (alpha, beta) are either baked into the kernel or passed as trailing `float`
+ * arguments, in the catalog's order for the function (`ulpgauge functions` lists it):
+ *   void NAME(const T *x, T *y, size_t n, float alpha);
+ *
+ * What ulpgauge checks besides accuracy: the output of an element does not depend on n or on its
+ * position; any element-aligned buffer address works; nothing is written outside y[0..n); x is
+ * not written; the FP control state (MXCSR) is left as found, also at load time; repeated and
+ * concurrent calls give identical results (unless declared not thread-safe).
+ *
+ * Loading a library runs its code: test only kernels you trust.  ulpgauge runs kernels in a
+ * separate worker process so that a crash or hang does not take it down, but that worker is not
+ * a sandbox.
+ */
+#ifndef ULPGAUGE_KERNEL_H
+#define ULPGAUGE_KERNEL_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef void (*ulpgauge_f32_kernel)(const float *x, float *y, size_t n);
+typedef void (*ulpgauge_u16_kernel)(const uint16_t *x, uint16_t *y, size_t n);
+typedef void (*ulpgauge_f32_gradient)(const float *x, const float *g, float *dx, size_t n);
+typedef void (*ulpgauge_u16_gradient)(const uint16_t *x, const uint16_t *g, uint16_t *dx,
+                                      size_t n);
+
+#ifdef __cplusplus
+}
+#endif
+
+#endif

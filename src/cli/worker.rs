@@ -1,0 +1,49 @@
+//! `ulpgauge worker` (hidden): the process the kernel runs in.  Started by the runner with the
+//! library, symbol and calling convention; speaks the binary protocol on stdin/stdout.
+
+use super::Failure;
+use crate::kernel::abi::Abi;
+use crate::kernel::worker::{serve, WorkerConfig};
+use std::path::PathBuf;
+
+/// Arguments of `worker`, written by the runner.
+#[derive(clap::Args, Debug)]
+pub struct Args {
+    /// The shared library.
+    #[arg(long)]
+    library: PathBuf,
+    /// The kernel symbol.
+    #[arg(long)]
+    symbol: String,
+    /// Bytes per element (4 or 2).
+    #[arg(long)]
+    elem_bytes: usize,
+    /// The kernel takes (x, g, dx, n).
+    #[arg(long)]
+    gradient: bool,
+    /// A trailing float argument, as the hex of its bits (exact), repeatable.
+    #[arg(long)]
+    trailing: Vec<String>,
+}
+
+/// Serves the runner until it closes the pipe.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    if args.elem_bytes != 2 && args.elem_bytes != 4 {
+        return Err(Failure::bad_input("--elem-bytes must be 2 or 4"));
+    }
+    let trailing = args
+        .trailing
+        .iter()
+        .map(|t| u32::from_str_radix(t, 16).map(f32::from_bits))
+        .collect::<Result<Vec<f32>, _>>()
+        .map_err(|_| Failure::bad_input("--trailing takes the hex bits of a float"))?;
+    Ok(serve(WorkerConfig {
+        library: args.library,
+        symbol: args.symbol,
+        abi: Abi {
+            elem_bytes: args.elem_bytes,
+            gradient: args.gradient,
+            trailing,
+        },
+    }))
+}

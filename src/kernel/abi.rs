@@ -1,0 +1,67 @@
+//! The C signatures ulpgauge calls, and one unsafe entry point that dispatches on them.
+//!
+//! Pointer types do not change the C calling convention, so f32 and 16-bit kernels share one
+//! set of function-pointer types over bytes; what differs is the number of input arrays and of
+//! trailing `float` parameters.
+
+use std::ffi::c_void;
+
+/// Most trailing parameters a kernel may take (no catalog function has more).
+pub const MAX_TRAILING: usize = 2;
+
+type Unary0 = unsafe extern "C" fn(*const u8, *mut u8, usize);
+type Unary1 = unsafe extern "C" fn(*const u8, *mut u8, usize, f32);
+type Unary2 = unsafe extern "C" fn(*const u8, *mut u8, usize, f32, f32);
+type Binary0 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize);
+type Binary1 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize, f32);
+type Binary2 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize, f32, f32);
+
+/// How to call one kernel symbol.
+#[derive(Clone, Debug)]
+pub struct Abi {
+    /// Bytes per element: 4 for f32, 2 for f16 and bf16.
+    pub elem_bytes: usize,
+    /// Takes (x or y, g, dx, n) instead of (x, y, n).
+    pub gradient: bool,
+    /// Trailing `float` arguments.
+    pub trailing: Vec<f32>,
+}
+
+impl Abi {
+    /// Number of input arrays.
+    pub fn inputs(&self) -> usize {
+        if self.gradient {
+            2
+        } else {
+            1
+        }
+    }
+
+    /// Calls the kernel.
+    ///
+    /// # Safety
+    /// `symbol` must be a function of the shape this `Abi` describes; `a` (and `b` for gradient
+    /// kernels) must hold `n` readable elements and `out` `n` writable ones.
+    pub unsafe fn call(
+        &self,
+        symbol: *const c_void,
+        a: *const u8,
+        b: *const u8,
+        out: *mut u8,
+        n: usize,
+    ) {
+        let t = &self.trailing;
+        match (self.gradient, t.len()) {
+            (false, 0) => std::mem::transmute::<*const c_void, Unary0>(symbol)(a, out, n),
+            (false, 1) => std::mem::transmute::<*const c_void, Unary1>(symbol)(a, out, n, t[0]),
+            (false, _) => {
+                std::mem::transmute::<*const c_void, Unary2>(symbol)(a, out, n, t[0], t[1])
+            }
+            (true, 0) => std::mem::transmute::<*const c_void, Binary0>(symbol)(a, b, out, n),
+            (true, 1) => std::mem::transmute::<*const c_void, Binary1>(symbol)(a, b, out, n, t[0]),
+            (true, _) => {
+                std::mem::transmute::<*const c_void, Binary2>(symbol)(a, b, out, n, t[0], t[1])
+            }
+        }
+    }
+}

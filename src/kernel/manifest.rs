@@ -1,0 +1,209 @@
+//! The kernel manifest: a TOML file listing the kernels of one or more libraries.
+//!
+//! ```toml
+//! library = "build/liblumen_edge.so"   # relative to the manifest; a kernel may override it
+//!
+//! [[kernel]]
+//! symbol = "lumen_elu_f32"
+//! function = "elu"
+//! format = "f32"
+//! role = "forward"                     # forward | derivative | gradient | gradient-from-output
+//! params = { alpha = "1.0" }           # exact decimals; strings keep every digit
+//! param-passing = "trailing"           # baked (default) | trailing
+//! in-place = false                     # default false
+//! thread-safe = true                   # default true
+//! ```
+//!
+//! Every error is one line naming the file and the line (and the key, when there is one).
+
+use super::{KernelRole, KernelSpec, ParamPassing};
+use serde::Deserialize;
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use toml::Spanned;
+
+/// Functions whose derivative is a function of their output, for `gradient-from-output`.
+pub const FROM_OUTPUT_FUNCTIONS: [&str; 3] = ["sigmoid", "tanh", "elu"];
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct File {
+    library: Option<Spanned<String>>,
+    #[serde(default)]
+    kernel: Vec<Spanned<Entry>>,
+}
+
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields, rename_all = "kebab-case")]
+struct Entry {
+    symbol: Spanned<String>,
+    function: Spanned<String>,
+    format: Spanned<String>,
+    #[serde(default)]
+    role: Option<Spanned<Role>>,
+    #[serde(default)]
+    params: BTreeMap<String, Spanned<Number>>,
+    #[serde(default)]
+    param_passing: Option<Spanned<Passing>>,
+    #[serde(default)]
+    in_place: bool,
+    #[serde(default = "yes")]
+    thread_safe: bool,
+    library: Option<Spanned<String>>,
+}
+
+fn yes() -> bool {
+    true
+}
+
+#[derive(Deserialize, Clone, Copy)]
+#[serde(rename_all = "kebab-case")]
+enum Role {
+    Forward,
+    Derivative,
+    Gradient,
+    GradientFromOutput,
+}
+
+#[derive(Deserialize, Clone, Copy, PartialEq)]
+#[serde(rename_all = "kebab-case")]
+enum Passing {
+    Baked,
+    Trailing,
+}
+
+/// A parameter value: a string keeps the exact decimal; a TOML number is taken by its shortest
+/// round-trip spelling.
+#[derive(Deserialize)]
+#[serde(untagged)]
+enum Number {
+    Text(String),
+    Integer(i64),
+    Float(f64),
+}
+
+impl Number {
+    fn text(&self) -> String {
+        match self {
+            Number::Text(s) => s.trim().to_string(),
+            Number::Integer(i) => i.to_string(),
+            Number::Float(f) => f.to_string(),
+        }
+    }
+}
+
+/// Reads a manifest; library paths are resolved relative to the manifest's directory.
+pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
+    let shown = path.display().to_string();
+    let text = std::fs::read_to_string(path).map_err(|e| match e.kind() {
+        std::io::ErrorKind::NotFound => format!("manifest {shown}: no such file"),
+        _ => format!("manifest {shown}: cannot read: {e}"),
+    })?;
+    let at = |span: std::ops::Range<usize>| -> String {
+        let line = text[..span.start.min(text.len())].matches('\n').count() + 1;
+        format!("manifest {shown} line {line}")
+    };
+    let file: File = toml::from_str(&text).map_err(|e| {
+        let message = e.message().split_whitespace().collect::<Vec<_>>().join(" ");
+        match e.span() {
+            Some(span) => format!("{}: {message}", at(span)),
+            None => format!("manifest {shown}: {message}"),
+        }
+    })?;
+    if file.kernel.is_empty() {
+        return Err(format!("manifest {shown}: no [[kernel]] entries"));
+    }
+    let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    let resolve = |p: &str| -> PathBuf {
+        let p = PathBuf::from(p);
+        if p.is_absolute() {
+            p
+        } else {
+            dir.join(p)
+        }
+    };
+    let mut specs = Vec::new();
+    for entry in &file.kernel {
+        let k = entry.get_ref();
+        let library = k
+            .library
+            .as_ref()
+            .or(file.library.as_ref())
+            .ok_or_else(|| {
+                format!(
+                    "{}: kernel '{}' has no library (set `library` at the top or in the entry)",
+                    at(entry.span()),
+                    k.symbol.get_ref()
+                )
+            })?;
+        let function = crate::activation::lookup(k.function.get_ref()).ok_or_else(|| {
+            let names: Vec<_> = crate::activation::catalog()
+                .iter()
+                .map(|f| f.name())
+                .collect();
+            format!(
+                "{}: key `function`: unknown function '{}' (known: {})",
+                at(k.function.span()),
+                k.function.get_ref(),
+                names.join(", ")
+            )
+        })?;
+        let format = crate::format::by_name(k.format.get_ref()).ok_or_else(|| {
+            format!(
+                "{}: key `format`: unknown format '{}' (known: f32, f16, bf16)",
+                at(k.format.span()),
+                k.format.get_ref()
+            )
+        })?;
+        if k.symbol.get_ref().trim().is_empty() {
+            return Err(format!("{}: key `symbol`: empty", at(k.symbol.span())));
+        }
+        let role = match k.role.as_ref().map(|r| *r.get_ref()) {
+            None | Some(Role::Forward) => KernelRole::Forward,
+            Some(Role::Derivative) => KernelRole::Derivative,
+            Some(Role::Gradient) => KernelRole::Gradient { from_output: false },
+            Some(Role::GradientFromOutput) => KernelRole::Gradient { from_output: true },
+        };
+        if role == (KernelRole::Gradient { from_output: true })
+            && !FROM_OUTPUT_FUNCTIONS.contains(&function.name())
+        {
+            return Err(format!(
+                "{}: key `role`: gradient-from-output is supported for {} only",
+                at(k.role.as_ref().expect("set").span()),
+                FROM_OUTPUT_FUNCTIONS.join(", ")
+            ));
+        }
+        let mut params = Vec::new();
+        for (name, value) in &k.params {
+            let text_value = value.get_ref().text();
+            crate::activation::Constants::parse_params(function, &[format!("{name}={text_value}")])
+                .map_err(|e| format!("{}: key `params.{name}`: {e}", at(value.span())))?;
+            params.push((name.clone(), text_value));
+        }
+        let param_passing = match k.param_passing.as_ref().map(|p| *p.get_ref()) {
+            Some(Passing::Trailing) => {
+                if function.params().is_empty() {
+                    return Err(format!(
+                        "{}: key `param-passing`: {} has no parameters to pass",
+                        at(k.param_passing.as_ref().expect("set").span()),
+                        function.name()
+                    ));
+                }
+                ParamPassing::Trailing
+            }
+            _ => ParamPassing::Baked,
+        };
+        specs.push(KernelSpec {
+            library: resolve(library.get_ref()),
+            symbol: k.symbol.get_ref().clone(),
+            function: function.name().to_string(),
+            format,
+            role,
+            params,
+            param_passing,
+            in_place: k.in_place,
+            thread_safe: k.thread_safe,
+        });
+    }
+    Ok(specs)
+}
