@@ -323,3 +323,21 @@ fn read_table(path: &std::path::Path) -> Vec<u16> {
         .map(|c| u16::from_le_bytes([c[0], c[1]]))
         .collect()
 }
+
+#[test]
+fn exact_zero_away_from_the_origin_is_positive() {
+    // Found by the mpmath cross-check: hard-swish(x ≤ −3) is exactly 0, so +0, like its limit
+    // at −∞; only f(−0) keeps the sign.
+    for x in [-3.0, -5.0, -(f32::MAX as f64)] {
+        assert_eq!(at("hard-swish", Role::Forward, &Binary32, x).bits, 0);
+    }
+    let e = evaluator(
+        "leaky-relu",
+        Role::Forward,
+        &Binary16,
+        &["alpha=0"],
+        ParamRounding::Exact,
+    );
+    assert_eq!(e.reference(0xbc00).unwrap().bits, 0x0000);
+    assert_eq!(e.reference(0x8000).unwrap().bits, 0x8000);
+}

@@ -94,6 +94,7 @@ impl<'a> Evaluator<'a> {
     pub fn reference(&self, x_bits: u32) -> Result<Reference, ReferenceError> {
         let format = self.format;
         let negative_input = format.is_sign_negative(x_bits);
+        let negative_zero_input = negative_input && format.classify(x_bits) == Class::Zero;
         match format.classify(x_bits) {
             Class::Nan => {
                 return Ok(Reference {
@@ -116,7 +117,7 @@ impl<'a> Evaluator<'a> {
             let value = self.function.eval(&x, self.role, &ctx);
             let value = self.scaled(value, prec);
             match value {
-                Value::Exact(q) => return Ok(self.exact(&q, negative_input)),
+                Value::Exact(q) => return Ok(self.exact(&q, negative_zero_input)),
                 Value::Enclosed(iv) if iv.is_point() => {
                     let q = iv.lo.to_rational().ok_or_else(|| {
                         ReferenceError(format!(
@@ -124,7 +125,7 @@ impl<'a> Evaluator<'a> {
                             self.function.name()
                         ))
                     })?;
-                    return Ok(self.exact(&q, negative_input));
+                    return Ok(self.exact(&q, negative_zero_input));
                 }
                 Value::Enclosed(iv) => {
                     if let Some(r) = self.decided(&iv, prec) {
@@ -133,7 +134,7 @@ impl<'a> Evaluator<'a> {
                 }
                 Value::Near { base, delta } => {
                     if delta.is_point() && delta.lo.is_zero() {
-                        return Ok(self.exact(&base, negative_input));
+                        return Ok(self.exact(&base, negative_zero_input));
                     }
                     if let Some(r) = self.near(&base, &delta, prec) {
                         return Ok(r);
@@ -166,11 +167,11 @@ impl<'a> Evaluator<'a> {
 
     /// Rounds an exact rational; an exact zero is +0 except f(−0) = −0 for forward functions
     /// that keep the sign of zero.
-    fn exact(&self, q: &Rational, negative_input: bool) -> Reference {
+    fn exact(&self, q: &Rational, negative_zero_input: bool) -> Reference {
         let keeps = self.role == Role::Forward
             && self.scale.is_none()
             && self.function.facts().keeps_negative_zero;
-        let negative_zero = keeps && negative_input && q.is_zero();
+        let negative_zero = keeps && negative_zero_input && q.is_zero();
         let bits = round_rational(q, negative_zero, self.format);
         let binade = if q.is_zero() {
             self.format.emin()

@@ -305,7 +305,8 @@ def evaluate(name, deriv, x, P):
         if x == 0:
             return exact(HALF if deriv else 0)
         if x >= TAIL:
-            # 2u > 1600: f = x*sigmoid(2u) below x; f' = 1 + t(2xu'(1 - t) - 1) > 1, t = sigmoid(-2u).
+            # 2u > 1600: f = x*sigmoid(2u) below x;
+            # f' = 1 + t(2xu'(1 - t) - 1) > 1 with t = sigmoid(-2u).
             return exact(1, +1) if deriv else exact(x, -1)
         if x <= -TAIL:
             # f = x*sigmoid(2u) < 0 tiny; f' = s(1 + 2xu'(1 - s)) with 2xu' < -1600: < 0 tiny.
