@@ -5,7 +5,10 @@
 //! definitions, [`reference`] the correctly rounded MPFR engine.
 
 pub mod activation;
+pub mod check;
 pub mod cli;
 pub mod format;
+pub mod measure;
 pub mod reference;
 pub mod report;
+pub mod sweep;

@@ -4,6 +4,7 @@
 //! crashed or hung.
 
 mod batch;
+pub mod check;
 mod eval;
 mod functions;
 mod golden;
@@ -51,6 +52,8 @@ enum Command {
     Batch(batch::Args),
     /// Write or verify the golden tables of every 16-bit reference.
     Golden(golden::Args),
+    /// Measure a kernel: ulp error, non-finite runs, thresholds, special values.
+    Check(Box<check::Args>),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -71,6 +74,7 @@ pub fn run() -> i32 {
         Command::Functions(args) => functions::run(args),
         Command::Batch(args) => batch::run(args),
         Command::Golden(args) => golden::run(args),
+        Command::Check(args) => check::run(*args),
     };
     match result {
         Ok(code) => code,
