@@ -5,8 +5,11 @@
 //! definitions, [`reference`] the correctly rounded MPFR engine.
 
 pub mod activation;
+pub mod check;
 pub mod cli;
 pub mod format;
 pub mod kernel;
+pub mod measure;
 pub mod reference;
 pub mod report;
+pub mod sweep;

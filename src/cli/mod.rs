@@ -4,6 +4,7 @@
 //! crashed or hung.
 
 mod batch;
+pub mod check;
 mod eval;
 mod functions;
 mod golden;
@@ -55,6 +56,8 @@ enum Command {
     /// Runs a kernel for the main process (internal).
     #[command(hide = true)]
     Worker(worker::Args),
+    /// Measure a kernel: ulp error, non-finite runs, thresholds, special values.
+    Check(Box<check::Args>),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -76,6 +79,7 @@ pub fn run() -> i32 {
         Command::Batch(args) => batch::run(args),
         Command::Golden(args) => golden::run(args),
         Command::Worker(args) => worker::run(args),
+        Command::Check(args) => check::run(*args),
     };
     match result {
         Ok(code) => code,

@@ -1,5 +1,25 @@
-//! Report building blocks shared by every output.
+//! Reports: the data model of a check and one file per output format behind [`ReportFormat`].
 
+mod csv;
+pub mod json;
+pub mod model;
+mod svg;
+mod terminal;
 mod value;
+mod write;
 
+pub use self::csv::Csv;
+pub use json::Json;
+pub use model::CheckReport;
+pub use svg::Svg;
+pub use terminal::Terminal;
 pub use value::{display_value, BitsValue};
+pub use write::{check_writable, write_atomic};
+
+/// An output format of `check` reports.
+pub trait ReportFormat {
+    /// Short name ("json", "csv", …) for messages.
+    fn name(&self) -> &'static str;
+    /// Renders one report (`manifest` false) or the reports of a manifest run.
+    fn render(&self, reports: &[CheckReport], manifest: bool) -> Result<String, String>;
+}

@@ -1,0 +1,312 @@
+//! `check`: sweep a kernel's inputs, compare with correctly rounded references, measure, and
+//! gather one [`CheckReport`].
+//!
+//! The kernel is reached only through [`KernelUnderTest`]; the shared-library runner and the
+//! in-process [`InProcessKernel`] both implement it.
+
+mod builtin;
+mod kernel;
+mod probe;
+mod provenance;
+
+pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
+pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
+pub use probe::{gradient_factor, Prober, RoleReferences};
+pub use provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance};
+
+use crate::activation::{Constants, Entry, Role};
+use crate::format::Format;
+use crate::measure::{self, Point, Probe, RuleContext};
+use crate::reference::{Evaluator, ParamRounding, Real};
+use crate::report::model::*;
+use crate::report::BitsValue;
+use crate::sweep::{self, Coverage, SweepKind, SweepSpec};
+use rug::Rational;
+use std::path::PathBuf;
+
+/// What a kernel computes.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum CheckRole {
+    /// f(x).
+    Forward,
+    /// f′(x).
+    Derivative,
+    /// g·f′(x) from x (or from y = f(x) when `from_output`) and g.
+    Gradient {
+        /// The kernel takes y = f(x) instead of x.
+        from_output: bool,
+    },
+}
+
+impl CheckRole {
+    /// Name in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            CheckRole::Forward => "forward",
+            CheckRole::Derivative => "derivative",
+            CheckRole::Gradient { .. } => "gradient",
+        }
+    }
+}
+
+/// Everything a check needs besides the kernel.
+#[derive(Clone)]
+pub struct CheckConfig {
+    /// Catalog function.
+    pub function: Entry,
+    /// Format of the kernel.
+    pub format: &'static dyn Format,
+    /// What the kernel computes.
+    pub role: CheckRole,
+    /// Validated `--param` values.
+    pub params: Vec<(String, Rational)>,
+    /// How parameters enter the reference.
+    pub param_rounding: ParamRounding,
+    /// The sweep.
+    pub sweep: SweepSpec,
+    /// `--abs-floor`.
+    pub abs_floor: Option<f64>,
+    /// `--max-ulp`.
+    pub max_ulp: Option<f64>,
+    /// List every point whose error exceeds this (CSV `point` rows).
+    pub list_over: Option<f64>,
+    /// Library file, for provenance.
+    pub library: Option<PathBuf>,
+    /// Symbol, for the report.
+    pub symbol: Option<String>,
+    /// Allow a progress bar on stderr.
+    pub progress: bool,
+}
+
+/// Hygiene sample size and throughput sample size.
+const HYGIENE_SAMPLE: usize = 1024;
+const SPEED_SAMPLE: usize = 8192;
+
+/// An evenly spread sample of the finite inputs.
+fn spread(format: &dyn Format, inputs: &[u32], n: usize) -> Vec<u32> {
+    let finite: Vec<u32> = inputs
+        .iter()
+        .copied()
+        .filter(|&b| measure::is_finite(format, b))
+        .collect();
+    if finite.len() <= n {
+        return finite;
+    }
+    (0..n).map(|i| finite[i * finite.len() / n]).collect()
+}
+
+/// Runs a check of one kernel.
+pub fn run_check(
+    kernel: &mut dyn KernelUnderTest,
+    config: &CheckConfig,
+) -> Result<CheckReport, String> {
+    let format = config.format;
+    let function = config.function;
+    let constants = Constants::resolve(function, &config.params, config.param_rounding, format);
+    let kinks = function
+        .kinks(&constants)
+        .into_iter()
+        .map(|k| (k.at as f64, k.left))
+        .collect();
+    let refs = RoleReferences {
+        forward: Evaluator::new(function, Role::Forward, constants.clone(), format),
+        derivative: Evaluator::new(function, Role::Derivative, constants.clone(), format),
+        role: config.role,
+        seed: config.sweep.seed,
+        kinks,
+    };
+    let spec = &config.sweep;
+    let role_is_forward = config.role == CheckRole::Forward;
+    let (interesting, role_thresholds) = sweep::interesting_points(
+        &refs.forward,
+        &refs.derivative,
+        role_is_forward,
+        spec.neighbours,
+    );
+    let plan = sweep::plan(format, spec, interesting)?;
+    let mut probes = plan.probes.clone();
+    probes.extend(sweep::format_specials(format));
+    if !role_is_forward {
+        // Both zeros and every kink, so the kink report never depends on the sweep.
+        for (at, _) in &refs.kinks {
+            if let Some(b) = format.from_f64_exact(*at) {
+                probes.push(b);
+                probes.push(b | (format.infinity(true) & !format.infinity(false)));
+            }
+        }
+    }
+    probes.sort_unstable();
+    probes.dedup();
+
+    let mut prober = Prober::new(kernel, &refs, config.progress);
+    let measured = prober.probe(&plan.measured);
+    let probe_points = prober.probe(&probes);
+    let evaluated_main = prober.evaluated;
+
+    let accuracy = measure::accuracy(format, &measured, config.abs_floor, config.list_over);
+    let exhaustive = plan.coverage == Coverage::Exhaustive;
+    let mut run_points: Vec<Point> = measured.clone();
+    if !exhaustive {
+        run_points.extend(
+            probe_points
+                .iter()
+                .filter(|p| spec.range.contains(format, p.input))
+                .cloned(),
+        );
+    }
+    let non_finite = measure::non_finite_runs(format, &run_points, &mut prober, exhaustive);
+    let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
+    let thresholds = measure::thresholds(
+        format,
+        &role_thresholds,
+        &mut prober,
+        search_kernel,
+        spec.neighbours,
+    );
+    let tolerance = config.max_ulp.unwrap_or(1.0).max(1.0);
+    let rules_ctx = RuleContext {
+        keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
+        tolerance,
+    };
+    let special_values = measure::special_values(format, &probe_points, &measured, &rules_ctx);
+    let kinks = if role_is_forward {
+        Vec::new()
+    } else {
+        let mut all = probe_points.clone();
+        all.extend(measured.iter().filter(|p| p.left.is_some()).cloned());
+        all.sort_by_key(|p| p.input);
+        all.dedup_by_key(|p| p.input);
+        measure::kink_sides(format, &all, tolerance)
+    };
+    let shape =
+        role_is_forward.then(|| measure::shape(format, &measured, function.facts().monotone));
+
+    let hygiene_sample = spread(format, &plan.measured, HYGIENE_SAMPLE);
+    let (first, second) = prober.arguments(&hygiene_sample);
+    let hygiene = prober.kernel().hygiene(&first, second.as_deref());
+    let speed_sample = spread(format, &plan.measured, SPEED_SAMPLE);
+    let (first, second) = prober.arguments(&speed_sample);
+    let ns_per_element = prober.kernel().ns_per_element(&first, second.as_deref());
+    let mut failures = prober.failures.clone();
+    failures.sort();
+    failures.dedup_by_key(|f| f.0);
+    let reference_failures = ReferenceFailures {
+        count: failures.len() as u64,
+        inputs: failures
+            .iter()
+            .take(20)
+            .map(|f| BitsValue::new(format, f.0))
+            .collect(),
+        first_message: failures.first().map(|f| f.1.clone()),
+    };
+
+    let crash = prober.crashes.first().map(|c| CrashReport {
+        signal: c.signal.clone(),
+        input: BitsValue::new(format, c.input),
+        count: prober.crashes.len() as u64,
+    });
+    let mut failed = Vec::new();
+    for h in hygiene.iter().filter(|h| !h.passed) {
+        failed.push(format!("hygiene {}: {}", h.check, h.detail));
+    }
+    for r in special_values.iter().filter(|r| !r.passed) {
+        failed.push(format!("{} at {}", r.rule, r.input.bits));
+    }
+    if let Some(limit) = config.max_ulp {
+        if accuracy.max_ulp > limit {
+            failed.push(format!(
+                "max_ulp {} exceeds --max-ulp {limit}",
+                accuracy.max_ulp
+            ));
+        }
+    }
+    let exit_code = if crash.is_some() {
+        3
+    } else if failed.is_empty() {
+        0
+    } else {
+        1
+    };
+    let sweep_info = SweepInfo {
+        kinds: spec.kinds.clone(),
+        range: spec.range.text.clone(),
+        coverage: plan.coverage,
+        inputs: plan.measured.len() as u64,
+        probes: probes.len() as u64,
+        extra_inputs: prober.evaluated - evaluated_main,
+        per_binade: spec.per_binade,
+        neighbours: spec.neighbours,
+        random_points: spec
+            .kinds
+            .contains(&SweepKind::Random)
+            .then_some(spec.random_points),
+        random_mode: spec.kinds.contains(&SweepKind::Random).then_some(spec.mode),
+        seed: spec.seed,
+        interesting: plan
+            .interesting
+            .iter()
+            .map(|i| InterestingPoint {
+                input: BitsValue::new(format, i.input),
+                what: i.what.clone(),
+            })
+            .collect(),
+    };
+    let params = constants
+        .entries()
+        .iter()
+        .map(|(name, value)| {
+            let text = match value {
+                Real::Exact(q) => q.to_string(),
+                Real::Irrational(name, _) => name.to_string(),
+            };
+            (name.to_string(), text)
+        })
+        .collect();
+    let provenance = Provenance {
+        ulpgauge: env!("CARGO_PKG_VERSION"),
+        mpfr: mpfr_version(),
+        gmp: gmp_version(),
+        library: config.library.as_deref().map(library_info),
+        cpu: cpu_info(),
+        date: utc_now(),
+        sweep: serde_json::json!({
+            "kinds": sweep_info.kinds,
+            "coverage": sweep_info.coverage,
+            "points": accuracy.points,
+            "inputs": sweep_info.inputs,
+        }),
+    };
+    Ok(CheckReport {
+        schema: SCHEMA,
+        function: function.name().to_string(),
+        format: format.name(),
+        role: config.role.name().to_string(),
+        from_output: matches!(config.role, CheckRole::Gradient { from_output: true }),
+        params,
+        param_rounding: config.param_rounding,
+        kernel: KernelInfo {
+            library: config.library.as_ref().map(|p| p.display().to_string()),
+            symbol: config.symbol.clone(),
+            ns_per_element,
+        },
+        sweep: sweep_info,
+        accuracy: AccuracySection {
+            figures: accuracy,
+            coverage: plan.coverage,
+        },
+        non_finite,
+        special_values,
+        hygiene,
+        crash,
+        thresholds,
+        kinks,
+        shape,
+        reference_failures,
+        verdict: Verdict {
+            exit_code,
+            failed,
+            max_ulp_limit: config.max_ulp,
+        },
+        provenance,
+    })
+}

@@ -1,0 +1,229 @@
+//! Evaluating inputs: references in parallel (rayon), kernel calls in batches, crashes kept.
+
+use super::kernel::{KernelCrash, KernelUnderTest};
+use super::CheckRole;
+use crate::format::{ExactValue, Format};
+use crate::measure::{Point, Probe};
+use crate::reference::{floor_log2_rational, round_rational, Evaluator, Reference};
+use crate::sweep::Rng;
+use rayon::prelude::*;
+use rug::Rational;
+use std::io::IsTerminal;
+
+/// Batches larger than this show a progress bar (when stderr is a terminal).
+const PROGRESS_MIN: usize = 50_000;
+/// Inputs per kernel call.
+const CHUNK: usize = 16_384;
+
+/// The references of one role: forward, derivative, gradient (g·f′ with seeded g).
+pub struct RoleReferences {
+    /// f.
+    pub forward: Evaluator<'static>,
+    /// f′.
+    pub derivative: Evaluator<'static>,
+    /// What the kernel computes.
+    pub role: CheckRole,
+    /// Seed of the gradient factors.
+    pub seed: u64,
+    /// Kinks of f′: input value and left-hand derivative.
+    pub kinks: Vec<(f64, Rational)>,
+}
+
+/// The upstream gradient g for input x: a seeded, representable value in ±[1/2, 2), the same
+/// for the same seed and x whichever batch asks.
+pub fn gradient_factor(format: &dyn Format, seed: u64, x: u32) -> u32 {
+    let mut rng = Rng::new(seed ^ (x as u64).wrapping_mul(0x9e37_79b9_7f4a_7c15));
+    let r = rng.next_u64();
+    let p = format.precision();
+    let significand = (1u64 << (p - 1)) | (r & ((1u64 << (p - 1)) - 1));
+    let exponent = -(p as i32 - 1) - ((r >> 40) & 1) as i32;
+    format.encode((r >> 41) & 1 == 1, significand, exponent)
+}
+
+fn rounded(format: &dyn Format, q: &Rational) -> Reference {
+    let binade = if q.is_zero() {
+        format.emin()
+    } else {
+        floor_log2_rational(q).max(format.emin())
+    };
+    Reference {
+        bits: round_rational(q, false, format),
+        exact: Some(ExactValue {
+            approx: q.to_f64(),
+            binade,
+        }),
+        precision: 0,
+    }
+}
+
+impl RoleReferences {
+    fn format(&self) -> &'static dyn Format {
+        self.forward.format()
+    }
+    /// The kernel's arguments for input x.
+    pub fn arguments(&self, x: u32) -> Result<(u32, Option<u32>), String> {
+        match self.role {
+            CheckRole::Forward | CheckRole::Derivative => Ok((x, None)),
+            CheckRole::Gradient { from_output } => {
+                let g = gradient_factor(self.format(), self.seed, x);
+                let first = if from_output {
+                    self.forward.reference(x).map_err(|e| e.to_string())?.bits
+                } else {
+                    x
+                };
+                Ok((first, Some(g)))
+            }
+        }
+    }
+    /// Reference (and left-hand reference at a kink) for input x.
+    pub fn reference(&self, x: u32) -> Result<(Reference, Option<Reference>), String> {
+        let format = self.format();
+        let g = match self.role {
+            CheckRole::Forward => {
+                return Ok((self.forward.reference(x).map_err(|e| e.to_string())?, None))
+            }
+            CheckRole::Derivative => None,
+            CheckRole::Gradient { .. } => {
+                let g = gradient_factor(format, self.seed, x);
+                Some(Rational::from_f64(format.to_f64(g)).expect("finite g"))
+            }
+        };
+        let r = match &g {
+            None => self.derivative.reference(x),
+            Some(g) => self.derivative.with_scale(Some(g.clone())).reference(x),
+        }
+        .map_err(|e| e.to_string())?;
+        let value = format.to_f64(x);
+        let left = self
+            .kinks
+            .iter()
+            .find(|(at, _)| *at == value)
+            .map(|(_, left)| {
+                let q = match &g {
+                    None => left.clone(),
+                    Some(g) => Rational::from(left * g),
+                };
+                rounded(format, &q)
+            });
+        Ok((r, left))
+    }
+}
+
+/// Kernel arguments and references of one input.
+type Evaluated = (u32, Option<u32>, Reference, Option<Reference>);
+
+/// Evaluates inputs through the kernel and the references.
+pub struct Prober<'a> {
+    kernel: &'a mut dyn KernelUnderTest,
+    refs: &'a RoleReferences,
+    /// Crashes seen so far.
+    pub crashes: Vec<KernelCrash>,
+    /// Inputs evaluated so far.
+    pub evaluated: u64,
+    /// Inputs whose reference could not be decided, with the message; they are left out.
+    pub failures: Vec<(u32, String)>,
+    progress: bool,
+}
+
+impl<'a> Prober<'a> {
+    /// A prober; `progress` allows a progress bar on stderr.
+    pub fn new(
+        kernel: &'a mut dyn KernelUnderTest,
+        refs: &'a RoleReferences,
+        progress: bool,
+    ) -> Self {
+        Prober {
+            kernel,
+            refs,
+            crashes: Vec::new(),
+            evaluated: 0,
+            failures: Vec::new(),
+            progress: progress && std::io::stderr().is_terminal(),
+        }
+    }
+    /// The kernel itself (for hygiene and throughput).
+    pub fn kernel(&mut self) -> &mut dyn KernelUnderTest {
+        self.kernel
+    }
+    /// Kernel arguments of a sample (inputs whose arguments cannot be computed are dropped).
+    pub fn arguments(&self, inputs: &[u32]) -> (Vec<u32>, Option<Vec<u32>>) {
+        let args: Vec<(u32, Option<u32>)> = inputs
+            .par_iter()
+            .filter_map(|&x| self.refs.arguments(x).ok())
+            .collect();
+        let first = args.iter().map(|a| a.0).collect();
+        let second = args.iter().map(|a| a.1).collect::<Option<Vec<u32>>>();
+        (first, second)
+    }
+}
+
+impl Probe for Prober<'_> {
+    /// Inputs whose reference fails are left out (and recorded in `failures`).
+    fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
+        let bar = (self.progress && inputs.len() >= PROGRESS_MIN).then(|| {
+            let bar = indicatif::ProgressBar::new(inputs.len() as u64);
+            bar.set_style(
+                indicatif::ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} ({eta})")
+                    .expect("template")
+                    .progress_chars("=> "),
+            );
+            bar.set_message("checking");
+            bar
+        });
+        let mut points = Vec::with_capacity(inputs.len());
+        for chunk in inputs.chunks(CHUNK) {
+            let computed: Vec<Result<Evaluated, String>> = chunk
+                .par_iter()
+                .map(|&x| {
+                    let (first, second) = self.refs.arguments(x)?;
+                    let (r, left) = self.refs.reference(x)?;
+                    Ok((first, second, r, left))
+                })
+                .collect();
+            let mut inputs = Vec::with_capacity(chunk.len());
+            let mut firsts = Vec::with_capacity(chunk.len());
+            let mut seconds = Vec::with_capacity(chunk.len());
+            let mut refs = Vec::with_capacity(chunk.len());
+            for (&x, c) in chunk.iter().zip(computed) {
+                match c {
+                    Ok((f, s, r, l)) => {
+                        inputs.push(x);
+                        firsts.push(f);
+                        seconds.push(s);
+                        refs.push((r, l));
+                    }
+                    Err(e) => self.failures.push((x, e)),
+                }
+            }
+            let second: Option<Vec<u32>> = seconds.iter().copied().collect();
+            let out = if firsts.is_empty() {
+                Default::default()
+            } else {
+                self.kernel.run(&firsts, second.as_deref())
+            };
+            for crash in out.crashes {
+                self.crashes.push(KernelCrash {
+                    input: inputs[crash.index],
+                    ..crash
+                });
+            }
+            for (i, (r, left)) in refs.into_iter().enumerate() {
+                points.push(Point {
+                    input: inputs[i],
+                    second: seconds[i],
+                    output: out.outputs.get(i).copied().flatten(),
+                    reference: r,
+                    left,
+                });
+            }
+            self.evaluated += chunk.len() as u64;
+            if let Some(bar) = &bar {
+                bar.inc(chunk.len() as u64);
+            }
+        }
+        if let Some(bar) = bar {
+            bar.finish_and_clear();
+        }
+        points
+    }
+}

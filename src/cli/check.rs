@@ -1,0 +1,372 @@
+//! `ulpgauge check`: how wrong is a kernel, where, and what happens at the edges.
+//!
+//! Wiring: [`run`] handles `--builtin-kernel` (in-process kernels) itself. A shared-library
+//! kernel (`--lib`/`--symbol`) or a `--manifest` needs the kernel runner: build a
+//! [`KernelTarget`] per kernel, turn it into a [`CheckConfig`] with [`build_config`], start the
+//! runner, adapt it to [`KernelUnderTest`] and call [`run_with`] (or [`run_many`] for a
+//! manifest). Everything that can be bad input is checked before any kernel is called.
+
+use super::{Failure, FunctionArgs};
+use crate::activation::{catalog, lookup, Constants};
+use crate::check::{builtin, run_check, CheckConfig, CheckRole, KernelUnderTest};
+use crate::report::{
+    check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
+};
+use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
+use std::path::PathBuf;
+
+/// The role named on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum RoleArg {
+    /// The kernel computes f(x).
+    Forward,
+    /// The kernel computes f′(x).
+    Derivative,
+    /// The kernel computes g·f′(x) from x (or f(x), see --from-output) and g.
+    Gradient,
+}
+
+/// Arguments of `check`.
+#[derive(clap::Args, Debug, Clone)]
+pub struct Args {
+    /// Shared library holding the kernel.
+    #[arg(long, value_name = "FILE")]
+    pub lib: Option<PathBuf>,
+    /// Exported symbol of the kernel.
+    #[arg(long, value_name = "NAME")]
+    pub symbol: Option<String>,
+    /// Catalog function the kernel computes (see `ulpgauge functions`).
+    #[arg(long, value_name = "FUNC")]
+    pub function: Option<String>,
+    /// Format of the kernel's inputs and outputs.
+    #[arg(long, value_name = "f32|f16|bf16")]
+    pub format: Option<String>,
+    #[command(flatten)]
+    pub function_args: FunctionArgs,
+    /// What the kernel computes.
+    #[arg(long, value_enum, default_value_t = RoleArg::Forward)]
+    pub role: RoleArg,
+    /// Gradient kernels: the first argument is y = f(x) instead of x.
+    #[arg(long)]
+    pub from_output: bool,
+    /// Sweep kinds, comma-separated (default: exhaustive for 16-bit formats, dense,edge for f32).
+    #[arg(
+        long,
+        value_enum,
+        value_delimiter = ',',
+        value_name = "exhaustive|dense|edge|random"
+    )]
+    pub sweep: Vec<SweepKind>,
+    /// Inputs considered, as decimals (or inf, -inf): LO included, HI excluded.
+    #[arg(long, value_name = "LO,HI", allow_hyphen_values = true)]
+    pub range: Option<String>,
+    /// Samples of a random sweep; for a dense sweep, significands per binade.
+    #[arg(long, value_name = "N")]
+    pub points: Option<u64>,
+    /// Significands per binade of a dense sweep.
+    #[arg(long, value_name = "K", default_value_t = 256)]
+    pub per_binade: u32,
+    /// Neighbours checked on each side of an interesting point (and of a threshold).
+    #[arg(long, value_name = "M", default_value_t = 16)]
+    pub neighbours: u32,
+    /// Seed of random sweeps and of gradient factors g.
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    pub seed: u64,
+    /// Random sweeps: uniform over bit patterns or over values.
+    #[arg(long, value_enum, default_value_t = SampleMode::Bits)]
+    pub random_mode: SampleMode,
+    /// Write the whole report as JSON.
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<PathBuf>,
+    /// Write one CSV row per binade.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Also list in the CSV every point whose error exceeds U ulps.
+    #[arg(long, value_name = "U")]
+    pub csv_points_over: Option<f64>,
+    /// Write an SVG plot of max ulp error per input bucket.
+    #[arg(long, value_name = "FILE.svg")]
+    pub plot: Option<PathBuf>,
+    /// Fail (exit 1) when max_ulp exceeds U.
+    #[arg(long, value_name = "U")]
+    pub max_ulp: Option<f64>,
+    /// Also report errors as |ŷ − y| / max(ulp(y), A).
+    #[arg(long, value_name = "A")]
+    pub abs_floor: Option<f64>,
+    /// Check every kernel listed in a manifest.
+    #[arg(long, value_name = "FILE")]
+    pub manifest: Option<PathBuf>,
+    /// Print no terminal summary.
+    #[arg(long)]
+    pub quiet: bool,
+    /// Never show a progress bar.
+    #[arg(long)]
+    pub no_progress: bool,
+    /// Test-only: an in-process kernel instead of a library (reference, next-up,
+    /// flush-to-zero, blended-elu, crash-on-nan).
+    #[arg(long, hide = true, value_name = "NAME")]
+    pub builtin_kernel: Option<String>,
+}
+
+/// One kernel to check, as named on the command line or in a manifest.
+#[derive(Clone, Debug)]
+pub struct KernelTarget {
+    /// Library file.
+    pub library: Option<PathBuf>,
+    /// Symbol.
+    pub symbol: Option<String>,
+    /// Catalog function name.
+    pub function: String,
+    /// Format name.
+    pub format: String,
+    /// Role.
+    pub role: CheckRole,
+    /// `NAME=VALUE` parameters.
+    pub params: Vec<String>,
+}
+
+/// Where the reports go.
+#[derive(Clone, Debug, Default)]
+pub struct Outputs {
+    /// --json.
+    pub json: Option<PathBuf>,
+    /// --csv.
+    pub csv: Option<PathBuf>,
+    /// --plot.
+    pub plot: Option<PathBuf>,
+    /// Print the terminal summary.
+    pub terminal: bool,
+}
+
+impl Outputs {
+    /// The outputs of the arguments, each file checked writable (exit 2 before any work).
+    pub fn from_args(args: &Args) -> Result<Outputs, Failure> {
+        for path in [&args.json, &args.csv, &args.plot].into_iter().flatten() {
+            check_writable(path).map_err(Failure::bad_input)?;
+        }
+        Ok(Outputs {
+            json: args.json.clone(),
+            csv: args.csv.clone(),
+            plot: args.plot.clone(),
+            terminal: !args.quiet,
+        })
+    }
+}
+
+fn role_of(args: &Args) -> CheckRole {
+    match args.role {
+        RoleArg::Forward => CheckRole::Forward,
+        RoleArg::Derivative => CheckRole::Derivative,
+        RoleArg::Gradient => CheckRole::Gradient {
+            from_output: args.from_output,
+        },
+    }
+}
+
+/// The single kernel named by `--lib/--symbol/--function/--format/--param/--role`.
+pub fn target_from_args(args: &Args) -> Result<KernelTarget, Failure> {
+    let need = |v: &Option<String>, flag: &str| {
+        v.clone()
+            .ok_or_else(|| Failure::bad_input(format!("{flag} is required (or use --manifest)")))
+    };
+    Ok(KernelTarget {
+        library: args.lib.clone(),
+        symbol: args.symbol.clone(),
+        function: need(&args.function, "--function")?,
+        format: need(&args.format, "--format")?,
+        role: role_of(args),
+        params: args.function_args.params.clone(),
+    })
+}
+
+fn positive(value: Option<f64>, flag: &str, allow_zero: bool) -> Result<Option<f64>, Failure> {
+    match value {
+        Some(v) if !v.is_finite() || v < 0.0 || (!allow_zero && v == 0.0) => {
+            Err(Failure::bad_input(format!(
+                "{flag} must be a finite number {} 0, got {v}",
+                if allow_zero { ">=" } else { ">" }
+            )))
+        }
+        v => Ok(v),
+    }
+}
+
+/// Validates a target with the sweep options into a [`CheckConfig`]; every error is bad input.
+pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, Failure> {
+    if args.from_output && args.role != RoleArg::Gradient {
+        return Err(Failure::bad_input(
+            "--from-output applies to --role gradient only",
+        ));
+    }
+    let function = lookup(&target.function).ok_or_else(|| {
+        let names: Vec<_> = catalog().iter().map(|f| f.name()).collect();
+        Failure::bad_input(format!(
+            "unknown function '{}' (known: {})",
+            target.function,
+            names.join(", ")
+        ))
+    })?;
+    let format = crate::format::by_name(&target.format).ok_or_else(|| {
+        Failure::bad_input(format!(
+            "unknown format '{}' (known: f32, f16, bf16)",
+            target.format
+        ))
+    })?;
+    let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
+    let range = match &args.range {
+        Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
+        None => InputRange::all(format),
+    };
+    if args.points == Some(0) {
+        return Err(Failure::bad_input("--points must be at least 1"));
+    }
+    if args.per_binade < 2 {
+        return Err(Failure::bad_input("--per-binade must be at least 2"));
+    }
+    let kinds = if args.sweep.is_empty() {
+        if format.width() <= 16 {
+            vec![SweepKind::Exhaustive]
+        } else {
+            vec![SweepKind::Dense, SweepKind::Edge]
+        }
+    } else {
+        args.sweep.clone()
+    };
+    if kinds.contains(&SweepKind::Exhaustive)
+        && range.pattern_count(format) > crate::sweep::MAX_EXHAUSTIVE
+    {
+        return Err(Failure::bad_input(format!(
+            "an exhaustive {} sweep of {} patterns is too large (at most {}); narrow it with --range",
+            format.name(),
+            range.pattern_count(format),
+            crate::sweep::MAX_EXHAUSTIVE
+        )));
+    }
+    let dense_points = kinds
+        .contains(&SweepKind::Dense)
+        .then_some(args.points)
+        .flatten();
+    let per_binade = dense_points
+        .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
+        .unwrap_or(args.per_binade);
+    let sweep = SweepSpec {
+        kinds,
+        range,
+        per_binade,
+        random_points: args.points.unwrap_or(100_000),
+        neighbours: args.neighbours,
+        seed: args.seed,
+        mode: args.random_mode,
+    };
+    Ok(CheckConfig {
+        function,
+        format,
+        role: target.role,
+        params,
+        param_rounding: args.function_args.param_rounding,
+        sweep,
+        abs_floor: positive(args.abs_floor, "--abs-floor", false)?,
+        max_ulp: positive(args.max_ulp, "--max-ulp", true)?,
+        list_over: positive(args.csv_points_over, "--csv-points-over", true)?,
+        library: target.library.clone(),
+        symbol: target.symbol.clone(),
+        progress: !args.no_progress,
+    })
+}
+
+/// Combines exit statuses: 3 (crash) beats 1 (finding) beats 0.
+pub fn combine(codes: impl IntoIterator<Item = i32>) -> i32 {
+    codes.into_iter().fold(0, |acc, c| match (acc, c) {
+        (3, _) | (_, 3) => 3,
+        (1, _) | (_, 1) => 1,
+        _ => 0,
+    })
+}
+
+/// Writes every requested output of finished reports.
+pub fn emit(reports: &[CheckReport], manifest: bool, outputs: &Outputs) -> Result<(), Failure> {
+    let files: [(&Option<PathBuf>, &dyn ReportFormat); 3] = [
+        (&outputs.json, &Json),
+        (&outputs.csv, &Csv),
+        (&outputs.plot, &Svg),
+    ];
+    for (path, format) in files {
+        if let Some(path) = path {
+            let text = format.render(reports, manifest).map_err(|e| Failure {
+                code: 1,
+                message: format!("{} report: {e}", format.name()),
+            })?;
+            write_atomic(path, &text).map_err(Failure::bad_input)?;
+        }
+    }
+    if outputs.terminal {
+        print!(
+            "{}",
+            Terminal
+                .render(reports, manifest)
+                .map_err(Failure::bad_input)?
+        );
+    }
+    Ok(())
+}
+
+/// Checks one kernel and writes its reports; returns the exit status (0, 1 or 3).
+pub fn run_with(
+    kernel: &mut dyn KernelUnderTest,
+    config: &CheckConfig,
+    outputs: &Outputs,
+) -> Result<i32, Failure> {
+    let report = run_check(kernel, config).map_err(|message| Failure { code: 1, message })?;
+    let code = report.verdict.exit_code;
+    emit(std::slice::from_ref(&report), false, outputs)?;
+    Ok(code)
+}
+
+/// Checks several kernels (a manifest) and writes one report set `{"kernels": [...]}`.
+pub fn run_many(
+    kernels: &mut [(Box<dyn KernelUnderTest>, CheckConfig)],
+    outputs: &Outputs,
+) -> Result<i32, Failure> {
+    let mut reports = Vec::new();
+    for (kernel, config) in kernels.iter_mut() {
+        reports.push(
+            run_check(kernel.as_mut(), config).map_err(|message| Failure { code: 1, message })?,
+        );
+    }
+    emit(&reports, true, outputs)?;
+    Ok(combine(reports.iter().map(|r| r.verdict.exit_code)))
+}
+
+/// Runs `check`.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    if args.manifest.is_some() {
+        // WIRING: load_manifest → KernelTarget per KernelSpec → build_config → Runner → run_many.
+        return Err(Failure::bad_input(
+            "--manifest needs the kernel runner, which this build does not include",
+        ));
+    }
+    let target = target_from_args(&args)?;
+    let config = build_config(&target, &args)?;
+    let outputs = Outputs::from_args(&args)?;
+    match (&args.builtin_kernel, &target.library) {
+        (Some(name), _) => {
+            let mut kernel = builtin(
+                name,
+                config.function,
+                config.format,
+                config.role,
+                &config.params,
+                config.param_rounding,
+            )
+            .map_err(Failure::bad_input)?;
+            run_with(kernel.as_mut(), &config, &outputs)
+        }
+        // WIRING: start kernel::Runner for (library, symbol), adapt it to KernelUnderTest.
+        (None, Some(_)) => Err(Failure::bad_input(
+            "--lib needs the kernel runner, which this build does not include",
+        )),
+        (None, None) => Err(Failure::bad_input(
+            "--lib and --symbol are required (or use --manifest)",
+        )),
+    }
+}

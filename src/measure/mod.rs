@@ -1,0 +1,63 @@
+//! Measures over evaluated points: accuracy, non-finite runs, thresholds, special-value rules,
+//! derivative kinks, and the shape of forward kernels (monotonicity, jumps).
+//!
+//! Measures see the kernel only through [`Probe`], so the ones that must look closer (the exact
+//! ends of a non-finite run, a kernel's threshold) can ask for more inputs.
+
+mod accuracy;
+mod exact_sum;
+mod kinks;
+mod nonfinite;
+mod shape;
+mod special;
+mod thresholds;
+
+pub use accuracy::{
+    accuracy, Accuracy, BinadeRow, Bucket, FloorView, HistogramBin, RegionRow, Worst,
+};
+pub use exact_sum::ExactSum;
+pub use kinks::{kink_sides, KinkSide};
+pub use nonfinite::{non_finite_runs, NonFiniteRun};
+pub use shape::{shape, Jump, Shape, Violation};
+pub use special::{special_values, RuleContext, SpecialRule};
+pub use thresholds::{thresholds, ThresholdReport};
+
+use crate::format::{Class, Format};
+use crate::reference::Reference;
+
+/// One evaluated input: what the kernel returned and the correctly rounded reference.
+#[derive(Clone, Debug)]
+pub struct Point {
+    /// The input pattern x.
+    pub input: u32,
+    /// The second kernel argument (a gradient's upstream g), if any.
+    pub second: Option<u32>,
+    /// The kernel's output; `None` when the kernel crashed on this input.
+    pub output: Option<u32>,
+    /// RN of the exact value (for a kink in a derivative role: the right-hand value).
+    pub reference: Reference,
+    /// At a kink of a derivative role: RN of the left-hand value.
+    pub left: Option<Reference>,
+}
+
+/// Asks the kernel and the reference about more inputs.
+pub trait Probe {
+    /// Evaluates inputs (any order); the result is in the same order, leaving out inputs whose
+    /// reference could not be computed.
+    fn probe(&mut self, inputs: &[u32]) -> Vec<Point>;
+}
+
+/// The value classes that non-finite runs compare.
+pub fn value_class(format: &dyn Format, bits: u32) -> &'static str {
+    match format.classify(bits) {
+        Class::Nan => "nan",
+        Class::Infinite if format.is_sign_negative(bits) => "-inf",
+        Class::Infinite => "+inf",
+        _ => "finite",
+    }
+}
+
+/// Whether a pattern is a finite number.
+pub fn is_finite(format: &dyn Format, bits: u32) -> bool {
+    !matches!(format.classify(bits), Class::Nan | Class::Infinite)
+}

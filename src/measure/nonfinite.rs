@@ -1,0 +1,208 @@
+//! Non-finite runs: maximal runs of consecutive inputs (bit order, per sign) where kernel and
+//! reference fall in different classes among "nan", "+inf", "-inf", "finite".
+
+use super::{value_class, Point, Probe};
+use crate::format::Format;
+use crate::report::BitsValue;
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// Largest gap scanned input by input next to a run; beyond it only the part nearest the run
+/// is scanned and the run's end is marked inexact.
+pub const MAX_GAP_SCAN: u32 = 1 << 22;
+
+/// One run.
+#[derive(Clone, Debug, Serialize)]
+pub struct NonFiniteRun {
+    /// First input of the run in bit order.
+    pub first: BitsValue,
+    /// Last input of the run in bit order.
+    pub last: BitsValue,
+    /// Inputs from first to last.
+    pub count: u64,
+    /// The kernel's class over the run.
+    pub kernel: &'static str,
+    /// The reference's class over the run.
+    pub reference: &'static str,
+    /// Whether first and last are exact (every input next to them was evaluated).
+    pub exact_ends: bool,
+    /// "exhaustive" when every input of the run was evaluated, "sampled" otherwise.
+    pub interior: &'static str,
+}
+
+type Classes = (&'static str, &'static str);
+
+fn classes(format: &dyn Format, p: &Point) -> Option<Classes> {
+    p.output.map(|o| {
+        (
+            value_class(format, o),
+            value_class(format, p.reference.bits),
+        )
+    })
+}
+
+struct Raw {
+    first: u32,
+    last: u32,
+    classes: Classes,
+    known: u64,
+}
+
+/// Runs among the known points, joining neighbours in the known list of the same sign.
+fn raw_runs(format: &dyn Format, known: &BTreeMap<u32, Option<Classes>>) -> Vec<Raw> {
+    let sign = format.infinity(true) & !format.infinity(false);
+    let mut runs: Vec<Raw> = Vec::new();
+    let mut previous: Option<(u32, Option<Classes>)> = None;
+    for (&bits, &c) in known {
+        let mismatch = c.filter(|(k, r)| k != r);
+        let joins = match (previous, mismatch) {
+            (Some((pb, Some(pc))), Some(mc)) => {
+                pc == mc && (pb & sign) == (bits & sign) && pc.0 != pc.1
+            }
+            _ => false,
+        };
+        if let Some(mc) = mismatch {
+            if joins {
+                let run = runs.last_mut().expect("joined run");
+                run.last = bits;
+                run.known += 1;
+            } else {
+                runs.push(Raw {
+                    first: bits,
+                    last: bits,
+                    classes: mc,
+                    known: 1,
+                });
+            }
+        }
+        previous = Some((bits, c));
+    }
+    runs
+}
+
+/// Finds the runs among `points`; unless `exhaustive`, scans the gaps next to every run through
+/// `probe` so each run's first and last input are exact.
+pub fn non_finite_runs(
+    format: &dyn Format,
+    points: &[Point],
+    probe: &mut dyn Probe,
+    exhaustive: bool,
+) -> Vec<NonFiniteRun> {
+    let mut known: BTreeMap<u32, Option<Classes>> = points
+        .iter()
+        .map(|p| (p.input, classes(format, p)))
+        .collect();
+    let sign = format.infinity(true) & !format.infinity(false);
+    let mut inexact: Vec<u32> = Vec::new();
+    if !exhaustive {
+        let runs = raw_runs(format, &known);
+        let mut wanted: Vec<u32> = Vec::new();
+        for run in &runs {
+            let side_start = run.first & sign;
+            let side_end = side_start | (sign - 1);
+            let before = known
+                .range(side_start..run.first)
+                .next_back()
+                .map(|(&b, _)| b + 1)
+                .unwrap_or(side_start);
+            let after = known
+                .range(run.last + 1..=side_end)
+                .next()
+                .map(|(&b, _)| b - 1)
+                .unwrap_or(side_end);
+            // The gap next to each end, nearest part first, capped.
+            let lo = before.max(run.first.saturating_sub(MAX_GAP_SCAN));
+            if lo > before {
+                inexact.push(run.first);
+            }
+            wanted.extend(lo..run.first);
+            let hi = after.min(run.last.saturating_add(MAX_GAP_SCAN));
+            if hi < after {
+                inexact.push(run.last);
+            }
+            wanted.extend(run.last + 1..=hi);
+        }
+        wanted.sort_unstable();
+        wanted.dedup();
+        wanted.retain(|b| !known.contains_key(b));
+        for p in probe.probe(&wanted) {
+            known.insert(p.input, classes(format, &p));
+        }
+    }
+    raw_runs(format, &known)
+        .into_iter()
+        .map(|r| {
+            let count = (r.last - r.first) as u64 + 1;
+            NonFiniteRun {
+                first: BitsValue::new(format, r.first),
+                last: BitsValue::new(format, r.last),
+                count,
+                kernel: r.classes.0,
+                reference: r.classes.1,
+                exact_ends: exhaustive || !inexact.iter().any(|&b| b == r.first || b == r.last),
+                interior: if r.known == count {
+                    "exhaustive"
+                } else {
+                    "sampled"
+                },
+            }
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::format::Binary16;
+    use crate::reference::Reference;
+
+    /// Kernel NaN on [0x48e0, 0x4a10] except a hole at 0x48f0; reference always finite.
+    struct Fake;
+    fn point(x: u32) -> Point {
+        let nan = (0x48e0..=0x4a10).contains(&x) && x != 0x48f0;
+        Point {
+            input: x,
+            second: None,
+            output: Some(if nan { 0x7e00 } else { 0x3c00 }),
+            reference: Reference {
+                bits: 0x3c00,
+                exact: None,
+                precision: 0,
+            },
+            left: None,
+        }
+    }
+    impl Probe for Fake {
+        fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
+            inputs.iter().map(|&x| point(x)).collect()
+        }
+    }
+
+    #[test]
+    fn sampled_runs_get_exact_ends_and_holes_split_them() {
+        let f = &Binary16;
+        let samples: Vec<Point> = (0..0x7c00u32).step_by(0x40).map(point).collect();
+        let runs = non_finite_runs(f, &samples, &mut Fake, false);
+        let ends: Vec<(String, String)> = runs
+            .iter()
+            .map(|r| (r.first.bits.clone(), r.last.bits.clone()))
+            .collect();
+        // Samples every 64 patterns see NaN from 0x4900 to 0x4a00; the gaps next to them are
+        // scanned, which finds the true ends and the hole at 0x48f0 that splits the run.
+        assert_eq!(
+            ends,
+            vec![
+                ("0x48e0".into(), "0x48ef".into()),
+                ("0x48f1".into(), "0x4a10".into())
+            ]
+        );
+        assert!(runs
+            .iter()
+            .all(|r| r.kernel == "nan" && r.reference == "finite" && r.exact_ends));
+        assert_eq!(runs[1].count, 0x4a10 - 0x48f1 + 1);
+        assert_eq!(
+            (runs[0].interior, runs[1].interior),
+            ("exhaustive", "sampled")
+        );
+    }
+}

@@ -1,0 +1,88 @@
+//! Thresholds side by side: where the reference reaches its asymptote for good, and where the
+//! kernel does.
+
+use super::{is_finite, value_class, Probe};
+use crate::format::{step_distance, Format};
+use crate::report::BitsValue;
+use crate::sweep::{find_threshold, Threshold, ThresholdKind};
+use serde::Serialize;
+
+/// One side's thresholds.
+#[derive(Clone, Debug, Serialize)]
+pub struct ThresholdReport {
+    /// "+" (x > 0) or "-".
+    pub side: &'static str,
+    /// "saturation" or "overflow".
+    pub kind: ThresholdKind,
+    /// The asymptote (the reference at ±∞).
+    pub asymptote: BitsValue,
+    /// First input from which the reference stays at the asymptote (`null`: never).
+    pub reference: Option<BitsValue>,
+    /// Whether the neighbours after it were checked one by one.
+    pub reference_confirmed: bool,
+    /// Same for the kernel: its output equals the asymptote (saturation) or is non-finite
+    /// (overflow) from here on; `null` when it never does or was not searched.
+    pub kernel: Option<BitsValue>,
+    /// Whether the kernel's neighbours were checked one by one.
+    pub kernel_confirmed: bool,
+    /// The kernel's output class at its threshold.
+    pub kernel_class: Option<&'static str>,
+    /// Representable steps from the reference's threshold to the kernel's, signed outward.
+    pub kernel_minus_reference_steps: Option<i64>,
+}
+
+/// Searches the kernel's thresholds next to the reference's; `search_kernel` is false for
+/// gradient kernels, whose asymptote changes with g.
+pub fn thresholds(
+    format: &dyn Format,
+    reference: &[Threshold],
+    probe: &mut dyn Probe,
+    search_kernel: bool,
+    confirm: u32,
+) -> Vec<ThresholdReport> {
+    reference
+        .iter()
+        .map(|t| {
+            let asymptote = t.asymptote;
+            let holds = |out: Option<u32>| match (t.kind, out) {
+                (_, None) => false,
+                (ThresholdKind::Overflow, Some(o)) => !is_finite(format, o),
+                (ThresholdKind::Saturation, Some(o)) => {
+                    is_finite(format, o) && step_distance(format, o, asymptote) == 0
+                }
+            };
+            let (kernel, kernel_confirmed) = if search_kernel {
+                find_threshold(format, t.positive, confirm, |x| {
+                    holds(probe.probe(&[x]).first().and_then(|p| p.output))
+                })
+            } else {
+                (None, false)
+            };
+            let kernel_class = kernel.and_then(|k| {
+                probe
+                    .probe(&[k])
+                    .first()
+                    .and_then(|p| p.output)
+                    .map(|o| value_class(format, o))
+            });
+            let steps = match (t.first, kernel) {
+                (Some(r), Some(k)) => {
+                    let d = format.ordinal(k) - format.ordinal(r);
+                    Some(if t.positive { d } else { -d })
+                }
+                _ => None,
+            };
+            ThresholdReport {
+                side: if t.positive { "+" } else { "-" },
+                kind: t.kind,
+                asymptote: BitsValue::new(format, asymptote),
+                reference: t.first.map(|b| BitsValue::new(format, b)),
+                reference_confirmed: t.confirmed,
+                kernel: kernel.map(|b| BitsValue::new(format, b)),
+                kernel_confirmed,
+                kernel_class,
+                kernel_minus_reference_steps: steps,
+            }
+        })
+        .collect()
+}

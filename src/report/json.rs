@@ -1,0 +1,59 @@
+//! JSON reports, schema `ulpgauge-check/1`.
+//!
+//! A single-kernel run writes one object; a manifest run writes `{"kernels": [object, …]}`.
+//! Every input or output value is `{"bits": "0x…", "value": number | "nan" | "inf" | "-inf"}`
+//! (written V below). Top-level keys of an object:
+//!
+//! - `schema`: "ulpgauge-check/1"; `function`, `format`, `role` ("forward" | "derivative" |
+//!   "gradient"), `from_output`, `params` (name → exact value or constant name),
+//!   `param_rounding`.
+//! - `kernel`: {library, symbol, ns_per_element}.
+//! - `sweep`: {kinds, range, coverage ("exhaustive" | "sampled"), inputs, probes, extra_inputs,
+//!   per_binade, neighbours, random_points, random_mode, seed, interesting: [{input: V, what}]}.
+//! - `accuracy`: over finite inputs whose kernel output and reference are both finite (edge
+//!   probes excluded): {points, max_ulp, worst: {input, output, reference: V, exact, ulp} |
+//!   null, mean_ulp, rms_ulp (exact sums), correctly_rounded, faithful (fractions),
+//!   histogram: [{up_to: number | null, count}], per_binade: [{binade, first, last: V, points,
+//!   max_ulp, mean_ulp, correctly_rounded, worst_input: V}], regions: [{region, points, max_ulp,
+//!   max_floored}], abs_floor: {floor, max, worst} | null, flush_to_zero_outputs,
+//!   excluded_non_finite, coverage}. In derivative and gradient roles the figures are the
+//!   derivative's; at a kink the nearer one-sided value is used.
+//! - `non_finite`: [{first, last: V, count, kernel, reference ("nan" | "+inf" | "-inf" |
+//!   "finite"), exact_ends, interior ("exhaustive" | "sampled")}], in bit order.
+//! - `special_values`: [{input, expected: V, output: V | null, passed, rule}].
+//! - `hygiene`: [{check, passed, detail}] from the kernel runner.
+//! - `crash`: null, or {signal, input: V, count}.
+//! - `thresholds`: [{side ("+" | "-"), kind ("saturation" | "overflow"), asymptote: V,
+//!   reference: V | null, reference_confirmed, kernel: V | null, kernel_confirmed, kernel_class,
+//!   kernel_minus_reference_steps}].
+//! - `kinks`: derivative roles, [{input, left, right: V, output: V | null, uses ("left" |
+//!   "right" | "either" | "neither"), ulp}].
+//! - `shape`: forward role, {monotone_function, monotonicity_violations, violations: [{from, to,
+//!   from_output, to_output: V}], jump_count, jumps: [{from, to: V, kernel_steps,
+//!   reference_steps}]}; null otherwise.
+//! - `reference_failures`: {count, inputs: [V], first_message}: inputs left out because the
+//!   reference engine could not decide their rounding.
+//! - `verdict`: {exit_code (0 | 1 | 3), failed: [text], max_ulp_limit}.
+//! - `provenance`: {ulpgauge, mpfr, gmp, library: {path, sha256, compiler} | null, cpu: {model,
+//!   features}, date, sweep: {kinds, coverage, points, inputs}}.
+
+use super::{CheckReport, ReportFormat};
+
+/// The JSON output.
+pub struct Json;
+
+impl ReportFormat for Json {
+    fn name(&self) -> &'static str {
+        "json"
+    }
+    fn render(&self, reports: &[CheckReport], manifest: bool) -> Result<String, String> {
+        let value = if manifest {
+            serde_json::json!({ "schema": super::model::SCHEMA, "kernels": reports })
+        } else {
+            serde_json::to_value(reports.first().ok_or("no report")?).map_err(|e| e.to_string())?
+        };
+        let mut text = serde_json::to_string_pretty(&value).map_err(|e| e.to_string())?;
+        text.push('\n');
+        Ok(text)
+    }
+}

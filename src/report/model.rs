@@ -1,0 +1,148 @@
+//! The report of one checked kernel; its JSON form is documented in [`super::json`].
+
+use crate::check::{HygieneEntry, Provenance};
+use crate::measure::{Accuracy, KinkSide, NonFiniteRun, Shape, SpecialRule, ThresholdReport};
+use crate::report::BitsValue;
+use crate::sweep::{Coverage, SampleMode, SweepKind};
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// Version tag of the JSON schema.
+pub const SCHEMA: &str = "ulpgauge-check/1";
+
+/// The sweep as run.
+#[derive(Clone, Debug, Serialize)]
+pub struct SweepInfo {
+    /// Kinds combined.
+    pub kinds: Vec<SweepKind>,
+    /// `--range` as given, or "all".
+    pub range: String,
+    /// Exhaustive or sampled.
+    pub coverage: Coverage,
+    /// Measured inputs (all of them, finite or not).
+    pub inputs: u64,
+    /// Edge probes.
+    pub probes: u64,
+    /// Further inputs evaluated to find exact run ends and kernel thresholds.
+    pub extra_inputs: u64,
+    /// Significands per binade of a dense sweep.
+    pub per_binade: u32,
+    /// Neighbours on each side of an interesting point.
+    pub neighbours: u32,
+    /// Samples of a random sweep.
+    pub random_points: Option<u64>,
+    /// Random sampling mode.
+    pub random_mode: Option<SampleMode>,
+    /// Seed of random samples and gradient factors.
+    pub seed: u64,
+    /// The function's interesting points the sweep looked at.
+    pub interesting: Vec<InterestingPoint>,
+}
+
+/// An interesting point in a report.
+#[derive(Clone, Debug, Serialize)]
+pub struct InterestingPoint {
+    /// The input.
+    pub input: BitsValue,
+    /// Why it is interesting.
+    pub what: String,
+}
+
+/// The accuracy object with its coverage.
+#[derive(Clone, Debug, Serialize)]
+pub struct AccuracySection {
+    /// Every accuracy figure.
+    #[serde(flatten)]
+    pub figures: Accuracy,
+    /// Whether the figures cover every input of the range.
+    pub coverage: Coverage,
+}
+
+/// The first crash.
+#[derive(Clone, Debug, Serialize)]
+pub struct CrashReport {
+    /// Signal name, or "hang".
+    pub signal: String,
+    /// The input that crashed the kernel.
+    pub input: BitsValue,
+    /// Crashes in all.
+    pub count: u64,
+}
+
+/// The kernel under test.
+#[derive(Clone, Debug, Serialize)]
+pub struct KernelInfo {
+    /// Library path (`null` for in-process kernels).
+    pub library: Option<String>,
+    /// Exported symbol.
+    pub symbol: Option<String>,
+    /// Throughput, nanoseconds per element.
+    pub ns_per_element: Option<f64>,
+}
+
+/// Inputs left out because their reference could not be decided (an engine limit).
+#[derive(Clone, Debug, Serialize)]
+pub struct ReferenceFailures {
+    /// How many.
+    pub count: u64,
+    /// The first few.
+    pub inputs: Vec<BitsValue>,
+    /// The first failure's message.
+    pub first_message: Option<String>,
+}
+
+/// Outcome of the run.
+#[derive(Clone, Debug, Serialize)]
+pub struct Verdict {
+    /// The exit status this kernel alone gives (0, 1 or 3).
+    pub exit_code: i32,
+    /// The findings that failed, in words.
+    pub failed: Vec<String>,
+    /// `--max-ulp`, if given (compared with the raw max_ulp).
+    pub max_ulp_limit: Option<f64>,
+}
+
+/// Everything `check` found about one kernel.
+#[derive(Clone, Debug, Serialize)]
+pub struct CheckReport {
+    /// [`SCHEMA`].
+    pub schema: &'static str,
+    /// Catalog function.
+    pub function: String,
+    /// Format name.
+    pub format: &'static str,
+    /// "forward", "derivative" or "gradient".
+    pub role: String,
+    /// For gradients: whether the kernel takes f(x) rather than x.
+    pub from_output: bool,
+    /// Parameters and constants as used by the reference.
+    pub params: BTreeMap<String, String>,
+    /// How parameters entered the reference.
+    pub param_rounding: crate::reference::ParamRounding,
+    /// The kernel.
+    pub kernel: KernelInfo,
+    /// The sweep.
+    pub sweep: SweepInfo,
+    /// Accuracy.
+    pub accuracy: AccuracySection,
+    /// Non-finite runs.
+    pub non_finite: Vec<NonFiniteRun>,
+    /// Special-value rules.
+    pub special_values: Vec<SpecialRule>,
+    /// Hygiene checks from the runner.
+    pub hygiene: Vec<HygieneEntry>,
+    /// The first crash, or `null`.
+    pub crash: Option<CrashReport>,
+    /// Thresholds per side.
+    pub thresholds: Vec<ThresholdReport>,
+    /// Derivative roles: which side the kernel uses at each kink.
+    pub kinks: Vec<KinkSide>,
+    /// Forward role: monotonicity and jumps (`null` for other roles).
+    pub shape: Option<Shape>,
+    /// Inputs left out because the reference failed.
+    pub reference_failures: ReferenceFailures,
+    /// Outcome.
+    pub verdict: Verdict,
+    /// Where the report comes from.
+    pub provenance: Provenance,
+}
