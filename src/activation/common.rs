@@ -63,10 +63,11 @@ pub fn near(base: Rational, delta: Ival) -> Value {
     Value::Near { base, delta }
 }
 
-/// A nonzero value of magnitude below 2^−1000 and of the given sign.
+/// A nonzero value of magnitude below 2^−1000 (below 2^−1080 stated) and of the given sign.
 pub fn tiny(negative: bool) -> Value {
-    let small = Float::with_val(64, Float::i_exp(1, -2000));
-    let large = Float::with_val(64, Float::i_exp(1, -1000));
+    // Below binary64's smallest subnormal (2^−1074), so its approximation is exactly 0.
+    let small = Float::with_val(64, Float::i_exp(1, -1100));
+    let large = Float::with_val(64, Float::i_exp(1, -1080));
     Value::Enclosed(if negative {
         Ival::new(-large, -small)
     } else {

@@ -8,11 +8,13 @@ mod builtin;
 mod kernel;
 mod probe;
 mod provenance;
+mod runner_kernel;
 
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Prober, RoleReferences};
 pub use provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance};
+pub use runner_kernel::RunnerKernel;
 
 use crate::activation::{Constants, Entry, Role};
 use crate::format::Format;
@@ -24,30 +26,8 @@ use crate::sweep::{self, Coverage, SweepKind, SweepSpec};
 use rug::Rational;
 use std::path::PathBuf;
 
-/// What a kernel computes.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum CheckRole {
-    /// f(x).
-    Forward,
-    /// f′(x).
-    Derivative,
-    /// g·f′(x) from x (or from y = f(x) when `from_output`) and g.
-    Gradient {
-        /// The kernel takes y = f(x) instead of x.
-        from_output: bool,
-    },
-}
-
-impl CheckRole {
-    /// Name in reports.
-    pub fn name(self) -> &'static str {
-        match self {
-            CheckRole::Forward => "forward",
-            CheckRole::Derivative => "derivative",
-            CheckRole::Gradient { .. } => "gradient",
-        }
-    }
-}
+/// What the kernel computes: the runner's role type, shared so a manifest entry maps 1:1.
+pub use crate::kernel::KernelRole as CheckRole;
 
 /// Everything a check needs besides the kernel.
 #[derive(Clone)]
@@ -280,7 +260,7 @@ pub fn run_check(
         schema: SCHEMA,
         function: function.name().to_string(),
         format: format.name(),
-        role: config.role.name().to_string(),
+        role: config.role.report_name().to_string(),
         from_output: matches!(config.role, CheckRole::Gradient { from_output: true }),
         params,
         param_rounding: config.param_rounding,

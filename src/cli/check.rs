@@ -8,12 +8,14 @@
 
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
-use crate::check::{builtin, run_check, CheckConfig, CheckRole, KernelUnderTest};
+use crate::check::{builtin, run_check, CheckConfig, CheckRole, KernelUnderTest, RunnerKernel};
+use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
 use crate::report::{
     check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
 };
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
+use std::time::Duration;
 
 /// The role named on the command line.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -96,6 +98,21 @@ pub struct Args {
     /// Check every kernel listed in a manifest.
     #[arg(long, value_name = "FILE")]
     pub manifest: Option<PathBuf>,
+    /// How the kernel receives its parameters: compiled in, or trailing float arguments.
+    #[arg(long, value_enum, default_value_t = PassingArg::Baked)]
+    pub param_passing: PassingArg,
+    /// The kernel may be called with y == x.
+    #[arg(long)]
+    pub in_place: bool,
+    /// The kernel must not be called from several threads at once.
+    #[arg(long)]
+    pub not_thread_safe: bool,
+    /// Seconds a batch may take before the kernel counts as hung.
+    #[arg(long, value_name = "SECONDS", default_value_t = 10.0)]
+    pub timeout: f64,
+    /// Stop at the first crash or hang instead of carrying on past it.
+    #[arg(long)]
+    pub stop_on_crash: bool,
     /// Print no terminal summary.
     #[arg(long)]
     pub quiet: bool,
@@ -106,6 +123,15 @@ pub struct Args {
     /// flush-to-zero, blended-elu, crash-on-nan).
     #[arg(long, hide = true, value_name = "NAME")]
     pub builtin_kernel: Option<String>,
+}
+
+/// How parameters reach the kernel, as named on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum PassingArg {
+    /// Compiled into the kernel.
+    Baked,
+    /// Trailing `float` arguments in catalog order.
+    Trailing,
 }
 
 /// One kernel to check, as named on the command line or in a manifest.
@@ -324,7 +350,7 @@ pub fn run_with(
 
 /// Checks several kernels (a manifest) and writes one report set `{"kernels": [...]}`.
 pub fn run_many(
-    kernels: &mut [(Box<dyn KernelUnderTest>, CheckConfig)],
+    kernels: &mut [Configured],
     outputs: &Outputs,
 ) -> Result<i32, Failure> {
     let mut reports = Vec::new();
@@ -337,36 +363,134 @@ pub fn run_many(
     Ok(combine(reports.iter().map(|r| r.verdict.exit_code)))
 }
 
+fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
+    if !(args.timeout.is_finite() && args.timeout > 0.0) {
+        return Err(Failure::bad_input(format!(
+            "--timeout must be a positive number of seconds, got {}",
+            args.timeout
+        )));
+    }
+    Ok(RunnerOptions {
+        batch_timeout: Duration::from_secs_f64(args.timeout),
+        stop_on_crash: args.stop_on_crash,
+        ..RunnerOptions::default()
+    })
+}
+
+fn start(spec: &KernelSpec, options: &RunnerOptions) -> Result<Box<dyn KernelUnderTest>, Failure> {
+    let runner = Runner::start(spec, options.clone()).map_err(Failure::bad_input)?;
+    Ok(Box::new(RunnerKernel(runner)))
+}
+
+/// The runner's description of the kernel named on the command line.
+fn spec_from_args(
+    target: &KernelTarget,
+    config: &CheckConfig,
+    args: &Args,
+) -> Result<KernelSpec, Failure> {
+    let library = target
+        .library
+        .clone()
+        .ok_or_else(|| Failure::bad_input("--lib is required (or use --manifest)"))?;
+    let symbol = target
+        .symbol
+        .clone()
+        .ok_or_else(|| Failure::bad_input("--symbol is required with --lib"))?;
+    Ok(KernelSpec {
+        library,
+        symbol,
+        function: target.function.clone(),
+        format: config.format,
+        role: config.role,
+        params: target
+            .params
+            .iter()
+            .filter_map(|p| {
+                p.split_once('=')
+                    .map(|(n, v)| (n.to_string(), v.trim().to_string()))
+            })
+            .collect(),
+        param_passing: match args.param_passing {
+            PassingArg::Baked => ParamPassing::Baked,
+            PassingArg::Trailing => ParamPassing::Trailing,
+        },
+        in_place: args.in_place,
+        thread_safe: !args.not_thread_safe,
+    })
+}
+
+/// A started kernel with its configuration.
+type Configured = (Box<dyn KernelUnderTest>, CheckConfig);
+
+/// Every kernel of a manifest, configured and started (bad input stops before any report).
+fn manifest_kernels(
+    path: &std::path::Path,
+    args: &Args,
+) -> Result<Vec<Configured>, Failure> {
+    let specs = load_manifest(path).map_err(Failure::bad_input)?;
+    let options = runner_options(args)?;
+    let mut configs = Vec::new();
+    for spec in &specs {
+        let target = KernelTarget {
+            library: Some(spec.library.clone()),
+            symbol: Some(spec.symbol.clone()),
+            function: spec.function.clone(),
+            format: spec.format.name().to_string(),
+            role: spec.role,
+            params: spec
+                .params
+                .iter()
+                .map(|(n, v)| format!("{n}={v}"))
+                .collect(),
+        };
+        configs.push(build_config(&target, args).map_err(|f| {
+            Failure::bad_input(format!(
+                "{}: kernel {}: {}",
+                path.display(),
+                spec.symbol,
+                f.message
+            ))
+        })?);
+    }
+    let mut kernels = Vec::new();
+    for (spec, config) in specs.iter().zip(configs) {
+        kernels.push((start(spec, &options)?, config));
+    }
+    Ok(kernels)
+}
+
 /// Runs `check`.
 pub fn run(args: Args) -> Result<i32, Failure> {
-    if args.manifest.is_some() {
-        // WIRING: load_manifest → KernelTarget per KernelSpec → build_config → Runner → run_many.
-        return Err(Failure::bad_input(
-            "--manifest needs the kernel runner, which this build does not include",
-        ));
+    if let Some(path) = &args.manifest {
+        if args.lib.is_some()
+            || args.symbol.is_some()
+            || args.function.is_some()
+            || args.format.is_some()
+        {
+            return Err(Failure::bad_input(
+                "--manifest replaces --lib, --symbol, --function and --format",
+            ));
+        }
+        let outputs = Outputs::from_args(&args)?;
+        let mut kernels = manifest_kernels(path, &args)?;
+        return run_many(&mut kernels, &outputs);
     }
     let target = target_from_args(&args)?;
     let config = build_config(&target, &args)?;
     let outputs = Outputs::from_args(&args)?;
-    match (&args.builtin_kernel, &target.library) {
-        (Some(name), _) => {
-            let mut kernel = builtin(
-                name,
-                config.function,
-                config.format,
-                config.role,
-                &config.params,
-                config.param_rounding,
-            )
-            .map_err(Failure::bad_input)?;
-            run_with(kernel.as_mut(), &config, &outputs)
-        }
-        // WIRING: start kernel::Runner for (library, symbol), adapt it to KernelUnderTest.
-        (None, Some(_)) => Err(Failure::bad_input(
-            "--lib needs the kernel runner, which this build does not include",
-        )),
-        (None, None) => Err(Failure::bad_input(
-            "--lib and --symbol are required (or use --manifest)",
-        )),
+    if let Some(name) = &args.builtin_kernel {
+        let mut kernel = builtin(
+            name,
+            config.function,
+            config.format,
+            config.role,
+            &config.params,
+            config.param_rounding,
+        )
+        .map_err(Failure::bad_input)?;
+        return run_with(kernel.as_mut(), &config, &outputs);
     }
+    let spec = spec_from_args(&target, &config, &args)?;
+    let mut kernel = start(&spec, &runner_options(&args)?)?;
+    run_with(kernel.as_mut(), &config, &outputs)
 }

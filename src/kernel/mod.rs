@@ -42,6 +42,13 @@ impl KernelRole {
     pub fn takes_gradient(self) -> bool {
         matches!(self, KernelRole::Gradient { .. })
     }
+    /// The name reports use for the role ("gradient" with or without `from_output`).
+    pub fn report_name(self) -> &'static str {
+        match self {
+            KernelRole::Gradient { .. } => "gradient",
+            other => other.name(),
+        }
+    }
     /// The manifest spelling.
     pub fn name(self) -> &'static str {
         match self {

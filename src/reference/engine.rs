@@ -181,7 +181,7 @@ impl<'a> Evaluator<'a> {
         Reference {
             bits,
             exact: Some(ExactValue {
-                approx: q.to_f64(),
+                approx: nearest_f64(q),
                 binade,
             }),
             precision: 0,
@@ -252,7 +252,7 @@ impl<'a> Evaluator<'a> {
             };
             let bits = round_rational(&probe, false, self.format);
             let binade = floor_log2_rational(&probe).max(emin);
-            let approx = base.to_f64() + delta.approx_f64();
+            let approx = nearest_f64(base) + delta.approx_f64();
             return Some(Reference {
                 bits,
                 exact: Some(ExactValue { approx, binade }),
@@ -297,6 +297,11 @@ impl<'a> Evaluator<'a> {
             },
         }
     }
+}
+
+/// q rounded to the nearest binary64 (rug's `Rational::to_f64` truncates).
+fn nearest_f64(q: &Rational) -> f64 {
+    Float::with_val(53, q).to_f64()
 }
 
 /// Rounds a constant (rational or irrational) into a format, by the same Ziv loop.

@@ -27,6 +27,11 @@ const HEADER: [&str; 17] = [
     "ulp",
 ];
 
+/// Shortest round-trip text, in exponent form outside [1e-5, 1e16) (Rust's `Debug` for f64).
+fn number(v: f64) -> String {
+    format!("{v:?}")
+}
+
 fn value(v: &serde_json::Value) -> String {
     match v {
         serde_json::Value::String(s) => s.clone(),
@@ -60,9 +65,9 @@ impl ReportFormat for Csv {
                     row.last.bits.clone(),
                     value(&row.last.value),
                     row.points.to_string(),
-                    row.max_ulp.to_string(),
-                    row.mean_ulp.to_string(),
-                    row.correctly_rounded.to_string(),
+                    number(row.max_ulp),
+                    number(row.mean_ulp),
+                    number(row.correctly_rounded),
                     String::new(),
                     String::new(),
                     String::new(),
@@ -79,12 +84,12 @@ impl ReportFormat for Csv {
                     String::new(),
                     String::new(),
                     "1".into(),
-                    p.ulp.to_string(),
+                    number(p.ulp),
                     String::new(),
                     String::new(),
                     p.output.bits.clone(),
                     p.reference.bits.clone(),
-                    p.ulp.to_string(),
+                    number(p.ulp),
                 ]);
                 w.write_record(&rec).map_err(err)?;
             }

@@ -1,0 +1,39 @@
+//! The kernel runner (an isolated worker process) seen as a [`KernelUnderTest`].
+
+use super::kernel::{HygieneEntry, KernelCrash, KernelOutput, KernelUnderTest};
+use crate::kernel::Runner;
+
+/// A shared-library kernel behind [`Runner`].
+pub struct RunnerKernel(pub Runner);
+
+impl KernelUnderTest for RunnerKernel {
+    fn run(&mut self, first: &[u32], second: Option<&[u32]>) -> KernelOutput {
+        let outcome = self.0.run(first, second);
+        KernelOutput {
+            outputs: outcome.outputs,
+            crashes: outcome
+                .crashes
+                .into_iter()
+                .map(|c| KernelCrash {
+                    input: c.input,
+                    index: c.index,
+                    signal: c.signal,
+                })
+                .collect(),
+        }
+    }
+    fn hygiene(&mut self, sample: &[u32], second: Option<&[u32]>) -> Vec<HygieneEntry> {
+        self.0
+            .hygiene(sample, second)
+            .into_iter()
+            .map(|h| HygieneEntry {
+                check: h.check.to_string(),
+                passed: h.passed,
+                detail: h.detail,
+            })
+            .collect()
+    }
+    fn ns_per_element(&mut self, sample: &[u32], second: Option<&[u32]>) -> Option<f64> {
+        self.0.ns_per_element(sample, second)
+    }
+}
