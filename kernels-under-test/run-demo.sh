@@ -1,32 +1,44 @@
 #!/usr/bin/env bash
-# The README's main command: installs what the build needs, builds ulpgauge, and runs the main
-# job on the bundled demo material, writing into reports/.
+# The README's main command: installs what the build needs, builds ulpgauge and the Lumen Edge
+# demo kernels, checks every one of them and writes JSON, CSV and SVG reports into reports/.
+# Findings are expected (several demo kernels are faulty on purpose), so ulpgauge's exit
+# statuses 1 (a finding failed) and 3 (a kernel crashed or hung) do not stop the script.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source tests/setup.sh
 cargo build --release --locked
+bash kernels-under-test/build.sh
 bin=target/release/ulpgauge
 mkdir -p reports
-# Demo table: the correctly rounded values a Lumen Edge kernel author looks up first.
-{
-  printf '%-12s %-6s %-11s %-12s %-12s %s\n' function format role input rounded value
-  while read -r fn fmt role x; do
-    flag=""; [ "$role" = derivative ] && flag="--derivative"
-    out=$("$bin" eval "$fn" "$x" --format "$fmt" $flag --json)
-    bits=$(printf '%s' "$out" | python3 -c 'import json,sys; d=json.load(sys.stdin); print(d["rounded"]["bits"], d["rounded"]["value"])')
-    printf '%-12s %-6s %-11s %-12s %s\n' "$fn" "$fmt" "$role" "$x" "$bits"
-  done <<'TABLE'
-sigmoid f32 forward 1
-sigmoid f16 derivative 0
-tanh bf16 forward 0.5
-elu f16 forward -11.09
-elu f16 forward 11.09
-gelu f32 forward -10
-gelu bf16 derivative -0.75
-gelu-tanh f16 forward 1
-swish f32 derivative -1.2785
-hard-swish f16 forward 0x1a00
-selu f16 forward 62368
-softplus f32 forward -100
-TABLE
-} | tee reports/demo-eval.txt
+
+run() {
+  local status=0
+  "$bin" "$@" || status=$?
+  if [ "$status" -ne 0 ] && [ "$status" -ne 1 ] && [ "$status" -ne 3 ]; then
+    echo "run-demo: ulpgauge $* exited with $status" >&2
+    exit "$status"
+  fi
+}
+
+echo "== The shipped Lumen Edge kernels (kernels-under-test/lumen-edge.toml)"
+run check --manifest kernels-under-test/lumen-edge.toml \
+  --json reports/lumen-edge.json --csv reports/lumen-edge.csv --plot reports/lumen-edge.svg
+
+echo
+echo "== Where does the blended f16 ELU overflow?"
+run check --lib kernels-under-test/build/liblumen_edge.so --symbol lumen_elu_f16 \
+  --function elu --format f16 \
+  --json reports/elu-f16.json --csv reports/elu-f16.csv --plot reports/elu-f16.svg
+
+echo
+echo "== The hand-written SIMD sigmoid, exhaustively over every binary32 in [1, 2)"
+run check --lib kernels-under-test/build/liblumen_edge.so --symbol lumen_sigmoid_f32_simd \
+  --function sigmoid --format f32 --sweep exhaustive --range=1,2 \
+  --json reports/sigmoid-f32-simd.json --csv reports/sigmoid-f32-simd.csv --plot reports/sigmoid-f32-simd.svg
+
+echo
+echo "== Kernels with one classic fault each (kernels-under-test/lumen-edge-faulty.toml)"
+run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 \
+  --json reports/lumen-edge-faulty.json --csv reports/lumen-edge-faulty.csv --plot reports/lumen-edge-faulty.svg
+echo
+echo "Reports written to reports/."
