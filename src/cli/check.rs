@@ -349,10 +349,7 @@ pub fn run_with(
 }
 
 /// Checks several kernels (a manifest) and writes one report set `{"kernels": [...]}`.
-pub fn run_many(
-    kernels: &mut [Configured],
-    outputs: &Outputs,
-) -> Result<i32, Failure> {
+pub fn run_many(kernels: &mut [Configured], outputs: &Outputs) -> Result<i32, Failure> {
     let mut reports = Vec::new();
     for (kernel, config) in kernels.iter_mut() {
         reports.push(
@@ -423,10 +420,7 @@ fn spec_from_args(
 type Configured = (Box<dyn KernelUnderTest>, CheckConfig);
 
 /// Every kernel of a manifest, configured and started (bad input stops before any report).
-fn manifest_kernels(
-    path: &std::path::Path,
-    args: &Args,
-) -> Result<Vec<Configured>, Failure> {
+fn manifest_kernels(path: &std::path::Path, args: &Args) -> Result<Vec<Configured>, Failure> {
     let specs = load_manifest(path).map_err(Failure::bad_input)?;
     let options = runner_options(args)?;
     let mut configs = Vec::new();
