@@ -10,8 +10,8 @@ use rayon::prelude::*;
 use rug::Rational;
 use std::io::IsTerminal;
 
-/// Batches larger than this show a progress bar (when stderr is a terminal).
-const PROGRESS_MIN: usize = 50_000;
+/// A batch still running after this long shows a progress bar (when stderr is a terminal).
+const PROGRESS_AFTER: std::time::Duration = std::time::Duration::from_secs(1);
 /// Inputs per kernel call.
 const CHUNK: usize = 16_384;
 
@@ -160,8 +160,12 @@ impl<'a> Prober<'a> {
 impl Probe for Prober<'_> {
     /// Inputs whose reference fails are left out (and recorded in `failures`).
     fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
-        let bar = (self.progress && inputs.len() >= PROGRESS_MIN).then(|| {
-            let bar = indicatif::ProgressBar::new(inputs.len() as u64);
+        let started = std::time::Instant::now();
+        let bar = self.progress.then(|| {
+            let bar = indicatif::ProgressBar::with_draw_target(
+                Some(inputs.len() as u64),
+                indicatif::ProgressDrawTarget::hidden(),
+            );
             bar.set_style(
                 indicatif::ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} ({eta})")
                     .expect("template")
@@ -219,6 +223,9 @@ impl Probe for Prober<'_> {
             self.evaluated += chunk.len() as u64;
             if let Some(bar) = &bar {
                 bar.inc(chunk.len() as u64);
+                if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
+                    bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+                }
             }
         }
         if let Some(bar) = bar {
