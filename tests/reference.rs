@@ -341,3 +341,28 @@ fn exact_zero_away_from_the_origin_is_positive() {
     assert_eq!(e.reference(0xbc00).unwrap().bits, 0x0000);
     assert_eq!(e.reference(0x8000).unwrap().bits, 0x8000);
 }
+
+#[test]
+fn asymptotes_off_the_format_grid_round_by_value_not_by_sign() {
+    // elu with alpha = 1 + 2^-24 + 2^-40: −alpha lies 2^-40 beyond the binary32 midpoint
+    // −(1 + 2^-24), so RN(−alpha) = −(1 + 2^-23); but at x = −20 the true value
+    // −alpha + alpha·e^-20 is 2^-28.9 above −alpha, back across the midpoint: RN = −1.
+    // (binary64 evaluation below is far more accurate than that 2^-29 margin.)
+    let alpha = "1.0000000596055542700923979282379150390625"; // exact
+    let e = evaluator(
+        "elu",
+        Role::Forward,
+        &Binary32,
+        &[&format!("alpha={alpha}")],
+        ParamRounding::Exact,
+    );
+    let a = 1.0 + 2f64.powi(-24) + 2f64.powi(-40);
+    for x in [-20.0f64, -25.0, -30.0, -60.0] {
+        let expected = (-a + a * x.exp()) as f32;
+        let got = e
+            .reference(Binary32.from_f64_exact(x).unwrap())
+            .unwrap()
+            .bits;
+        assert_eq!(got, expected.to_bits(), "x = {x}");
+    }
+}

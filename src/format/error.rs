@@ -6,7 +6,7 @@ use super::{layout::pow2, Format};
 /// What the measures need to know of an exact real value y: an approximation and the binade.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct ExactValue {
-    /// y rounded to the nearest binary64 (|error| ≤ 2^−53·|y|; 0 when |y| < 2^−1074).
+    /// y rounded to the nearest binary64, ties to even (subnormals included; 0 below 2^−1075).
     pub approx: f64,
     /// max(⌊log2 |y|⌋, emin) of the target format, decided exactly; `emin` for y = 0.
     pub binade: i32,

@@ -219,12 +219,10 @@ impl<'a> Evaluator<'a> {
             _ if self.format.classify(lo) == Class::Infinite => self.format.emax() + 1,
             _ => return None,
         };
+        let approx = nearest_f64_of(iv, prec)?;
         Some(Reference {
             bits: lo,
-            exact: Some(ExactValue {
-                approx: iv.approx_f64(),
-                binade,
-            }),
+            exact: Some(ExactValue { approx, binade }),
             precision: prec,
         })
     }
@@ -239,10 +237,16 @@ impl<'a> Evaluator<'a> {
         }
         let emin = self.format.emin();
         let p = self.format.precision() as i32;
-        let limit_exp = floor_log2_rational(base).max(emin) - p - 3;
+        let binade = floor_log2_rational(base).max(emin);
+        let limit_exp = binade - p - 3;
         let limit = Float::with_val(64, Float::i_exp(1, limit_exp));
         let signed = delta.is_positive() || delta.is_negative();
-        if signed && delta.lo.clone().abs() < limit && delta.hi.clone().abs() < limit {
+        // The sign argument needs base to be a format value or a midpoint: a multiple of half
+        // the quantum 2^(binade − p + 1). Any other base may sit arbitrarily close to a boundary.
+        let on_grid = Rational::from(base >> (binade - p)).denom() == &1u32;
+        let small = delta.lo.clone().abs() < limit && delta.hi.clone().abs() < limit;
+        let sum = Ival::rational(base, prec + 64).add(delta, prec + 64);
+        if on_grid && signed && small {
             // Any point strictly between base and base + delta rounds like the true value.
             let nudge = Rational::from(1) << (limit_exp - 60);
             let probe = if delta.is_positive() {
@@ -252,14 +256,14 @@ impl<'a> Evaluator<'a> {
             };
             let bits = round_rational(&probe, false, self.format);
             let binade = floor_log2_rational(&probe).max(emin);
-            let approx = nearest_f64(base) + delta.approx_f64();
+            let approx = nearest_f64_of(&sum, prec)?;
             return Some(Reference {
                 bits,
                 exact: Some(ExactValue { approx, binade }),
                 precision: prec,
             });
         }
-        self.decided(&Ival::rational(base, prec).add(delta, prec), prec)
+        self.decided(&sum, prec)
     }
 
     fn at_infinity(&self, positive: bool) -> Reference {
@@ -299,9 +303,27 @@ impl<'a> Evaluator<'a> {
     }
 }
 
-/// q rounded to the nearest binary64 (rug's `Rational::to_f64` truncates).
+/// q rounded to the nearest binary64, subnormals included (rug's `Rational::to_f64`
+/// truncates). 1024 bits hold every dyadic midpoint exactly, and a non-dyadic rational is never
+/// a midpoint, so the double rounding through them cannot change the result.
 fn nearest_f64(q: &Rational) -> f64 {
-    Float::with_val(53, q).to_f64()
+    Float::with_val(1024, q).to_f64()
+}
+
+/// Beyond this working precision the approximation is taken from the interval's midpoint even if
+/// its ends still round to different binary64 values (only a value within 2^−4096 of a binary64
+/// midpoint needs it).
+const APPROX_PRECISION_CAP: u32 = 4096;
+
+/// RN_binary64 of the value enclosed by `iv`, once both ends agree on it; `None` asks the Ziv
+/// loop for more precision. The measures then see exactly RN_binary64(y), whichever path
+/// (this engine or a fast one) computed the reference.
+fn nearest_f64_of(iv: &Ival, prec: u32) -> Option<f64> {
+    let (lo, hi) = (iv.lo.to_f64(), iv.hi.to_f64());
+    if lo == hi || lo.is_infinite() || hi.is_infinite() {
+        return Some(if lo == hi { lo } else { iv.approx_f64() });
+    }
+    (prec >= APPROX_PRECISION_CAP).then(|| iv.approx_f64())
 }
 
 /// Rounds a constant (rational or irrational) into a format, by the same Ziv loop.
