@@ -3,6 +3,7 @@
 
 mod constant;
 mod engine;
+pub mod fast;
 mod interval;
 mod round;
 

@@ -1,0 +1,50 @@
+//! Pieces the function families share.
+
+use super::dd::{ilogb, pow2, Dd, Ev, SLACK};
+use super::exp::exp;
+
+/// Inputs with |x| ≥ 2^12 take the engine's asymptotic tails (see `activation::common`).
+pub const TAIL: f64 = 4096.0;
+
+/// e^(−a) for a ≥ 0 as (m, k), y = 2^k·m; `plain` is 2^k·m as an ordinary double-word when
+/// k ≥ −900 (None below: then e^(−a) < 2^−898).
+pub struct Decay {
+    /// Significand part.
+    pub m: Ev,
+    /// Binary exponent.
+    pub k: i32,
+    /// 2^k·m when representable without leaving the safe range.
+    pub plain: Option<Ev>,
+}
+
+/// e^(−a), a a nonnegative double-word.
+pub fn decay(a: Dd) -> Decay {
+    let (m, k) = exp(a.neg());
+    let plain = (k >= -900).then(|| Ev {
+        v: m.v.scale2(k),
+        r: m.r,
+    });
+    Decay { m, k, plain }
+}
+
+/// A stand-in for a nonzero delta known to be below 2^(ilogb(base) − 54) in magnitude, of the
+/// given sign: [`super::decide::finish`] uses only its sign then (and base as approximation).
+pub fn beside(base: f64, positive: bool) -> Ev {
+    let v = pow2((ilogb(base) - 200).max(-1000));
+    Ev {
+        v: Dd::new(if positive { v } else { -v }),
+        r: 0.25,
+    }
+}
+
+/// Widens a relative bound by a negligible term dropped from a formula (e.g. 1 + t ≈ 1 when
+/// t < 2^−898, which changes the value by a relative 2^−898 at most).
+pub fn widen(v: Ev, extra: f64) -> Ev {
+    Ev {
+        v: v.v,
+        r: (v.r + extra) * SLACK,
+    }
+}
+
+/// Relative bound used for terms dropped when e^(−a) < 2^−898.
+pub const DROPPED: f64 = 1.0e-250;

@@ -1,0 +1,199 @@
+//! Turning a fast value and its proven error bound into a [`Reference`], or declining.
+//!
+//! The rule is the engine's: decide only when every real number the bound allows rounds to the
+//! same pattern of the format and lies in the same clamped binade max(⌊log2|y|⌋, emin).  The
+//! allowed set is an interval [L, H]; since RN and the clamped binade are monotone, checking
+//! its two ends suffices.
+
+use super::dd::{ilogb, is_pow2, next_down, next_up, pow2, two_sum, Dd, Ev, SLACK};
+use crate::format::{Class, ExactValue, Format};
+use crate::reference::Reference;
+
+/// Precision recorded for references decided by the fast path (double-word significands).
+pub const FAST_PRECISION: u32 = 106;
+
+/// Largest relative bound the decision accepts (2^−40; see [`super::dd::Ev`]).
+const MAX_REL: f64 = 9.094947017729282e-13;
+
+/// a < b, false when either is NaN (a NaN bound declines).
+fn less(a: f64, b: f64) -> bool {
+    a < b
+}
+
+/// What a function family computed at one input.
+pub enum Outcome {
+    /// y = 2^scale·v·(1 + θ), |θ| ≤ v.r.
+    Value(Ev, i32),
+    /// y = base + delta·(1 + θ), |θ| ≤ delta.r < 1/2; base an exact nonzero normal f64.
+    Near(f64, Ev),
+    /// y is exactly this (nonzero, normal) f64: rounded like the engine's exact rationals.
+    Exact(f64),
+    /// A reference given as is (the engine's asymptotic tails, replicated).
+    Fixed(Reference),
+    /// No fast answer: the caller uses MPFR.
+    Decline,
+}
+
+/// RN into `format` and the clamped binade of 2^k·(h + l), a normalized double-word
+/// (|l| ≤ ulp(h)/2, h normal nonzero).  None on overflow.
+///
+/// The binade is ⌊log2|h|⌋ + k, one less when |h| is a power of two and l pulls towards zero.
+/// Scaled by 2^−q (q the quantum exponent), s_h = |h|·2^(k−q) < 2^(p+1) is an exact f64 and
+/// g = frac(s_h) − 1/2 is a multiple of ulp(s_h); the scaled l has magnitude ≤ ulp(s_h)/2, so it
+/// decides only when g = 0 (a tie of h alone), and then by its sign alone.
+pub fn round_dd(format: &dyn Format, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
+    let negative = h < 0.0;
+    let (h, l) = if negative { (-h, -l) } else { (h, l) };
+    let emin = format.emin();
+    let p = format.precision() as i32;
+    let mut b = ilogb(h) as i64 + k as i64;
+    if is_pow2(h) && l < 0.0 {
+        b -= 1;
+    }
+    if b > format.emax() as i64 {
+        return None;
+    }
+    if b <= (emin - p - 1) as i64 {
+        // |y| < 2^(emin − p), half the smallest subnormal: rounds to a signed zero.
+        return Some((format.encode(negative, 0, 0), emin));
+    }
+    let b = b as i32;
+    let cb = b.max(emin);
+    let q = cb - p + 1;
+    // s_h = h·2^(k − q): |k − q| can exceed the f64 exponent range only in intermediate
+    // factors, so scale in two exact steps.
+    let shift = k as i64 - q as i64;
+    let s1 = (shift / 2) as i32;
+    let s2 = (shift - shift / 2) as i32;
+    let sh = h * pow2(s1) * pow2(s2);
+    let n0 = sh.floor();
+    let g = (sh - n0) - 0.5;
+    let up = if sh == n0 {
+        false
+    } else if g > 0.0 {
+        true
+    } else if g < 0.0 {
+        false
+    } else if l > 0.0 {
+        true
+    } else if l < 0.0 {
+        false
+    } else {
+        (n0 as u64) % 2 == 1
+    };
+    let kint = n0 as u64 + up as u64;
+    Some((format.encode(negative, kint, q), cb))
+}
+
+/// Decides 2^k·v with absolute error bound e (in the unscaled units of v): both ends of
+/// [v − e, v + e] must round alike and share the clamped binade.
+fn decide_interval(format: &dyn Format, v: Dd, e: f64, k: i32) -> Option<(u32, i32)> {
+    if v.hi == 0.0 || !v.hi.is_finite() || !less(e, v.hi.abs() * MAX_REL) {
+        // e must be ≤ 2^−40·|v|: the ends keep v's sign and stay normal.
+        return None;
+    }
+    // RN(lo − e) rounds by at most half the gap beside it, so one step down (up) gives a
+    // number below (above) the exact lo − e (lo + e); TwoSum then adds hi exactly.
+    let (lh, ll) = two_sum(v.hi, next_down(v.lo - e));
+    let (hh, hl) = two_sum(v.hi, next_up(v.lo + e));
+    let lo_end = round_dd(format, lh, ll, k)?;
+    let hi_end = round_dd(format, hh, hl, k)?;
+    if lo_end != hi_end || format.classify(lo_end.0) == Class::Infinite {
+        return None;
+    }
+    Some(lo_end)
+}
+
+/// 2^k·x as an f64 (RN, through at most two roundings: within 1 ulp of binary64).
+fn ldexp(x: f64, k: i32) -> f64 {
+    let k = k.clamp(-2200, 2200);
+    let s1 = k / 3;
+    let s2 = (k - s1) / 2;
+    let s3 = k - s1 - s2;
+    x * pow2(s1) * pow2(s2) * pow2(s3)
+}
+
+/// Absolute error bound of v from its relative bound: |y| ≤ |v|/(1 − r), |v| ≤ |v.hi|(1+2^−52).
+#[inline]
+fn absolute(v: &Ev) -> f64 {
+    v.r * v.v.hi.abs() * SLACK
+}
+
+/// Applies the decision rule to an outcome.
+pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
+    let reference = |bits: u32, binade: i32, approx: f64, precision: u32| Reference {
+        bits,
+        exact: Some(ExactValue { approx, binade }),
+        precision,
+    };
+    match outcome {
+        Outcome::Decline => None,
+        Outcome::Fixed(r) => Some(r),
+        Outcome::Exact(x) => {
+            let (bits, binade) = round_dd(format, x, 0.0, 0)?;
+            Some(reference(bits, binade, x, 0))
+        }
+        Outcome::Value(v, k) => {
+            if !less(v.r, MAX_REL) {
+                return None;
+            }
+            let (bits, binade) = decide_interval(format, v.v, absolute(&v), k)?;
+            Some(reference(bits, binade, ldexp(v.v.hi, k), FAST_PRECISION))
+        }
+        Outcome::Near(base, delta) => {
+            if !less(delta.r, 0.5) || delta.v.hi == 0.0 {
+                return None;
+            }
+            let eb = ilogb(base);
+            // base is a multiple of 2^(eb−52); every rounding boundary (value or midpoint) of a
+            // format with p ≤ 52 near base is a multiple of 2^(eb−53), so the nearest one other
+            // than base is ≥ 2^(eb−53) away, and the nearest other power of two farther still.
+            // With 0 < |delta| < 2^(eb−54), y and any point strictly between base and base ±
+            // 2^(eb−54) on delta's side round alike and share a binade.
+            let limit = pow2(eb - 54);
+            if delta.v.hi.abs() * (1.0 + delta.r) * SLACK < limit {
+                let side = if delta.v.hi > 0.0 { 1.0 } else { -1.0 };
+                let (ph, pl) = two_sum(base, side * pow2(eb - 60));
+                let (bits, binade) = round_dd(format, ph, pl, 0)?;
+                if format.classify(bits) == Class::Infinite {
+                    return None;
+                }
+                return Some(reference(bits, binade, base + delta.v.hi, FAST_PRECISION));
+            }
+            let sum = delta.add_f(base);
+            if !less(sum.r, MAX_REL) {
+                return None;
+            }
+            let (bits, binade) = decide_interval(format, sum.v, absolute(&sum), 0)?;
+            Some(reference(bits, binade, sum.v.hi, FAST_PRECISION))
+        }
+    }
+}
+
+/// The engine's reference for its `tiny(negative)` tail: a signed zero, binade emin, and the
+/// approximation the engine computes from its enclosure [2^−2000, 2^−1000] (2^−1001).
+pub fn engine_tiny(format: &dyn Format, negative: bool) -> Reference {
+    let approx = pow2(-1001);
+    Reference {
+        bits: format.encode(negative, 0, 0),
+        exact: Some(ExactValue {
+            approx: if negative { -approx } else { approx },
+            binade: format.emin(),
+        }),
+        precision: 64,
+    }
+}
+
+/// The engine's reference for `above(a)` / `below(a)` with an f64 a: rounded and binned like a
+/// point just beside a, approximated by a itself.
+pub fn engine_beside(format: &dyn Format, a: f64, above: bool) -> Option<Reference> {
+    let eb = ilogb(a);
+    let side = if above { 1.0 } else { -1.0 };
+    let (ph, pl) = two_sum(a, side * pow2(eb - 60));
+    let (bits, binade) = round_dd(format, ph, pl, 0)?;
+    Some(Reference {
+        bits,
+        exact: Some(ExactValue { approx: a, binade }),
+        precision: 64,
+    })
+}

@@ -1,0 +1,132 @@
+//! GELU x·Φ(x) and its derivative Φ(x) + x·φ(x), φ(x) = e^(−x²/2)/√(2π).
+//!
+//! |x| ≤ 4: Φ(x) = 1/2 + φ(x)·x·H(x²), H(w) = Σ_{n≥0} wⁿ/(2n+1)!! (Marsaglia's series; every
+//! term positive).  With N terms, N ≥ x² and the N-th term < 2^−112 (estimated in f64 within a
+//! relative 2^−40), the ratio of successive omitted terms is x²/(2n+3) ≤ 1/2, so the remainder
+//! is < 2^−110 ≤ 2^−110·H.  Double-word Horner over positive terms: each step adds at most
+//! 2·OP relative, each coefficient 2^−104 relative to its own term, so r_H ≤ 2N·OP + 2^−104 +
+//! 2^−110.  Then gelu = x/2 + φ·x²·H (delta ≥ 0) and gelu′ = 1/2 + φ·x·(H + 1), written as
+//! base + delta; the cancellation for x < 0 (gelu′ has a zero near −0.75) is tracked by
+//! [`Ev::add_f`].
+//!
+//! |x| > 4: the Mills ratio R(a) = Q(a)/φ(a), a = |x|, by Laplace's continued fraction
+//! R = 1/(a + 1/(a + 2/(a + 3/(a + …)))).  All partial numerators and denominators are
+//! positive, so R is monotone in the tail t_N = N/(a + t_(N+1)) ∈ (0, N/a): evaluating the
+//! backward recurrence t_(k−1) = k/(a + t_k) from t_N = 0 and from t_N = T ≥ N/a brackets R.
+//! Rounding: each step is a sum of positives and a quotient, so the relative error grows by at
+//! most 2·OP per step (rel(a + t) ≤ rel(t)); r_R ≤ |R_0 − R_T|/R_0 + 2·(2N + 2)·OP.  Then
+//! Q(x) = φ·R, Φ(x) = φ(a)·R(a) for x < 0, gelu = x − x·φ·R for x > 0, gelu′ = 1 + φ·(x − R)
+//! for x > 0 and φ·(R − a) for x < 0 (no cancellation: R < 1/a < a).
+
+use super::common::{beside, decay, TAIL};
+use super::dd::{Dd, Ev, OP, SLACK};
+use super::decide::{engine_beside, engine_tiny, Outcome};
+use super::exp::tables;
+use crate::activation::Role;
+use crate::format::Format;
+
+/// Threshold between the series and the continued fraction.
+const SERIES_MAX: f64 = 4.0;
+
+/// H(x²) of the module comment, with its bound.
+fn series(x2: Dd) -> Ev {
+    let t = tables();
+    let w = x2.hi;
+    let mut n = 1usize;
+    let mut term = w / 3.0;
+    while (n as f64) < w || term > 1.9e-34 {
+        n += 1;
+        term *= w / (2 * n + 1) as f64;
+        if n >= 127 {
+            break;
+        }
+    }
+    let mut h = t.odd_fact_inv[n - 1];
+    for i in (0..n - 1).rev() {
+        h = h.mul(x2).add(t.odd_fact_inv[i]);
+    }
+    Ev {
+        v: h,
+        r: (2.0 * n as f64 * OP + 4.930380657631324e-32 + 7.7e-34) * SLACK,
+    }
+}
+
+/// R(a) for a > 4 with its bound (None if the bracket is too wide).
+fn mills(a: f64) -> Option<Ev> {
+    let n = (440.0 / a) as usize + 10;
+    let run = |start: f64| {
+        let mut t = Dd::new(start);
+        for k in (1..=n).rev() {
+            t = Dd::new(k as f64).div(t.add_f(a));
+        }
+        Dd::new(1.0).div(t.add_f(a))
+    };
+    let r0 = run(0.0);
+    // T ≥ N/a: one step up from RN(N/a).
+    let r1 = run(super::dd::next_up(n as f64 / a));
+    let width = r0.sub(r1).hi.abs();
+    let r = (width / r0.hi * SLACK + 2.0 * (2 * n + 2) as f64 * OP) * SLACK;
+    (r < 1e-25).then_some(Ev { v: r0, r })
+}
+
+/// GELU or its derivative at x.
+pub fn gelu(format: &dyn Format, x: f64, role: Role) -> Outcome {
+    let a = x.abs();
+    if a >= TAIL {
+        return match (role, x > 0.0) {
+            (Role::Forward, true) => {
+                engine_beside(format, x, false).map_or(Outcome::Decline, Outcome::Fixed)
+            }
+            (Role::Derivative, true) => {
+                engine_beside(format, 1.0, true).map_or(Outcome::Decline, Outcome::Fixed)
+            }
+            (_, false) => Outcome::Fixed(engine_tiny(format, true)),
+        };
+    }
+    let tb = tables();
+    let x2 = Dd::prod(x, x);
+    let e = decay(x2.scale2(-1));
+    let xe = Ev::exact(Dd::new(x));
+    if a <= SERIES_MAX {
+        let phi = e.plain.expect("e^(-x²/2) for |x| ≤ 4").mul(tb.inv_sqrt_2pi);
+        let h = series(x2);
+        return match role {
+            Role::Forward => Outcome::Near(x * 0.5, phi.mul(Ev::exact(x2)).mul(h)),
+            Role::Derivative => Outcome::Near(0.5, phi.mul(xe).mul(h.add_f(1.0))),
+        };
+    }
+    let Some(r) = mills(a) else {
+        return Outcome::Decline;
+    };
+    let m = e.m.mul(tb.inv_sqrt_2pi);
+    match (role, x > 0.0) {
+        (Role::Forward, true) => match e.plain {
+            Some(_) => Outcome::Near(x, xe.mul(m).mul(r).neg_scaled(e.k)),
+            None => Outcome::Near(x, beside(x, false)),
+        },
+        (Role::Derivative, true) => match e.plain {
+            Some(_) => Outcome::Near(1.0, m.mul(xe.add(r.neg())).scaled(e.k)),
+            None => Outcome::Near(1.0, beside(1.0, true)),
+        },
+        (Role::Forward, false) => Outcome::Value(xe.mul(m).mul(r), e.k),
+        (Role::Derivative, false) => Outcome::Value(m.mul(r.add_f(-a)), e.k),
+    }
+}
+
+trait Scaled {
+    fn scaled(self, k: i32) -> Ev;
+    fn neg_scaled(self, k: i32) -> Ev;
+}
+
+impl Scaled for Ev {
+    /// self·2^k, k ≥ −900 (exact).
+    fn scaled(self, k: i32) -> Ev {
+        Ev {
+            v: self.v.scale2(k),
+            r: self.r,
+        }
+    }
+    fn neg_scaled(self, k: i32) -> Ev {
+        self.scaled(k).neg()
+    }
+}

@@ -1,0 +1,111 @@
+//! A fast reference path: double-word evaluations of sigmoid, tanh, swish/SiLU, ELU and GELU
+//! (forward and derivative) with proven error bounds, decided by the engine's own rule.
+//!
+//! [`FastEvaluator::try_reference`] returns a reference only when the fast value ± its bound
+//! decides the rounding into the format and the clamped binade; then the reference equals the
+//! MPFR engine's (bits and binade identical, approximation within an ulp of binary64).
+//! Otherwise, and for inputs it does not cover (±0, NaN, ±∞, parameters that are not exact
+//! binary64 numbers), it returns None and the caller asks the engine.
+//!
+//! Layout: [`dd`] double-word arithmetic and bound composition, [`exp`] e^x and e^x − 1,
+//! [`decide`] the decision rule and rounding, one file per function family.
+
+mod common;
+pub mod dd;
+mod decide;
+mod elu;
+pub mod exp;
+mod gelu;
+mod logistic;
+
+pub use decide::FAST_PRECISION;
+
+use super::{Evaluator, Reference};
+use crate::activation::Role;
+use crate::format::{Class, Format};
+use decide::finish;
+use rug::Rational;
+
+/// Which function, with its parameter as an exact f64.
+#[derive(Clone, Copy, Debug)]
+enum Kind {
+    Sigmoid,
+    Tanh,
+    Swish(f64),
+    Elu(f64),
+    Gelu,
+}
+
+/// The fast path for one evaluator's function, role, parameters and format.
+pub struct FastEvaluator {
+    kind: Kind,
+    role: Role,
+    format: &'static dyn Format,
+}
+
+/// A rational parameter as an f64, when exactly representable, positive and normal.
+fn exact_f64(q: Option<&Rational>) -> Option<f64> {
+    let q = q?;
+    let f = q.to_f64();
+    (f.is_normal() && f > 0.0 && Rational::from_f64(f).as_ref() == Some(q)).then_some(f)
+}
+
+impl FastEvaluator {
+    /// None when this function/role/params/format has no fast path.
+    ///
+    /// The engine does not expose a gradient scale; as a guard, a few inputs are compared
+    /// with the engine at construction and any difference (a scaled evaluator, say) disables
+    /// the fast path.
+    pub fn new(evaluator: &Evaluator) -> Option<FastEvaluator> {
+        let c = evaluator.constants();
+        let kind = match evaluator.function().name() {
+            "sigmoid" => Kind::Sigmoid,
+            "tanh" => Kind::Tanh,
+            "silu" => Kind::Swish(1.0),
+            "swish" => Kind::Swish(exact_f64(c.get("beta").exact())?),
+            "elu" => Kind::Elu(exact_f64(c.get("alpha").exact())?),
+            "gelu" => Kind::Gelu,
+            _ => return None,
+        };
+        let format = evaluator.format();
+        if format.precision() > 24 || format.emin() < -300 {
+            return None;
+        }
+        let fast = FastEvaluator {
+            kind,
+            role: evaluator.role(),
+            format,
+        };
+        for x in [1.0, -1.0, 0.5, -3.0, 5.0] {
+            let bits = format.from_f64_exact(x)?;
+            let mpfr = evaluator.reference(bits).ok()?;
+            if let Some(r) = fast.try_reference(bits) {
+                let same = r.bits == mpfr.bits
+                    && r.exact.map(|e| e.binade) == mpfr.exact.map(|e| e.binade);
+                if !same {
+                    return None;
+                }
+            }
+        }
+        Some(fast)
+    }
+
+    /// Some(reference) only when the fast value ± its proven error bound decides the
+    /// rounding into the format and the binade; None means "ask the engine".
+    pub fn try_reference(&self, x_bits: u32) -> Option<Reference> {
+        let format = self.format;
+        match format.classify(x_bits) {
+            Class::Normal | Class::Subnormal => {}
+            _ => return None,
+        }
+        let x = format.to_f64(x_bits);
+        let outcome = match self.kind {
+            Kind::Sigmoid => logistic::sigmoid(format, x, self.role),
+            Kind::Tanh => logistic::tanh(format, x, self.role),
+            Kind::Swish(beta) => logistic::swish(format, x, beta, self.role),
+            Kind::Elu(alpha) => elu::elu(format, x, alpha, self.role),
+            Kind::Gelu => gelu::gelu(format, x, self.role),
+        };
+        finish(format, outcome)
+    }
+}
