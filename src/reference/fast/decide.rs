@@ -113,6 +113,48 @@ fn ldexp(x: f64, k: i32) -> f64 {
     x * pow2(s1) * pow2(s2) * pow2(s3)
 }
 
+/// RN_binary64 of every point of [v − e, v + e]·2^k, when they all agree; `None` otherwise.
+/// This is the engine's `ExactValue::approx` = RN_binary64(y), subnormals included, so both
+/// paths report identical figures.
+fn nearest_f64(v: Dd, e: f64, k: i32) -> Option<f64> {
+    // Widen e so that rounding lo ∓ e cannot move an end inwards (each rounding moves it by at
+    // most 2^−53 of |lo| + e).
+    let e = e * (1.0 + pow2(-40)) + v.lo.abs() * pow2(-50);
+    let low = two_sum(v.hi, v.lo - e);
+    let high = two_sum(v.hi, v.lo + e);
+    let scaled = ldexp(low.0, k);
+    if scaled.is_normal() && ldexp(scaled, -k) == low.0 {
+        // two_sum's leading part is RN(sum), and scaling a normal binary64 is exact.
+        return (low.0 == high.0).then_some(scaled);
+    }
+    // Below 2^−1022: count in units of 2^−1074, where every end is below 2^53 and the scaling
+    // of both parts is exact (they stay normal or become exact small integers' fractions).
+    let units = |(s, t): (f64, f64)| nearest_integer(ldexp(s, k + 1074), ldexp(t, k + 1074));
+    let (a, b) = (units(low)?, units(high)?);
+    (a == b && a.abs() <= pow2(52)).then(|| ldexp(a, -1074))
+}
+
+/// The integer nearest to s + t (ties to even), for |s| < 2^52 and |t| ≤ ulp(s)/2; `None`
+/// when the sum lies too close to a half-integer for the f64 arithmetic here to tell.
+fn nearest_integer(s: f64, t: f64) -> Option<f64> {
+    if s.is_nan() || s.abs() >= pow2(52) {
+        return None;
+    }
+    let n = s.round_ties_even();
+    // s − n is exact (|s − n| ≤ 1/2 and both are multiples of ulp(s)); r has error ≤ 2^−54.
+    let r = (s - n) + t;
+    if (r.abs() - 0.5).abs() < pow2(-50) {
+        return None;
+    }
+    Some(if r > 0.5 {
+        n + 1.0
+    } else if r < -0.5 {
+        n - 1.0
+    } else {
+        n
+    })
+}
+
 /// Absolute error bound of v from its relative bound: |y| ≤ |v|/(1 − r), |v| ≤ |v.hi|(1+2^−52).
 #[inline]
 fn absolute(v: &Ev) -> f64 {
@@ -138,7 +180,8 @@ pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
                 return None;
             }
             let (bits, binade) = decide_interval(format, v.v, absolute(&v), k)?;
-            Some(reference(bits, binade, ldexp(v.v.hi, k), FAST_PRECISION))
+            let approx = nearest_f64(v.v, absolute(&v), k)?;
+            Some(reference(bits, binade, approx, FAST_PRECISION))
         }
         Outcome::Near(base, delta) => {
             if !less(delta.r, 0.5) || delta.v.hi == 0.0 {
@@ -158,22 +201,25 @@ pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
                 if format.classify(bits) == Class::Infinite {
                     return None;
                 }
-                return Some(reference(bits, binade, base + delta.v.hi, FAST_PRECISION));
+                // |delta| < 2^(eb−54) is below half an ulp of base in binary64 (a quarter
+                // below a power of two is still ≥ 2^(eb−54)), so RN_binary64(y) = base.
+                return Some(reference(bits, binade, base, FAST_PRECISION));
             }
             let sum = delta.add_f(base);
             if !less(sum.r, MAX_REL) {
                 return None;
             }
             let (bits, binade) = decide_interval(format, sum.v, absolute(&sum), 0)?;
-            Some(reference(bits, binade, sum.v.hi, FAST_PRECISION))
+            let approx = nearest_f64(sum.v, absolute(&sum), 0)?;
+            Some(reference(bits, binade, approx, FAST_PRECISION))
         }
     }
 }
 
 /// The engine's reference for its `tiny(negative)` tail: a signed zero, binade emin, and the
-/// approximation the engine computes from its enclosure [2^−2000, 2^−1000] (2^−1001).
+/// approximation RN_binary64 of its enclosure [2^−1100, 2^−1080], a signed zero.
 pub fn engine_tiny(format: &dyn Format, negative: bool) -> Reference {
-    let approx = pow2(-1001);
+    let approx = 0.0;
     Reference {
         bits: format.encode(negative, 0, 0),
         exact: Some(ExactValue {
