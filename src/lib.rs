@@ -5,10 +5,13 @@
 //! definitions, [`reference`] the correctly rounded MPFR engine.
 
 pub mod activation;
+pub mod certify;
 pub mod check;
+pub mod compare;
 pub mod cli;
 pub mod format;
 pub mod kernel;
+pub mod matrix;
 pub mod measure;
 pub mod reference;
 pub mod report;

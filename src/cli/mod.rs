@@ -4,6 +4,10 @@
 //! crashed or hung.
 
 mod batch;
+mod certify;
+pub mod check_args;
+mod compare;
+mod matrix;
 pub mod check;
 mod eval;
 mod functions;
@@ -58,6 +62,12 @@ enum Command {
     Worker(worker::Args),
     /// Measure a kernel: ulp error, non-finite runs, thresholds, special values.
     Check(Box<check::Args>),
+    /// Judge one kernel against a spec's requirements and write a certificate.
+    Certify(certify::Args),
+    /// Compare a baseline report with a candidate report, kernel by kernel.
+    Compare(compare::Args),
+    /// Build the kernels with several compilers and flags and tabulate kernel x build.
+    Matrix(matrix::Args),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -80,6 +90,9 @@ pub fn run() -> i32 {
         Command::Golden(args) => golden::run(args),
         Command::Worker(args) => worker::run(args),
         Command::Check(args) => check::run(*args),
+        Command::Certify(args) => certify::run(args),
+        Command::Compare(args) => compare::run(args),
+        Command::Matrix(args) => matrix::run(args),
     };
     match result {
         Ok(code) => code,

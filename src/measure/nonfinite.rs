@@ -105,11 +105,15 @@ pub fn non_finite_runs(
                 .next_back()
                 .map(|(&b, _)| b + 1)
                 .unwrap_or(side_start);
-            let after = known
-                .range(run.last + 1..=side_end)
-                .next()
-                .map(|(&b, _)| b - 1)
-                .unwrap_or(side_end);
+            // A run may end on the side's last pattern (a NaN input): nothing lies after it.
+            let after = match run.last.checked_add(1).filter(|&b| b <= side_end) {
+                Some(next) => known
+                    .range(next..=side_end)
+                    .next()
+                    .map(|(&b, _)| b - 1)
+                    .unwrap_or(side_end),
+                None => side_end,
+            };
             // The gap next to each end, nearest part first, capped.
             let lo = before.max(run.first.saturating_sub(MAX_GAP_SCAN));
             if lo > before {
@@ -120,7 +124,9 @@ pub fn non_finite_runs(
             if hi < after {
                 inexact.push(run.last);
             }
-            wanted.extend(run.last + 1..=hi);
+            if let Some(next) = run.last.checked_add(1) {
+                wanted.extend(next..=hi);
+            }
         }
         wanted.sort_unstable();
         wanted.dedup();

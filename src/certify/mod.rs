@@ -1,0 +1,39 @@
+//! `certify`: check one kernel against a spec's requirements and issue a certificate.
+//!
+//! [`spec::load`] validates the spec, the CLI turns it into a [`CheckConfig`] and starts the
+//! kernel runner, [`certify`] runs the check (plus one check per `require.range`), judges every
+//! listed requirement and assembles the [`Certificate`].
+
+pub mod certificate;
+pub mod judge;
+pub mod spec;
+
+pub use certificate::{table, Certificate, CERTIFICATE_SCHEMA};
+pub use judge::{judge, Judged};
+pub use spec::{load, Spec};
+
+use crate::check::{run_check, CheckConfig, KernelUnderTest};
+
+/// Runs the checks a spec needs on a started kernel and judges them.
+pub fn certify(
+    spec: &Spec,
+    kernel: &mut dyn KernelUnderTest,
+    config: &CheckConfig,
+) -> Result<Certificate, String> {
+    let report = run_check(kernel, config)?;
+    let mut range_reports = Vec::new();
+    for limit in &spec.require.ranges {
+        // Each range gets the same sweep restricted to it, so its figures are its own.
+        let mut sub = config.clone();
+        sub.sweep.range = limit.range.clone();
+        sub.progress = false;
+        range_reports.push(run_check(kernel, &sub)?);
+    }
+    let judged = judge(&spec.require, &report, &range_reports);
+    Ok(certificate::certificate(
+        spec,
+        report,
+        &range_reports,
+        judged,
+    ))
+}

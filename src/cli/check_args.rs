@@ -1,0 +1,44 @@
+//! `check` options built in code, for commands that run checks in-process (certify, matrix).
+
+use super::check::{Args, PassingArg, RoleArg};
+use super::FunctionArgs;
+use crate::reference::ParamRounding;
+use crate::sweep::SampleMode;
+
+/// `check`'s options with every default, no kernel named and no output.
+pub fn defaults() -> Args {
+    Args {
+        lib: None,
+        symbol: None,
+        function: None,
+        format: None,
+        function_args: FunctionArgs {
+            params: Vec::new(),
+            param_rounding: ParamRounding::Exact,
+        },
+        role: RoleArg::Forward,
+        from_output: false,
+        sweep: Vec::new(),
+        range: None,
+        points: None,
+        per_binade: 256,
+        neighbours: 16,
+        seed: 1,
+        random_mode: SampleMode::Bits,
+        json: None,
+        csv: None,
+        csv_points_over: None,
+        plot: None,
+        max_ulp: None,
+        abs_floor: None,
+        manifest: None,
+        param_passing: PassingArg::Baked,
+        in_place: false,
+        not_thread_safe: false,
+        timeout: 10.0,
+        stop_on_crash: false,
+        quiet: true,
+        no_progress: true,
+        builtin_kernel: None,
+    }
+}

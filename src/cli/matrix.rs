@@ -1,0 +1,277 @@
+//! `ulpgauge matrix --manifest M --build "CC FLAGS" --build …`: build the manifest's kernels
+//! with each compiler and flags, check every build, print kernel × build.
+//!
+//! Exit status: 0 every build that was attempted built and was checked (findings are in the
+//! table, not in the status); 1 a build failed; 2 bad input, or no build could be made.
+
+use super::check::{build_config, combine, KernelTarget};
+use super::{check_args, Failure};
+use crate::check::{library_info, run_check, RunnerKernel};
+use crate::kernel::{load_manifest, Runner, RunnerOptions};
+use crate::matrix::{build, table, BuildResult, BuildStatus, Cell, Matrix, MATRIX_SCHEMA};
+use crate::report::{check_writable, write_atomic, Json, ReportFormat};
+use crate::sweep::SweepKind;
+use std::path::{Path, PathBuf};
+use std::time::Duration;
+
+/// Arguments of `matrix`.
+#[derive(clap::Args, Debug, Clone)]
+pub struct Args {
+    /// Manifest of the kernels; its library paths are looked up by file name in each build.
+    #[arg(long, value_name = "FILE")]
+    pub manifest: PathBuf,
+    /// A build: compiler then flags, e.g. "gcc -O3 -ffast-math" (repeatable, in column order).
+    #[arg(long = "build", value_name = "CC FLAGS", required = true)]
+    pub builds: Vec<String>,
+    /// Build script, run as `bash SCRIPT OUTDIR` with CC and CFLAGS (default: build.sh beside
+    /// the manifest).
+    #[arg(long, value_name = "FILE")]
+    pub build_script: Option<PathBuf>,
+    /// Where the builds go, one folder each (default: a fresh folder under the temp dir).
+    #[arg(long, value_name = "DIR")]
+    pub work_dir: Option<PathBuf>,
+    /// Install a missing compiler with apt-get instead of skipping its builds.
+    #[arg(long)]
+    pub install_missing: bool,
+    /// Sweep kinds, comma-separated (default: check's).
+    #[arg(
+        long,
+        value_enum,
+        value_delimiter = ',',
+        value_name = "exhaustive|dense|edge|random"
+    )]
+    pub sweep: Vec<SweepKind>,
+    /// Inputs considered: LO included, HI excluded.
+    #[arg(long, value_name = "LO,HI", allow_hyphen_values = true)]
+    pub range: Option<String>,
+    /// Samples of a random sweep; for a dense sweep, significands per binade.
+    #[arg(long, value_name = "N")]
+    pub points: Option<u64>,
+    /// Significands per binade of a dense sweep.
+    #[arg(long, value_name = "K", default_value_t = 256)]
+    pub per_binade: u32,
+    /// Seed of random sweeps and gradient factors.
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    pub seed: u64,
+    /// Seconds a batch may take before the kernel counts as hung.
+    #[arg(long, value_name = "SECONDS", default_value_t = 10.0)]
+    pub timeout: f64,
+    /// Write one CSV row per kernel and build.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Write the matrix as JSON.
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<PathBuf>,
+    /// Also write each build's check report (JSON, schema ulpgauge-check/1) into DIR, ready
+    /// for `ulpgauge compare`.
+    #[arg(long, value_name = "DIR")]
+    pub reports: Option<PathBuf>,
+    /// Print no table.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+fn check_options(args: &Args) -> super::check::Args {
+    let mut a = check_args::defaults();
+    a.sweep = args.sweep.clone();
+    a.range = args.range.clone();
+    a.points = args.points;
+    a.per_binade = args.per_binade;
+    a.seed = args.seed;
+    a.timeout = args.timeout;
+    a
+}
+
+fn sweep_words(args: &Args) -> String {
+    let kinds = if args.sweep.is_empty() {
+        "default sweep".to_string()
+    } else {
+        args.sweep
+            .iter()
+            .map(|k| format!("{k:?}").to_lowercase())
+            .collect::<Vec<_>>()
+            .join("+")
+            + " sweep"
+    };
+    format!(
+        "{kinds}, {} per binade, range {}, seed {}",
+        args.points.map_or(args.per_binade as u64, |p| p),
+        args.range.as_deref().unwrap_or("all"),
+        args.seed
+    )
+}
+
+/// Slug of a build label for file names.
+fn slug(label: &str) -> String {
+    label
+        .chars()
+        .map(|c| if c.is_ascii_alphanumeric() { c } else { '-' })
+        .collect()
+}
+
+/// Runs `matrix`.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    let specs = load_manifest(&args.manifest).map_err(Failure::bad_input)?;
+    let options = check_options(&args);
+    if !(args.timeout.is_finite() && args.timeout > 0.0) {
+        return Err(Failure::bad_input(format!(
+            "--timeout must be a positive number of seconds, got {}",
+            args.timeout
+        )));
+    }
+    // Validate every kernel's configuration before building anything.
+    let mut configs = Vec::new();
+    for spec in &specs {
+        let target = KernelTarget {
+            library: Some(spec.library.clone()),
+            symbol: Some(spec.symbol.clone()),
+            function: spec.function.clone(),
+            format: spec.format.name().to_string(),
+            role: spec.role,
+            params: spec
+                .params
+                .iter()
+                .map(|(n, v)| format!("{n}={v}"))
+                .collect(),
+        };
+        configs.push(
+            build_config(&target, &options).map_err(|f| {
+                Failure::bad_input(format!("kernel {}: {}", spec.symbol, f.message))
+            })?,
+        );
+    }
+    let script = match &args.build_script {
+        Some(s) => s.clone(),
+        None => args
+            .manifest
+            .parent()
+            .unwrap_or(Path::new("."))
+            .join("build.sh"),
+    };
+    if !script.is_file() {
+        return Err(Failure::bad_input(format!(
+            "build script {} not found (give --build-script)",
+            script.display()
+        )));
+    }
+    let work = args.work_dir.clone().unwrap_or_else(|| {
+        std::env::temp_dir().join(format!("ulpgauge-matrix-{}", std::process::id()))
+    });
+    std::fs::create_dir_all(&work)
+        .map_err(|e| Failure::bad_input(format!("cannot create {}: {e}", work.display())))?;
+    let builds = build::parse(&args.builds, &work).map_err(Failure::bad_input)?;
+    for path in [&args.csv, &args.json].into_iter().flatten() {
+        check_writable(path).map_err(Failure::bad_input)?;
+    }
+    if let Some(dir) = &args.reports {
+        std::fs::create_dir_all(dir)
+            .map_err(|e| Failure::bad_input(format!("cannot create {}: {e}", dir.display())))?;
+    }
+    let runner_options = RunnerOptions {
+        batch_timeout: Duration::from_secs_f64(args.timeout),
+        ..RunnerOptions::default()
+    };
+    let kernels: Vec<String> = specs.iter().map(|s| s.symbol.clone()).collect();
+    let mut results = Vec::new();
+    let mut cells = Vec::new();
+    let mut codes = Vec::new();
+    for b in builds {
+        let mut result = BuildResult {
+            build: b.clone(),
+            status: BuildStatus::Built,
+            note: None,
+            compiler: None,
+        };
+        if !build::available(&b.cc) {
+            let installed = args.install_missing && build::install(&b.cc).is_ok();
+            if !installed {
+                let note = format!("{} not found on PATH", b.cc);
+                eprintln!("ulpgauge: note: skipping build '{}': {note}", b.label);
+                result.status = BuildStatus::Skipped;
+                result.note = Some(note);
+                results.push(result);
+                continue;
+            }
+        }
+        if let Err(e) = build::run_script(&script, &b) {
+            eprintln!("ulpgauge: build '{}' failed: {e}", b.label);
+            result.status = BuildStatus::Failed;
+            result.note = Some(e);
+            codes.push(1);
+            results.push(result);
+            continue;
+        }
+        let mut reports = Vec::new();
+        for (spec, config) in specs.iter().zip(&configs) {
+            let file = spec
+                .library
+                .file_name()
+                .map(PathBuf::from)
+                .unwrap_or_default();
+            let mut spec = spec.clone();
+            spec.library = b.dir.join(file);
+            let mut config = config.clone();
+            config.library = Some(spec.library.clone());
+            if result.compiler.is_none() {
+                result.compiler = library_info(&spec.library).compiler;
+            }
+            let outcome = Runner::start(&spec, runner_options.clone())
+                .map_err(|e| e.to_string())
+                .and_then(|runner| run_check(&mut RunnerKernel(runner), &config));
+            match outcome {
+                Ok(report) => {
+                    cells.push(Cell::of(&report, &spec.symbol, &b.label));
+                    reports.push(report);
+                }
+                Err(e) => cells.push(Cell {
+                    kernel: spec.symbol.clone(),
+                    function: spec.function.clone(),
+                    format: spec.format.name().to_string(),
+                    role: spec.role.report_name().to_string(),
+                    build: b.label.clone(),
+                    max_ulp: None,
+                    mean_ulp: None,
+                    correctly_rounded: None,
+                    faithful: None,
+                    failed_checks: None,
+                    failed: Vec::new(),
+                    crash: None,
+                    error: Some(e),
+                }),
+            }
+        }
+        if let Some(dir) = &args.reports {
+            let text = Json.render(&reports, true).map_err(|e| Failure {
+                code: 1,
+                message: format!("json report: {e}"),
+            })?;
+            write_atomic(&dir.join(format!("{}.json", slug(&b.label))), &text)
+                .map_err(Failure::bad_input)?;
+        }
+        results.push(result);
+    }
+    if results.iter().all(|r| r.status != BuildStatus::Built) {
+        return Err(Failure::bad_input(
+            "no build could be made (every compiler missing or every build failed)",
+        ));
+    }
+    let matrix = Matrix {
+        schema: MATRIX_SCHEMA,
+        manifest: args.manifest.display().to_string(),
+        sweep: sweep_words(&args),
+        builds: results,
+        kernels,
+        cells,
+    };
+    if let Some(path) = &args.csv {
+        write_atomic(path, &table::csv(&matrix)).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.json {
+        let text = table::json(&matrix).map_err(|message| Failure { code: 1, message })?;
+        write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if !args.quiet {
+        print!("{}", table::render(&matrix));
+    }
+    Ok(combine(codes))
+}
