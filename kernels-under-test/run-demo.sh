@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # The README's main command: installs what the build needs, builds ulpgauge and the Lumen Edge
-# demo kernels, checks every one of them and writes JSON, CSV and SVG reports into reports/.
+# demo kernels, checks every one of them (JSON, CSV and SVG reports into reports/), certifies
+# two of them, compares this build with the committed baseline and runs the compiler matrix.
 # Findings are expected (several demo kernels are faulty on purpose), so ulpgauge's exit
 # statuses 1 (a finding failed) and 3 (a kernel crashed or hung) do not stop the script.
 set -euo pipefail
@@ -40,5 +41,23 @@ echo
 echo "== Kernels with one classic fault each (kernels-under-test/lumen-edge-faulty.toml)"
 run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 \
   --json reports/lumen-edge-faulty.json --csv reports/lumen-edge-faulty.csv --plot reports/lumen-edge-faulty.svg
+echo
+echo "== Certificates (kernels-under-test/specs/)"
+run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json
+run certify --spec kernels-under-test/specs/sigmoid-f32-simd.toml --json reports/certificate-sigmoid-f32-simd.json
+
+echo
+echo "== This build against the committed baseline"
+run check --manifest kernels-under-test/lumen-edge.toml --sweep dense,edge --per-binade 8 \
+  --quiet --json target/demo-candidate.json
+run compare reports/baseline-lumen-edge.json target/demo-candidate.json --changed-only
+
+echo
+echo "== Compiler matrix"
+run matrix --manifest kernels-under-test/lumen-edge.toml \
+  --build "gcc -O2" --build "gcc -O3 -ffast-math" --build "clang -O2" \
+  --sweep dense,edge --per-binade 8 \
+  --csv reports/matrix-lumen-edge.csv --json reports/matrix-lumen-edge.json
+
 echo
 echo "Reports written to reports/."

@@ -7,8 +7,8 @@
 pub mod activation;
 pub mod certify;
 pub mod check;
-pub mod compare;
 pub mod cli;
+pub mod compare;
 pub mod format;
 pub mod kernel;
 pub mod matrix;

@@ -28,6 +28,7 @@ use std::path::PathBuf;
 
 /// What the kernel computes: the runner's role type, shared so a manifest entry maps 1:1.
 pub use crate::kernel::KernelRole as CheckRole;
+use crate::reference::fast::FastEvaluator;
 
 /// Everything a check needs besides the kernel.
 #[derive(Clone)]
@@ -56,6 +57,19 @@ pub struct CheckConfig {
     pub symbol: Option<String>,
     /// Allow a progress bar on stderr.
     pub progress: bool,
+    /// Which reference path computes the sweep's references.
+    pub reference: ReferencePath,
+}
+
+/// How references are computed (`--reference`).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum ReferencePath {
+    /// The proven double-double fast path where it decides, MPFR elsewhere (identical results).
+    #[default]
+    Auto,
+    /// MPFR only.
+    Mpfr,
 }
 
 /// Hygiene sample size and throughput sample size.
@@ -88,12 +102,21 @@ pub fn run_check(
         .into_iter()
         .map(|k| (k.at as f64, k.left))
         .collect();
+    let forward = Evaluator::new(function, Role::Forward, constants.clone(), format);
+    let derivative = Evaluator::new(function, Role::Derivative, constants.clone(), format);
+    let fast = (config.reference == ReferencePath::Auto).then(|| {
+        (
+            FastEvaluator::new(&forward),
+            FastEvaluator::new(&derivative),
+        )
+    });
     let refs = RoleReferences {
-        forward: Evaluator::new(function, Role::Forward, constants.clone(), format),
-        derivative: Evaluator::new(function, Role::Derivative, constants.clone(), format),
+        forward,
+        derivative,
         role: config.role,
         seed: config.sweep.seed,
         kinks,
+        fast,
     };
     let spec = &config.sweep;
     let role_is_forward = config.role == CheckRole::Forward;

@@ -4,6 +4,7 @@ use super::kernel::{KernelCrash, KernelUnderTest};
 use super::CheckRole;
 use crate::format::{ExactValue, Format};
 use crate::measure::{Point, Probe};
+use crate::reference::fast::FastEvaluator;
 use crate::reference::{floor_log2_rational, round_rational, Evaluator, Reference};
 use crate::sweep::Rng;
 use rayon::prelude::*;
@@ -27,6 +28,9 @@ pub struct RoleReferences {
     pub seed: u64,
     /// Kinks of f′: input value and left-hand derivative.
     pub kinks: Vec<(f64, Rational)>,
+    /// Fast paths for f and f′ (`--reference auto`), tried before MPFR; they never disagree
+    /// with it (see `reference::fast`).
+    pub fast: Option<(Option<FastEvaluator>, Option<FastEvaluator>)>,
 }
 
 /// The upstream gradient g for input x: a seeded, representable value in ±[1/2, 2), the same
@@ -57,6 +61,13 @@ fn rounded(format: &dyn Format, q: &Rational) -> Reference {
 }
 
 impl RoleReferences {
+    /// The fast path's reference of f (`forward`) or f′ at x, when it has one and decides it.
+    fn fast_reference(&self, forward: bool, x: u32) -> Option<Reference> {
+        let (f, d) = self.fast.as_ref()?;
+        let evaluator = if forward { f } else { d };
+        evaluator.as_ref()?.try_reference(x)
+    }
+
     fn format(&self) -> &'static dyn Format {
         self.forward.format()
     }
@@ -80,7 +91,10 @@ impl RoleReferences {
         let format = self.format();
         let g = match self.role {
             CheckRole::Forward => {
-                return Ok((self.forward.reference(x).map_err(|e| e.to_string())?, None))
+                if let Some(r) = self.fast_reference(true, x) {
+                    return Ok((r, None));
+                }
+                return Ok((self.forward.reference(x).map_err(|e| e.to_string())?, None));
             }
             CheckRole::Derivative => None,
             CheckRole::Gradient { .. } => {
@@ -88,7 +102,9 @@ impl RoleReferences {
                 Some(Rational::from_f64(format.to_f64(g)).expect("finite g"))
             }
         };
+        let fast = g.is_none().then(|| self.fast_reference(false, x)).flatten();
         let r = match &g {
+            _ if fast.is_some() => Ok(fast.expect("checked")),
             None => self.derivative.reference(x),
             Some(g) => self.derivative.with_scale(Some(g.clone())).reference(x),
         }

@@ -8,7 +8,9 @@
 
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
-use crate::check::{builtin, run_check, CheckConfig, CheckRole, KernelUnderTest, RunnerKernel};
+use crate::check::{
+    builtin, run_check, CheckConfig, CheckRole, KernelUnderTest, ReferencePath, RunnerKernel,
+};
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
 use crate::report::{
     check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
@@ -113,6 +115,10 @@ pub struct Args {
     /// Stop at the first crash or hang instead of carrying on past it.
     #[arg(long)]
     pub stop_on_crash: bool,
+    /// References: `auto` uses the proven fast path where it decides (identical results),
+    /// `mpfr` forces MPFR for every point.
+    #[arg(long, value_enum, default_value_t = ReferencePath::Auto)]
+    pub reference: ReferencePath,
     /// Print no terminal summary.
     #[arg(long)]
     pub quiet: bool,
@@ -297,6 +303,7 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         library: target.library.clone(),
         symbol: target.symbol.clone(),
         progress: !args.no_progress,
+        reference: args.reference,
     })
 }
 

@@ -37,6 +37,7 @@ pub fn defaults() -> Args {
         not_thread_safe: false,
         timeout: 10.0,
         stop_on_crash: false,
+        reference: crate::check::ReferencePath::Auto,
         quiet: true,
         no_progress: true,
         builtin_kernel: None,

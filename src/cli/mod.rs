@@ -5,13 +5,13 @@
 
 mod batch;
 mod certify;
+pub mod check;
 pub mod check_args;
 mod compare;
-mod matrix;
-pub mod check;
 mod eval;
 mod functions;
 mod golden;
+mod matrix;
 mod worker;
 
 use clap::{Parser, Subcommand};
