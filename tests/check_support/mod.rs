@@ -40,6 +40,7 @@ pub fn config(
         library: None,
         symbol: None,
         progress: false,
+        reference: ulpgauge::check::ReferencePath::Auto,
     }
 }
 
