@@ -146,3 +146,38 @@ fn gradient_from_output_kernel_gets_f_of_x() {
     assert!(report.accuracy.figures.points > 1500);
     assert!(report.accuracy.figures.max_ulp > 0.5);
 }
+
+#[test]
+fn a_non_finite_run_may_end_on_the_last_bit_pattern() {
+    // A -ffast-math kernel answers NaN inputs with a finite value; on binary16 the negative
+    // NaNs run up to 0xffff, the very last pattern, where the gap scan must stop (this used to
+    // overflow).
+    use ulpgauge::format::Class;
+    let reference =
+        check_support::evaluator("relu", &Binary16, ulpgauge::activation::Role::Forward);
+    let mut kernel = InProcessKernel::new(move |x, _| {
+        Some(if Binary16.classify(x) == Class::Nan {
+            0
+        } else {
+            reference.reference(x).unwrap().bits
+        })
+    });
+    let config = config(
+        "relu",
+        &Binary16,
+        CheckRole::Forward,
+        &[SweepKind::Dense, SweepKind::Edge],
+        None,
+    );
+    let report = run_check(&mut kernel, &config).unwrap();
+    let runs = serde_json::to_value(&report.non_finite).unwrap();
+    let last = runs
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["last"]["bits"] == "0xffff")
+        .expect("run up to 0xffff");
+    assert_eq!(last["first"]["bits"], "0xfc01");
+    assert_eq!(last["kernel"], "finite");
+    assert_eq!(last["reference"], "nan");
+}
