@@ -38,7 +38,7 @@ impl Activation for Celu {
         }
     }
     fn limit(&self, role: Role, positive: bool, c: &Constants) -> Limit {
-        let alpha = c.get("alpha").exact().expect("rational alpha").clone();
+        let alpha = c.rational("alpha");
         match (role, positive) {
             (Role::Forward, true) => Limit::Infinite { negative: false },
             (Role::Forward, false) => Limit::Finite(-alpha),

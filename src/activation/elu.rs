@@ -37,7 +37,7 @@ impl Activation for Elu {
         }
     }
     fn kinks(&self, c: &Constants) -> Vec<Kink> {
-        let alpha = c.get("alpha").exact().expect("rational alpha").clone();
+        let alpha = c.rational("alpha");
         if alpha == 1 {
             return Vec::new();
         }
@@ -48,7 +48,7 @@ impl Activation for Elu {
         }]
     }
     fn limit(&self, role: Role, positive: bool, c: &Constants) -> Limit {
-        let alpha = c.get("alpha").exact().expect("rational alpha").clone();
+        let alpha = c.rational("alpha");
         match (role, positive) {
             (Role::Forward, true) => Limit::Infinite { negative: false },
             (Role::Forward, false) => Limit::Finite(-alpha),

@@ -38,7 +38,7 @@ impl Activation for LeakyRelu {
         }
     }
     fn kinks(&self, c: &Constants) -> Vec<Kink> {
-        let alpha = c.get("alpha").exact().expect("rational alpha").clone();
+        let alpha = c.rational("alpha");
         if alpha == 1 {
             return Vec::new();
         }
@@ -49,7 +49,7 @@ impl Activation for LeakyRelu {
         }]
     }
     fn limit(&self, role: Role, positive: bool, c: &Constants) -> Limit {
-        let alpha = c.get("alpha").exact().expect("rational alpha").clone();
+        let alpha = c.rational("alpha");
         match (role, positive) {
             (Role::Forward, true) => Limit::Infinite { negative: false },
             (Role::Forward, false) if alpha.is_zero() => Limit::Zero { negative: false },

@@ -224,6 +224,13 @@ impl Constants {
             .unwrap_or_else(|| panic!("unknown constant {name}"))
             .1
     }
+    /// A parameter or constant that is rational by construction (every user parameter is).
+    pub fn rational(&self, name: &str) -> Rational {
+        self.get(name)
+            .exact()
+            .unwrap_or_else(|| panic!("constant {name} is not rational"))
+            .clone()
+    }
     /// All entries in declaration order.
     pub fn entries(&self) -> &[(&'static str, Real)] {
         &self.entries

@@ -14,10 +14,6 @@ const LAMBDA: &str = "1.0507009873554804934193349852946";
 /// α from the same paper.
 const ALPHA: &str = "1.6732632423543772848170429916717";
 
-fn constant(c: &Constants, name: &str) -> Rational {
-    c.get(name).exact().expect("rational SELU constant").clone()
-}
-
 impl Activation for Selu {
     fn name(&self) -> &'static str {
         "selu"
@@ -50,10 +46,10 @@ impl Activation for Selu {
         }
     }
     fn kinks(&self, c: &Constants) -> Vec<Kink> {
-        let lambda = constant(c, "lambda");
+        let lambda = c.rational("lambda");
         vec![Kink {
             at: 0,
-            left: Rational::from(&lambda * &constant(c, "alpha")),
+            left: Rational::from(&lambda * &c.rational("alpha")),
             right: lambda,
         }]
     }
@@ -61,9 +57,9 @@ impl Activation for Selu {
         match (role, positive) {
             (Role::Forward, true) => Limit::Infinite { negative: false },
             (Role::Forward, false) => {
-                Limit::Finite(-(constant(c, "lambda") * constant(c, "alpha")))
+                Limit::Finite(-(c.rational("lambda") * c.rational("alpha")))
             }
-            (Role::Derivative, true) => Limit::Finite(constant(c, "lambda")),
+            (Role::Derivative, true) => Limit::Finite(c.rational("lambda")),
             (Role::Derivative, false) => Limit::Zero { negative: false },
         }
     }
