@@ -56,9 +56,7 @@ impl Activation for Selu {
     fn limit(&self, role: Role, positive: bool, c: &Constants) -> Limit {
         match (role, positive) {
             (Role::Forward, true) => Limit::Infinite { negative: false },
-            (Role::Forward, false) => {
-                Limit::Finite(-(c.rational("lambda") * c.rational("alpha")))
-            }
+            (Role::Forward, false) => Limit::Finite(-(c.rational("lambda") * c.rational("alpha"))),
             (Role::Derivative, true) => Limit::Finite(c.rational("lambda")),
             (Role::Derivative, false) => Limit::Zero { negative: false },
         }

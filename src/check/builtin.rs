@@ -61,7 +61,7 @@ pub fn builtin(
             None => evaluator.reference(x),
             Some(g) => {
                 let g = Rational::from_f64(format.to_f64(g)).expect("finite g");
-                evaluator.with_scale(Some(g)).reference(x)
+                evaluator.reference_scaled(x, Some(&g))
             }
         };
         r.map(|r| r.bits).unwrap_or(format.quiet_nan())

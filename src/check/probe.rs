@@ -106,7 +106,7 @@ impl RoleReferences {
         let r = match &g {
             _ if fast.is_some() => Ok(fast.expect("checked")),
             None => self.derivative.reference(x),
-            Some(g) => self.derivative.with_scale(Some(g.clone())).reference(x),
+            Some(g) => self.derivative.reference_scaled(x, Some(g)),
         }
         .map_err(|e| e.to_string())?;
         let value = format.to_f64(x);

@@ -92,6 +92,16 @@ impl<'a> Evaluator<'a> {
 
     /// The correctly rounded reference at the input pattern `x_bits`.
     pub fn reference(&self, x_bits: u32) -> Result<Reference, ReferenceError> {
+        self.reference_scaled(x_bits, self.scale.as_ref())
+    }
+
+    /// The correctly rounded reference of g·value at `x_bits` (g exact and finite); the
+    /// per-point form of [`Evaluator::with_scale`], which copies nothing.
+    pub fn reference_scaled(
+        &self,
+        x_bits: u32,
+        scale: Option<&Rational>,
+    ) -> Result<Reference, ReferenceError> {
         let format = self.format;
         let negative_input = format.is_sign_negative(x_bits);
         let negative_zero_input = negative_input && format.classify(x_bits) == Class::Zero;
@@ -103,7 +113,7 @@ impl<'a> Evaluator<'a> {
                     precision: 0,
                 })
             }
-            Class::Infinite => return Ok(self.at_infinity(!negative_input)),
+            Class::Infinite => return Ok(self.at_infinity(!negative_input, scale)),
             _ => {}
         }
         let x = Float::with_val(64, format.to_f64(x_bits));
@@ -115,9 +125,9 @@ impl<'a> Evaluator<'a> {
                 constants: &self.constants,
             };
             let value = self.function.eval(&x, self.role, &ctx);
-            let value = self.scaled(value, prec);
+            let value = scaled(value, scale, prec);
             match value {
-                Value::Exact(q) => return Ok(self.exact(&q, negative_zero_input)),
+                Value::Exact(q) => return Ok(self.exact(&q, negative_zero_input, scale)),
                 Value::Enclosed(iv) if iv.is_point() => {
                     let q = iv.lo.to_rational().ok_or_else(|| {
                         ReferenceError(format!(
@@ -125,7 +135,7 @@ impl<'a> Evaluator<'a> {
                             self.function.name()
                         ))
                     })?;
-                    return Ok(self.exact(&q, negative_zero_input));
+                    return Ok(self.exact(&q, negative_zero_input, scale));
                 }
                 Value::Enclosed(iv) => {
                     if let Some(r) = self.decided(&iv, prec) {
@@ -134,7 +144,7 @@ impl<'a> Evaluator<'a> {
                 }
                 Value::Near { base, delta } => {
                     if delta.is_point() && delta.lo.is_zero() {
-                        return Ok(self.exact(&base, negative_zero_input));
+                        return Ok(self.exact(&base, negative_zero_input, scale));
                     }
                     if let Some(r) = self.near(&base, &delta, prec) {
                         return Ok(r);
@@ -153,23 +163,16 @@ impl<'a> Evaluator<'a> {
         }
     }
 
-    fn scaled(&self, value: Value, prec: u32) -> Value {
-        match (&self.scale, value) {
-            (None, v) => v,
-            (Some(g), Value::Exact(q)) => Value::Exact(q * g),
-            (Some(g), Value::Enclosed(iv)) => Value::Enclosed(iv.mul_rational(g, prec)),
-            (Some(g), Value::Near { base, delta }) => Value::Near {
-                base: base * g,
-                delta: delta.mul_rational(g, prec),
-            },
-        }
-    }
-
     /// Rounds an exact rational; an exact zero is +0 except f(−0) = −0 for forward functions
     /// that keep the sign of zero.
-    fn exact(&self, q: &Rational, negative_zero_input: bool) -> Reference {
+    fn exact(
+        &self,
+        q: &Rational,
+        negative_zero_input: bool,
+        scale: Option<&Rational>,
+    ) -> Reference {
         let keeps = self.role == Role::Forward
-            && self.scale.is_none()
+            && scale.is_none()
             && self.function.facts().keeps_negative_zero;
         let negative_zero = keeps && negative_zero_input && q.is_zero();
         let bits = round_rational(q, negative_zero, self.format);
@@ -266,9 +269,9 @@ impl<'a> Evaluator<'a> {
         self.decided(&sum, prec)
     }
 
-    fn at_infinity(&self, positive: bool) -> Reference {
+    fn at_infinity(&self, positive: bool, scale: Option<&Rational>) -> Reference {
         let limit = self.function.limit(self.role, positive, &self.constants);
-        let value = match (limit, &self.scale) {
+        let value = match (limit, scale) {
             (Limit::Finite(q), g) => Limit::Finite(match g {
                 Some(g) => q * g,
                 None => q,
@@ -285,7 +288,7 @@ impl<'a> Evaluator<'a> {
             (l, _) => l,
         };
         match value {
-            Limit::Finite(q) => self.exact(&q, false),
+            Limit::Finite(q) => self.exact(&q, false, None),
             Limit::Zero { negative } => Reference {
                 bits: self.format.encode(negative, 0, 0),
                 exact: Some(ExactValue {
@@ -300,6 +303,19 @@ impl<'a> Evaluator<'a> {
                 precision: 0,
             },
         }
+    }
+}
+
+/// g·value, exactly for rationals and outward for enclosures.
+fn scaled(value: Value, scale: Option<&Rational>, prec: u32) -> Value {
+    match (scale, value) {
+        (None, v) => v,
+        (Some(g), Value::Exact(q)) => Value::Exact(q * g),
+        (Some(g), Value::Enclosed(iv)) => Value::Enclosed(iv.mul_rational(g, prec)),
+        (Some(g), Value::Near { base, delta }) => Value::Near {
+            base: base * g,
+            delta: delta.mul_rational(g, prec),
+        },
     }
 }
 
