@@ -87,7 +87,39 @@ fn exact_digits(evaluator: &Evaluator, format: &dyn Format, bits: u32) -> Option
             Float::with_val(640, &base) + (Float::with_val(321, &delta.lo + &delta.hi) / 2u32)
         }
     };
-    Some(v.to_string_radix(10, Some(40)))
+    Some(plain_decimal(&v.to_string_radix(10, Some(40))))
+}
+
+/// Rewrites MPFR's `d.ddd…e±N` as a plain decimal when −6 ≤ N ≤ 20, which reads better for
+/// activation values; other exponents stay in scientific form.
+fn plain_decimal(text: &str) -> String {
+    let Some((mantissa, exponent)) = text.split_once('e') else {
+        return text.to_string();
+    };
+    let Ok(exponent) = exponent.parse::<i32>() else {
+        return text.to_string();
+    };
+    if !(-6..=20).contains(&exponent) {
+        return text.to_string();
+    }
+    let (sign, digits) = match mantissa.strip_prefix('-') {
+        Some(rest) => ("-", rest),
+        None => ("", mantissa),
+    };
+    let digits: String = digits.chars().filter(|c| *c != '.').collect();
+    let point = exponent + 1;
+    let body = if point <= 0 {
+        format!("0.{}{digits}", "0".repeat((-point) as usize))
+    } else if point as usize >= digits.len() {
+        format!("{digits}{}", "0".repeat(point as usize - digits.len()))
+    } else {
+        format!(
+            "{}.{}",
+            &digits[..point as usize],
+            &digits[point as usize..]
+        )
+    };
+    format!("{sign}{body}")
 }
 
 /// Runs `eval`.
@@ -211,4 +243,19 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         );
     }
     Ok(0)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::plain_decimal;
+
+    #[test]
+    fn plain_decimals() {
+        assert_eq!(plain_decimal("7.25e-1"), "0.725");
+        assert_eq!(plain_decimal("-1.5e2"), "-150");
+        assert_eq!(plain_decimal("1.25e0"), "1.25");
+        assert_eq!(plain_decimal("3.0e-3"), "0.0030");
+        assert_eq!(plain_decimal("7.6e-23"), "7.6e-23");
+        assert_eq!(plain_decimal("0"), "0");
+    }
 }
