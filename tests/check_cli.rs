@@ -76,8 +76,10 @@ fn bad_input_exits_2_with_one_line_and_no_file() {
         let at = args.iter().position(|a| a == flag).unwrap();
         args[at + 1] = value.to_string();
         if value == "f32" {
-            // Exhaustive f32 without --range: 2^32 patterns, refused before any work.
+            // Exhaustive f32 sweeps stream (no size cap any more), so the f32 case is a range
+            // that holds no value: refused before any work.
             args.extend(["--sweep".to_string(), "exhaustive".to_string()]);
+            args.push("--range=1,1".to_string());
         }
         let refs: Vec<&str> = args.iter().map(|s| s.as_str()).collect();
         let (code, _, stderr) = ulpgauge(&refs);

@@ -22,7 +22,7 @@ use crate::measure::{self, Point, Probe, RuleContext};
 use crate::reference::{Evaluator, ParamRounding, Real};
 use crate::report::model::*;
 use crate::report::BitsValue;
-use crate::sweep::{self, Coverage, SweepKind, SweepSpec};
+use crate::sweep::{self, Coverage, Inputs, SweepKind, SweepSpec};
 use rug::Rational;
 use std::path::PathBuf;
 
@@ -76,17 +76,73 @@ pub enum ReferencePath {
 const HYGIENE_SAMPLE: usize = 1024;
 const SPEED_SAMPLE: usize = 8192;
 
+/// Measured inputs evaluated per streamed chunk: the main process holds one chunk of points.
+const STREAM_CHUNK: usize = 1 << 18;
+
 /// An evenly spread sample of the finite inputs.
-fn spread(format: &dyn Format, inputs: &[u32], n: usize) -> Vec<u32> {
-    let finite: Vec<u32> = inputs
-        .iter()
-        .copied()
-        .filter(|&b| measure::is_finite(format, b))
-        .collect();
-    if finite.len() <= n {
-        return finite;
+fn spread(format: &dyn Format, inputs: &Inputs, n: usize) -> Vec<u32> {
+    let finite = inputs.finite(format);
+    let len = finite.len();
+    if len <= n as u64 {
+        return finite.iter().collect();
     }
-    (0..n).map(|i| finite[i * finite.len() / n]).collect()
+    finite.at_sorted((0..n as u64).map(|i| i * len / n as u64))
+}
+
+/// Ordinal span of the finite inputs, if any.
+fn ordinal_span(format: &dyn Format, inputs: &Inputs) -> Option<(i64, i64)> {
+    let ends = inputs
+        .finite(format)
+        .runs()
+        .iter()
+        .flat_map(|&(a, b)| [format.ordinal(a), format.ordinal(b)])
+        .collect::<Vec<i64>>();
+    Some((*ends.iter().min()?, *ends.iter().max()?))
+}
+
+/// What an exhaustive sweep keeps of its points besides the accumulators: the few points
+/// that special-value rules and kink reports look at.
+#[derive(Default)]
+struct Kept {
+    /// Measured points at ±0, at kinks, and the first and last of each sign whose reference
+    /// is subnormal; by input.
+    points: std::collections::BTreeMap<u32, Point>,
+    /// Inputs of the first and last subnormal-reference point of each sign (+, −).
+    subnormal_ends: [Option<(u32, u32)>; 2],
+}
+
+impl Kept {
+    fn add(&mut self, format: &dyn Format, p: &Point) {
+        let sign = format.infinity(true) & !format.infinity(false);
+        if p.input & !sign == 0 || p.left.is_some() {
+            self.points.insert(p.input, p.clone());
+        }
+        if measure::is_finite(format, p.input)
+            && format.classify(p.reference.bits) == crate::format::Class::Subnormal
+        {
+            let side = &mut self.subnormal_ends[format.is_sign_negative(p.input) as usize];
+            match side {
+                None => {
+                    *side = Some((p.input, p.input));
+                    self.points.insert(p.input, p.clone());
+                }
+                Some((_, last)) => {
+                    // Points come in bit order: this one is the new last; the old last goes
+                    // unless it is kept for another reason.
+                    let old = *last;
+                    *last = p.input;
+                    let first = side.expect("set").0;
+                    if old != first && old & !sign != 0 {
+                        let at_kink = self.points.get(&old).is_some_and(|q| q.left.is_some());
+                        if !at_kink {
+                            self.points.remove(&old);
+                        }
+                    }
+                    self.points.insert(p.input, p.clone());
+                }
+            }
+        }
+    }
 }
 
 /// Runs a check of one kernel.
@@ -141,23 +197,58 @@ pub fn run_check(
     probes.sort_unstable();
     probes.dedup();
 
+    let exhaustive = plan.coverage == Coverage::Exhaustive;
     let mut prober = Prober::new(kernel, &refs, config.progress);
-    let measured = prober.probe(&plan.measured);
+    prober.expect(plan.measured.len() + probes.len() as u64);
+    // Measured points stream through the accumulators chunk by chunk, in bit order; a sampled
+    // sweep also keeps them all (its runs' gaps are scanned later), an exhaustive one only the
+    // few that special values and kinks need.
+    let span = exhaustive
+        .then(|| ordinal_span(format, &plan.measured))
+        .flatten();
+    let mut accuracy = measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span);
+    let mut shape =
+        role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone));
+    let mut runs = exhaustive.then(|| measure::NonFiniteStream::new(format));
+    let mut kept = Kept::default();
+    let mut measured: Vec<Point> = Vec::new();
+    for chunk in plan.measured.chunks(STREAM_CHUNK) {
+        let points = prober.probe(&chunk);
+        for p in &points {
+            accuracy.add(p);
+            if let Some(s) = &mut shape {
+                s.add(p);
+            }
+            if let Some(r) = &mut runs {
+                r.add(p);
+                kept.add(format, p);
+            }
+        }
+        if !exhaustive {
+            measured.extend(points);
+        }
+    }
+    if exhaustive {
+        measured = kept.points.into_values().collect();
+    }
     let probe_points = prober.probe(&probes);
     let evaluated_main = prober.evaluated;
+    prober.expect(0);
 
-    let accuracy = measure::accuracy(format, &measured, config.abs_floor, config.list_over);
-    let exhaustive = plan.coverage == Coverage::Exhaustive;
-    let mut run_points: Vec<Point> = measured.clone();
-    if !exhaustive {
-        run_points.extend(
-            probe_points
-                .iter()
-                .filter(|p| spec.range.contains(format, p.input))
-                .cloned(),
-        );
-    }
-    let non_finite = measure::non_finite_runs(format, &run_points, &mut prober, exhaustive);
+    let accuracy = accuracy.finish();
+    let non_finite = match runs {
+        Some(r) => r.finish(),
+        None => {
+            let mut run_points: Vec<Point> = measured.clone();
+            run_points.extend(
+                probe_points
+                    .iter()
+                    .filter(|p| spec.range.contains(format, p.input))
+                    .cloned(),
+            );
+            measure::non_finite_runs(format, &run_points, &mut prober, false)
+        }
+    };
     let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
     let thresholds = measure::thresholds(
         format,
@@ -171,6 +262,8 @@ pub fn run_check(
         keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
         tolerance,
     };
+    // For an exhaustive sweep `measured` holds only the kept points: the rules read the zeros
+    // and the first and last subnormal-reference point per sign, the kinks the kink points.
     let special_values = measure::special_values(format, &probe_points, &measured, &rules_ctx);
     let kinks = if role_is_forward {
         Vec::new()
@@ -181,8 +274,7 @@ pub fn run_check(
         all.dedup_by_key(|p| p.input);
         measure::kink_sides(format, &all, tolerance)
     };
-    let shape =
-        role_is_forward.then(|| measure::shape(format, &measured, function.facts().monotone));
+    let shape = shape.map(|s| s.finish());
 
     let hygiene_sample = spread(format, &plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
@@ -234,7 +326,7 @@ pub fn run_check(
         kinds: spec.kinds.clone(),
         range: spec.range.text.clone(),
         coverage: plan.coverage,
-        inputs: plan.measured.len() as u64,
+        inputs: plan.measured.len(),
         probes: probes.len() as u64,
         extra_inputs: prober.evaluated - evaluated_main,
         per_binade: spec.per_binade,

@@ -139,9 +139,35 @@ pub struct Prober<'a> {
     /// Inputs whose reference could not be decided, with the message; they are left out.
     pub failures: Vec<(u32, String)>,
     progress: bool,
+    /// A bar shared by the calls of a streamed sweep, with its start.
+    shared: Option<(indicatif::ProgressBar, std::time::Instant)>,
+}
+
+fn new_bar(len: u64) -> indicatif::ProgressBar {
+    let bar = indicatif::ProgressBar::with_draw_target(
+        Some(len),
+        indicatif::ProgressDrawTarget::hidden(),
+    );
+    bar.set_style(
+        indicatif::ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} ({eta})")
+            .expect("template")
+            .progress_chars("=> "),
+    );
+    bar.set_message("checking");
+    bar
 }
 
 impl<'a> Prober<'a> {
+    /// Announces `total` inputs to come over several calls (one progress bar for them all);
+    /// 0 ends the announcement.
+    pub fn expect(&mut self, total: u64) {
+        if let Some((bar, _)) = self.shared.take() {
+            bar.finish_and_clear();
+        }
+        if self.progress && total > 0 {
+            self.shared = Some((new_bar(total), std::time::Instant::now()));
+        }
+    }
     /// A prober; `progress` allows a progress bar on stderr.
     pub fn new(
         kernel: &'a mut dyn KernelUnderTest,
@@ -155,6 +181,7 @@ impl<'a> Prober<'a> {
             evaluated: 0,
             failures: Vec::new(),
             progress: progress && std::io::stderr().is_terminal(),
+            shared: None,
         }
     }
     /// The kernel itself (for hygiene and throughput).
@@ -176,20 +203,14 @@ impl<'a> Prober<'a> {
 impl Probe for Prober<'_> {
     /// Inputs whose reference fails are left out (and recorded in `failures`).
     fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
-        let started = std::time::Instant::now();
-        let bar = self.progress.then(|| {
-            let bar = indicatif::ProgressBar::with_draw_target(
-                Some(inputs.len() as u64),
-                indicatif::ProgressDrawTarget::hidden(),
-            );
-            bar.set_style(
-                indicatif::ProgressStyle::with_template("{msg} [{bar:40}] {pos}/{len} ({eta})")
-                    .expect("template")
-                    .progress_chars("=> "),
-            );
-            bar.set_message("checking");
-            bar
-        });
+        let (bar, started, own) = match &self.shared {
+            Some((bar, started)) => (Some(bar.clone()), *started, false),
+            None => (
+                self.progress.then(|| new_bar(inputs.len() as u64)),
+                std::time::Instant::now(),
+                true,
+            ),
+        };
         let mut points = Vec::with_capacity(inputs.len());
         for chunk in inputs.chunks(CHUNK) {
             let computed: Vec<Result<Evaluated, String>> = chunk
@@ -244,7 +265,7 @@ impl Probe for Prober<'_> {
                 }
             }
         }
-        if let Some(bar) = bar {
+        if let Some(bar) = bar.filter(|_| own) {
             bar.finish_and_clear();
         }
         points

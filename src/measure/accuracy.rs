@@ -242,7 +242,7 @@ fn binade_label(format: &dyn Format, bits: u32) -> String {
 struct Acc {
     points: u64,
     max: f64,
-    worst: Option<usize>,
+    worst: Option<u32>,
     sum: ExactSum,
     correct: u64,
     first: u32,
@@ -250,7 +250,7 @@ struct Acc {
 }
 
 impl Acc {
-    fn add(&mut self, i: usize, input: u32, error: f64, correct: bool) {
+    fn add(&mut self, input: u32, error: f64, correct: bool) {
         if self.points == 0 {
             self.first = input;
         }
@@ -259,10 +259,31 @@ impl Acc {
         // Strict comparison keeps the lowest input on ties: points arrive in bit order.
         if self.worst.is_none() || error > self.max {
             self.max = error;
-            self.worst = Some(i);
+            self.worst = Some(input);
         }
         self.sum.add(error);
         self.correct += correct as u64;
+    }
+}
+
+impl Acc {
+    /// Joins the figures of later inputs (all above ours in bit order).
+    fn merge(&mut self, other: Acc) {
+        if other.points == 0 {
+            return;
+        }
+        if self.points == 0 {
+            self.first = other.first;
+        }
+        self.last = other.last;
+        self.points += other.points;
+        // Ties keep ours: our inputs are the lower ones.
+        if self.worst.is_none() || other.max > self.max {
+            self.max = other.max;
+            self.worst = other.worst;
+        }
+        self.sum.merge(&other.sum);
+        self.correct += other.correct;
     }
 }
 
@@ -276,29 +297,95 @@ fn worst_of(format: &dyn Format, p: &Point, j: &Judged, error: f64) -> Worst {
     }
 }
 
-/// Accuracy over `points` (the measured inputs, any order).
-///
-/// `list_over`: points with a larger error are listed in `over_limit` (for CSV).
-pub fn accuracy(
-    format: &dyn Format,
-    points: &[Point],
+/// Largest ordinal span whose errors are kept one per ordinal for the plot buckets; wider
+/// streamed sweeps bucket over a fixed grid (see [`AccuracyAcc::new`]).
+const DENSE_BUCKET_SPAN: i64 = 1 << 20;
+
+/// Where plot samples go.
+enum Samples {
+    /// Every (ordinal, error): buckets span the samples exactly (small, in-memory sweeps).
+    All(Vec<(i64, f64)>),
+    /// Largest error per ordinal of a span known in advance (NaN: no point), then bucketed
+    /// over the samples' own span like `All`.
+    Dense { lo: i64, max: Vec<f64> },
+    /// Buckets fixed in advance over a span (wide streamed sweeps).
+    Grid(Vec<Bucket>),
+}
+
+/// Accuracy figures accumulated point by point, in increasing input bit order, with memory
+/// independent of the number of points (apart from `list_over` listings).
+pub struct AccuracyAcc {
+    format: &'static dyn Format,
     abs_floor: Option<f64>,
     list_over: Option<f64>,
-) -> Accuracy {
-    let mut order: Vec<&Point> = points.iter().collect();
-    order.sort_by_key(|p| p.input);
-    let mut total = Acc::default();
-    let mut faithful = 0u64;
-    let mut histogram = vec![0u64; BINS.len() + 1];
-    let mut binades: Vec<(String, Acc)> = Vec::new();
-    let mut regions: Vec<(Acc, f64)> = (0..REGIONS.len()).map(|_| (Acc::default(), 0.0)).collect();
-    let mut floor_max: (f64, Option<usize>) = (0.0, None);
-    let mut ftz = 0u64;
-    let mut excluded = 0u64;
-    let mut judged: Vec<Option<Judged>> = Vec::with_capacity(order.len());
-    let mut samples: Vec<(i64, f64)> = Vec::new();
-    let mut over_limit = Vec::new();
-    for (i, p) in order.iter().enumerate() {
+    total: Acc,
+    faithful: u64,
+    histogram: Vec<u64>,
+    binades: Vec<(String, Acc)>,
+    regions: Vec<(Acc, f64)>,
+    worst: Option<Worst>,
+    floor_max: (f64, Option<Worst>),
+    ftz: u64,
+    excluded: u64,
+    samples: Samples,
+    over_limit: Vec<Worst>,
+    last_input: Option<u32>,
+}
+
+fn grid(lo: i64, hi: i64) -> Vec<Bucket> {
+    let width = ((hi - lo + 1) + BUCKETS - 1) / BUCKETS;
+    (0..BUCKETS)
+        .map(|k| Bucket {
+            lo: lo + k * width,
+            hi: lo + (k + 1) * width - 1,
+            points: 0,
+            max_ulp: 0.0,
+        })
+        .filter(|b| b.lo <= hi)
+        .collect()
+}
+
+impl AccuracyAcc {
+    /// An empty accumulator. `span`: the ordinals of every finite input the caller will add,
+    /// when known in advance (streamed sweeps); without it every sample is kept for the plot.
+    pub fn new(
+        format: &'static dyn Format,
+        abs_floor: Option<f64>,
+        list_over: Option<f64>,
+        span: Option<(i64, i64)>,
+    ) -> Self {
+        let samples = match span {
+            None => Samples::All(Vec::new()),
+            Some((lo, hi)) if hi - lo < DENSE_BUCKET_SPAN => Samples::Dense {
+                lo,
+                max: vec![f64::NAN; (hi - lo + 1).max(0) as usize],
+            },
+            Some((lo, hi)) => Samples::Grid(grid(lo, hi)),
+        };
+        AccuracyAcc {
+            format,
+            abs_floor,
+            list_over,
+            total: Acc::default(),
+            faithful: 0,
+            histogram: vec![0u64; BINS.len() + 1],
+            binades: Vec::new(),
+            regions: (0..REGIONS.len()).map(|_| (Acc::default(), 0.0)).collect(),
+            worst: None,
+            floor_max: (0.0, None),
+            ftz: 0,
+            excluded: 0,
+            samples,
+            over_limit: Vec::new(),
+            last_input: None,
+        }
+    }
+
+    /// Adds one point; points must come in strictly increasing input bit order.
+    pub fn add(&mut self, p: &Point) {
+        let format = self.format;
+        debug_assert!(self.last_input.map_or(true, |l| l < p.input));
+        self.last_input = Some(p.input);
         let input_finite = is_finite(format, p.input);
         let j = match p.output {
             Some(out) if input_finite && is_finite(format, out) => judge_point(format, p, out),
@@ -306,127 +393,227 @@ pub fn accuracy(
         };
         let Some(j) = j else {
             if input_finite && p.output.is_some() {
-                excluded += 1;
+                self.excluded += 1;
             }
-            judged.push(None);
-            continue;
+            return;
         };
         let out = p.output.expect("judged");
         if format.classify(j.reference) == Class::Subnormal && format.classify(out) == Class::Zero {
-            ftz += 1;
-            judged.push(None);
-            continue;
+            self.ftz += 1;
+            return;
         }
-        total.add(i, p.input, j.error, j.correct);
-        samples.push((format.ordinal(p.input), j.error));
-        if list_over.is_some_and(|limit| j.error > limit) {
-            over_limit.push(worst_of(format, p, &j, j.error));
+        let new_worst = self.total.worst.is_none() || j.error > self.total.max;
+        self.total.add(p.input, j.error, j.correct);
+        if new_worst {
+            self.worst = Some(worst_of(format, p, &j, j.error));
         }
-        faithful += j.faithful as u64;
+        let ordinal = format.ordinal(p.input);
+        match &mut self.samples {
+            Samples::All(v) => v.push((ordinal, j.error)),
+            Samples::Dense { lo, max } => {
+                let slot = &mut max[(ordinal - *lo) as usize];
+                // NaN marks an empty slot; f64::max ignores it.
+                *slot = slot.max(j.error);
+            }
+            Samples::Grid(buckets) => {
+                let (lo, width) = (buckets[0].lo, buckets[0].hi - buckets[0].lo + 1);
+                let b = &mut buckets[((ordinal - lo) / width) as usize];
+                b.points += 1;
+                b.max_ulp = b.max_ulp.max(j.error);
+            }
+        }
+        if self.list_over.is_some_and(|limit| j.error > limit) {
+            self.over_limit.push(worst_of(format, p, &j, j.error));
+        }
+        self.faithful += j.faithful as u64;
         let bin = BINS
             .iter()
             .position(|&b| j.error <= b)
             .unwrap_or(BINS.len());
-        histogram[bin] += 1;
+        self.histogram[bin] += 1;
         let label = binade_label(format, p.input);
-        match binades.last_mut() {
-            Some((l, acc)) if *l == label => acc.add(i, p.input, j.error, j.correct),
+        match self.binades.last_mut() {
+            Some((l, acc)) if *l == label => acc.add(p.input, j.error, j.correct),
             _ => {
                 let mut acc = Acc::default();
-                acc.add(i, p.input, j.error, j.correct);
-                binades.push((label, acc));
+                acc.add(p.input, j.error, j.correct);
+                self.binades.push((label, acc));
             }
         }
         let region = region_of(format.to_f64(p.input));
-        regions[region].0.add(i, p.input, j.error, j.correct);
-        if let Some(a) = abs_floor {
+        self.regions[region].0.add(p.input, j.error, j.correct);
+        if let Some(a) = self.abs_floor {
             let ulp = j.exact.ulp(format);
             let floored = j.error * ulp / ulp.max(a);
-            regions[region].1 = regions[region].1.max(floored);
-            if floor_max.1.is_none() || floored > floor_max.0 {
-                floor_max = (floored, Some(i));
+            self.regions[region].1 = self.regions[region].1.max(floored);
+            if self.floor_max.1.is_none() || floored > self.floor_max.0 {
+                self.floor_max = (floored, Some(worst_of(format, p, &j, floored)));
             }
         }
-        judged.push(Some(j));
     }
-    let fraction = |n: u64| {
-        if total.points == 0 {
-            0.0
-        } else {
-            n as f64 / total.points as f64
+
+    /// Joins an accumulator of later inputs (every one above ours in bit order, same
+    /// settings): the result is the accumulator of all the inputs fed one by one.
+    pub fn merge(&mut self, other: AccuracyAcc) {
+        let new_worst = other.total.worst.is_some()
+            && (self.total.worst.is_none() || other.total.max > self.total.max);
+        if new_worst {
+            self.worst = other.worst;
         }
-    };
-    let worst = total.worst.map(|i| {
-        let j = judged[i].as_ref().expect("worst is judged");
-        worst_of(format, order[i], j, j.error)
-    });
-    // Binades in increasing x: negative rows were met in increasing bit order, i.e. decreasing x.
-    let (mut negative, positive): (Vec<_>, Vec<_>) =
-        binades.into_iter().partition(|(l, _)| l.starts_with('-'));
-    negative.reverse();
-    let per_binade = negative
-        .into_iter()
-        .chain(positive)
-        .map(|(label, acc)| {
-            let (lo, hi) = if label.starts_with('-') {
-                (acc.last, acc.first)
+        self.total.merge(other.total);
+        self.faithful += other.faithful;
+        for (h, o) in self.histogram.iter_mut().zip(other.histogram) {
+            *h += o;
+        }
+        let mut rows = other.binades.into_iter();
+        // Their first row continues our last when both are the same binade.
+        if let Some((label, acc)) = rows.next() {
+            match self.binades.last_mut() {
+                Some((l, mine)) if *l == label => mine.merge(acc),
+                _ => self.binades.push((label, acc)),
+            }
+        }
+        self.binades.extend(rows);
+        for (mine, (acc, floored)) in self.regions.iter_mut().zip(other.regions) {
+            mine.0.merge(acc);
+            mine.1 = mine.1.max(floored);
+        }
+        if other.floor_max.1.is_some()
+            && (self.floor_max.1.is_none() || other.floor_max.0 > self.floor_max.0)
+        {
+            self.floor_max = other.floor_max;
+        }
+        self.ftz += other.ftz;
+        self.excluded += other.excluded;
+        match (&mut self.samples, other.samples) {
+            (Samples::All(mine), Samples::All(theirs)) => mine.extend(theirs),
+            (Samples::Dense { max: mine, .. }, Samples::Dense { max: theirs, .. }) => {
+                for (m, t) in mine.iter_mut().zip(theirs) {
+                    *m = m.max(t);
+                }
+            }
+            (Samples::Grid(mine), Samples::Grid(theirs)) => {
+                for (m, t) in mine.iter_mut().zip(theirs) {
+                    m.points += t.points;
+                    m.max_ulp = m.max_ulp.max(t.max_ulp);
+                }
+            }
+            _ => panic!("merging accumulators of different settings"),
+        }
+        self.over_limit.extend(other.over_limit);
+        self.last_input = other.last_input.or(self.last_input);
+    }
+
+    /// The figures.
+    pub fn finish(self) -> Accuracy {
+        let format = self.format;
+        let total = self.total;
+        let fraction = |n: u64| {
+            if total.points == 0 {
+                0.0
             } else {
-                (acc.first, acc.last)
-            };
-            BinadeRow {
-                binade: label,
-                first: BitsValue::new(format, lo),
-                last: BitsValue::new(format, hi),
+                n as f64 / total.points as f64
+            }
+        };
+        // Binades in increasing x: negative rows were met in increasing bit order, i.e.
+        // decreasing x.
+        let (mut negative, positive): (Vec<_>, Vec<_>) = self
+            .binades
+            .into_iter()
+            .partition(|(l, _)| l.starts_with('-'));
+        negative.reverse();
+        let per_binade = negative
+            .into_iter()
+            .chain(positive)
+            .map(|(label, acc)| {
+                let (lo, hi) = if label.starts_with('-') {
+                    (acc.last, acc.first)
+                } else {
+                    (acc.first, acc.last)
+                };
+                BinadeRow {
+                    binade: label,
+                    first: BitsValue::new(format, lo),
+                    last: BitsValue::new(format, hi),
+                    points: acc.points,
+                    max_ulp: acc.max,
+                    mean_ulp: acc.sum.mean(),
+                    correctly_rounded: acc.correct as f64 / acc.points as f64,
+                    worst_input: BitsValue::new(format, acc.worst.expect("row has points")),
+                }
+            })
+            .collect();
+        let abs_floor = self.abs_floor;
+        let regions = self
+            .regions
+            .into_iter()
+            .enumerate()
+            .map(|(k, (acc, floored))| RegionRow {
+                region: REGIONS[k],
                 points: acc.points,
                 max_ulp: acc.max,
-                mean_ulp: acc.sum.mean(),
-                correctly_rounded: acc.correct as f64 / acc.points as f64,
-                worst_input: BitsValue::new(
-                    format,
-                    order[acc.worst.expect("row has points")].input,
-                ),
+                max_floored: abs_floor.map(|_| floored),
+            })
+            .collect();
+        let floor_max = self.floor_max;
+        let abs_floor = abs_floor.map(|a| FloorView {
+            floor: a,
+            max: floor_max.0,
+            worst: floor_max.1,
+        });
+        let mut bounds: Vec<Option<f64>> = BINS.iter().map(|&b| Some(b)).collect();
+        bounds.push(None);
+        let buckets = match self.samples {
+            Samples::All(v) => buckets(&v),
+            Samples::Dense { lo, max } => {
+                let v: Vec<(i64, f64)> = max
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, e)| !e.is_nan())
+                    .map(|(i, &e)| (lo + i as i64, e))
+                    .collect();
+                buckets(&v)
             }
-        })
-        .collect();
-    let regions = regions
-        .into_iter()
-        .enumerate()
-        .map(|(k, (acc, floored))| RegionRow {
-            region: REGIONS[k],
-            points: acc.points,
-            max_ulp: acc.max,
-            max_floored: abs_floor.map(|_| floored),
-        })
-        .collect();
-    let abs_floor = abs_floor.map(|a| FloorView {
-        floor: a,
-        max: floor_max.0,
-        worst: floor_max.1.map(|i| {
-            let j = judged[i].as_ref().expect("judged");
-            worst_of(format, order[i], j, floor_max.0)
-        }),
-    });
-    let mut bounds: Vec<Option<f64>> = BINS.iter().map(|&b| Some(b)).collect();
-    bounds.push(None);
-    Accuracy {
-        points: total.points,
-        max_ulp: total.max,
-        worst,
-        mean_ulp: total.sum.mean(),
-        rms_ulp: total.sum.rms(),
-        correctly_rounded: fraction(total.correct),
-        faithful: fraction(faithful),
-        histogram: bounds
-            .into_iter()
-            .zip(histogram)
-            .map(|(up_to, count)| HistogramBin { up_to, count })
-            .collect(),
-        per_binade,
-        regions,
-        abs_floor,
-        flush_to_zero_outputs: ftz,
-        excluded_non_finite: excluded,
-        buckets: buckets(&samples),
-        over_limit,
+            Samples::Grid(b) => b,
+        };
+        Accuracy {
+            points: total.points,
+            max_ulp: total.max,
+            worst: self.worst,
+            mean_ulp: total.sum.mean(),
+            rms_ulp: total.sum.rms(),
+            correctly_rounded: fraction(total.correct),
+            faithful: fraction(self.faithful),
+            histogram: bounds
+                .into_iter()
+                .zip(self.histogram)
+                .map(|(up_to, count)| HistogramBin { up_to, count })
+                .collect(),
+            per_binade,
+            regions,
+            abs_floor,
+            flush_to_zero_outputs: self.ftz,
+            excluded_non_finite: self.excluded,
+            buckets,
+            over_limit: self.over_limit,
+        }
     }
+}
+
+/// Accuracy over `points` (the measured inputs, any order).
+///
+/// `list_over`: points with a larger error are listed in `over_limit` (for CSV).
+pub fn accuracy(
+    format: &'static dyn Format,
+    points: &[Point],
+    abs_floor: Option<f64>,
+    list_over: Option<f64>,
+) -> Accuracy {
+    let mut order: Vec<&Point> = points.iter().collect();
+    order.sort_by_key(|p| p.input);
+    let mut acc = AccuracyAcc::new(format, abs_floor, list_over, None);
+    for p in order {
+        acc.add(p);
+    }
+    acc.finish()
 }

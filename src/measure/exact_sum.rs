@@ -1,57 +1,120 @@
 //! Order-independent exact sums of binary64 values and of their squares.
 //!
-//! Every finite binary64 is an integer multiple of 2^−1074, and its square of 2^−2148, so both
-//! sums are kept as big integers in those units: addition is exact, the result does not depend
-//! on the order (or the thread) in which points arrive, and the final division rounds once.
+//! Every finite binary64 v is k·2^x with an integer |k| < 2^53 and x = (exponent field) − 1075
+//! (−1074 for subnormals), so the values sharing one exponent field add exactly as integers:
+//! Σk fits an i128 for any count below 2^74, and Σk² (each < 2^106) fits a u128 plus a u64 carry
+//! counter for any count below 2^86. The sums are kept per exponent field (no allocation per
+//! value) and only [`ExactSum::mean`]/[`ExactSum::rms`] join them into big integers in units of
+//! 2^−1074 and 2^−2148: the result is the exact sum whatever the order, the thread or the shard
+//! in which values arrive, and the final division rounds once.
 
 use rug::{Integer, Rational};
 
+/// Σk, Σk² of the values with one exponent field.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+struct Slot {
+    sum: i128,
+    squares_lo: u128,
+    squares_carries: u64,
+}
+
 /// Exact running sums Σv and Σv².
-#[derive(Clone, Debug, Default)]
+#[derive(Clone, Debug, Default, PartialEq, Eq)]
 pub struct ExactSum {
-    sum: Integer,
-    squares: Integer,
+    /// Slots for exponent fields `base..base + slots.len()`.
+    slots: Vec<Slot>,
+    base: usize,
     count: u64,
 }
 
-/// v = k·2^e with integer k, for finite v.
-fn decompose(v: f64) -> (i64, i32) {
+/// v = k·2^x with integer k, as (k, exponent field with subnormals at 1).
+fn decompose(v: f64) -> (i64, usize) {
     let bits = v.to_bits();
-    let field = ((bits >> 52) & 0x7ff) as i32;
+    let field = ((bits >> 52) & 0x7ff) as usize;
     let mant = (bits & ((1u64 << 52) - 1)) as i64;
-    let (k, e) = if field == 0 {
-        (mant, -1074)
+    let (k, field) = if field == 0 {
+        (mant, 1)
     } else {
-        (mant | (1i64 << 52), field - 1075)
+        (mant | (1i64 << 52), field)
     };
-    (if v.is_sign_negative() { -k } else { k }, e)
+    (if v.is_sign_negative() { -k } else { k }, field)
+}
+
+impl Slot {
+    fn add(&mut self, k: i64) {
+        self.sum += k as i128;
+        let sq = (k.unsigned_abs() as u128) * (k.unsigned_abs() as u128);
+        let (lo, carry) = self.squares_lo.overflowing_add(sq);
+        self.squares_lo = lo;
+        self.squares_carries += carry as u64;
+    }
+    fn merge(&mut self, other: &Slot) {
+        self.sum += other.sum;
+        let (lo, carry) = self.squares_lo.overflowing_add(other.squares_lo);
+        self.squares_lo = lo;
+        self.squares_carries += other.squares_carries + carry as u64;
+    }
 }
 
 impl ExactSum {
+    fn slot(&mut self, field: usize) -> &mut Slot {
+        if self.slots.is_empty() {
+            self.base = field;
+        }
+        if field < self.base {
+            let grow = self.base - field;
+            self.slots
+                .splice(0..0, std::iter::repeat(Slot::default()).take(grow));
+            self.base = field;
+        }
+        let i = field - self.base;
+        if i >= self.slots.len() {
+            self.slots.resize(i + 1, Slot::default());
+        }
+        &mut self.slots[i]
+    }
     /// Adds a finite value.
     pub fn add(&mut self, v: f64) {
         debug_assert!(v.is_finite());
-        let (k, e) = decompose(v);
-        self.sum += Integer::from(k) << (e + 1074) as u32;
-        self.squares += Integer::from(k).square() << (2 * e + 2148) as u32;
         self.count += 1;
+        let (k, field) = decompose(v);
+        if k != 0 {
+            self.slot(field).add(k);
+        }
     }
     /// Adds another sum.
     pub fn merge(&mut self, other: &ExactSum) {
-        self.sum += &other.sum;
-        self.squares += &other.squares;
+        for (i, s) in other.slots.iter().enumerate() {
+            if *s != Slot::default() {
+                self.slot(other.base + i).merge(s);
+            }
+        }
         self.count += other.count;
     }
     /// Number of values.
     pub fn count(&self) -> u64 {
         self.count
     }
+    /// Σv in units of 2^−1074 and Σv² in units of 2^−2148, as big integers.
+    pub fn totals(&self) -> (Integer, Integer) {
+        let mut sum = Integer::new();
+        let mut squares = Integer::new();
+        for (i, s) in self.slots.iter().enumerate() {
+            // x + 1074 = field − 1 ≥ 0 (subnormals sit at field 1).
+            let shift = (self.base + i - 1) as u32;
+            sum += Integer::from(s.sum) << shift;
+            let sq = (Integer::from(s.squares_carries) << 128u32) + Integer::from(s.squares_lo);
+            squares += sq << (2 * shift);
+        }
+        (sum, squares)
+    }
     /// Mean, correctly rounded to binary64 (0 for no values).
     pub fn mean(&self) -> f64 {
         if self.count == 0 {
             return 0.0;
         }
-        let mean = Rational::from((self.sum.clone(), Integer::from(self.count))) >> 1074u32;
+        let (sum, _) = self.totals();
+        let mean = Rational::from((sum, Integer::from(self.count))) >> 1074u32;
         // Through a 53-bit MPFR number: rounds to nearest (Rational::to_f64 truncates).
         rug::Float::with_val(53, &mean).to_f64()
     }
@@ -60,7 +123,8 @@ impl ExactSum {
         if self.count == 0 {
             return 0.0;
         }
-        let mean_sq = Rational::from((self.squares.clone(), Integer::from(self.count))) >> 2148u32;
+        let (_, squares) = self.totals();
+        let mean_sq = Rational::from((squares, Integer::from(self.count))) >> 2148u32;
         // The square root of the exact mean of squares at 200 bits, then to 53: the double
         // rounding could only show within 2^−200 relative of a binary64 tie.
         let root = rug::Float::with_val(200, &mean_sq).sqrt();
@@ -87,5 +151,54 @@ mod tests {
         assert_eq!(c.mean(), 3.5);
         // rms of 3 and 4 is sqrt(12.5).
         assert_eq!(c.rms(), 12.5f64.sqrt());
+    }
+
+    #[test]
+    fn slots_match_big_integer_sums_and_merge() {
+        use rug::Integer;
+        // Big-integer sums computed directly, value by value, as the reference.
+        let values = [
+            0.0,
+            0.25,
+            1.5,
+            3.0e-5,
+            7.0,
+            2f64.powi(-1074),
+            2f64.powi(-1022),
+            1e300,
+            0.1,
+            0.1,
+        ];
+        let (mut sum, mut squares) = (Integer::new(), Integer::new());
+        let mut whole = ExactSum::default();
+        let (mut left, mut right) = (ExactSum::default(), ExactSum::default());
+        for (i, &v) in values.iter().enumerate() {
+            let q = rug::Rational::from_f64(v).unwrap();
+            sum += Integer::from((q.clone() << 1074u32).numer());
+            squares += Integer::from(((q.clone() * &q) << 2148u32).numer());
+            whole.add(v);
+            if i % 2 == 0 {
+                left.add(v)
+            } else {
+                right.add(v)
+            }
+        }
+        assert_eq!(whole.totals(), (sum, squares));
+        right.merge(&left);
+        assert_eq!(right.totals(), whole.totals());
+        assert_eq!(right.count(), whole.count());
+        // Carries of Σk²: 2^23 values of (2^53 − 1)·2^-52 overflow a u128 of squares.
+        let mut many = ExactSum::default();
+        let v = f64::from_bits(0x3fff_ffff_ffff_ffff);
+        for _ in 0..(1u32 << 23) {
+            many.add(v);
+        }
+        let k = Integer::from((1u64 << 53) - 1);
+        let shift = 1074 - 52;
+        assert_eq!(
+            many.totals().1,
+            (k.clone() * &k * (1u64 << 23)) << (2 * shift)
+        );
+        assert_eq!(many.totals().0, (k * (1u64 << 23)) << shift);
     }
 }

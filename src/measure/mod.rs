@@ -13,12 +13,12 @@ mod special;
 mod thresholds;
 
 pub use accuracy::{
-    accuracy, Accuracy, BinadeRow, Bucket, FloorView, HistogramBin, RegionRow, Worst,
+    accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, FloorView, HistogramBin, RegionRow, Worst,
 };
 pub use exact_sum::ExactSum;
 pub use kinks::{kink_sides, KinkSide};
-pub use nonfinite::{non_finite_runs, NonFiniteRun};
-pub use shape::{shape, Jump, Shape, Violation};
+pub use nonfinite::{non_finite_runs, NonFiniteRun, NonFiniteStream};
+pub use shape::{shape, Jump, Shape, ShapeAcc, Violation};
 pub use special::{special_values, RuleContext, SpecialRule};
 pub use thresholds::{thresholds, ThresholdReport};
 
@@ -61,3 +61,6 @@ pub fn value_class(format: &dyn Format, bits: u32) -> &'static str {
 pub fn is_finite(format: &dyn Format, bits: u32) -> bool {
     !matches!(format.classify(bits), Class::Nan | Class::Infinite)
 }
+
+#[cfg(test)]
+mod merge_tests;

@@ -48,26 +48,61 @@ struct Raw {
     known: u64,
 }
 
-/// Runs among the known points, joining neighbours in the known list of the same sign.
-fn raw_runs(format: &dyn Format, known: &BTreeMap<u32, Option<Classes>>) -> Vec<Raw> {
-    let sign = format.infinity(true) & !format.infinity(false);
-    let mut runs: Vec<Raw> = Vec::new();
-    let mut previous: Option<(u32, Option<Classes>)> = None;
-    for (&bits, &c) in known {
-        let mismatch = c.filter(|(k, r)| k != r);
-        let joins = match (previous, mismatch) {
+/// Builds runs from known points fed in increasing bit order, joining neighbours in the known
+/// list of the same sign.
+struct RunBuilder {
+    sign: u32,
+    previous: Option<(u32, Option<Classes>)>,
+    /// The first known point, to join a run across a merge.
+    first: Option<(u32, Option<Classes>)>,
+    runs: Vec<Raw>,
+}
+
+impl RunBuilder {
+    fn new(format: &dyn Format) -> Self {
+        RunBuilder {
+            sign: format.infinity(true) & !format.infinity(false),
+            previous: None,
+            first: None,
+            runs: Vec::new(),
+        }
+    }
+    /// Whether a mismatch at `bits` continues the run of the previous known point.
+    fn joins(&self, bits: u32, mismatch: Option<Classes>) -> bool {
+        match (self.previous, mismatch) {
             (Some((pb, Some(pc))), Some(mc)) => {
-                pc == mc && (pb & sign) == (bits & sign) && pc.0 != pc.1
+                pc == mc && (pb & self.sign) == (bits & self.sign) && pc.0 != pc.1
             }
             _ => false,
+        }
+    }
+    /// Joins a builder of later points (all above ours in bit order).
+    fn merge(&mut self, other: RunBuilder) {
+        let Some((bits, c)) = other.first else {
+            return;
         };
+        let mut runs = other.runs.into_iter().peekable();
+        if self.joins(bits, c.filter(|(k, r)| k != r)) {
+            let head = runs.next().expect("a mismatch starts a run");
+            let run = self.runs.last_mut().expect("joined run");
+            run.last = head.last;
+            run.known += head.known;
+        }
+        self.runs.extend(runs);
+        self.first = self.first.or(other.first);
+        self.previous = other.previous;
+    }
+    fn push(&mut self, bits: u32, c: Option<Classes>) {
+        let mismatch = c.filter(|(k, r)| k != r);
+        let joins = self.joins(bits, mismatch);
+        self.first.get_or_insert((bits, c));
         if let Some(mc) = mismatch {
             if joins {
-                let run = runs.last_mut().expect("joined run");
+                let run = self.runs.last_mut().expect("joined run");
                 run.last = bits;
                 run.known += 1;
             } else {
-                runs.push(Raw {
+                self.runs.push(Raw {
                     first: bits,
                     last: bits,
                     classes: mc,
@@ -75,9 +110,73 @@ fn raw_runs(format: &dyn Format, known: &BTreeMap<u32, Option<Classes>>) -> Vec<
                 });
             }
         }
-        previous = Some((bits, c));
+        self.previous = Some((bits, c));
     }
-    runs
+}
+
+/// Runs among the known points, joining neighbours in the known list of the same sign.
+fn raw_runs(format: &dyn Format, known: &BTreeMap<u32, Option<Classes>>) -> Vec<Raw> {
+    let mut builder = RunBuilder::new(format);
+    for (&bits, &c) in known {
+        builder.push(bits, c);
+    }
+    builder.runs
+}
+
+fn report(
+    format: &dyn Format,
+    raw: Vec<Raw>,
+    exhaustive: bool,
+    inexact: &[u32],
+) -> Vec<NonFiniteRun> {
+    raw.into_iter()
+        .map(|r| {
+            let count = (r.last - r.first) as u64 + 1;
+            NonFiniteRun {
+                first: BitsValue::new(format, r.first),
+                last: BitsValue::new(format, r.last),
+                count,
+                kernel: r.classes.0,
+                reference: r.classes.1,
+                exact_ends: exhaustive || !inexact.iter().any(|&b| b == r.first || b == r.last),
+                interior: if r.known == count {
+                    "exhaustive"
+                } else {
+                    "sampled"
+                },
+            }
+        })
+        .collect()
+}
+
+/// The runs of an exhaustive sweep, from its points fed in increasing bit order (chunk by
+/// chunk): the same runs [`non_finite_runs`] finds with `exhaustive` set, in constant memory
+/// apart from the runs themselves.
+pub struct NonFiniteStream {
+    format: &'static dyn Format,
+    builder: RunBuilder,
+}
+
+impl NonFiniteStream {
+    /// An empty stream.
+    pub fn new(format: &'static dyn Format) -> Self {
+        NonFiniteStream {
+            format,
+            builder: RunBuilder::new(format),
+        }
+    }
+    /// Adds the next point in bit order.
+    pub fn add(&mut self, p: &Point) {
+        self.builder.push(p.input, classes(self.format, p));
+    }
+    /// Joins a stream of later points (all above ours in bit order).
+    pub fn merge(&mut self, other: NonFiniteStream) {
+        self.builder.merge(other.builder);
+    }
+    /// The runs.
+    pub fn finish(self) -> Vec<NonFiniteRun> {
+        report(self.format, self.builder.runs, true, &[])
+    }
 }
 
 /// Finds the runs among `points`; unless `exhaustive`, scans the gaps next to every run through
@@ -135,25 +234,7 @@ pub fn non_finite_runs(
             known.insert(p.input, classes(format, &p));
         }
     }
-    raw_runs(format, &known)
-        .into_iter()
-        .map(|r| {
-            let count = (r.last - r.first) as u64 + 1;
-            NonFiniteRun {
-                first: BitsValue::new(format, r.first),
-                last: BitsValue::new(format, r.last),
-                count,
-                kernel: r.classes.0,
-                reference: r.classes.1,
-                exact_ends: exhaustive || !inexact.iter().any(|&b| b == r.first || b == r.last),
-                interior: if r.known == count {
-                    "exhaustive"
-                } else {
-                    "sampled"
-                },
-            }
-        })
-        .collect()
+    report(format, raw_runs(format, &known), exhaustive, &inexact)
 }
 
 #[cfg(test)]

@@ -50,60 +50,331 @@ pub struct Shape {
     pub jumps: Vec<Jump>,
 }
 
-/// Shape findings over the measured points (forward role).
-pub fn shape(format: &dyn Format, points: &[Point], monotone_function: bool) -> Shape {
-    let mut ordered: Vec<&Point> = points
-        .iter()
-        .filter(|p| is_finite(format, p.input) && p.output.is_some_and(|o| is_finite(format, o)))
-        .collect();
-    // Increasing x; −0 before +0.
-    ordered.sort_by_key(|p| (format.ordinal(p.input), !format.is_sign_negative(p.input)));
-    let mut violations = Vec::new();
-    let mut violation_count = 0;
-    let mut jumps = Vec::new();
-    for w in ordered.windows(2) {
-        let (a, b) = (w[0], w[1]);
-        let (oa, ob) = (a.output.expect("finite"), b.output.expect("finite"));
-        let (ka, kb) = (format.ordinal(oa), format.ordinal(ob));
-        if monotone_function && kb < ka {
-            violation_count += 1;
-            if violations.len() < EXAMPLES {
-                violations.push(Violation {
-                    from: BitsValue::new(format, a.input),
-                    to: BitsValue::new(format, b.input),
-                    from_output: BitsValue::new(format, oa),
-                    to_output: BitsValue::new(format, ob),
-                });
-            }
-        }
-        let adjacent = format.ordinal(b.input) - format.ordinal(a.input) <= 1;
-        if adjacent && is_finite(format, a.reference.bits) && is_finite(format, b.reference.bits) {
-            let kernel_steps = ka.abs_diff(kb);
-            let reference_steps = format
-                .ordinal(a.reference.bits)
-                .abs_diff(format.ordinal(b.reference.bits));
-            if kernel_steps > 2 * reference_steps + 16 {
-                jumps.push((a.input, b.input, kernel_steps, reference_steps));
-            }
+/// The fields of a point that shape findings look at.
+#[derive(Clone, Copy, Debug)]
+struct Seen {
+    input: u32,
+    output: u32,
+    reference: u32,
+}
+
+/// Findings of one sign's inputs, fed in increasing bit order (increasing |x|).
+#[derive(Default)]
+struct Side {
+    first: Option<Seen>,
+    last: Option<Seen>,
+    /// Violations in the order met: for x < 0 only the last few met are kept (they come
+    /// first in increasing x).
+    violations: std::collections::VecDeque<Violation>,
+    violation_count: u64,
+}
+
+/// Shape findings accumulated point by point in increasing bit order (chunk by chunk), with
+/// memory independent of the number of points; the same findings as [`shape`].
+pub struct ShapeAcc {
+    format: &'static dyn Format,
+    monotone_function: bool,
+    positive: Side,
+    negative: Side,
+    /// The largest few jumps: (from, to, kernel steps, reference steps).
+    jumps: Vec<(u32, u32, u64, u64)>,
+    jump_count: u64,
+}
+
+/// Largest excess first; ties to the lowest input.
+fn jump_order(x: &(u32, u32, u64, u64), y: &(u32, u32, u64, u64)) -> std::cmp::Ordering {
+    (y.2 - y.3).cmp(&(x.2 - x.3)).then(x.0.cmp(&y.0))
+}
+
+impl ShapeAcc {
+    /// An empty accumulator.
+    pub fn new(format: &'static dyn Format, monotone_function: bool) -> Self {
+        ShapeAcc {
+            format,
+            monotone_function,
+            positive: Side::default(),
+            negative: Side::default(),
+            jumps: Vec::new(),
+            jump_count: 0,
         }
     }
-    let jump_count = jumps.len() as u64;
-    // Largest excess first; ties to the lowest input.
-    jumps.sort_by(|x, y| (y.2 - y.3).cmp(&(x.2 - x.3)).then(x.0.cmp(&y.0)));
-    Shape {
-        monotone_function,
-        monotonicity_violations: violation_count,
-        violations,
-        jump_count,
-        jumps: jumps
+
+    /// The pair a < b (in x) of neighbouring evaluated inputs.
+    fn pair(&mut self, a: Seen, b: Seen) -> Option<Violation> {
+        let format = self.format;
+        let (ka, kb) = (format.ordinal(a.output), format.ordinal(b.output));
+        let adjacent = format.ordinal(b.input) - format.ordinal(a.input) <= 1;
+        if adjacent && is_finite(format, a.reference) && is_finite(format, b.reference) {
+            let kernel_steps = ka.abs_diff(kb);
+            let reference_steps = format
+                .ordinal(a.reference)
+                .abs_diff(format.ordinal(b.reference));
+            if kernel_steps > 2 * reference_steps + 16 {
+                self.jump_count += 1;
+                self.jumps
+                    .push((a.input, b.input, kernel_steps, reference_steps));
+                if self.jumps.len() > 4 * EXAMPLES {
+                    self.jumps.sort_by(jump_order);
+                    self.jumps.truncate(EXAMPLES);
+                }
+            }
+        }
+        (self.monotone_function && kb < ka).then(|| Violation {
+            from: BitsValue::new(format, a.input),
+            to: BitsValue::new(format, b.input),
+            from_output: BitsValue::new(format, a.output),
+            to_output: BitsValue::new(format, b.output),
+        })
+    }
+
+    /// Adds the next point in bit order.
+    pub fn add(&mut self, p: &Point) {
+        let format = self.format;
+        let Some(output) = p.output.filter(|&o| is_finite(format, o)) else {
+            return;
+        };
+        if !is_finite(format, p.input) {
+            return;
+        }
+        let seen = Seen {
+            input: p.input,
+            output,
+            reference: p.reference.bits,
+        };
+        let negative = format.is_sign_negative(p.input);
+        let last = if negative {
+            self.negative.last
+        } else {
+            self.positive.last
+        };
+        if let Some(prev) = last {
+            // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
+            let (a, b) = if negative { (seen, prev) } else { (prev, seen) };
+            let found = self.pair(a, b);
+            let side = if negative {
+                &mut self.negative
+            } else {
+                &mut self.positive
+            };
+            if let Some(v) = found {
+                side.violation_count += 1;
+                if negative {
+                    side.violations.push_back(v);
+                    if side.violations.len() > EXAMPLES {
+                        side.violations.pop_front();
+                    }
+                } else if side.violations.len() < EXAMPLES {
+                    side.violations.push_back(v);
+                }
+            }
+        }
+        let side = if negative {
+            &mut self.negative
+        } else {
+            &mut self.positive
+        };
+        side.first.get_or_insert(seen);
+        side.last = Some(seen);
+    }
+
+    /// Joins an accumulator of later points (all above ours in bit order).
+    pub fn merge(&mut self, other: ShapeAcc) {
+        // The pairs across the seam: our last and their first point of each sign.
+        if let (Some(a), Some(b)) = (self.positive.last, other.positive.first) {
+            if let Some(v) = self.pair(a, b) {
+                self.positive.violation_count += 1;
+                self.positive.violations.push_back(v);
+            }
+        }
+        if let (Some(prev), Some(next)) = (self.negative.last, other.negative.first) {
+            if let Some(v) = self.pair(next, prev) {
+                self.negative.violation_count += 1;
+                self.negative.violations.push_back(v);
+            }
+        }
+        for (mine, theirs) in [
+            (&mut self.positive, other.positive),
+            (&mut self.negative, other.negative),
+        ] {
+            mine.violation_count += theirs.violation_count;
+            mine.violations.extend(theirs.violations);
+            mine.first = mine.first.or(theirs.first);
+            mine.last = theirs.last.or(mine.last);
+        }
+        // x ≥ 0 keeps the first few met, x < 0 the last few.
+        self.positive.violations.truncate(EXAMPLES);
+        let extra = self.negative.violations.len().saturating_sub(EXAMPLES);
+        self.negative.violations.drain(..extra);
+        self.jump_count += other.jump_count;
+        self.jumps.extend(other.jumps);
+        self.jumps.sort_by(jump_order);
+        self.jumps.truncate(EXAMPLES);
+    }
+
+    /// The findings.
+    pub fn finish(mut self) -> Shape {
+        // The pair across zero: the negative input nearest zero (first in bit order) and the
+        // smallest positive one.
+        let across = match (self.negative.first, self.positive.first) {
+            (Some(a), Some(b)) => self.pair(a, b),
+            _ => None,
+        };
+        let violation_count =
+            self.negative.violation_count + self.positive.violation_count + across.is_some() as u64;
+        let violations = self
+            .negative
+            .violations
             .into_iter()
+            .rev()
+            .chain(across)
+            .chain(self.positive.violations)
             .take(EXAMPLES)
-            .map(|(a, b, k, r)| Jump {
-                from: BitsValue::new(format, a),
-                to: BitsValue::new(format, b),
-                kernel_steps: k,
-                reference_steps: r,
+            .collect();
+        self.jumps.sort_by(jump_order);
+        let format = self.format;
+        Shape {
+            monotone_function: self.monotone_function,
+            monotonicity_violations: violation_count,
+            violations,
+            jump_count: self.jump_count,
+            jumps: self
+                .jumps
+                .into_iter()
+                .take(EXAMPLES)
+                .map(|(a, b, k, r)| Jump {
+                    from: BitsValue::new(format, a),
+                    to: BitsValue::new(format, b),
+                    kernel_steps: k,
+                    reference_steps: r,
+                })
+                .collect(),
+        }
+    }
+}
+
+/// Shape findings over the measured points (forward role).
+pub fn shape(format: &'static dyn Format, points: &[Point], monotone_function: bool) -> Shape {
+    let mut order: Vec<&Point> = points.iter().collect();
+    order.sort_by_key(|p| p.input);
+    let mut acc = ShapeAcc::new(format, monotone_function);
+    for p in order {
+        acc.add(p);
+    }
+    acc.finish()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::format::Binary16;
+    use crate::reference::Reference;
+
+    /// The findings as first written: every point held, sorted by x, windows of two.
+    type Found = (u64, Vec<(u32, u32)>, u64, Vec<(u32, u64, u64)>);
+    fn sorted_windows(format: &dyn Format, points: &[Point]) -> Found {
+        let mut ordered: Vec<&Point> = points
+            .iter()
+            .filter(|p| {
+                is_finite(format, p.input) && p.output.is_some_and(|o| is_finite(format, o))
             })
-            .collect(),
+            .collect();
+        ordered.sort_by_key(|p| (format.ordinal(p.input), !format.is_sign_negative(p.input)));
+        let (mut count, mut violations, mut jumps) = (0, Vec::new(), Vec::new());
+        for w in ordered.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            let (ka, kb) = (
+                format.ordinal(a.output.unwrap()),
+                format.ordinal(b.output.unwrap()),
+            );
+            if kb < ka {
+                count += 1;
+                if violations.len() < EXAMPLES {
+                    violations.push((a.input, b.input));
+                }
+            }
+            let adjacent = format.ordinal(b.input) - format.ordinal(a.input) <= 1;
+            if adjacent
+                && is_finite(format, a.reference.bits)
+                && is_finite(format, b.reference.bits)
+            {
+                let k = ka.abs_diff(kb);
+                let r = format
+                    .ordinal(a.reference.bits)
+                    .abs_diff(format.ordinal(b.reference.bits));
+                if k > 2 * r + 16 {
+                    jumps.push((a.input, k, r));
+                }
+            }
+        }
+        jumps.sort_by(|x, y| (y.1 - y.2).cmp(&(x.1 - x.2)).then(x.0.cmp(&y.0)));
+        let jump_count = jumps.len() as u64;
+        jumps.truncate(EXAMPLES);
+        (count, violations, jump_count, jumps)
+    }
+
+    #[test]
+    fn streamed_findings_equal_sorted_windows() {
+        let f = &Binary16;
+        let mut rng = crate::sweep::Rng::new(7);
+        for trial in 0..20 {
+            // A noisy increasing function of x over both signs, with holes, crashes,
+            // non-finite outputs and big jumps, sampled more or less densely.
+            let step = if trial % 4 == 3 { 2 } else { 1 };
+            let points: Vec<Point> = (0..0x1_0000u32)
+                .step_by(step as usize)
+                .filter_map(|x| {
+                    let r = rng.next_u64();
+                    if r % 10 == 3 {
+                        return None;
+                    }
+                    let o = f.ordinal(x).clamp(-0x7bff, 0x7bff) / 4;
+                    let noise = (r % 5) as i64 - 2 + if r % 97 == 0 { 300 } else { 0 };
+                    let out = f.from_ordinal((o + noise).clamp(-0x7bff, 0x7bff));
+                    Some(Point {
+                        input: x,
+                        second: None,
+                        output: match r % 53 {
+                            0 => None,
+                            1 => Some(0x7e00),
+                            _ => Some(out),
+                        },
+                        reference: Reference {
+                            bits: f.from_ordinal(o),
+                            exact: None,
+                            precision: 0,
+                        },
+                        left: None,
+                    })
+                })
+                .collect();
+            let streamed = shape(f, &points, true);
+            let (count, violations, jump_count, jumps) = sorted_windows(f, &points);
+            assert_eq!(streamed.jump_count, jump_count);
+            assert!(count > EXAMPLES as u64 && (step > 1 || jumps.len() == EXAMPLES));
+            assert_eq!(streamed.monotonicity_violations, count);
+            let got: Vec<(u32, u32)> = streamed
+                .violations
+                .iter()
+                .map(|v| {
+                    (
+                        crate::format::parse_hex(f, &v.from.bits).unwrap(),
+                        crate::format::parse_hex(f, &v.to.bits).unwrap(),
+                    )
+                })
+                .collect();
+            assert_eq!(got, violations);
+            let got: Vec<(u32, u64, u64)> = streamed
+                .jumps
+                .iter()
+                .map(|j| {
+                    (
+                        crate::format::parse_hex(f, &j.from.bits).unwrap(),
+                        j.kernel_steps,
+                        j.reference_steps,
+                    )
+                })
+                .collect();
+            assert_eq!(got, jumps);
+        }
     }
 }

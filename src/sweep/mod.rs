@@ -7,6 +7,7 @@
 mod bits;
 mod dense;
 mod edge;
+mod inputs;
 mod interesting;
 mod random;
 mod range;
@@ -14,6 +15,7 @@ mod range;
 pub use bits::FormatBits;
 pub use dense::dense;
 pub use edge::format_specials;
+pub use inputs::Inputs;
 pub use interesting::{
     derivative_peak, find_threshold, interesting_points, reference_thresholds, Interesting,
     Threshold, ThresholdKind,
@@ -71,7 +73,7 @@ pub enum Coverage {
 #[derive(Clone, Debug)]
 pub struct Plan {
     /// Measured inputs, in increasing bit order, without duplicates.
-    pub measured: Vec<u32>,
+    pub measured: Inputs,
     /// Edge probes (special values), not counted in accuracy.
     pub probes: Vec<u32>,
     /// Exhaustive or sampled.
@@ -80,8 +82,9 @@ pub struct Plan {
     pub interesting: Vec<Interesting>,
 }
 
-/// Largest exhaustive sweep held in memory at once; beyond it the user narrows --range.
-pub const MAX_EXHAUSTIVE: u64 = 1 << 27;
+/// Largest exhaustive sweep: every pattern of the widest format (inputs are streamed in
+/// chunks, so memory does not grow with the sweep).
+pub const MAX_EXHAUSTIVE: u64 = 1 << 32;
 
 /// Builds the inputs of a sweep; `interesting` comes from [`interesting_points`].
 pub fn plan(
@@ -90,6 +93,7 @@ pub fn plan(
     interesting: Vec<Interesting>,
 ) -> Result<Plan, String> {
     let mut measured = Vec::new();
+    let mut whole = Inputs::default();
     let mut probes = Vec::new();
     let mut coverage = Coverage::Sampled;
     for kind in &spec.kinds {
@@ -102,7 +106,7 @@ pub fn plan(
                         format.name()
                     ));
                 }
-                measured.extend(spec.range.patterns(format));
+                whole = Inputs::of_range(format, &spec.range);
                 coverage = Coverage::Exhaustive;
             }
             SweepKind::Dense => {
@@ -122,8 +126,7 @@ pub fn plan(
             )),
         }
     }
-    measured.sort_unstable();
-    measured.dedup();
+    let measured = whole.union(&Inputs::from_list(measured));
     probes.sort_unstable();
     probes.dedup();
     Ok(Plan {
