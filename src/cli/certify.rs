@@ -33,20 +33,20 @@ pub struct Args {
 fn check_options(spec: &Spec, progress: bool) -> super::check::Args {
     let mut a = check_args::defaults();
     let s = &spec.sweep;
-    a.sweep = s.kinds.clone();
-    a.range = s.range.clone();
-    a.points = s.points;
+    a.sweep_options.sweep = s.kinds.clone();
+    a.sweep_options.range = s.range.clone();
+    a.sweep_options.points = s.points;
     if let Some(k) = s.per_binade {
-        a.per_binade = k;
+        a.sweep_options.per_binade = k;
     }
     if let Some(n) = s.neighbours {
-        a.neighbours = n;
+        a.sweep_options.neighbours = n;
     }
     if let Some(seed) = s.seed {
-        a.seed = seed;
+        a.sweep_options.seed = seed;
     }
     if let Some(m) = s.random_mode {
-        a.random_mode = m;
+        a.sweep_options.random_mode = m;
     }
     a.function_args.params = spec
         .params

@@ -53,32 +53,8 @@ pub struct Args {
     /// Gradient kernels: the first argument is y = f(x) instead of x.
     #[arg(long)]
     pub from_output: bool,
-    /// Sweep kinds, comma-separated (default: exhaustive for 16-bit formats, dense,edge for f32).
-    #[arg(
-        long,
-        value_enum,
-        value_delimiter = ',',
-        value_name = "exhaustive|dense|edge|random"
-    )]
-    pub sweep: Vec<SweepKind>,
-    /// Inputs considered, as decimals (or inf, -inf): LO included, HI excluded.
-    #[arg(long, value_name = "LO,HI", allow_hyphen_values = true)]
-    pub range: Option<String>,
-    /// Samples of a random sweep; for a dense sweep, significands per binade.
-    #[arg(long, value_name = "N")]
-    pub points: Option<u64>,
-    /// Significands per binade of a dense sweep.
-    #[arg(long, value_name = "K", default_value_t = 256)]
-    pub per_binade: u32,
-    /// Neighbours checked on each side of an interesting point (and of a threshold).
-    #[arg(long, value_name = "M", default_value_t = 16)]
-    pub neighbours: u32,
-    /// Seed of random sweeps and of gradient factors g.
-    #[arg(long, value_name = "S", default_value_t = 1)]
-    pub seed: u64,
-    /// Random sweeps: uniform over bit patterns or over values.
-    #[arg(long, value_enum, default_value_t = SampleMode::Bits)]
-    pub random_mode: SampleMode,
+    #[command(flatten)]
+    pub sweep_options: SweepOptions,
     /// Write the whole report as JSON.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
@@ -129,6 +105,38 @@ pub struct Args {
     /// flush-to-zero, blended-elu, crash-on-nan).
     #[arg(long, hide = true, value_name = "NAME")]
     pub builtin_kernel: Option<String>,
+}
+
+/// Which inputs a check sweeps: shared by `check` and `matrix` (certify sets them from its
+/// `[sweep]` table).
+#[derive(clap::Args, Debug, Clone)]
+pub struct SweepOptions {
+    /// Sweep kinds, comma-separated (default: exhaustive for 16-bit formats, dense,edge for f32).
+    #[arg(
+        long,
+        value_enum,
+        value_delimiter = ',',
+        value_name = "exhaustive|dense|edge|random"
+    )]
+    pub sweep: Vec<SweepKind>,
+    /// Inputs considered, as decimals (or inf, -inf): LO included, HI excluded.
+    #[arg(long, value_name = "LO,HI", allow_hyphen_values = true)]
+    pub range: Option<String>,
+    /// Samples of a random sweep; for a dense sweep, significands per binade.
+    #[arg(long, value_name = "N")]
+    pub points: Option<u64>,
+    /// Significands per binade of a dense sweep.
+    #[arg(long, value_name = "K", default_value_t = 256)]
+    pub per_binade: u32,
+    /// Neighbours checked on each side of an interesting point (and of a threshold).
+    #[arg(long, value_name = "M", default_value_t = 16)]
+    pub neighbours: u32,
+    /// Seed of random sweeps and of gradient factors g.
+    #[arg(long, value_name = "S", default_value_t = 1)]
+    pub seed: u64,
+    /// Random sweeps: uniform over bit patterns or over values.
+    #[arg(long, value_enum, default_value_t = SampleMode::Bits)]
+    pub random_mode: SampleMode,
 }
 
 /// How parameters reach the kernel, as named on the command line.
@@ -245,24 +253,24 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         ))
     })?;
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
-    let range = match &args.range {
+    let range = match &args.sweep_options.range {
         Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
         None => InputRange::all(format),
     };
-    if args.points == Some(0) {
+    if args.sweep_options.points == Some(0) {
         return Err(Failure::bad_input("--points must be at least 1"));
     }
-    if args.per_binade < 2 {
+    if args.sweep_options.per_binade < 2 {
         return Err(Failure::bad_input("--per-binade must be at least 2"));
     }
-    let kinds = if args.sweep.is_empty() {
+    let kinds = if args.sweep_options.sweep.is_empty() {
         if format.width() <= 16 {
             vec![SweepKind::Exhaustive]
         } else {
             vec![SweepKind::Dense, SweepKind::Edge]
         }
     } else {
-        args.sweep.clone()
+        args.sweep_options.sweep.clone()
     };
     if kinds.contains(&SweepKind::Exhaustive)
         && range.pattern_count(format) > crate::sweep::MAX_EXHAUSTIVE
@@ -276,19 +284,19 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
     }
     let dense_points = kinds
         .contains(&SweepKind::Dense)
-        .then_some(args.points)
+        .then_some(args.sweep_options.points)
         .flatten();
     let per_binade = dense_points
         .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
-        .unwrap_or(args.per_binade);
+        .unwrap_or(args.sweep_options.per_binade);
     let sweep = SweepSpec {
         kinds,
         range,
         per_binade,
-        random_points: args.points.unwrap_or(100_000),
-        neighbours: args.neighbours,
-        seed: args.seed,
-        mode: args.random_mode,
+        random_points: args.sweep_options.points.unwrap_or(100_000),
+        neighbours: args.sweep_options.neighbours,
+        seed: args.sweep_options.seed,
+        mode: args.sweep_options.random_mode,
     };
     Ok(CheckConfig {
         function,

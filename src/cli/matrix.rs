@@ -10,7 +10,6 @@ use crate::check::{library_info, run_check, RunnerKernel};
 use crate::kernel::{load_manifest, Runner, RunnerOptions};
 use crate::matrix::{build, table, BuildResult, BuildStatus, Cell, Matrix, MATRIX_SCHEMA};
 use crate::report::{check_writable, write_atomic, Json, ReportFormat};
-use crate::sweep::SweepKind;
 use std::path::{Path, PathBuf};
 use std::time::Duration;
 
@@ -33,26 +32,8 @@ pub struct Args {
     /// Install a missing compiler with apt-get instead of skipping its builds.
     #[arg(long)]
     pub install_missing: bool,
-    /// Sweep kinds, comma-separated (default: check's).
-    #[arg(
-        long,
-        value_enum,
-        value_delimiter = ',',
-        value_name = "exhaustive|dense|edge|random"
-    )]
-    pub sweep: Vec<SweepKind>,
-    /// Inputs considered: LO included, HI excluded.
-    #[arg(long, value_name = "LO,HI", allow_hyphen_values = true)]
-    pub range: Option<String>,
-    /// Samples of a random sweep; for a dense sweep, significands per binade.
-    #[arg(long, value_name = "N")]
-    pub points: Option<u64>,
-    /// Significands per binade of a dense sweep.
-    #[arg(long, value_name = "K", default_value_t = 256)]
-    pub per_binade: u32,
-    /// Seed of random sweeps and gradient factors.
-    #[arg(long, value_name = "S", default_value_t = 1)]
-    pub seed: u64,
+    #[command(flatten)]
+    pub sweep_options: super::check::SweepOptions,
     /// Seconds a batch may take before the kernel counts as hung.
     #[arg(long, value_name = "SECONDS", default_value_t = 10.0)]
     pub timeout: f64,
@@ -73,20 +54,17 @@ pub struct Args {
 
 fn check_options(args: &Args) -> super::check::Args {
     let mut a = check_args::defaults();
-    a.sweep = args.sweep.clone();
-    a.range = args.range.clone();
-    a.points = args.points;
-    a.per_binade = args.per_binade;
-    a.seed = args.seed;
+    a.sweep_options = args.sweep_options.clone();
     a.timeout = args.timeout;
     a
 }
 
 fn sweep_words(args: &Args) -> String {
-    let kinds = if args.sweep.is_empty() {
+    let kinds = if args.sweep_options.sweep.is_empty() {
         "default sweep".to_string()
     } else {
-        args.sweep
+        args.sweep_options
+            .sweep
             .iter()
             .map(|k| format!("{k:?}").to_lowercase())
             .collect::<Vec<_>>()
@@ -95,9 +73,11 @@ fn sweep_words(args: &Args) -> String {
     };
     format!(
         "{kinds}, {} per binade, range {}, seed {}",
-        args.points.map_or(args.per_binade as u64, |p| p),
-        args.range.as_deref().unwrap_or("all"),
-        args.seed
+        args.sweep_options
+            .points
+            .map_or(args.sweep_options.per_binade as u64, |p| p),
+        args.sweep_options.range.as_deref().unwrap_or("all"),
+        args.sweep_options.seed
     )
 }
 
