@@ -136,15 +136,7 @@ fn buckets(samples: &[(i64, f64)]) -> Vec<Bucket> {
         return Vec::new();
     };
     let width = ((hi - lo + 1) + BUCKETS - 1) / BUCKETS;
-    let mut out: Vec<Bucket> = (0..BUCKETS)
-        .map(|k| Bucket {
-            lo: lo + k * width,
-            hi: lo + (k + 1) * width - 1,
-            points: 0,
-            max_ulp: 0.0,
-        })
-        .filter(|b| b.lo <= hi)
-        .collect();
+    let mut out = grid(lo, hi);
     for &(o, e) in samples {
         let b = &mut out[((o - lo) / width) as usize];
         b.points += 1;
