@@ -13,6 +13,7 @@ pub mod format;
 pub mod kernel;
 pub mod matrix;
 pub mod measure;
+pub mod merge;
 pub mod reference;
 pub mod report;
 pub mod sweep;

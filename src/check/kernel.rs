@@ -1,6 +1,6 @@
 //! What `check` needs of a kernel, and an in-process implementation for tests.
 
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::time::Instant;
 
 /// One input on which the kernel crashed or hung.
@@ -24,7 +24,7 @@ pub struct KernelOutput {
 }
 
 /// One hygiene check of the runner (buffer overruns, in-place use, thread safety, …).
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct HygieneEntry {
     /// The check's name.
     pub check: String,
@@ -39,7 +39,7 @@ pub struct HygieneEntry {
 /// The argument convention follows the role: forward and derivative kernels take x; gradient
 /// kernels take x (or y = f(x) for kernels that work from the forward output) and the upstream
 /// gradient g as `second`.
-pub trait KernelUnderTest {
+pub trait KernelUnderTest: Send {
     /// Calls the kernel on every element.
     fn run(&mut self, first: &[u32], second: Option<&[u32]>) -> KernelOutput;
     /// The runner's hygiene checks on a sample.
@@ -61,7 +61,7 @@ impl<F: FnMut(u32, Option<u32>) -> Option<u32>> InProcessKernel<F> {
     }
 }
 
-impl<F: FnMut(u32, Option<u32>) -> Option<u32>> KernelUnderTest for InProcessKernel<F> {
+impl<F: FnMut(u32, Option<u32>) -> Option<u32> + Send> KernelUnderTest for InProcessKernel<F> {
     fn run(&mut self, first: &[u32], second: Option<&[u32]>) -> KernelOutput {
         let mut out = KernelOutput::default();
         for (index, &x) in first.iter().enumerate() {

@@ -5,26 +5,32 @@
 //! in-process [`InProcessKernel`] both implement it.
 
 mod builtin;
+mod gathered;
 mod kernel;
 mod probe;
 mod provenance;
 mod runner_kernel;
+mod shard;
+mod stream;
 
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
+pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Prober, RoleReferences};
 pub use provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance};
 pub use runner_kernel::RunnerKernel;
+pub use shard::Shard;
 
 use crate::activation::{Constants, Entry, Role};
 use crate::format::Format;
-use crate::measure::{self, Point, Probe, RuleContext};
+use crate::measure::{self, Point, Probe};
 use crate::reference::{Evaluator, ParamRounding, Real};
 use crate::report::model::*;
 use crate::report::BitsValue;
 use crate::sweep::{self, Coverage, Inputs, SweepKind, SweepSpec};
 use rug::Rational;
 use std::path::PathBuf;
+use stream::Stream;
 
 /// What the kernel computes: the runner's role type, shared so a manifest entry maps 1:1.
 pub use crate::kernel::KernelRole as CheckRole;
@@ -59,6 +65,8 @@ pub struct CheckConfig {
     pub progress: bool,
     /// Which reference path computes the sweep's references.
     pub reference: ReferencePath,
+    /// `--shard I/N`: measure only this part of the sweep and write the state `merge` joins.
+    pub shard: Option<Shard>,
 }
 
 /// How references are computed (`--reference`).
@@ -98,51 +106,6 @@ fn ordinal_span(format: &dyn Format, inputs: &Inputs) -> Option<(i64, i64)> {
         .flat_map(|&(a, b)| [format.ordinal(a), format.ordinal(b)])
         .collect::<Vec<i64>>();
     Some((*ends.iter().min()?, *ends.iter().max()?))
-}
-
-/// What an exhaustive sweep keeps of its points besides the accumulators: the few points
-/// that special-value rules and kink reports look at.
-#[derive(Default)]
-struct Kept {
-    /// Measured points at ±0, at kinks, and the first and last of each sign whose reference
-    /// is subnormal; by input.
-    points: std::collections::BTreeMap<u32, Point>,
-    /// Inputs of the first and last subnormal-reference point of each sign (+, −).
-    subnormal_ends: [Option<(u32, u32)>; 2],
-}
-
-impl Kept {
-    fn add(&mut self, format: &dyn Format, p: &Point) {
-        let sign = format.infinity(true) & !format.infinity(false);
-        if p.input & !sign == 0 || p.left.is_some() {
-            self.points.insert(p.input, p.clone());
-        }
-        if measure::is_finite(format, p.input)
-            && format.classify(p.reference.bits) == crate::format::Class::Subnormal
-        {
-            let side = &mut self.subnormal_ends[format.is_sign_negative(p.input) as usize];
-            match side {
-                None => {
-                    *side = Some((p.input, p.input));
-                    self.points.insert(p.input, p.clone());
-                }
-                Some((_, last)) => {
-                    // Points come in bit order: this one is the new last; the old last goes
-                    // unless it is kept for another reason.
-                    let old = *last;
-                    *last = p.input;
-                    let first = side.expect("set").0;
-                    if old != first && old & !sign != 0 {
-                        let at_kink = self.points.get(&old).is_some_and(|q| q.left.is_some());
-                        if !at_kink {
-                            self.points.remove(&old);
-                        }
-                    }
-                    self.points.insert(p.input, p.clone());
-                }
-            }
-        }
-    }
 }
 
 /// Runs a check of one kernel.
@@ -198,58 +161,91 @@ pub fn run_check(
     probes.dedup();
 
     let exhaustive = plan.coverage == Coverage::Exhaustive;
+    // This part of the measured inputs (all of them unless sharded), and the measured inputs
+    // just outside it, whose gaps to ours decide non-finite runs in sampled sweeps.
+    let (from, to) = config
+        .shard
+        .map_or((0, plan.measured.len()), |s| s.bounds(plan.measured.len()));
+    let own = plan.measured.slice(from, to);
+    let before = from.checked_sub(1).and_then(|i| plan.measured.nth(i));
+    let after = plan.measured.nth(to);
     let mut prober = Prober::new(kernel, &refs, config.progress);
-    prober.expect(plan.measured.len() + probes.len() as u64);
+    prober.expect(own.len() + probes.len() as u64);
     // Measured points stream through the accumulators chunk by chunk, in bit order; a sampled
-    // sweep also keeps them all (its runs' gaps are scanned later), an exhaustive one only the
-    // few that special values and kinks need.
+    // sweep also keeps them all (its runs' gaps are scanned later).
     let span = exhaustive
         .then(|| ordinal_span(format, &plan.measured))
         .flatten();
-    let mut accuracy = measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span);
-    let mut shape =
-        role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone));
-    let mut runs = exhaustive.then(|| measure::NonFiniteStream::new(format));
-    let mut kept = Kept::default();
+    let mut stream = Stream::new(
+        measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span),
+        role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone)),
+        exhaustive,
+    );
     let mut measured: Vec<Point> = Vec::new();
-    for chunk in plan.measured.chunks(STREAM_CHUNK) {
-        let points = prober.probe(&chunk);
-        for p in &points {
-            accuracy.add(p);
-            if let Some(s) = &mut shape {
-                s.add(p);
+    for chunk in own.chunks(STREAM_CHUNK) {
+        let template = stream.fresh();
+        let fold = |points: &[Point]| {
+            let mut part = template.fresh();
+            for p in points {
+                part.add(p);
             }
-            if let Some(r) = &mut runs {
-                r.add(p);
-                kept.add(format, p);
-            }
-        }
-        if !exhaustive {
-            measured.extend(points);
+            let all = (!exhaustive).then(|| points.to_vec());
+            (part, all)
+        };
+        for (part, all) in prober.probe_fold(&chunk, &fold) {
+            stream.merge(part);
+            measured.extend(all.into_iter().flatten());
         }
     }
-    if exhaustive {
-        measured = kept.points.into_values().collect();
-    }
+    let mut crashes = Crashes::default();
+    let phase = |prober: &Prober, seen: &mut usize| -> Vec<CrashAt> {
+        let new = prober.crashes[*seen..].iter().map(CrashAt::from).collect();
+        *seen = prober.crashes.len();
+        new
+    };
+    let mut seen = 0;
+    crashes.measured = phase(&prober, &mut seen);
     let probe_points = prober.probe(&probes);
-    let evaluated_main = prober.evaluated;
+    crashes.probes = phase(&prober, &mut seen);
     prober.expect(0);
 
-    let accuracy = accuracy.finish();
-    let non_finite = match runs {
-        Some(r) => r.finish(),
-        None => {
-            let mut run_points: Vec<Point> = measured.clone();
-            run_points.extend(
-                probe_points
-                    .iter()
-                    .filter(|p| spec.range.contains(format, p.input))
-                    .cloned(),
-            );
-            measure::non_finite_runs(format, &run_points, &mut prober, false)
-        }
-    };
+    let runs = (!exhaustive).then(|| {
+        // Another part's inputs next to ours: evaluated again here, counted there.
+        let neighbours: Vec<u32> = before.into_iter().chain(after).collect();
+        let (evaluated, failures) = (prober.evaluated, prober.failures.len());
+        let mut run_points = prober.probe(&neighbours);
+        prober.evaluated = evaluated;
+        prober.failures.truncate(failures);
+        phase(&prober, &mut seen);
+        run_points.extend(measured);
+        run_points.extend(
+            probe_points
+                .iter()
+                .filter(|p| spec.range.contains(format, p.input))
+                .cloned(),
+        );
+        // Our territory: from just after the previous part's last input to our last input
+        // (to the last pattern for the final part); empty when we have no inputs.
+        let first = match before {
+            None => Some(0),
+            Some(b) => b.checked_add(1),
+        };
+        let last = if to == plan.measured.len() {
+            Some(u32::MAX)
+        } else {
+            to.checked_sub(1)
+                .filter(|&i| i >= from)
+                .and_then(|i| plan.measured.nth(i))
+        };
+        let (first, last) = match (first, last) {
+            (Some(f), Some(l)) => (f, l),
+            _ => (1, 0),
+        };
+        measure::non_finite_part(format, &run_points, &mut prober, first..=last)
+    });
+    crashes.scans = phase(&prober, &mut seen);
     let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
+    let evaluated = prober.evaluated;
     let thresholds = measure::thresholds(
         format,
         &role_thresholds,
@@ -257,24 +253,8 @@ pub fn run_check(
         search_kernel,
         spec.neighbours,
     );
-    let tolerance = config.max_ulp.unwrap_or(1.0).max(1.0);
-    let rules_ctx = RuleContext {
-        keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
-        tolerance,
-    };
-    // For an exhaustive sweep `measured` holds only the kept points: the rules read the zeros
-    // and the first and last subnormal-reference point per sign, the kinks the kink points.
-    let special_values = measure::special_values(format, &probe_points, &measured, &rules_ctx);
-    let kinks = if role_is_forward {
-        Vec::new()
-    } else {
-        let mut all = probe_points.clone();
-        all.extend(measured.iter().filter(|p| p.left.is_some()).cloned());
-        all.sort_by_key(|p| p.input);
-        all.dedup_by_key(|p| p.input);
-        measure::kink_sides(format, &all, tolerance)
-    };
-    let shape = shape.map(|s| s.finish());
+    crashes.thresholds = phase(&prober, &mut seen);
+    let threshold_inputs = prober.evaluated - evaluated;
 
     let hygiene_sample = spread(format, &plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
@@ -282,53 +262,55 @@ pub fn run_check(
     let speed_sample = spread(format, &plan.measured, SPEED_SAMPLE);
     let (first, second) = prober.arguments(&speed_sample);
     let ns_per_element = prober.kernel().ns_per_element(&first, second.as_deref());
-    let mut failures = prober.failures.clone();
-    failures.sort();
-    failures.dedup_by_key(|f| f.0);
-    let reference_failures = ReferenceFailures {
-        count: failures.len() as u64,
-        inputs: failures
-            .iter()
-            .take(20)
-            .map(|f| BitsValue::new(format, f.0))
-            .collect(),
-        first_message: failures.first().map(|f| f.1.clone()),
-    };
 
-    let crash = prober.crashes.first().map(|c| CrashReport {
-        signal: c.signal.clone(),
-        input: BitsValue::new(format, c.input),
-        count: prober.crashes.len() as u64,
-    });
-    let mut failed = Vec::new();
-    for h in hygiene.iter().filter(|h| !h.passed) {
-        failed.push(format!("hygiene {}: {}", h.check, h.detail));
-    }
-    for r in special_values.iter().filter(|r| !r.passed) {
-        failed.push(format!("{} at {}", r.rule, r.input.bits));
-    }
-    if let Some(limit) = config.max_ulp {
-        if accuracy.max_ulp > limit {
-            failed.push(format!(
-                "max_ulp {} exceeds --max-ulp {limit}",
-                accuracy.max_ulp
-            ));
-        }
-    }
-    let exit_code = if crash.is_some() {
-        3
-    } else if failed.is_empty() {
-        0
-    } else {
-        1
+    let mut gathered = Gathered {
+        stream,
+        runs,
+        probe_points,
+        failures: prober.failures.clone(),
+        crashes,
+        inputs: own.len(),
+        threshold_inputs,
+        keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
+        tolerance: config.max_ulp.unwrap_or(1.0).max(1.0),
+        role_is_forward,
     };
+    let shard = match config.shard {
+        None => None,
+        Some(s) => {
+            gathered.stream.make_portable();
+            let state = serde_json::to_value(&gathered).map_err(|e| e.to_string())?;
+            Some(ShardSection {
+                index: s.index,
+                count: s.count,
+                state,
+            })
+        }
+    };
+    let Figures {
+        accuracy,
+        non_finite,
+        special_values,
+        kinks,
+        shape,
+        reference_failures,
+        crash,
+        extra_inputs,
+    } = gathered.figures(format);
+    let verdict = verdict(
+        crash.is_some(),
+        &hygiene,
+        &special_values,
+        accuracy.max_ulp,
+        config.max_ulp,
+    );
     let sweep_info = SweepInfo {
         kinds: spec.kinds.clone(),
         range: spec.range.text.clone(),
         coverage: plan.coverage,
-        inputs: plan.measured.len(),
+        inputs: own.len(),
         probes: probes.len() as u64,
-        extra_inputs: prober.evaluated - evaluated_main,
+        extra_inputs,
         per_binade: spec.per_binade,
         neighbours: spec.neighbours,
         random_points: spec
@@ -397,11 +379,8 @@ pub fn run_check(
         kinks,
         shape,
         reference_failures,
-        verdict: Verdict {
-            exit_code,
-            failed,
-            max_ulp_limit: config.max_ulp,
-        },
+        verdict,
         provenance,
+        shard,
     })
 }

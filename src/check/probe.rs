@@ -1,6 +1,6 @@
 //! Evaluating inputs: references in parallel (rayon), kernel calls in batches, crashes kept.
 
-use super::kernel::{KernelCrash, KernelUnderTest};
+use super::kernel::{KernelCrash, KernelOutput, KernelUnderTest};
 use super::CheckRole;
 use crate::format::{ExactValue, Format};
 use crate::measure::{Point, Probe};
@@ -14,7 +14,7 @@ use std::io::IsTerminal;
 /// A batch still running after this long shows a progress bar (when stderr is a terminal).
 const PROGRESS_AFTER: std::time::Duration = std::time::Duration::from_secs(1);
 /// Inputs per kernel call.
-const CHUNK: usize = 16_384;
+const CHUNK: usize = 65_536;
 
 /// The references of one role: forward, derivative, gradient (g·f′ with seeded g).
 pub struct RoleReferences {
@@ -125,9 +125,6 @@ impl RoleReferences {
     }
 }
 
-/// Kernel arguments and references of one input.
-type Evaluated = (u32, Option<u32>, Reference, Option<Reference>);
-
 /// Evaluates inputs through the kernel and the references.
 pub struct Prober<'a> {
     kernel: &'a mut dyn KernelUnderTest,
@@ -200,9 +197,73 @@ impl<'a> Prober<'a> {
     }
 }
 
-impl Probe for Prober<'_> {
-    /// Inputs whose reference fails are left out (and recorded in `failures`).
-    fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
+/// Inputs per task of the parallel fold (references and accumulation).
+const FOLD_TASK: usize = 2048;
+
+/// One batch whose kernel outputs are known: inputs, second arguments, outputs.
+struct Called {
+    inputs: Vec<u32>,
+    seconds: Vec<Option<u32>>,
+    outputs: Vec<Option<u32>>,
+}
+
+/// The folded tasks of one batch, and the inputs whose reference failed.
+type Folded<S> = (Vec<S>, Vec<(u32, String)>);
+
+impl RoleReferences {
+    /// References of one called batch, folded task by task on the rayon pool.
+    fn fold_batch<S: Send>(
+        &self,
+        called: &Called,
+        fold: &(dyn Fn(&[Point]) -> S + Sync),
+    ) -> Folded<S> {
+        let tasks: Vec<(S, Vec<(u32, String)>)> = called
+            .inputs
+            .par_chunks(FOLD_TASK)
+            .enumerate()
+            .map(|(t, inputs)| {
+                let base = t * FOLD_TASK;
+                let mut points = Vec::with_capacity(inputs.len());
+                let mut failures = Vec::new();
+                for (i, &x) in inputs.iter().enumerate() {
+                    match self.reference(x) {
+                        Ok((reference, left)) => points.push(Point {
+                            input: x,
+                            second: called.seconds[base + i],
+                            output: called.outputs.get(base + i).copied().flatten(),
+                            reference,
+                            left,
+                        }),
+                        Err(e) => failures.push((x, e)),
+                    }
+                }
+                (fold(&points), failures)
+            })
+            .collect();
+        let mut failures = Vec::new();
+        let folded = tasks
+            .into_iter()
+            .map(|(s, f)| {
+                failures.extend(f);
+                s
+            })
+            .collect();
+        (folded, failures)
+    }
+}
+
+impl Prober<'_> {
+    /// Evaluates inputs batch by batch and folds their points, task by task, into partial
+    /// results returned in input order (inputs whose reference fails are left out and recorded
+    /// in `failures`).
+    ///
+    /// The kernel runs batch k + 1 on its own thread while the rayon pool computes the
+    /// references of batch k and folds them, so neither waits for the other.
+    pub fn probe_fold<S: Send>(
+        &mut self,
+        inputs: &[u32],
+        fold: &(dyn Fn(&[Point]) -> S + Sync),
+    ) -> Vec<S> {
         let (bar, started, own) = match &self.shared {
             Some((bar, started)) => (Some(bar.clone()), *started, false),
             None => (
@@ -211,63 +272,85 @@ impl Probe for Prober<'_> {
                 true,
             ),
         };
-        let mut points = Vec::with_capacity(inputs.len());
-        for chunk in inputs.chunks(CHUNK) {
-            let computed: Vec<Result<Evaluated, String>> = chunk
-                .par_iter()
-                .map(|&x| {
-                    let (first, second) = self.refs.arguments(x)?;
-                    let (r, left) = self.refs.reference(x)?;
-                    Ok((first, second, r, left))
-                })
-                .collect();
-            let mut inputs = Vec::with_capacity(chunk.len());
-            let mut firsts = Vec::with_capacity(chunk.len());
-            let mut seconds = Vec::with_capacity(chunk.len());
-            let mut refs = Vec::with_capacity(chunk.len());
-            for (&x, c) in chunk.iter().zip(computed) {
-                match c {
-                    Ok((f, s, r, l)) => {
-                        inputs.push(x);
-                        firsts.push(f);
-                        seconds.push(s);
-                        refs.push((r, l));
+        let refs = self.refs;
+        let mut partials = Vec::new();
+        let mut failures = Vec::new();
+        let mut crashes = Vec::new();
+        let mut kernel: &mut dyn KernelUnderTest = &mut *self.kernel;
+        std::thread::scope(|scope| {
+            let mut pending: Option<Called> = None;
+            let mut chunks = inputs.chunks(CHUNK);
+            loop {
+                let chunk = chunks.next();
+                let call = chunk.map(|chunk| {
+                    let computed: Vec<Result<(u32, Option<u32>), String>> =
+                        chunk.par_iter().map(|&x| refs.arguments(x)).collect();
+                    let mut kept = Vec::with_capacity(chunk.len());
+                    let mut firsts = Vec::with_capacity(chunk.len());
+                    let mut seconds = Vec::with_capacity(chunk.len());
+                    for (&x, c) in chunk.iter().zip(computed) {
+                        match c {
+                            Ok((f, s)) => {
+                                kept.push(x);
+                                firsts.push(f);
+                                seconds.push(s);
+                            }
+                            Err(e) => failures.push((x, e)),
+                        }
                     }
-                    Err(e) => self.failures.push((x, e)),
+                    let k = kernel;
+                    let handle = scope.spawn(move || {
+                        let second: Option<Vec<u32>> = seconds.iter().copied().collect();
+                        let out = if firsts.is_empty() {
+                            KernelOutput::default()
+                        } else {
+                            k.run(&firsts, second.as_deref())
+                        };
+                        (k, kept, seconds, out)
+                    });
+                    (chunk.len(), handle)
+                });
+                if let Some(called) = pending.take() {
+                    let (folded, failed) = refs.fold_batch(&called, fold);
+                    partials.extend(folded);
+                    failures.extend(failed);
                 }
-            }
-            let second: Option<Vec<u32>> = seconds.iter().copied().collect();
-            let out = if firsts.is_empty() {
-                Default::default()
-            } else {
-                self.kernel.run(&firsts, second.as_deref())
-            };
-            for crash in out.crashes {
-                self.crashes.push(KernelCrash {
-                    input: inputs[crash.index],
+                let Some((len, handle)) = call else { break };
+                let (k, kept, seconds, out) = handle.join().expect("kernel thread");
+                kernel = k;
+                crashes.extend(out.crashes.into_iter().map(|crash| KernelCrash {
+                    input: kept[crash.index],
                     ..crash
+                }));
+                pending = Some(Called {
+                    inputs: kept,
+                    seconds,
+                    outputs: out.outputs,
                 });
-            }
-            for (i, (r, left)) in refs.into_iter().enumerate() {
-                points.push(Point {
-                    input: inputs[i],
-                    second: seconds[i],
-                    output: out.outputs.get(i).copied().flatten(),
-                    reference: r,
-                    left,
-                });
-            }
-            self.evaluated += chunk.len() as u64;
-            if let Some(bar) = &bar {
-                bar.inc(chunk.len() as u64);
-                if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
-                    bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+                self.evaluated += len as u64;
+                if let Some(bar) = &bar {
+                    bar.inc(len as u64);
+                    if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
+                        bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+                    }
                 }
             }
-        }
+        });
+        self.failures.extend(failures);
+        self.crashes.extend(crashes);
         if let Some(bar) = bar.filter(|_| own) {
             bar.finish_and_clear();
         }
-        points
+        partials
+    }
+}
+
+impl Probe for Prober<'_> {
+    /// Inputs whose reference fails are left out (and recorded in `failures`).
+    fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
+        self.probe_fold(inputs, &|points: &[Point]| points.to_vec())
+            .into_iter()
+            .flatten()
+            .collect()
     }
 }

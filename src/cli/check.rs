@@ -9,7 +9,7 @@
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
 use crate::check::{
-    builtin, run_check, CheckConfig, CheckRole, KernelUnderTest, ReferencePath, RunnerKernel,
+    builtin, run_check, CheckConfig, CheckRole, KernelUnderTest, ReferencePath, RunnerKernel, Shard,
 };
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
 use crate::report::{
@@ -95,6 +95,10 @@ pub struct Args {
     /// `mpfr` forces MPFR for every point.
     #[arg(long, value_enum, default_value_t = ReferencePath::Auto)]
     pub reference: ReferencePath,
+    /// Measure only the I-th of N disjoint parts of the sweep (1 <= I <= N) and write the
+    /// state that `ulpgauge merge` joins into the report of the whole sweep.
+    #[arg(long, value_name = "I/N")]
+    pub shard: Option<String>,
     /// Print no terminal summary.
     #[arg(long)]
     pub quiet: bool,
@@ -312,6 +316,12 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         symbol: target.symbol.clone(),
         progress: !args.no_progress,
         reference: args.reference,
+        shard: args
+            .shard
+            .as_deref()
+            .map(Shard::parse)
+            .transpose()
+            .map_err(Failure::bad_input)?,
     })
 }
 

@@ -40,6 +40,7 @@ pub fn defaults() -> Args {
         timeout: 10.0,
         stop_on_crash: false,
         reference: crate::check::ReferencePath::Auto,
+        shard: None,
         quiet: true,
         no_progress: true,
         builtin_kernel: None,

@@ -12,6 +12,7 @@ mod eval;
 mod functions;
 mod golden;
 mod matrix;
+mod merge;
 mod worker;
 
 use clap::{Parser, Subcommand};
@@ -68,6 +69,8 @@ enum Command {
     Compare(compare::Args),
     /// Build the kernels with several compilers and flags and tabulate kernel x build.
     Matrix(matrix::Args),
+    /// Join the reports of `check --shard I/N` runs into the report of the whole sweep.
+    Merge(merge::Args),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -93,6 +96,7 @@ pub fn run() -> i32 {
         Command::Certify(args) => certify::run(args),
         Command::Compare(args) => compare::run(args),
         Command::Matrix(args) => matrix::run(args),
+        Command::Merge(args) => merge::run(args),
     };
     match result {
         Ok(code) => code,

@@ -4,7 +4,7 @@
 use super::{layout::pow2, Format};
 
 /// What the measures need to know of an exact real value y: an approximation and the binade.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct ExactValue {
     /// y rounded to the nearest binary64, ties to even (subnormals included; 0 below 2^−1075).
     pub approx: f64,

@@ -155,3 +155,21 @@ pub fn parse_hex(format: &dyn Format, text: &str) -> Result<u32, String> {
     }
     Ok(value as u32)
 }
+
+/// Serde for a `&'static dyn Format` field: written as the format's short name.
+pub mod by_name_serde {
+    use super::Format;
+    use serde::{Deserialize, Deserializer, Serializer};
+
+    /// Writes the name.
+    pub fn serialize<S: Serializer>(f: &&'static dyn Format, s: S) -> Result<S::Ok, S::Error> {
+        s.serialize_str(f.name())
+    }
+
+    /// Reads a name back into the format.
+    pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<&'static dyn Format, D::Error> {
+        let name = String::deserialize(d)?;
+        super::by_name(&name)
+            .ok_or_else(|| serde::de::Error::custom(format!("unknown format {name}")))
+    }
+}

@@ -4,10 +4,10 @@ use super::{is_finite, ExactSum, Point};
 use crate::format::{step_distance, ulp_error, Class, ExactValue, Format};
 use crate::reference::Reference;
 use crate::report::BitsValue;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// The worst point.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Worst {
     /// Input x.
     pub input: BitsValue,
@@ -113,7 +113,7 @@ pub struct Accuracy {
 }
 
 /// Largest error over a span of input ordinals.
-#[derive(Clone, Debug)]
+#[derive(Clone, Copy, Debug, Serialize, Deserialize)]
 pub struct Bucket {
     /// First ordinal of the span.
     pub lo: i64,
@@ -214,23 +214,37 @@ fn judge_point(format: &dyn Format, p: &Point, output: u32) -> Option<Judged> {
     }
 }
 
-fn binade_label(format: &dyn Format, bits: u32) -> String {
-    let sign = if format.is_sign_negative(bits) {
-        "-"
-    } else {
-        "+"
+/// The input binade of a row: sign and binary64 exponent (`None`: zeros and subnormals).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+struct BinadeKey {
+    negative: bool,
+    exponent: Option<i32>,
+}
+
+fn binade_key(format: &dyn Format, bits: u32) -> BinadeKey {
+    let exponent = match format.classify(bits) {
+        Class::Zero | Class::Subnormal => None,
+        // The binary64 exponent field is exact, unlike a computed log2.
+        _ => Some(((format.to_f64(bits).to_bits() >> 52) & 0x7ff) as i32 - 1023),
     };
-    match format.classify(bits) {
-        Class::Zero | Class::Subnormal => format!("{sign}subnormal"),
-        _ => {
-            // The binary64 exponent field is exact, unlike a computed log2.
-            let e = ((format.to_f64(bits).to_bits() >> 52) & 0x7ff) as i32 - 1023;
-            format!("{sign}2^{e}")
+    BinadeKey {
+        negative: format.is_sign_negative(bits),
+        exponent,
+    }
+}
+
+impl BinadeKey {
+    /// "+2^3", "-2^-1", "+subnormal" (zeros belong to the subnormal row).
+    fn label(self) -> String {
+        let sign = if self.negative { "-" } else { "+" };
+        match self.exponent {
+            None => format!("{sign}subnormal"),
+            Some(e) => format!("{sign}2^{e}"),
         }
     }
 }
 
-#[derive(Default)]
+#[derive(Default, Serialize, Deserialize)]
 struct Acc {
     points: u64,
     max: f64,
@@ -294,6 +308,7 @@ fn worst_of(format: &dyn Format, p: &Point, j: &Judged, error: f64) -> Worst {
 const DENSE_BUCKET_SPAN: i64 = 1 << 20;
 
 /// Where plot samples go.
+#[derive(Serialize, Deserialize)]
 enum Samples {
     /// Every (ordinal, error): buckets span the samples exactly (small, in-memory sweeps).
     All(Vec<(i64, f64)>),
@@ -306,14 +321,16 @@ enum Samples {
 
 /// Accuracy figures accumulated point by point, in increasing input bit order, with memory
 /// independent of the number of points (apart from `list_over` listings).
+#[derive(Serialize, Deserialize)]
 pub struct AccuracyAcc {
+    #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
     abs_floor: Option<f64>,
     list_over: Option<f64>,
     total: Acc,
     faithful: u64,
     histogram: Vec<u64>,
-    binades: Vec<(String, Acc)>,
+    binades: Vec<(BinadeKey, Acc)>,
     regions: Vec<(Acc, f64)>,
     worst: Option<Worst>,
     floor_max: (f64, Option<Worst>),
@@ -373,6 +390,44 @@ impl AccuracyAcc {
         }
     }
 
+    /// The format of the points.
+    pub fn format(&self) -> &'static dyn Format {
+        self.format
+    }
+
+    /// An empty accumulator with the same settings, for inputs that will be merged into this
+    /// one (a dense plot span is not allocated again: its samples are kept as a list).
+    pub fn fresh(&self) -> Self {
+        let mut acc = AccuracyAcc::new(self.format, self.abs_floor, self.list_over, None);
+        if let Samples::Grid(buckets) = &self.samples {
+            acc.samples = Samples::Grid(
+                buckets
+                    .iter()
+                    .map(|b| Bucket {
+                        points: 0,
+                        max_ulp: 0.0,
+                        ..*b
+                    })
+                    .collect(),
+            );
+        }
+        acc
+    }
+
+    /// Keeps a dense plot span as a list of its samples, so that the state holds no NaN
+    /// (JSON has none); the figures do not change.
+    pub fn make_portable(&mut self) {
+        if let Samples::Dense { lo, max } = &self.samples {
+            let list = max
+                .iter()
+                .enumerate()
+                .filter(|(_, e)| !e.is_nan())
+                .map(|(i, &e)| (lo + i as i64, e))
+                .collect();
+            self.samples = Samples::All(list);
+        }
+    }
+
     /// Adds one point; points must come in strictly increasing input bit order.
     pub fn add(&mut self, p: &Point) {
         let format = self.format;
@@ -423,13 +478,13 @@ impl AccuracyAcc {
             .position(|&b| j.error <= b)
             .unwrap_or(BINS.len());
         self.histogram[bin] += 1;
-        let label = binade_label(format, p.input);
+        let key = binade_key(format, p.input);
         match self.binades.last_mut() {
-            Some((l, acc)) if *l == label => acc.add(p.input, j.error, j.correct),
+            Some((k, acc)) if *k == key => acc.add(p.input, j.error, j.correct),
             _ => {
                 let mut acc = Acc::default();
                 acc.add(p.input, j.error, j.correct);
-                self.binades.push((label, acc));
+                self.binades.push((key, acc));
             }
         }
         let region = region_of(format.to_f64(p.input));
@@ -479,6 +534,12 @@ impl AccuracyAcc {
         self.excluded += other.excluded;
         match (&mut self.samples, other.samples) {
             (Samples::All(mine), Samples::All(theirs)) => mine.extend(theirs),
+            (Samples::Dense { lo, max }, Samples::All(theirs)) => {
+                for (ordinal, e) in theirs {
+                    let slot = &mut max[(ordinal - *lo) as usize];
+                    *slot = slot.max(e);
+                }
+            }
             (Samples::Dense { max: mine, .. }, Samples::Dense { max: theirs, .. }) => {
                 for (m, t) in mine.iter_mut().zip(theirs) {
                     *m = m.max(t);
@@ -509,22 +570,20 @@ impl AccuracyAcc {
         };
         // Binades in increasing x: negative rows were met in increasing bit order, i.e.
         // decreasing x.
-        let (mut negative, positive): (Vec<_>, Vec<_>) = self
-            .binades
-            .into_iter()
-            .partition(|(l, _)| l.starts_with('-'));
+        let (mut negative, positive): (Vec<_>, Vec<_>) =
+            self.binades.into_iter().partition(|(k, _)| k.negative);
         negative.reverse();
         let per_binade = negative
             .into_iter()
             .chain(positive)
-            .map(|(label, acc)| {
-                let (lo, hi) = if label.starts_with('-') {
+            .map(|(key, acc)| {
+                let (lo, hi) = if key.negative {
                     (acc.last, acc.first)
                 } else {
                     (acc.first, acc.last)
                 };
                 BinadeRow {
-                    binade: label,
+                    binade: key.label(),
                     first: BitsValue::new(format, lo),
                     last: BitsValue::new(format, hi),
                     points: acc.points,

@@ -11,15 +11,35 @@
 use rug::{Integer, Rational};
 
 /// Σk, Σk² of the values with one exponent field.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 struct Slot {
+    #[serde(with = "as_text")]
     sum: i128,
+    #[serde(with = "as_text")]
     squares_lo: u128,
     squares_carries: u64,
 }
 
+/// Serde for 128-bit integers as decimal text: JSON readers (and `serde_json::Value`) hold
+/// at most 64-bit integers exactly.
+mod as_text {
+    use serde::{Deserialize, Deserializer, Serializer};
+    use std::fmt::Display;
+    use std::str::FromStr;
+
+    pub fn serialize<T: Display, S: Serializer>(v: &T, s: S) -> Result<S::Ok, S::Error> {
+        s.collect_str(v)
+    }
+
+    pub fn deserialize<'de, T: FromStr, D: Deserializer<'de>>(d: D) -> Result<T, D::Error> {
+        let text = String::deserialize(d)?;
+        text.parse()
+            .map_err(|_| serde::de::Error::custom(format!("not an integer: {text}")))
+    }
+}
+
 /// Exact running sums Σv and Σv².
-#[derive(Clone, Debug, Default, PartialEq, Eq)]
+#[derive(Clone, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct ExactSum {
     /// Slots for exponent fields `base..base + slots.len()`.
     slots: Vec<Slot>,

@@ -17,7 +17,7 @@ pub use accuracy::{
 };
 pub use exact_sum::ExactSum;
 pub use kinks::{kink_sides, KinkSide};
-pub use nonfinite::{non_finite_runs, NonFiniteRun, NonFiniteStream};
+pub use nonfinite::{non_finite_part, non_finite_runs, NonFiniteRun, NonFiniteStream, RunsPart};
 pub use shape::{shape, Jump, Shape, ShapeAcc, Violation};
 pub use special::{special_values, RuleContext, SpecialRule};
 pub use thresholds::{thresholds, ThresholdReport};
@@ -26,7 +26,7 @@ use crate::format::{Class, Format};
 use crate::reference::Reference;
 
 /// One evaluated input: what the kernel returned and the correctly rounded reference.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, serde::Serialize, serde::Deserialize)]
 pub struct Point {
     /// The input pattern x.
     pub input: u32,

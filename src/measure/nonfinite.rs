@@ -1,11 +1,12 @@
 //! Non-finite runs: maximal runs of consecutive inputs (bit order, per sign) where kernel and
 //! reference fall in different classes among "nan", "+inf", "-inf", "finite".
 
-use super::{value_class, Point, Probe};
-use crate::format::Format;
+use super::{Point, Probe};
+use crate::format::{Class, Format};
 use crate::report::BitsValue;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
+use std::ops::RangeInclusive;
 
 /// Largest gap scanned input by input next to a run; beyond it only the part nearest the run
 /// is scanned and the run's end is marked inexact.
@@ -30,17 +31,48 @@ pub struct NonFiniteRun {
     pub interior: &'static str,
 }
 
-type Classes = (&'static str, &'static str);
+/// The value classes runs compare.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+enum ValueClass {
+    Nan,
+    PlusInf,
+    MinusInf,
+    Finite,
+}
+
+impl ValueClass {
+    fn of(format: &dyn Format, bits: u32) -> ValueClass {
+        match format.classify(bits) {
+            Class::Nan => ValueClass::Nan,
+            Class::Infinite if format.is_sign_negative(bits) => ValueClass::MinusInf,
+            Class::Infinite => ValueClass::PlusInf,
+            _ => ValueClass::Finite,
+        }
+    }
+    /// The report's name, as [`super::value_class`] gives it.
+    fn name(self) -> &'static str {
+        match self {
+            ValueClass::Nan => "nan",
+            ValueClass::PlusInf => "+inf",
+            ValueClass::MinusInf => "-inf",
+            ValueClass::Finite => "finite",
+        }
+    }
+}
+
+/// The kernel's and the reference's class at a point.
+type Classes = (ValueClass, ValueClass);
 
 fn classes(format: &dyn Format, p: &Point) -> Option<Classes> {
     p.output.map(|o| {
         (
-            value_class(format, o),
-            value_class(format, p.reference.bits),
+            ValueClass::of(format, o),
+            ValueClass::of(format, p.reference.bits),
         )
     })
 }
 
+#[derive(Serialize, Deserialize)]
 struct Raw {
     first: u32,
     last: u32,
@@ -50,6 +82,7 @@ struct Raw {
 
 /// Builds runs from known points fed in increasing bit order, joining neighbours in the known
 /// list of the same sign.
+#[derive(Serialize, Deserialize)]
 struct RunBuilder {
     sign: u32,
     previous: Option<(u32, Option<Classes>)>,
@@ -136,8 +169,8 @@ fn report(
                 first: BitsValue::new(format, r.first),
                 last: BitsValue::new(format, r.last),
                 count,
-                kernel: r.classes.0,
-                reference: r.classes.1,
+                kernel: r.classes.0.name(),
+                reference: r.classes.1.name(),
                 exact_ends: exhaustive || !inexact.iter().any(|&b| b == r.first || b == r.last),
                 interior: if r.known == count {
                     "exhaustive"
@@ -152,7 +185,9 @@ fn report(
 /// The runs of an exhaustive sweep, from its points fed in increasing bit order (chunk by
 /// chunk): the same runs [`non_finite_runs`] finds with `exhaustive` set, in constant memory
 /// apart from the runs themselves.
+#[derive(Serialize, Deserialize)]
 pub struct NonFiniteStream {
+    #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
     builder: RunBuilder,
 }
@@ -179,62 +214,117 @@ impl NonFiniteStream {
     }
 }
 
-/// Finds the runs among `points`; unless `exhaustive`, scans the gaps next to every run through
-/// `probe` so each run's first and last input are exact.
+/// The runs of one stretch of bit patterns (a shard's territory) of a sampled sweep, after
+/// scanning the gaps next to runs that lie in it; stretches merge in bit order.
+#[derive(Serialize, Deserialize)]
+pub struct RunsPart {
+    #[serde(with = "crate::format::by_name_serde")]
+    format: &'static dyn Format,
+    builder: RunBuilder,
+    /// Run ends whose gap scan was capped.
+    inexact: Vec<u32>,
+    /// Inputs evaluated by the gap scans.
+    pub scanned: u64,
+}
+
+impl RunsPart {
+    /// Joins the part of the next stretch.
+    pub fn merge(&mut self, other: RunsPart) {
+        self.builder.merge(other.builder);
+        self.inexact.extend(other.inexact);
+        self.scanned += other.scanned;
+    }
+    /// The runs.
+    pub fn finish(self) -> Vec<NonFiniteRun> {
+        report(self.format, self.builder.runs, false, &self.inexact)
+    }
+}
+
+/// Finds the runs among `points` and scans the gaps next to every run through `probe` so
+/// each run's first and last input are exact.
 pub fn non_finite_runs(
-    format: &dyn Format,
+    format: &'static dyn Format,
     points: &[Point],
     probe: &mut dyn Probe,
-    exhaustive: bool,
 ) -> Vec<NonFiniteRun> {
+    non_finite_part(format, points, probe, 0..=u32::MAX).finish()
+}
+
+/// The runs within `territory`, a stretch of bit patterns that begins just after a known
+/// point (or at 0) and ends on a known point (or at the last pattern).
+///
+/// `points` must hold every known point in the territory and the known points next to it on
+/// both sides. Whether the gap between two neighbouring known points is scanned, and from
+/// which end, depends on those two points alone, and such a gap never straddles the ends of
+/// a territory: so the parts of consecutive territories merge into exactly the runs of one
+/// pass over all points.
+pub fn non_finite_part(
+    format: &'static dyn Format,
+    points: &[Point],
+    probe: &mut dyn Probe,
+    territory: RangeInclusive<u32>,
+) -> RunsPart {
     let mut known: BTreeMap<u32, Option<Classes>> = points
         .iter()
         .map(|p| (p.input, classes(format, p)))
         .collect();
     let sign = format.infinity(true) & !format.infinity(false);
     let mut inexact: Vec<u32> = Vec::new();
-    if !exhaustive {
-        let runs = raw_runs(format, &known);
-        let mut wanted: Vec<u32> = Vec::new();
-        for run in &runs {
-            let side_start = run.first & sign;
-            let side_end = side_start | (sign - 1);
-            let before = known
-                .range(side_start..run.first)
-                .next_back()
-                .map(|(&b, _)| b + 1)
-                .unwrap_or(side_start);
-            // A run may end on the side's last pattern (a NaN input): nothing lies after it.
-            let after = match run.last.checked_add(1).filter(|&b| b <= side_end) {
-                Some(next) => known
-                    .range(next..=side_end)
-                    .next()
-                    .map(|(&b, _)| b - 1)
-                    .unwrap_or(side_end),
-                None => side_end,
-            };
-            // The gap next to each end, nearest part first, capped.
+    let runs = raw_runs(format, &known);
+    let mut wanted: Vec<u32> = Vec::new();
+    for run in &runs {
+        let side_start = run.first & sign;
+        let side_end = side_start | (sign - 1);
+        let before = known
+            .range(side_start..run.first)
+            .next_back()
+            .map(|(&b, _)| b + 1)
+            .unwrap_or(side_start);
+        // A run may end on the side's last pattern (a NaN input): nothing lies after it.
+        let after = match run.last.checked_add(1).filter(|&b| b <= side_end) {
+            Some(next) => known
+                .range(next..=side_end)
+                .next()
+                .map(|(&b, _)| b - 1)
+                .unwrap_or(side_end),
+            None => side_end,
+        };
+        // The gap next to each end, nearest part first, capped; each gap belongs to the
+        // territory that holds it.
+        if territory.contains(&run.first) {
             let lo = before.max(run.first.saturating_sub(MAX_GAP_SCAN));
             if lo > before {
                 inexact.push(run.first);
             }
             wanted.extend(lo..run.first);
-            let hi = after.min(run.last.saturating_add(MAX_GAP_SCAN));
-            if hi < after {
-                inexact.push(run.last);
-            }
-            if let Some(next) = run.last.checked_add(1) {
+        }
+        if let Some(next) = run.last.checked_add(1).filter(|&b| b <= side_end) {
+            if territory.contains(&next) {
+                let hi = after.min(run.last.saturating_add(MAX_GAP_SCAN));
+                if hi < after {
+                    inexact.push(run.last);
+                }
                 wanted.extend(next..=hi);
             }
         }
-        wanted.sort_unstable();
-        wanted.dedup();
-        wanted.retain(|b| !known.contains_key(b));
-        for p in probe.probe(&wanted) {
-            known.insert(p.input, classes(format, &p));
-        }
     }
-    report(format, raw_runs(format, &known), exhaustive, &inexact)
+    wanted.sort_unstable();
+    wanted.dedup();
+    wanted.retain(|b| !known.contains_key(b));
+    let scanned = wanted.len() as u64;
+    for p in probe.probe(&wanted) {
+        known.insert(p.input, classes(format, &p));
+    }
+    let mut builder = RunBuilder::new(format);
+    for (&bits, &c) in known.range(territory) {
+        builder.push(bits, c);
+    }
+    RunsPart {
+        format,
+        builder,
+        inexact,
+        scanned,
+    }
 }
 
 #[cfg(test)]
@@ -269,7 +359,7 @@ mod tests {
     fn sampled_runs_get_exact_ends_and_holes_split_them() {
         let f = &Binary16;
         let samples: Vec<Point> = (0..0x7c00u32).step_by(0x40).map(point).collect();
-        let runs = non_finite_runs(f, &samples, &mut Fake, false);
+        let runs = non_finite_runs(f, &samples, &mut Fake);
         let ends: Vec<(String, String)> = runs
             .iter()
             .map(|r| (r.first.bits.clone(), r.last.bits.clone()))

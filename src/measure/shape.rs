@@ -4,13 +4,13 @@
 use super::{is_finite, Point};
 use crate::format::Format;
 use crate::report::BitsValue;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// At most this many examples of each finding are listed; counts are complete.
 const EXAMPLES: usize = 20;
 
 /// A step back of a kernel whose function is non-decreasing.
-#[derive(Clone, Debug, Serialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Violation {
     /// Lower input.
     pub from: BitsValue,
@@ -51,7 +51,7 @@ pub struct Shape {
 }
 
 /// The fields of a point that shape findings look at.
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Copy, Debug, Serialize, Deserialize)]
 struct Seen {
     input: u32,
     output: u32,
@@ -59,7 +59,7 @@ struct Seen {
 }
 
 /// Findings of one sign's inputs, fed in increasing bit order (increasing |x|).
-#[derive(Default)]
+#[derive(Default, Serialize, Deserialize)]
 struct Side {
     first: Option<Seen>,
     last: Option<Seen>,
@@ -71,7 +71,9 @@ struct Side {
 
 /// Shape findings accumulated point by point in increasing bit order (chunk by chunk), with
 /// memory independent of the number of points; the same findings as [`shape`].
+#[derive(Serialize, Deserialize)]
 pub struct ShapeAcc {
+    #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
     monotone_function: bool,
     positive: Side,
@@ -97,6 +99,11 @@ impl ShapeAcc {
             jumps: Vec::new(),
             jump_count: 0,
         }
+    }
+
+    /// An empty accumulator with the same settings.
+    pub fn fresh(&self) -> Self {
+        ShapeAcc::new(self.format, self.monotone_function)
     }
 
     /// The pair a < b (in x) of neighbouring evaluated inputs.

@@ -17,7 +17,7 @@ const START_PRECISION: u32 = 64;
 pub const MAX_PRECISION: u32 = 1 << 14;
 
 /// A correctly rounded reference value and what the measures need of the exact value.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct Reference {
     /// RN(y) in the target format.
     pub bits: u32,

@@ -36,6 +36,11 @@
 //! - `verdict`: {exit_code (0 | 1 | 3), failed: [text], max_ulp_limit}.
 //! - `provenance`: {ulpgauge, mpfr, gmp, library: {path, sha256, compiler} | null, cpu: {model,
 //!   features}, date, sweep: {kinds, coverage, points, inputs}}.
+//! - `shard` (only in the report of a `check --shard I/N` run): {index, count, state}; `state`
+//!   is what `ulpgauge merge` joins (the serialised [`crate::check::Gathered`]: accumulators,
+//!   kept points, probe points, crashes by phase, non-finite runs of the part); its layout is
+//!   internal to one ulpgauge version. The other keys then describe the shard's part only
+//!   (`sweep.inputs` counts its measured inputs).
 
 use super::{CheckReport, ReportFormat};
 

@@ -145,4 +145,18 @@ pub struct CheckReport {
     pub verdict: Verdict,
     /// Where the report comes from.
     pub provenance: Provenance,
+    /// A shard's part and the state `ulpgauge merge` joins; absent from unsharded reports.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub shard: Option<ShardSection>,
+}
+
+/// The `shard` object of a shard's report.
+#[derive(Clone, Debug, Serialize)]
+pub struct ShardSection {
+    /// Which part, 1-based.
+    pub index: u64,
+    /// How many parts.
+    pub count: u64,
+    /// The measured state (accumulators, kept points, probe points, crashes), for `merge`.
+    pub state: serde_json::Value,
 }

@@ -27,6 +27,13 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         "  coverage    {coverage}: {} measured points ({} inputs, range {})",
         acc.points, r.sweep.inputs, r.sweep.range
     )?;
+    if let Some(s) = &r.shard {
+        writeln!(
+            out,
+            "  shard       {}/{}: figures of this part only; `ulpgauge merge` joins the parts",
+            s.index, s.count
+        )?;
+    }
     writeln!(
         out,
         "  max error   {:.4} ulp; mean {:.4}, rms {:.4}; correctly rounded {:.2}%, faithful {:.2}%",

@@ -5,7 +5,7 @@ use serde::Serialize;
 
 /// A value of a format as reports show it: its bit pattern and its value (a number, or the
 /// strings "nan", "inf", "-inf").
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, serde::Deserialize)]
 pub struct BitsValue {
     /// "0x…" padded to the format's width.
     pub bits: String,

@@ -38,6 +38,7 @@ pub fn config(
         max_ulp: None,
         list_over: None,
         library: None,
+        shard: None,
         symbol: None,
         progress: false,
         reference: ulpgauge::check::ReferencePath::Auto,

@@ -1,0 +1,200 @@
+//! Everything a check measured, before it becomes report sections: the state a shard writes
+//! into its report and `merge` joins, and the one function that turns it into figures, so an
+//! unsharded run and a merge of shards compute their figures the same way.
+
+use super::stream::Stream;
+use super::{HygieneEntry, KernelCrash};
+use crate::format::Format;
+use crate::measure::{
+    self, Accuracy, KinkSide, NonFiniteRun, Point, RuleContext, RunsPart, Shape, SpecialRule,
+};
+use crate::report::model::{CrashReport, ReferenceFailures, Verdict};
+use crate::report::BitsValue;
+use serde::{Deserialize, Serialize};
+
+/// A crash of the kernel, as kept in the state.
+#[derive(Clone, Debug, Serialize, Deserialize)]
+pub struct CrashAt {
+    /// The input.
+    pub input: u32,
+    /// "SIGSEGV", "hang", …
+    pub signal: String,
+}
+
+impl From<&KernelCrash> for CrashAt {
+    fn from(c: &KernelCrash) -> Self {
+        CrashAt {
+            input: c.input,
+            signal: c.signal.clone(),
+        }
+    }
+}
+
+/// Crashes by the phase that met them, in evaluation order within each phase.
+#[derive(Clone, Debug, Default, Serialize, Deserialize)]
+pub struct Crashes {
+    /// On measured inputs.
+    pub measured: Vec<CrashAt>,
+    /// On edge probes and format specials (the same in every shard).
+    pub probes: Vec<CrashAt>,
+    /// On the inputs scanned next to non-finite runs.
+    pub scans: Vec<CrashAt>,
+    /// During threshold searches (the same in every shard).
+    pub thresholds: Vec<CrashAt>,
+}
+
+/// What a check measured, in a form that merges in bit order.
+#[derive(Serialize, Deserialize)]
+pub struct Gathered {
+    /// Accumulators over the measured inputs.
+    pub stream: Stream,
+    /// Sampled sweeps: the non-finite runs of this part (exhaustive ones stream them).
+    pub runs: Option<RunsPart>,
+    /// The probe points (the same in every shard).
+    pub probe_points: Vec<Point>,
+    /// Inputs whose reference could not be decided, with the message.
+    pub failures: Vec<(u32, String)>,
+    /// Crashes by phase.
+    pub crashes: Crashes,
+    /// Measured inputs of this part.
+    pub inputs: u64,
+    /// Inputs evaluated by threshold searches (the same in every shard).
+    pub threshold_inputs: u64,
+    /// Whether f(−0) = −0 is required.
+    pub keeps_negative_zero: bool,
+    /// Largest error accepted by the rules.
+    pub tolerance: f64,
+    /// Forward role (kinks are reported for the other roles).
+    pub role_is_forward: bool,
+}
+
+/// The report sections computed from a [`Gathered`].
+pub struct Figures {
+    /// Accuracy.
+    pub accuracy: Accuracy,
+    /// Non-finite runs.
+    pub non_finite: Vec<NonFiniteRun>,
+    /// Special-value rules.
+    pub special_values: Vec<SpecialRule>,
+    /// Kinks of derivative roles.
+    pub kinks: Vec<KinkSide>,
+    /// Shape of forward roles.
+    pub shape: Option<Shape>,
+    /// Undecided references.
+    pub reference_failures: ReferenceFailures,
+    /// The first crash.
+    pub crash: Option<CrashReport>,
+    /// Inputs evaluated beyond the measured ones and the probes.
+    pub extra_inputs: u64,
+}
+
+impl Gathered {
+    /// Joins the state of the next part of the same sweep (its inputs all above ours).
+    pub fn merge(&mut self, other: Gathered) {
+        self.stream.merge(other.stream);
+        if let (Some(mine), Some(theirs)) = (&mut self.runs, other.runs) {
+            mine.merge(theirs);
+        }
+        self.failures.extend(other.failures);
+        self.crashes.measured.extend(other.crashes.measured);
+        self.crashes.scans.extend(other.crashes.scans);
+        self.inputs += other.inputs;
+    }
+
+    /// The figures.
+    pub fn figures(self, format: &'static dyn Format) -> Figures {
+        let (accuracy, shape, streamed_runs, kept) = self.stream.finish();
+        let scanned = self.runs.as_ref().map_or(0, |r| r.scanned);
+        let non_finite = match (streamed_runs, self.runs) {
+            (Some(runs), _) => runs,
+            (None, Some(part)) => part.finish(),
+            (None, None) => Vec::new(),
+        };
+        let ctx = RuleContext {
+            keeps_negative_zero: self.keeps_negative_zero,
+            tolerance: self.tolerance,
+        };
+        // The rules read the zeros and the first and last subnormal-reference point per sign,
+        // the kinks the kink points: exactly what the stream keeps.
+        let special_values = measure::special_values(format, &self.probe_points, &kept, &ctx);
+        let kinks = if self.role_is_forward {
+            Vec::new()
+        } else {
+            let mut all = self.probe_points.clone();
+            all.extend(kept.iter().filter(|p| p.left.is_some()).cloned());
+            all.sort_by_key(|p| p.input);
+            all.dedup_by_key(|p| p.input);
+            measure::kink_sides(format, &all, self.tolerance)
+        };
+        let mut failures = self.failures;
+        failures.sort();
+        failures.dedup_by_key(|f| f.0);
+        let reference_failures = ReferenceFailures {
+            count: failures.len() as u64,
+            inputs: failures
+                .iter()
+                .take(20)
+                .map(|f| BitsValue::new(format, f.0))
+                .collect(),
+            first_message: failures.first().map(|f| f.1.clone()),
+        };
+        let c = self.crashes;
+        let all: Vec<&CrashAt> = c
+            .measured
+            .iter()
+            .chain(&c.probes)
+            .chain(&c.scans)
+            .chain(&c.thresholds)
+            .collect();
+        let crash = all.first().map(|first| CrashReport {
+            signal: first.signal.clone(),
+            input: BitsValue::new(format, first.input),
+            count: all.len() as u64,
+        });
+        Figures {
+            accuracy,
+            non_finite,
+            special_values,
+            kinks,
+            shape,
+            reference_failures,
+            crash,
+            extra_inputs: scanned + self.threshold_inputs,
+        }
+    }
+}
+
+/// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule or the
+/// `--max-ulp` limit failed, 0 otherwise.
+pub fn verdict(
+    crashed: bool,
+    hygiene: &[HygieneEntry],
+    special_values: &[SpecialRule],
+    max_ulp: f64,
+    limit: Option<f64>,
+) -> Verdict {
+    let mut failed = Vec::new();
+    for h in hygiene.iter().filter(|h| !h.passed) {
+        failed.push(format!("hygiene {}: {}", h.check, h.detail));
+    }
+    for r in special_values.iter().filter(|r| !r.passed) {
+        failed.push(format!("{} at {}", r.rule, r.input.bits));
+    }
+    if let Some(limit) = limit {
+        if max_ulp > limit {
+            failed.push(format!("max_ulp {max_ulp} exceeds --max-ulp {limit}"));
+        }
+    }
+    let exit_code = if crashed {
+        3
+    } else if failed.is_empty() {
+        0
+    } else {
+        1
+    };
+    Verdict {
+        exit_code,
+        failed,
+        max_ulp_limit: limit,
+    }
+}

@@ -1,0 +1,89 @@
+//! `ulpgauge merge SHARD.json... [--json OUT]`: joins the reports of `check --shard I/N`
+//! runs into the report of the whole sweep.
+//!
+//! Exit status: that of the merged check (0, 1 a finding failed, 3 the kernel crashed), or 2
+//! when the files are not the complete, matching shards of one check.
+
+use super::check::combine;
+use super::Failure;
+use crate::merge;
+use crate::report::{check_writable, write_atomic};
+use serde_json::Value;
+use std::path::PathBuf;
+
+/// Arguments of `merge`.
+#[derive(clap::Args, Debug, Clone)]
+pub struct Args {
+    /// The shard reports: one per shard 1/N … N/N, in any order.
+    #[arg(value_name = "SHARD.json", required = true)]
+    pub shards: Vec<PathBuf>,
+    /// Write the merged report as JSON.
+    #[arg(long, value_name = "FILE")]
+    pub json: Option<PathBuf>,
+    /// Print no terminal summary.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// One summary line of a merged kernel report.
+fn summary(report: &Value) -> String {
+    let text = |v: &Value| match v {
+        Value::String(s) => s.clone(),
+        Value::Null => "-".into(),
+        other => other.to_string(),
+    };
+    let a = &report["accuracy"];
+    let worst = &a["worst"]["input"];
+    format!(
+        "{} {} {} {}: max {} ulp at x = {} ({}), {} points ({}), {:.4}% correctly rounded, exit {}",
+        text(&report["function"]),
+        text(&report["format"]),
+        text(&report["role"]),
+        text(&report["kernel"]["symbol"]),
+        text(&a["max_ulp"]),
+        text(&worst["value"]),
+        text(&worst["bits"]),
+        text(&a["points"]),
+        text(&a["coverage"]),
+        a["correctly_rounded"].as_f64().unwrap_or(0.0) * 100.0,
+        text(&report["verdict"]["exit_code"]),
+    )
+}
+
+/// Runs `merge`.
+pub fn run(args: Args) -> Result<i32, Failure> {
+    if let Some(path) = &args.json {
+        check_writable(path).map_err(Failure::bad_input)?;
+    }
+    let files = args
+        .shards
+        .iter()
+        .map(|p| merge::read(p))
+        .collect::<Result<Vec<_>, String>>()
+        .map_err(Failure::bad_input)?;
+    let merged = merge::merge(&files).map_err(Failure::bad_input)?;
+    if let Some(path) = &args.json {
+        let mut text = serde_json::to_string_pretty(&merged.value)
+            .map_err(|e| Failure::bad_input(e.to_string()))?;
+        text.push('\n');
+        write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if !args.quiet {
+        let what = if merged.manifest {
+            "manifest run"
+        } else {
+            "check"
+        };
+        println!(
+            "merged {} shard reports of one {what} ({} kernel(s))",
+            files.len(),
+            merged.kernels.len()
+        );
+        for report in &merged.kernels {
+            println!("  {}", summary(report));
+        }
+    }
+    Ok(combine(merged.kernels.iter().map(|r| {
+        r["verdict"]["exit_code"].as_i64().unwrap_or(0) as i32
+    })))
+}

@@ -1,0 +1,300 @@
+//! `merge`: joins the reports of the shards of one check (`check --shard I/N`) into the
+//! report one unsharded run gives.
+//!
+//! Each shard report carries, under `shard.state`, what its part measured in mergeable form
+//! (accumulators with exact sums, the points special-value rules and kinks read, crashes by
+//! phase, the non-finite runs of its territory). The states are joined in part order and
+//! turned into figures by the same code an unsharded check uses; the sections that do not
+//! depend on the part (thresholds, probes, parameters, provenance) come from shard 1.
+//! Every figure and verdict equals the unsharded run's; `kernel.ns_per_element` and
+//! `provenance` are shard 1's.
+
+use crate::check::{verdict, Figures, Gathered, HygieneEntry};
+use crate::format::{self, Format};
+use crate::report::model::SCHEMA;
+use serde_json::{Map, Value};
+use std::path::{Path, PathBuf};
+
+/// One shard report as read: its file and its JSON.
+pub struct ShardFile {
+    /// Where it came from (for messages).
+    pub path: PathBuf,
+    /// The report (one kernel or a manifest run).
+    pub value: Value,
+}
+
+/// The merged report(s).
+pub struct Merged {
+    /// The report in the shape the shards had: one object, or `{"schema", "kernels": […]}`.
+    pub value: Value,
+    /// Each kernel's merged report, in order.
+    pub kernels: Vec<Value>,
+    /// Whether the shards were manifest runs.
+    pub manifest: bool,
+}
+
+/// Reads a shard report.
+pub fn read(path: &Path) -> Result<ShardFile, String> {
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| format!("cannot read {}: {e}", path.display()))?;
+    let value: Value = serde_json::from_str(&text)
+        .map_err(|e| format!("{}: not a JSON report: {e}", path.display()))?;
+    Ok(ShardFile {
+        path: path.to_path_buf(),
+        value,
+    })
+}
+
+/// The kernel reports of a file, and whether it is a manifest run.
+fn kernels(file: &ShardFile) -> Result<(Vec<&Value>, bool), String> {
+    let name = file.path.display();
+    let schema = file.value.get("schema").and_then(Value::as_str);
+    if schema != Some(SCHEMA) {
+        return Err(format!(
+            "{name}: schema {} is not {SCHEMA}",
+            schema.map_or("missing".to_string(), |s| format!("{s:?}"))
+        ));
+    }
+    match file.value.get("kernels") {
+        Some(Value::Array(list)) => Ok((list.iter().collect(), true)),
+        Some(_) => Err(format!("{name}: \"kernels\" is not a list")),
+        None => Ok((vec![&file.value], false)),
+    }
+}
+
+/// The keys of a kernel report that must agree between shards of one check.
+fn frame(report: &Value) -> Value {
+    let mut sweep = report.get("sweep").cloned().unwrap_or(Value::Null);
+    if let Some(map) = sweep.as_object_mut() {
+        map.remove("inputs");
+        map.remove("extra_inputs");
+    }
+    let pick = |path: &[&str]| {
+        path.iter()
+            .try_fold(report, |v, k| v.get(k))
+            .cloned()
+            .unwrap_or(Value::Null)
+    };
+    serde_json::json!({
+        "function": pick(&["function"]),
+        "format": pick(&["format"]),
+        "role": pick(&["role"]),
+        "from_output": pick(&["from_output"]),
+        "params": pick(&["params"]),
+        "param_rounding": pick(&["param_rounding"]),
+        "symbol": pick(&["kernel", "symbol"]),
+        "library": pick(&["provenance", "library", "sha256"]),
+        "abs_floor": pick(&["accuracy", "abs_floor", "floor"]),
+        "max_ulp_limit": pick(&["verdict", "max_ulp_limit"]),
+        "sweep": sweep,
+        "count": pick(&["shard", "count"]),
+    })
+}
+
+/// The first differing key of two frames.
+fn first_difference(a: &Value, b: &Value) -> String {
+    if let (Some(a), Some(b)) = (a.as_object(), b.as_object()) {
+        for (k, v) in a {
+            if b.get(k) != Some(v) {
+                return k.clone();
+            }
+        }
+    }
+    "report".into()
+}
+
+/// Merges the shards of one kernel (in any order).
+fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
+    let (first_path, first) = shards[0];
+    let shard_of = |path: &Path, report: &Value| -> Result<(u64, u64), String> {
+        let s = report.get("shard").ok_or_else(|| {
+            format!(
+                "{}: not a shard report (run check with --shard I/N)",
+                path.display()
+            )
+        })?;
+        let index = s.get("index").and_then(Value::as_u64);
+        let count = s.get("count").and_then(Value::as_u64);
+        match (index, count) {
+            (Some(i), Some(n)) if i >= 1 && i <= n => Ok((i, n)),
+            _ => Err(format!("{}: bad \"shard\" index/count", path.display())),
+        }
+    };
+    let (_, count) = shard_of(first_path, first)?;
+    let reference = frame(first);
+    let mut ordered: Vec<Option<(&Path, &Value)>> = vec![None; count as usize];
+    for &(path, report) in shards {
+        let (index, _) = shard_of(path, report)?;
+        let here = frame(report);
+        if here != reference {
+            return Err(format!(
+                "{} and {}: not shards of the same check ({} differs)",
+                first_path.display(),
+                path.display(),
+                first_difference(&reference, &here)
+            ));
+        }
+        let slot = &mut ordered[index as usize - 1];
+        if let Some((other, _)) = slot {
+            return Err(format!(
+                "shard {index}/{count} given twice: {} and {}",
+                other.display(),
+                path.display()
+            ));
+        }
+        *slot = Some((path, report));
+    }
+    let missing: Vec<String> = ordered
+        .iter()
+        .enumerate()
+        .filter(|(_, s)| s.is_none())
+        .map(|(i, _)| format!("{}/{count}", i + 1))
+        .collect();
+    if !missing.is_empty() {
+        return Err(format!("missing shard(s) {}", missing.join(", ")));
+    }
+    let ordered: Vec<(&Path, &Value)> = ordered.into_iter().flatten().collect();
+
+    let format_name = first.get("format").and_then(Value::as_str).unwrap_or("");
+    let format: &'static dyn Format = format::by_name(format_name)
+        .ok_or_else(|| format!("{}: unknown format {format_name:?}", first_path.display()))?;
+    let mut states = ordered.iter().map(|&(path, report)| {
+        let state = report
+            .get("shard")
+            .and_then(|s| s.get("state"))
+            .cloned()
+            .ok_or_else(|| format!("{}: the shard has no state", path.display()))?;
+        serde_json::from_value::<Gathered>(state)
+            .map_err(|e| format!("{}: unreadable shard state: {e}", path.display()))
+    });
+    let mut gathered = states.next().expect("at least one shard")?;
+    for state in states {
+        gathered.merge(state?);
+    }
+    let hygiene = merged_hygiene(&ordered)?;
+    let Figures {
+        accuracy,
+        non_finite,
+        special_values,
+        kinks,
+        shape,
+        reference_failures,
+        crash,
+        extra_inputs,
+    } = gathered.figures(format);
+    let verdict = verdict(
+        crash.is_some(),
+        &hygiene,
+        &special_values,
+        accuracy.max_ulp,
+        first
+            .get("verdict")
+            .and_then(|v| v.get("max_ulp_limit"))
+            .and_then(Value::as_f64),
+    );
+    let inputs = ordered
+        .iter()
+        .map(|(_, r)| r["sweep"]["inputs"].as_u64().unwrap_or(0))
+        .sum::<u64>();
+
+    let mut report = first.clone();
+    let map = report.as_object_mut().ok_or("a report is not an object")?;
+    map.remove("shard");
+    let coverage = first["accuracy"]["coverage"].clone();
+    let mut accuracy_value = to_value(&accuracy)?;
+    if let Some(a) = accuracy_value.as_object_mut() {
+        a.insert("coverage".into(), coverage);
+    }
+    let points = accuracy.points;
+    map.insert("accuracy".into(), accuracy_value);
+    map.insert("non_finite".into(), to_value(&non_finite)?);
+    map.insert("special_values".into(), to_value(&special_values)?);
+    map.insert("kinks".into(), to_value(&kinks)?);
+    map.insert("shape".into(), to_value(&shape)?);
+    map.insert("reference_failures".into(), to_value(&reference_failures)?);
+    map.insert("crash".into(), to_value(&crash)?);
+    map.insert("hygiene".into(), to_value(&hygiene)?);
+    map.insert("verdict".into(), to_value(&verdict)?);
+    set(map, &["sweep", "inputs"], Value::from(inputs));
+    set(map, &["sweep", "extra_inputs"], Value::from(extra_inputs));
+    set(map, &["provenance", "sweep", "points"], Value::from(points));
+    set(map, &["provenance", "sweep", "inputs"], Value::from(inputs));
+    Ok(report)
+}
+
+/// A report section as a JSON value.
+fn to_value<T: serde::Serialize>(section: &T) -> Result<Value, String> {
+    serde_json::to_value(section).map_err(|e| e.to_string())
+}
+
+/// Sets a nested key that exists in the template.
+fn set(map: &mut Map<String, Value>, path: &[&str], value: Value) {
+    let (last, parents) = path.split_last().expect("a path");
+    let mut here = map;
+    for key in parents {
+        match here.get_mut(*key).and_then(Value::as_object_mut) {
+            Some(next) => here = next,
+            None => return,
+        }
+    }
+    here.insert(last.to_string(), value);
+}
+
+/// Every shard ran the same hygiene checks on the same sample; a check counts as failed when
+/// it failed in any shard (the first such shard's entry is kept), as one run would have
+/// shown it failing on some run.
+fn merged_hygiene(ordered: &[(&Path, &Value)]) -> Result<Vec<HygieneEntry>, String> {
+    let lists = ordered
+        .iter()
+        .map(|(path, report)| {
+            serde_json::from_value::<Vec<HygieneEntry>>(report["hygiene"].clone())
+                .map_err(|e| format!("{}: unreadable hygiene: {e}", path.display()))
+        })
+        .collect::<Result<Vec<_>, String>>()?;
+    let mut merged = lists[0].clone();
+    for entry in &mut merged {
+        if let Some(failed) = lists
+            .iter()
+            .flat_map(|l| l.iter())
+            .find(|h| h.check == entry.check && !h.passed)
+        {
+            *entry = failed.clone();
+        }
+    }
+    Ok(merged)
+}
+
+/// Joins shard files: every file must hold the same kernels (one, or a manifest's list) and
+/// together they must hold each shard 1..=N of each kernel exactly once.
+pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
+    let first = files.first().ok_or("no shard reports given")?;
+    let (first_kernels, manifest) = kernels(first)?;
+    let mut per_kernel: Vec<Vec<(&Path, &Value)>> = vec![Vec::new(); first_kernels.len()];
+    for file in files {
+        let (list, is_manifest) = kernels(file)?;
+        if is_manifest != manifest || list.len() != first_kernels.len() {
+            return Err(format!(
+                "{} and {}: not shards of the same check (different kernels)",
+                first.path.display(),
+                file.path.display()
+            ));
+        }
+        for (k, report) in list.into_iter().enumerate() {
+            per_kernel[k].push((file.path.as_path(), report));
+        }
+    }
+    let kernels = per_kernel
+        .iter()
+        .map(|shards| merge_kernel(shards))
+        .collect::<Result<Vec<Value>, String>>()?;
+    let value = if manifest {
+        serde_json::json!({ "schema": SCHEMA, "kernels": kernels })
+    } else {
+        kernels[0].clone()
+    };
+    Ok(Merged {
+        value,
+        kernels,
+        manifest,
+    })
+}
