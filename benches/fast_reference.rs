@@ -2,6 +2,10 @@
 //! `cargo bench --bench fast_reference [function]`).  The fast column counts the MPFR fallback
 //! for undecided inputs.  MPFR-only runs on every STRIDE-th input (env `BENCH_STRIDE`, default
 //! 8) to keep the run short; rates are per point, so they compare directly.
+//!
+//! A second table samples the whole binary32 domain (every DOMAIN_STRIDE-th bit pattern of
+//! the 2^32, NaNs, infinities and zeros included, one thread, best of REPEAT runs), where the saturated tails and the
+//! tiny inputs dominate.  `BENCH_PART=binade` or `BENCH_PART=domain` runs one table only.
 
 use rayon::prelude::*;
 use std::time::Instant;
@@ -16,8 +20,92 @@ fn rate(points: usize, f: impl FnOnce() -> u64) -> f64 {
     points as f64 / start.elapsed().as_secs_f64()
 }
 
+/// Stride of the whole-domain sample: a prime, so every exponent and low-bit pattern is hit.
+const DOMAIN_STRIDE: u64 = 4093;
+
+/// Runs per whole-domain measurement; the best is reported.
+const REPEAT: usize = 5;
+
+fn evaluator(name: &str, role: Role) -> Evaluator<'static> {
+    let f = lookup(name).unwrap();
+    Evaluator::new(
+        f,
+        role,
+        Constants::resolve(f, &[], ParamRounding::Exact, &Binary32),
+        &Binary32,
+    )
+}
+
+fn role_name(role: Role) -> &'static str {
+    if role == Role::Forward {
+        "forward"
+    } else {
+        "derivative"
+    }
+}
+
+/// Fast references (MPFR fallback included) per second over every DOMAIN_STRIDE-th pattern.
+fn domain(filter: Option<&str>) {
+    let sample: Vec<u32> = (0..1u64 << 32)
+        .step_by(DOMAIN_STRIDE as usize)
+        .map(|b| b as u32)
+        .collect();
+    println!(
+        "whole binary32 domain, every {DOMAIN_STRIDE}-th pattern ({} inputs), one thread",
+        sample.len()
+    );
+    println!(
+        "{:<8} {:<10} {:>12} {:>9}",
+        "function", "role", "fast/s 1t", "decided"
+    );
+    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+        if filter.is_some_and(|n| n != name) {
+            continue;
+        }
+        for role in [Role::Forward, Role::Derivative] {
+            let e = evaluator(name, role);
+            let fast = FastEvaluator::new(&e).expect("fast path");
+            let mut decided = 0u64;
+            // Best of REPEAT runs: a run is short, and the machine may be shared.
+            let r = (0..REPEAT)
+                .map(|_| {
+                    decided = 0;
+                    rate(sample.len(), || {
+                        let mut s = 0u64;
+                        for &x in &sample {
+                            let b = match fast.try_reference(x) {
+                                Some(r) => {
+                                    decided += 1;
+                                    r.bits
+                                }
+                                None => e.reference(x).unwrap().bits,
+                            };
+                            s = s.wrapping_add(b as u64);
+                        }
+                        s
+                    })
+                })
+                .fold(0.0, f64::max);
+            println!(
+                "{:<8} {:<10} {:>12.0} {:>8.4}%",
+                name,
+                role_name(role),
+                r,
+                100.0 * decided as f64 / sample.len() as f64
+            );
+        }
+    }
+}
+
 fn main() {
     let filter = std::env::args().nth(1).filter(|a| !a.starts_with('-'));
+    let part = std::env::var("BENCH_PART").unwrap_or_default();
+    if part != "binade" {
+        domain(filter.as_deref());
+    }
+    if part == "domain" {
+        return;
+    }
     let stride: usize = std::env::var("BENCH_STRIDE")
         .ok()
         .and_then(|s| s.parse().ok())
@@ -40,14 +128,8 @@ fn main() {
         if filter.as_deref().is_some_and(|n| n != name) {
             continue;
         }
-        let f = lookup(name).unwrap();
         for role in [Role::Forward, Role::Derivative] {
-            let e = Evaluator::new(
-                f,
-                role,
-                Constants::resolve(f, &[], ParamRounding::Exact, &Binary32),
-                &Binary32,
-            );
+            let e = evaluator(name, role);
             let fast = FastEvaluator::new(&e).expect("fast path");
             let one = |x: u32| match fast.try_reference(x) {
                 Some(r) => (r.bits as u64, 1u64),
@@ -77,11 +159,7 @@ fn main() {
             println!(
                 "{:<8} {:<10} {:>12.0} {:>12.0} {:>6.1}x {:>12.0} {:>12.0} {:>6.1}x {:>8.4}%",
                 name,
-                if role == Role::Forward {
-                    "forward"
-                } else {
-                    "derivative"
-                },
+                role_name(role),
                 fast_1t,
                 mpfr_1t,
                 fast_1t / mpfr_1t,

@@ -345,3 +345,212 @@ fn large_comparison() {
         check(name, &[], n);
     }
 }
+
+// The closed-form regions (tails and tiny inputs decided without exp): at each region's edges,
+// a few hundred patterns on both sides, and random points inside each region, where every
+// point must be decided.
+
+/// The 2k + 1 patterns of `format` around v (the largest value ≤ v in the middle).
+fn neighbours(format: &'static dyn Format, v: f64, k: i64) -> Vec<u32> {
+    let top = format.ordinal(format.max_finite(false));
+    let value = |o: i64| format.to_f64(format.from_ordinal(o));
+    let (mut lo, mut hi) = (-top, top);
+    while lo < hi {
+        let mid = lo + (hi - lo + 1) / 2;
+        if value(mid) <= v {
+            lo = mid;
+        } else {
+            hi = mid - 1;
+        }
+    }
+    ((lo - k).max(-top)..=(lo + k).min(top))
+        .map(|o| format.from_ordinal(o))
+        .collect()
+}
+
+/// One closed-form region: its edges (signed values where the region starts) and the ranges
+/// (same-sign f32 ends, ordered by magnitude) lying wholly inside it.
+struct Region {
+    edges: Vec<f64>,
+    inside: Vec<(f32, f32)>,
+}
+
+/// The closed-form regions of src/reference/fast (thresholds restated here, not imported);
+/// `beta` is swish's β or ELU's α.
+fn regions(name: &str, role: Role, beta: f64) -> Vec<Region> {
+    match (name, role) {
+        ("sigmoid", Role::Forward) => vec![
+            Region {
+                edges: vec![38.0],
+                inside: vec![(38.001, 4095.0)],
+            },
+            Region {
+                edges: vec![-745.2],
+                inside: vec![(-745.21, -4095.0)],
+            },
+            Region {
+                edges: vec![1.1102230246251565e-16, -1.1102230246251565e-16],
+                inside: vec![(1e-45, 1.11e-16), (-1e-45, -1.11e-16)],
+            },
+        ],
+        ("sigmoid", Role::Derivative) => vec![
+            Region {
+                edges: vec![745.2, -745.2],
+                inside: vec![(745.21, 4095.0), (-745.21, -4095.0)],
+            },
+            Region {
+                edges: vec![1.4901161193847656e-8, -1.4901161193847656e-8],
+                inside: vec![(1e-45, 1.4901e-8), (-1e-45, -1.4901e-8)],
+            },
+        ],
+        ("tanh", Role::Forward) => vec![
+            Region {
+                edges: vec![19.5, -19.5],
+                inside: vec![(19.501, 4095.0), (-19.501, -4095.0)],
+            },
+            Region {
+                edges: vec![7.450580596923828e-9, -7.450580596923828e-9],
+                inside: vec![(1e-45, 7.4505e-9), (-1e-45, -7.4505e-9)],
+            },
+        ],
+        ("tanh", Role::Derivative) => vec![
+            Region {
+                edges: vec![373.5, -373.5],
+                inside: vec![(373.51, 4095.0), (-373.51, -4095.0)],
+            },
+            Region {
+                edges: vec![7.450580596923828e-9, -7.450580596923828e-9],
+                inside: vec![(1e-45, 7.4505e-9), (-1e-45, -7.4505e-9)],
+            },
+        ],
+        ("gelu", Role::Forward | Role::Derivative) => vec![
+            Region {
+                edges: vec![2.7755575615628914e-17, -2.7755575615628914e-17],
+                inside: vec![(1e-45, 2.775e-17), (-1e-45, -2.775e-17)],
+            },
+            Region {
+                edges: vec![9.0],
+                inside: vec![(9.001, 4095.0)],
+            },
+            Region {
+                edges: vec![-38.8],
+                inside: vec![(-38.81, -4095.0)],
+            },
+        ],
+        ("elu", Role::Forward) => vec![Region {
+            edges: vec![-38.2],
+            inside: vec![(-38.21, -4095.0)],
+        }],
+        ("elu", Role::Derivative) => {
+            // The left cut depends on α: −(1076 + ilogb α)·0.6932; the caller passes α as beta.
+            let cut = -((1076 + ilogb(beta)) as f64) * 0.6932;
+            let inner = (cut - 0.01) as f32;
+            vec![
+                Region {
+                    edges: vec![-2.7755575615628914e-17],
+                    inside: vec![(-1e-45, -2.775e-17)],
+                },
+                Region {
+                    edges: vec![cut],
+                    inside: vec![(inner, -4095.0)],
+                },
+            ]
+        }
+        ("swish" | "silu", _) => {
+            // Thresholds on z = βx, scaled to x.
+            let z_edges: &[f64] = match role {
+                Role::Forward => &[5.551115123125783e-17, -5.551115123125783e-17, 39.0, -835.0],
+                Role::Derivative => &[5.551115123125783e-17, -5.551115123125783e-17, 42.0, -753.0],
+            };
+            let (far_pos, far_neg) = match role {
+                Role::Forward => (39.0, -835.0),
+                Role::Derivative => (42.0, -753.0),
+            };
+            let in_f32 = |v: f64| v.abs() < f32::MAX as f64 && v.abs() > 1e-45;
+            let edges: Vec<f64> = z_edges
+                .iter()
+                .map(|z| z / beta)
+                .filter(|&v| in_f32(v))
+                .collect();
+            let tiny = (5.5e-17 / beta) as f32;
+            let mut inside = vec![(1e-45f32, tiny), (-1e-45, -tiny)];
+            for (z, tail) in [(far_pos * 1.001, 4095.0), (far_neg * 1.001, -4095.0)] {
+                let (a, b) = (z / beta, tail / beta);
+                if in_f32(a) && in_f32(b) {
+                    inside.push((a as f32, b as f32));
+                }
+            }
+            inside.retain(|&(a, b)| a.is_finite() && b.is_finite() && a != 0.0);
+            vec![Region { edges, inside }]
+        }
+        _ => vec![],
+    }
+}
+
+/// ⌊log2 |x|⌋ of a normal f64.
+fn ilogb(x: f64) -> i32 {
+    ((x.to_bits() >> 52) & 0x7ff) as i32 - 1023
+}
+
+/// Edges (±300 patterns, every format) and random inside points (all decided, binary32).
+fn closed_regions(name: &str, params: &[&str]) {
+    let param = params
+        .first()
+        .map(|a| a.split_once('=').unwrap().1.parse::<f64>().unwrap())
+        .unwrap_or(1.0);
+    let mut g = Mix(2024);
+    for role in [Role::Forward, Role::Derivative] {
+        let regions = regions(name, role, param);
+        assert!(!regions.is_empty());
+        for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
+            let mut edge_inputs = Vec::new();
+            for r in &regions {
+                for &e in &r.edges {
+                    edge_inputs.extend(neighbours(format, e, 300));
+                }
+            }
+            let (d, t) = compare(name, role, format, params, &edge_inputs);
+            eprintln!(
+                "{name} {params:?} {role:?} {}: edges decided {d}/{t}",
+                format.name()
+            );
+        }
+        let mut inside = Vec::new();
+        for r in &regions {
+            for &(a, b) in &r.inside {
+                for _ in 0..400 {
+                    inside.push(g.between(a, b));
+                }
+            }
+        }
+        let (d, t) = compare(name, role, &Binary32, params, &inside);
+        assert_eq!(d, t, "{name} {params:?} {role:?}: a closed region declined");
+    }
+}
+
+#[test]
+fn closed_regions_sigmoid_tanh() {
+    closed_regions("sigmoid", &[]);
+    closed_regions("tanh", &[]);
+}
+
+#[test]
+fn closed_regions_swish() {
+    closed_regions("silu", &[]);
+    closed_regions("swish", &[]);
+    closed_regions("swish", &["beta=1.5"]);
+    closed_regions("swish", &["beta=0.375"]);
+    closed_regions("swish", &["beta=10000000000"]);
+    closed_regions(
+        "swish",
+        &["beta=0.0000000000000000008673617379884035472059622406959533691406250"],
+    );
+}
+
+#[test]
+fn closed_regions_gelu_elu() {
+    closed_regions("gelu", &[]);
+    closed_regions("elu", &[]);
+    closed_regions("elu", &["alpha=0.25"]);
+    closed_regions("elu", &["alpha=1.75"]);
+}

@@ -1,6 +1,7 @@
 //! Pieces the function families share.
 
 use super::dd::{ilogb, pow2, Dd, Ev, SLACK};
+use super::decide::Outcome;
 use super::exp::exp;
 
 /// Inputs with |x| ≥ 2^12 take the engine's asymptotic tails (see `activation::common`).
@@ -18,6 +19,7 @@ pub struct Decay {
 }
 
 /// e^(−a), a a nonnegative double-word.
+#[inline(always)]
 pub fn decay(a: Dd) -> Decay {
     let (m, k) = exp(a.neg());
     let plain = (k >= -900).then(|| Ev {
@@ -29,6 +31,7 @@ pub fn decay(a: Dd) -> Decay {
 
 /// A stand-in for a nonzero delta known to be below 2^(ilogb(base) − 54) in magnitude, of the
 /// given sign: [`super::decide::finish`] uses only its sign then (and base as approximation).
+#[inline(always)]
 pub fn beside(base: f64, positive: bool) -> Ev {
     let v = pow2((ilogb(base) - 200).max(-1000));
     Ev {
@@ -39,6 +42,7 @@ pub fn beside(base: f64, positive: bool) -> Ev {
 
 /// Widens a relative bound by a negligible term dropped from a formula (e.g. 1 + t ≈ 1 when
 /// t < 2^−898, which changes the value by a relative 2^−898 at most).
+#[inline(always)]
 pub fn widen(v: Ev, extra: f64) -> Ev {
     Ev {
         v: v.v,
@@ -48,3 +52,21 @@ pub fn widen(v: Ev, extra: f64) -> Ev {
 
 /// Relative bound used for terms dropped when e^(−a) < 2^−898.
 pub const DROPPED: f64 = 1.0e-250;
+
+/// y = base + δ with 0 < |δ| < 2^(ilogb(base) − 54), δ > 0 exactly when `up`: decided by the
+/// side alone (see [`super::decide::finish`]); the caller proves the bound on |δ|.
+#[inline(always)]
+pub fn near_side(base: f64, up: bool) -> Outcome {
+    Outcome::Near(base, beside(base, up))
+}
+
+/// 2^−53.
+pub const TWO_M53: f64 = 1.1102230246251565e-16;
+/// 2^−54.
+pub const TWO_M54: f64 = 5.551115123125783e-17;
+/// 2^−55.
+pub const TWO_M55: f64 = 2.7755575615628914e-17;
+/// 2^−26.
+pub const TWO_M26: f64 = 1.4901161193847656e-8;
+/// 2^−27.
+pub const TWO_M27: f64 = 7.450580596923828e-9;

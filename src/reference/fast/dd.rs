@@ -28,7 +28,7 @@ pub struct Dd {
 }
 
 /// s + e = a + b exactly, s = RN(a + b) (Knuth's TwoSum; exact without underflow issues).
-#[inline]
+#[inline(always)]
 pub fn two_sum(a: f64, b: f64) -> (f64, f64) {
     let s = a + b;
     let bb = s - a;
@@ -37,7 +37,7 @@ pub fn two_sum(a: f64, b: f64) -> (f64, f64) {
 }
 
 /// s + e = a + b exactly when |a| ≥ |b| or a = 0 (Dekker's FastTwoSum).
-#[inline]
+#[inline(always)]
 fn fast_two_sum(a: f64, b: f64) -> (f64, f64) {
     let s = a + b;
     let e = b - (s - a);
@@ -45,7 +45,7 @@ fn fast_two_sum(a: f64, b: f64) -> (f64, f64) {
 }
 
 /// p + e = a·b exactly (fused multiply-add; exact when the product's error term is normal).
-#[inline]
+#[inline(always)]
 pub fn two_prod(a: f64, b: f64) -> (f64, f64) {
     let p = a * b;
     (p, a.mul_add(b, -p))
@@ -53,24 +53,24 @@ pub fn two_prod(a: f64, b: f64) -> (f64, f64) {
 
 impl Dd {
     /// An exact f64.
-    #[inline]
+    #[inline(always)]
     pub const fn new(x: f64) -> Dd {
         Dd { hi: x, lo: 0.0 }
     }
     /// The exact product of two f64 as a double-word.
-    #[inline]
+    #[inline(always)]
     pub fn prod(a: f64, b: f64) -> Dd {
         let (hi, lo) = two_prod(a, b);
         Dd { hi, lo }
     }
     /// The exact sum of two f64 as a double-word.
-    #[inline]
+    #[inline(always)]
     pub fn sum(a: f64, b: f64) -> Dd {
         let (hi, lo) = two_sum(a, b);
         Dd { hi, lo }
     }
     /// −self (exact).
-    #[inline]
+    #[inline(always)]
     pub fn neg(self) -> Dd {
         Dd {
             hi: -self.hi,
@@ -78,7 +78,7 @@ impl Dd {
         }
     }
     /// |self| (exact).
-    #[inline]
+    #[inline(always)]
     pub fn abs(self) -> Dd {
         if self.hi < 0.0 {
             self.neg()
@@ -87,7 +87,7 @@ impl Dd {
         }
     }
     /// self·2^k (exact while the result stays normal).
-    #[inline]
+    #[inline(always)]
     pub fn scale2(self, k: i32) -> Dd {
         let s = pow2(k);
         Dd {
@@ -96,7 +96,7 @@ impl Dd {
         }
     }
     /// AccurateDWPlusDW (JMP Algorithm 6): relative error ≤ 3u² + 13u³ ≤ OP.
-    #[inline]
+    #[inline(always)]
     pub fn add(self, b: Dd) -> Dd {
         let (sh, sl) = two_sum(self.hi, b.hi);
         let (th, tl) = two_sum(self.lo, b.lo);
@@ -107,12 +107,12 @@ impl Dd {
         Dd { hi, lo }
     }
     /// self − b, as [`Dd::add`].
-    #[inline]
+    #[inline(always)]
     pub fn sub(self, b: Dd) -> Dd {
         self.add(b.neg())
     }
     /// DWPlusFP (JMP Algorithm 4): relative error ≤ 2u² ≤ OP.
-    #[inline]
+    #[inline(always)]
     pub fn add_f(self, b: f64) -> Dd {
         let (sh, sl) = two_sum(self.hi, b);
         let v = self.lo + sl;
@@ -120,7 +120,7 @@ impl Dd {
         Dd { hi, lo }
     }
     /// DWTimesDW3 (JMP Algorithm 12): relative error ≤ 5u² ≤ OP.
-    #[inline]
+    #[inline(always)]
     pub fn mul(self, b: Dd) -> Dd {
         let (ch, cl1) = two_prod(self.hi, b.hi);
         let tl0 = self.lo * b.lo;
@@ -131,7 +131,7 @@ impl Dd {
         Dd { hi, lo }
     }
     /// DWTimesFP3 (JMP Algorithm 9): relative error ≤ 2u² ≤ OP.
-    #[inline]
+    #[inline(always)]
     pub fn mul_f(self, b: f64) -> Dd {
         let (ch, cl1) = two_prod(self.hi, b);
         let cl3 = self.lo.mul_add(b, cl1);
@@ -139,7 +139,7 @@ impl Dd {
         Dd { hi, lo }
     }
     /// DWDivDW2 (JMP Algorithm 17): relative error ≤ 15u² + 56u³ ≤ OP.
-    #[inline]
+    #[inline(always)]
     pub fn div(self, b: Dd) -> Dd {
         let th = self.hi / b.hi;
         let r = b.mul_f(th);
@@ -153,26 +153,26 @@ impl Dd {
 }
 
 /// 2^k as an f64 for −1022 ≤ k ≤ 1023.
-#[inline]
+#[inline(always)]
 pub fn pow2(k: i32) -> f64 {
     debug_assert!((-1022..=1023).contains(&k));
     f64::from_bits(((k + 1023) as u64) << 52)
 }
 
 /// ⌊log2 |x|⌋ of a normal nonzero f64.
-#[inline]
+#[inline(always)]
 pub fn ilogb(x: f64) -> i32 {
     ((x.to_bits() >> 52) & 0x7ff) as i32 - 1023
 }
 
 /// Whether |x| is a power of two (x normal).
-#[inline]
+#[inline(always)]
 pub fn is_pow2(x: f64) -> bool {
     x.to_bits() & ((1u64 << 52) - 1) == 0
 }
 
 /// The next f64 below x (x finite).
-#[inline]
+#[inline(always)]
 pub fn next_down(x: f64) -> f64 {
     if x == 0.0 {
         return -f64::from_bits(1);
@@ -182,7 +182,7 @@ pub fn next_down(x: f64) -> f64 {
 }
 
 /// The next f64 above x (x finite).
-#[inline]
+#[inline(always)]
 pub fn next_up(x: f64) -> f64 {
     -next_down(-x)
 }
@@ -209,12 +209,12 @@ pub const SLACK: f64 = 1.0 + 3.637978807091713e-12; // 1 + 2^-38
 
 impl Ev {
     /// An exact value.
-    #[inline]
+    #[inline(always)]
     pub fn exact(v: Dd) -> Ev {
         Ev { v, r: 0.0 }
     }
     /// Product.
-    #[inline]
+    #[inline(always)]
     pub fn mul(self, b: Ev) -> Ev {
         Ev {
             v: self.v.mul(b.v),
@@ -222,7 +222,7 @@ impl Ev {
         }
     }
     /// Product by an exact f64.
-    #[inline]
+    #[inline(always)]
     pub fn mul_f(self, b: f64) -> Ev {
         Ev {
             v: self.v.mul_f(b),
@@ -230,7 +230,7 @@ impl Ev {
         }
     }
     /// Quotient.
-    #[inline]
+    #[inline(always)]
     pub fn div(self, b: Ev) -> Ev {
         Ev {
             v: self.v.div(b.v),
@@ -238,7 +238,7 @@ impl Ev {
         }
     }
     /// Sum (any signs; cancellation shows up in r).
-    #[inline]
+    #[inline(always)]
     pub fn add(self, b: Ev) -> Ev {
         let v = self.v.add(b.v);
         let num = self.r * self.v.hi.abs() + b.r * b.v.hi.abs();
@@ -252,7 +252,7 @@ impl Ev {
         Ev { v, r }
     }
     /// Sum with an exact f64.
-    #[inline]
+    #[inline(always)]
     pub fn add_f(self, b: f64) -> Ev {
         let v = self.v.add_f(b);
         let r = if self.r == 0.0 {
@@ -265,7 +265,7 @@ impl Ev {
         Ev { v, r }
     }
     /// −self.
-    #[inline]
+    #[inline(always)]
     pub fn neg(self) -> Ev {
         Ev {
             v: self.v.neg(),

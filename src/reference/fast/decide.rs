@@ -16,6 +16,7 @@ pub const FAST_PRECISION: u32 = 106;
 const MAX_REL: f64 = 9.094947017729282e-13;
 
 /// a < b, false when either is NaN (a NaN bound declines).
+#[inline(always)]
 fn less(a: f64, b: f64) -> bool {
     a < b
 }
@@ -41,6 +42,7 @@ pub enum Outcome {
 /// Scaled by 2^−q (q the quantum exponent), s_h = |h|·2^(k−q) < 2^(p+1) is an exact f64 and
 /// g = frac(s_h) − 1/2 is a multiple of ulp(s_h); the scaled l has magnitude ≤ ulp(s_h)/2, so it
 /// decides only when g = 0 (a tie of h alone), and then by its sign alone.
+#[inline(always)]
 pub fn round_dd(format: &dyn Format, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
     let negative = h < 0.0;
     let (h, l) = if negative { (-h, -l) } else { (h, l) };
@@ -87,6 +89,7 @@ pub fn round_dd(format: &dyn Format, h: f64, l: f64, k: i32) -> Option<(u32, i32
 
 /// Decides 2^k·v with absolute error bound e (in the unscaled units of v): both ends of
 /// [v − e, v + e] must round alike and share the clamped binade.
+#[inline(always)]
 fn decide_interval(format: &dyn Format, v: Dd, e: f64, k: i32) -> Option<(u32, i32)> {
     if v.hi == 0.0 || !v.hi.is_finite() || !less(e, v.hi.abs() * MAX_REL) {
         // e must be ≤ 2^−40·|v|: the ends keep v's sign and stay normal.
@@ -105,6 +108,7 @@ fn decide_interval(format: &dyn Format, v: Dd, e: f64, k: i32) -> Option<(u32, i
 }
 
 /// 2^k·x as an f64 (RN, through at most two roundings: within 1 ulp of binary64).
+#[inline(always)]
 fn ldexp(x: f64, k: i32) -> f64 {
     let k = k.clamp(-2200, 2200);
     let s1 = k / 3;
@@ -116,6 +120,7 @@ fn ldexp(x: f64, k: i32) -> f64 {
 /// RN_binary64 of every point of [v − e, v + e]·2^k, when they all agree; `None` otherwise.
 /// This is the engine's `ExactValue::approx` = RN_binary64(y), subnormals included, so both
 /// paths report identical figures.
+#[inline(always)]
 fn nearest_f64(v: Dd, e: f64, k: i32) -> Option<f64> {
     // Widen e so that rounding lo ∓ e cannot move an end inwards (each rounding moves it by at
     // most 2^−53 of |lo| + e).
@@ -129,13 +134,20 @@ fn nearest_f64(v: Dd, e: f64, k: i32) -> Option<f64> {
     }
     // Below 2^−1022: count in units of 2^−1074, where every end is below 2^53 and the scaling
     // of both parts is exact (they stay normal or become exact small integers' fractions).
-    let units = |(s, t): (f64, f64)| nearest_integer(ldexp(s, k + 1074), ldexp(t, k + 1074));
-    let (a, b) = (units(low)?, units(high)?);
+    let (a, b) = (units(low, k)?, units(high, k)?);
     (a == b && a.abs() <= pow2(52)).then(|| ldexp(a, -1074))
+}
+
+/// The integer nearest to 2^(k+1074)·(s + t) (a function rather than a closure so that it
+/// inlines into the FMA build, see [`super::arch`]).
+#[inline(always)]
+fn units((s, t): (f64, f64), k: i32) -> Option<f64> {
+    nearest_integer(ldexp(s, k + 1074), ldexp(t, k + 1074))
 }
 
 /// The integer nearest to s + t (ties to even), for |s| < 2^52 and |t| ≤ ulp(s)/2; `None`
 /// when the sum lies too close to a half-integer for the f64 arithmetic here to tell.
+#[inline(always)]
 fn nearest_integer(s: f64, t: f64) -> Option<f64> {
     if s.is_nan() || s.abs() >= pow2(52) {
         return None;
@@ -156,12 +168,13 @@ fn nearest_integer(s: f64, t: f64) -> Option<f64> {
 }
 
 /// Absolute error bound of v from its relative bound: |y| ≤ |v|/(1 − r), |v| ≤ |v.hi|(1+2^−52).
-#[inline]
+#[inline(always)]
 fn absolute(v: &Ev) -> f64 {
     v.r * v.v.hi.abs() * SLACK
 }
 
 /// Applies the decision rule to an outcome.
+#[inline(always)]
 pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
     let reference = |bits: u32, binade: i32, approx: f64, precision: u32| Reference {
         bits,
@@ -218,6 +231,7 @@ pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
 
 /// The engine's reference for its `tiny(negative)` tail: a signed zero, binade emin, and the
 /// approximation RN_binary64 of its enclosure [2^−1100, 2^−1080], a signed zero.
+#[inline(always)]
 pub fn engine_tiny(format: &dyn Format, negative: bool) -> Reference {
     let approx = 0.0;
     Reference {
@@ -232,6 +246,7 @@ pub fn engine_tiny(format: &dyn Format, negative: bool) -> Reference {
 
 /// The engine's reference for `above(a)` / `below(a)` with an f64 a: rounded and binned like a
 /// point just beside a, approximated by a itself.
+#[inline(always)]
 pub fn engine_beside(format: &dyn Format, a: f64, above: bool) -> Option<Reference> {
     let eb = ilogb(a);
     let side = if above { 1.0 } else { -1.0 };

@@ -49,6 +49,7 @@ pub struct Tables {
 }
 
 /// The shared tables.
+#[inline(always)]
 pub fn tables() -> &'static Tables {
     static T: OnceLock<Tables> = OnceLock::new();
     T.get_or_init(|| {
@@ -99,6 +100,7 @@ pub fn tables() -> &'static Tables {
 
 /// e^a = 2^k·m for a double-word a with |a.hi| ≤ 2^24: returns (m with its relative bound, k),
 /// m ∈ [0.99, 2.01].  Callers scale m by 2^k themselves.
+#[inline(always)]
 pub fn exp(a: Dd) -> (Ev, i32) {
     let t = tables();
     let kf = (a.hi * t.inv).round_ties_even();
@@ -129,6 +131,7 @@ pub fn exp(a: Dd) -> (Ev, i32) {
 }
 
 /// e^a as a plain double-word when 2^k stays in [2^−900, 2^900]; None otherwise.
+#[inline(always)]
 pub fn exp_plain(a: Dd) -> Option<Ev> {
     let (m, k) = exp(a);
     if !(-900..=900).contains(&k) {
@@ -141,7 +144,7 @@ pub fn exp_plain(a: Dd) -> Option<Ev> {
 }
 
 /// e^r for |r| < 0.0055 (bound in the module comment, included in EXP_BASE).
-#[inline]
+#[inline(always)]
 fn exp_small(r: Dd) -> Dd {
     let t = tables();
     let x = r.hi;
@@ -164,6 +167,7 @@ fn exp_small(r: Dd) -> Dd {
 /// successive terms ≤ 1/32).  Horner damps inner errors by |a|·c_(n+1)/c_n ≤ 1/32, so the
 /// relative error is ≤ (32/31)·(2·OP + 2^−104) + 2^−109 + OP (final product) < 2^−97.
 /// |a| ≥ 1/16: e^a − 1 from [`exp`], a sum tracked by [`Ev::add_f`] (e^a/|e^a − 1| ≤ 17).
+#[inline(always)]
 pub fn expm1(a: Dd) -> Ev {
     if a.hi.abs() >= 0.0625 {
         let e = exp_plain(a).expect("exp of a moderate argument");

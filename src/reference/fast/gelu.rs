@@ -7,7 +7,8 @@
 //! 2·OP relative, each coefficient 2^−104 relative to its own term, so r_H ≤ 2N·OP + 2^−104 +
 //! 2^−110.  Then gelu = x/2 + φ·x²·H (delta ≥ 0) and gelu′ = 1/2 + φ·x·(H + 1), written as
 //! base + delta; the cancellation for x < 0 (gelu′ has a zero near −0.75) is tracked by
-//! [`Ev::add_f`].
+//! [`Ev::add_f`].  For |x| < 1/4, e^(−x²/2) = 1 + expm1(−x²/2) comes from expm1's short series
+//! (x²/2 < 1/32), without a table exp.
 //!
 //! |x| > 4: the Mills ratio R(a) = Q(a)/φ(a), a = |x|, by Laplace's continued fraction
 //! R = 1/(a + 1/(a + 2/(a + 3/(a + …)))).  All partial numerators and denominators are
@@ -18,10 +19,10 @@
 //! Q(x) = φ·R, Φ(x) = φ(a)·R(a) for x < 0, gelu = x − x·φ·R for x > 0, gelu′ = 1 + φ·(x − R)
 //! for x > 0 and φ·(R − a) for x < 0 (no cancellation: R < 1/a < a).
 
-use super::common::{beside, decay, TAIL};
+use super::common::{beside, decay, near_side, TAIL, TWO_M55};
 use super::dd::{Dd, Ev, OP, SLACK};
 use super::decide::{engine_beside, engine_tiny, Outcome};
-use super::exp::tables;
+use super::exp::{expm1, tables};
 use crate::activation::Role;
 use crate::format::Format;
 
@@ -29,6 +30,7 @@ use crate::format::Format;
 const SERIES_MAX: f64 = 4.0;
 
 /// H(x²) of the module comment, with its bound.
+#[inline(always)]
 fn series(x2: Dd) -> Ev {
     let t = tables();
     let w = x2.hi;
@@ -51,25 +53,66 @@ fn series(x2: Dd) -> Ev {
     }
 }
 
+/// The continued fraction of [`mills`] from the tail t_N = `start` (a named function rather than a
+/// closure so that it inlines into the FMA build, see [`super::arch`]).
+#[inline(always)]
+fn mills_run(a: f64, n: usize, start: f64) -> Dd {
+    let mut t = Dd::new(start);
+    for k in (1..=n).rev() {
+        t = Dd::new(k as f64).div(t.add_f(a));
+    }
+    Dd::new(1.0).div(t.add_f(a))
+}
+
 /// R(a) for a > 4 with its bound (None if the bracket is too wide).
+#[inline(always)]
 fn mills(a: f64) -> Option<Ev> {
     let n = (440.0 / a) as usize + 10;
-    let run = |start: f64| {
-        let mut t = Dd::new(start);
-        for k in (1..=n).rev() {
-            t = Dd::new(k as f64).div(t.add_f(a));
-        }
-        Dd::new(1.0).div(t.add_f(a))
-    };
-    let r0 = run(0.0);
+    let r0 = mills_run(a, n, 0.0);
     // T ≥ N/a: one step up from RN(N/a).
-    let r1 = run(super::dd::next_up(n as f64 / a));
+    let r1 = mills_run(a, n, super::dd::next_up(n as f64 / a));
     let width = r0.sub(r1).hi.abs();
     let r = (width / r0.hi * SLACK + 2.0 * (2 * n + 2) as f64 * OP) * SLACK;
     (r < 1e-25).then_some(Ev { v: r0, r })
 }
 
+/// GELU or GELU′ where a closed form decides it (x finite, nonzero, |x| < TAIL; a comparison of
+/// x with an f64 constant is exact).  Logarithms computed with mpmath (50 digits); Mills'
+/// inequality Q(a) < φ(a)/a for a > 0 (Gordon 1941) is remembered, not derived here.
+///
+/// |x| < 2^−55: Φ(x) − 1/2 = ∫₀ˣ φ has x's sign and magnitude ≤ |x|·φ(0) = |x|/√(2π) < 0.4|x|.
+/// * forward y = x/2 + δ, δ = x(Φ(x) − 1/2) ∈ (0, 0.4x²); with e = ilogb(x/2) ≤ −57 and
+///   |x| < 2^(e+2): δ < 6.4·2^(2e) ≤ 6.4·2^(e−57) = 0.8·2^(e−54): just beside x/2, on the
+///   positive side;
+/// * derivative y = 1/2 + (Φ(x) − 1/2) + xφ(x), both terms of x's sign and ≤ |x|/√(2π), so
+///   0 < |y − 1/2| < 0.8|x| < 2^−55 = 2^(ilogb(1/2) − 54).
+///
+/// x > 9: Q(x) < φ(x)/x < xφ(x), and φ(9) = 2^(−59.75), 9φ(9) = 2^(−56.58) (xφ(x) decreases
+/// for x > 1).
+/// * forward x − y = xQ(x) ∈ (0, φ(x)), φ(x) < 2^−59 < 2^(ilogb(x) − 54): just below x;
+/// * derivative y − 1 = xφ(x) − Q(x) ∈ (0, xφ(x)), xφ(x) < 2^−56 < 2^−54: just above 1.
+///
+/// x < −38.8, a = −x: forward y = −aQ(a) ∈ (−φ(a), 0), derivative y = Q(a) − aφ(a) ∈
+/// (−aφ(a), 0); aφ(a) ≤ 38.8·φ(38.8) = 2^(−1081.99) < 2^−1075: the engine's −0 for both.
+#[inline(always)]
+fn gelu_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
+    if x.abs() < TWO_M55 {
+        return Some(match role {
+            Role::Forward => near_side(x * 0.5, true),
+            Role::Derivative => near_side(0.5, x > 0.0),
+        });
+    }
+    if x > 9.0 {
+        return Some(match role {
+            Role::Forward => near_side(x, false),
+            Role::Derivative => near_side(1.0, true),
+        });
+    }
+    (x < -38.8).then(|| Outcome::Fixed(engine_tiny(format, true)))
+}
+
 /// GELU or its derivative at x.
+#[inline(always)]
 pub fn gelu(format: &dyn Format, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
@@ -83,12 +126,22 @@ pub fn gelu(format: &dyn Format, x: f64, role: Role) -> Outcome {
             (_, false) => Outcome::Fixed(engine_tiny(format, true)),
         };
     }
+    if let Some(o) = gelu_closed(format, x, role) {
+        return o;
+    }
     let tb = tables();
     let x2 = Dd::prod(x, x);
-    let e = decay(x2.scale2(-1));
     let xe = Ev::exact(Dd::new(x));
     if a <= SERIES_MAX {
-        let phi = e.plain.expect("e^(-x²/2) for |x| ≤ 4").mul(tb.inv_sqrt_2pi);
+        let half = x2.scale2(-1);
+        let density = if a < 0.25 {
+            // x²/2 < 1/32: e^(−x²/2) = 1 + expm1(−x²/2) by expm1's short series, no table exp
+            // (1 + em with em ∈ (−1/32, 0] loses nothing; tracked by Ev::add_f).
+            expm1(half.neg()).add_f(1.0)
+        } else {
+            decay(half).plain.expect("e^(-x²/2) for |x| ≤ 4")
+        };
+        let phi = density.mul(tb.inv_sqrt_2pi);
         let h = series(x2);
         return match role {
             Role::Forward => Outcome::Near(x * 0.5, phi.mul(Ev::exact(x2)).mul(h)),
@@ -98,6 +151,7 @@ pub fn gelu(format: &dyn Format, x: f64, role: Role) -> Outcome {
     let Some(r) = mills(a) else {
         return Outcome::Decline;
     };
+    let e = decay(x2.scale2(-1));
     let m = e.m.mul(tb.inv_sqrt_2pi);
     match (role, x > 0.0) {
         (Role::Forward, true) => match e.plain {
@@ -120,12 +174,14 @@ trait Scaled {
 
 impl Scaled for Ev {
     /// self·2^k, k ≥ −900 (exact).
+    #[inline(always)]
     fn scaled(self, k: i32) -> Ev {
         Ev {
             v: self.v.scale2(k),
             r: self.r,
         }
     }
+    #[inline(always)]
     fn neg_scaled(self, k: i32) -> Ev {
         self.scaled(k).neg()
     }

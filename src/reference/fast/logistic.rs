@@ -1,7 +1,9 @@
 //! Sigmoid, tanh and swish (SiLU), forward and derivative, from t = e^(−|z|).
 //!
 //! With D = 1 + t (a sum of positives, relative error ≤ r_t + OP): σ(|z|) = 1/D,
-//! σ(−|z|) = t/D.  Near an asymptote or a constant the value is written base + delta with delta
+//! σ(−|z|) = t/D.  For |z| < 1 (sigmoid, swish) t comes from em = expm1(−|z|) alone, t = 1 + em
+//! and D = 2 + em (em ∈ (−0.64, 0]: no cancellation), which for |z| < 1/16 is expm1's short
+//! series and needs no table exp.  Near an asymptote or a constant the value is written base + delta with delta
 //! computed without cancellation, so that [`super::decide`] can decide by the sign of a tiny
 //! delta the way the engine does:
 //! * σ(x) − 1/2 = sign(x)·(1 − t)/(2D), 1 − t = −expm1(−|x|);  σ(x) = 1 − t/D for x ≥ 1;
@@ -13,14 +15,26 @@
 //!   |z|)/D² for z ≤ −1 (the cancellation near |z| ≈ 1.28 is tracked by [`Ev::add`]).
 //!
 //! Every error bound composes through [`Ev`].
+//!
+//! Closed-form regions (`*_closed`) come first: where the function is within 2^(ilogb(base)−54)
+//! of an exact binary64 base on a known side, [`near_side`] decides without any exp (the rule
+//! of [`super::decide::finish`]: no rounding boundary of the format, no binary64 midpoint and no
+//! power of two lies strictly between), and where |y| < 2^−1075 the engine's own answer is a
+//! signed zero, binade emin, approximation RN_binary64(y) = ±0, which is [`engine_tiny`].
+//! Each threshold's proof sits beside it; logarithms quoted there were computed with mpmath
+//! (50 digits) and are used with at least 0.09 of a binary order of margin.
+//! A comparison x > c (x < c) of the f64 input with an f64 constant c is exact.
 
-use super::common::{beside, decay, widen, Decay, DROPPED, TAIL};
+use super::common::{
+    beside, decay, near_side, widen, Decay, DROPPED, TAIL, TWO_M26, TWO_M27, TWO_M53, TWO_M54,
+};
 use super::dd::{Dd, Ev};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::expm1;
 use crate::activation::Role;
 use crate::format::Format;
 
+#[inline(always)]
 fn one_plus(t: &Decay) -> Ev {
     match t.plain {
         Some(tp) => tp.add_f(1.0),
@@ -28,7 +42,32 @@ fn one_plus(t: &Decay) -> Ev {
     }
 }
 
+/// σ(x) or σ′(x) where a closed form decides it (x finite, nonzero, |x| < TAIL).
+///
+/// Forward, x > 38: 1 − σ(x) = t/(1 + t), t = e^(−x), so 0 < 1 − y < t < e^(−38) = 2^(−54.82)
+/// < 2^−54 = 2^(ilogb(1) − 54): just below 1.
+/// Forward, x < −745.2: 0 < y = t/(1 + t) < t = e^x < e^(−745.2) = 2^(−1075.09) < 2^−1075: the
+/// engine's +0 (every format's smallest subnormal is far above).
+/// Forward, |x| < 2^−53: y − 1/2 = tanh(x/2)/2 with 0 < |tanh u| < |u| for u ≠ 0, so
+/// 0 < |y − 1/2| < |x|/4 < 2^−55 = 2^(ilogb(1/2) − 54), on the side of x.
+/// Derivative, |x| > 745.2: 0 < y = t/(1 + t)² < t = e^(−|x|) < 2^−1075 as above: +0.
+/// Derivative, |x| < 2^−26: 1/4 − y = tanh²(x/2)/4 ∈ (0, x²/16), x²/16 < 2^−56 =
+/// 2^(ilogb(1/4) − 54): just below 1/4.
+#[inline(always)]
+fn sigmoid_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
+    let a = x.abs();
+    match role {
+        Role::Forward if x > 38.0 => Some(near_side(1.0, false)),
+        Role::Forward if x < -745.2 => Some(Outcome::Fixed(engine_tiny(format, false))),
+        Role::Forward if a < TWO_M53 => Some(near_side(0.5, x > 0.0)),
+        Role::Derivative if a > 745.2 => Some(Outcome::Fixed(engine_tiny(format, false))),
+        Role::Derivative if a < TWO_M26 => Some(near_side(0.25, false)),
+        _ => None,
+    }
+}
+
 /// σ(x) or σ′(x).
+#[inline(always)]
 pub fn sigmoid(format: &dyn Format, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
@@ -39,28 +78,62 @@ pub fn sigmoid(format: &dyn Format, x: f64, role: Role) -> Outcome {
             _ => Outcome::Fixed(engine_tiny(format, false)),
         };
     }
+    if let Some(o) = sigmoid_closed(format, x, role) {
+        return o;
+    }
+    if a < 1.0 {
+        // e^(−a) = 1 + em from expm1 alone (a short series below 1/16, no table exp):
+        // D = 1 + t = 2 + em, em ∈ (−0.64, 0], so no cancellation (tracked by Ev::add_f).
+        let em = expm1(Dd::new(-a));
+        let d = em.add_f(2.0);
+        return match role {
+            Role::Forward => {
+                let g = em.neg().div(d.mul_f(2.0));
+                Outcome::Near(0.5, if x > 0.0 { g } else { g.neg() })
+            }
+            Role::Derivative => {
+                let dd = d.mul(d).mul_f(4.0);
+                Outcome::Near(0.25, em.mul(em).div(dd).neg())
+            }
+        };
+    }
     let t = decay(Dd::new(a));
     let d = one_plus(&t);
     match role {
-        Role::Forward if a < 1.0 => {
-            let g = expm1(Dd::new(-a)).neg().div(d.mul_f(2.0));
-            Outcome::Near(0.5, if x > 0.0 { g } else { g.neg() })
-        }
         Role::Forward if x > 0.0 => match t.plain {
             Some(tp) => Outcome::Near(1.0, tp.div(d).neg()),
             None => Outcome::Near(1.0, beside(1.0, false)),
         },
         Role::Forward => Outcome::Value(t.m.div(d), t.k),
-        Role::Derivative if a < 1.0 => {
-            let em = expm1(Dd::new(-a));
-            let dd = d.mul(d).mul_f(4.0);
-            Outcome::Near(0.25, em.mul(em).div(dd).neg())
-        }
         Role::Derivative => Outcome::Value(t.m.div(d.mul(d)), t.k),
     }
 }
 
+/// tanh(x) or tanh′(x) where a closed form decides it (x finite, nonzero, |x| < TAIL).
+///
+/// Forward, |x| > 19.5: 1 − tanh|x| = 2t/(1 + t), t = e^(−2|x|), so 0 < 1 − tanh|x| < 2t <
+/// 2e^(−39) = 2^(−55.27) < 2^−54: just inside ±1.
+/// Forward, |x| < 2^−27: for u > 0, u − u³/3 < tanh u < u (integrate tanh′ = 1 − tanh² from
+/// 0: it is below 1 and, since tanh u < u, above 1 − u²), so 0 < |x − y| < |x|³/3, y on the
+/// side of x towards zero.  With
+/// e = ilogb(x) ≤ −28 and |x| < 2^(e+1): |x|³/3 < 2^(3e+3)/3 = 2^(e−54)·2^(2e+57)/3 ≤
+/// 2^(e−54)·2/3 < 2^(e−54).
+/// Derivative, |x| > 373.5: 0 < y = 4t/(1 + t)² < 4t ≤ 4e^(−747) = 2^(−1075.69) < 2^−1075: +0.
+/// Derivative, |x| < 2^−27: 1 − y = tanh²x ∈ (0, x²), x² < 2^−54: just below 1.
+#[inline(always)]
+fn tanh_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
+    let a = x.abs();
+    match role {
+        Role::Forward if a > 19.5 => Some(near_side(x.signum(), x < 0.0)),
+        Role::Forward if a < TWO_M27 => Some(near_side(x, x < 0.0)),
+        Role::Derivative if a > 373.5 => Some(Outcome::Fixed(engine_tiny(format, false))),
+        Role::Derivative if a < TWO_M27 => Some(near_side(1.0, false)),
+        _ => None,
+    }
+}
+
 /// tanh(x) or tanh′(x).
+#[inline(always)]
 pub fn tanh(format: &dyn Format, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
@@ -70,6 +143,9 @@ pub fn tanh(format: &dyn Format, x: f64, role: Role) -> Outcome {
             }
             Role::Derivative => Outcome::Fixed(engine_tiny(format, false)),
         };
+    }
+    if let Some(o) = tanh_closed(format, x, role) {
+        return o;
     }
     if a < 1.0 {
         let em = expm1(Dd::new(-2.0 * a));
@@ -98,6 +174,7 @@ pub fn tanh(format: &dyn Format, x: f64, role: Role) -> Outcome {
 }
 
 /// Whether |z| ≥ 4096 for a normalized double-word z.
+#[inline(always)]
 fn dd_in_tail(z: Dd) -> bool {
     let (h, l) = if z.hi < 0.0 {
         (-z.hi, -z.lo)
@@ -107,7 +184,45 @@ fn dd_in_tail(z: Dd) -> bool {
     h > TAIL || (h == TAIL && l >= 0.0)
 }
 
+/// swish(x) or swish′(x) where a closed form decides it (x finite, nonzero, z = βx with |z| <
+/// TAIL; z.hi = RN(βx), so z.hi > c implies βx > c, and z.hi < c implies βx < c, for an f64 c).
+///
+/// |z| < 2^−54 (z.hi = 0 from underflow included): with σ(z) − 1/2 = tanh(z/2)/2 and
+/// 0 < |tanh u| < |u|, and x, z of one sign (β > 0):
+/// * forward y = x/2 + δ, δ = (x/2)·tanh(z/2) > 0, δ < |x||z|/4; with e = ilogb(x/2) (x/2 is
+///   a normal f64 for every f32 x), |x| < 2^(e+2), so δ < 2^e·|z| < 2^(e−54): y just beside
+///   x/2 on the positive side (towards zero for x < 0);
+/// * derivative y = σ(z) + z·σ(z)σ(−z) = 1/2 + tanh(z/2)/2 + z·σ(z)σ(−z): both terms have z's
+///   sign and are at most |z|/4 (σ(z)σ(−z) ≤ 1/4), so 0 < |y − 1/2| ≤ |z|/2 < 2^−55.
+///
+/// Forward, z > 39 (so x > 0): x − y = x·t/(1 + t) ∈ (0, x·t), t = e^(−z) < e^(−39) =
+/// 2^(−56.27); x < 2^(e+1), e = ilogb(x), so x − y < 2^(e−55.27) < 2^(e−54).
+/// Derivative, z > 42: y − 1 = t(z − 1 − t)/(1 + t)² (σ(z)(1 + zσ(−z)) over the common
+/// denominator), 0 < z − 1 − t < z, so 0 < y − 1 < z·e^(−z) ≤ 42e^(−42) = 2^(−55.20) < 2^−54
+/// (z·e^(−z) decreases for z > 1).
+/// Forward, z < −835 (x < 0): |y| = |x|·σ(z) < |x|·e^z < 2^128·e^(−835) = 2^(−1076.65) <
+/// 2^−1075 (|x| < 2^128 in every supported format), y < 0: the engine's −0.
+/// Derivative, z < −753: y = t(1 + t − |z|)/(1 + t)² < 0, t = e^(−|z|), |y| < |z|·e^(−|z|) ≤
+/// 753e^(−753) = 2^(−1076.79) < 2^−1075: −0.
+#[inline(always)]
+fn swish_closed(format: &dyn Format, x: f64, z: f64, role: Role) -> Option<Outcome> {
+    if z.abs() < TWO_M54 {
+        return Some(match role {
+            Role::Forward => near_side(x * 0.5, true),
+            Role::Derivative => near_side(0.5, x > 0.0),
+        });
+    }
+    match role {
+        Role::Forward if z > 39.0 => Some(near_side(x, false)),
+        Role::Forward if z < -835.0 => Some(Outcome::Fixed(engine_tiny(format, true))),
+        Role::Derivative if z > 42.0 => Some(near_side(1.0, true)),
+        Role::Derivative if z < -753.0 => Some(Outcome::Fixed(engine_tiny(format, true))),
+        _ => None,
+    }
+}
+
 /// swish(x) = x·σ(βx) or its derivative; β > 0 an f64.
+#[inline(always)]
 pub fn swish(format: &dyn Format, x: f64, beta: f64, role: Role) -> Outcome {
     let z = Dd::prod(beta, x);
     if dd_in_tail(z) {
@@ -122,29 +237,39 @@ pub fn swish(format: &dyn Format, x: f64, beta: f64, role: Role) -> Outcome {
             (_, false) => Outcome::Fixed(engine_tiny(format, true)),
         };
     }
+    if let Some(o) = swish_closed(format, x, z.hi, role) {
+        return o;
+    }
     let a = z.abs();
     if a.hi < 1e-270 {
         // βx so small that TwoProd's error term could be subnormal: not exact any more.
         return Outcome::Decline;
     }
-    let big = a.hi >= 1.0;
+    let xe = Ev::exact(Dd::new(x));
+    if a.hi < 1.0 {
+        // t = e^(−|z|) = 1 + em from expm1 alone (a short series below 1/16, no table exp);
+        // em ∈ (−0.64, 0], so t = 1 + em and D = 2 + em lose nothing (tracked by Ev::add_f).
+        let em = expm1(a.neg());
+        let tp = em.add_f(1.0);
+        let d = em.add_f(2.0);
+        return match role {
+            Role::Forward if x > 0.0 => Outcome::Value(xe.div(d), 0),
+            Role::Forward => Outcome::Value(xe.mul(tp).div(d), 0),
+            Role::Derivative => {
+                let num = em.neg().mul(d).add(Ev::exact(a).mul(tp).mul_f(2.0));
+                let g = num.div(d.mul(d).mul_f(2.0));
+                Outcome::Near(0.5, if x > 0.0 { g } else { g.neg() })
+            }
+        };
+    }
     let t = decay(a);
     let d = one_plus(&t);
-    let xe = Ev::exact(Dd::new(x));
     match role {
-        Role::Forward if x > 0.0 && big => match t.plain {
+        Role::Forward if x > 0.0 => match t.plain {
             Some(tp) => Outcome::Near(x, xe.mul(tp).div(d).neg()),
             None => Outcome::Near(x, beside(x, false)),
         },
-        Role::Forward if x > 0.0 => Outcome::Value(xe.div(d), 0),
         Role::Forward => Outcome::Value(xe.mul(t.m).div(d), t.k),
-        Role::Derivative if !big => {
-            let tp = t.plain.expect("e^(-|z|) for |z| < 1");
-            let omt = expm1(a.neg()).neg();
-            let num = omt.mul(d).add(Ev::exact(a).mul(tp).mul_f(2.0));
-            let g = num.div(d.mul(d).mul_f(2.0));
-            Outcome::Near(0.5, if x > 0.0 { g } else { g.neg() })
-        }
         Role::Derivative if x > 0.0 => match t.plain {
             Some(tp) => {
                 let inner = Ev::exact(a).add_f(-1.0).add(tp.neg());

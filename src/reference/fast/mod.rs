@@ -8,8 +8,10 @@
 //! binary64 numbers), it returns None and the caller asks the engine.
 //!
 //! Layout: [`dd`] double-word arithmetic and bound composition, [`exp`] e^x and e^x − 1,
-//! [`decide`] the decision rule and rounding, one file per function family.
+//! [`decide`] the decision rule and rounding, one file per function family, `arch` the build with
+//! hardware FMA chosen at run time.
 
+mod arch;
 mod common;
 pub mod dd;
 mod decide;
@@ -41,6 +43,9 @@ pub struct FastEvaluator {
     kind: Kind,
     role: Role,
     format: &'static dyn Format,
+    /// The CPU has FMA: use [`arch::reference_fma`].
+    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
+    fma: bool,
 }
 
 /// A rational parameter as an f64, when exactly representable, positive and normal.
@@ -75,6 +80,7 @@ impl FastEvaluator {
             kind,
             role: evaluator.role(),
             format,
+            fma: arch::has_fma(),
         };
         for x in [1.0, -1.0, 0.5, -3.0, 5.0] {
             let bits = format.from_f64_exact(x)?;
@@ -93,6 +99,17 @@ impl FastEvaluator {
     /// Some(reference) only when the fast value ± its proven error bound decides the
     /// rounding into the format and the binade; None means "ask the engine".
     pub fn try_reference(&self, x_bits: u32) -> Option<Reference> {
+        #[cfg(target_arch = "x86_64")]
+        if self.fma {
+            // SAFETY: `fma` is set only when the CPU reports FMA.
+            return unsafe { arch::reference_fma(self, x_bits) };
+        }
+        self.evaluate(x_bits)
+    }
+
+    /// The evaluation itself, inlined into each build (portable and [`arch`]).
+    #[inline(always)]
+    fn evaluate(&self, x_bits: u32) -> Option<Reference> {
         let format = self.format;
         match format.classify(x_bits) {
             Class::Normal | Class::Subnormal => {}
