@@ -1,5 +1,5 @@
 //! The fast reference path against the MPFR engine: every decided reference must equal the
-//! engine's (bits and clamped binade identical, approximation within 2 ulp of binary64), over
+//! engine's (bits, clamped binade and RN_binary64 approximation identical), over
 //! random and hard inputs.  The engine itself is checked against mpmath and published values in
 //! tests/reference.rs; here it is the oracle.
 //!

@@ -47,3 +47,13 @@ LUMEN_EXPORT void lumen_tanh_grad_y_f32(const float *y, const float *g, float *d
 LUMEN_EXPORT void lumen_elu_f32(const float *x, float *y, size_t n, float alpha) {
     for (size_t i = 0; i < n; i++) y[i] = x[i] > 0.0f ? x[i] : alpha * expm1f(x[i]);
 }
+
+/* Swish with beta = 1 (SiLU), x s(x), and the exact GELU, x Phi(x) = (x/2) erfc(-x/sqrt 2):
+ * not in the manifest; the exhaustive binary32 timings of DEVELOPERS.md run them. */
+LUMEN_EXPORT void lumen_swish_f32(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) y[i] = x[i] / (1.0f + expf(-x[i]));
+}
+
+LUMEN_EXPORT void lumen_gelu_f32(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) y[i] = 0.5f * x[i] * erfcf(-x[i] * 0.70710678118654752f);
+}

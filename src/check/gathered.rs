@@ -164,16 +164,23 @@ impl Gathered {
     }
 }
 
-/// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule or the
-/// `--max-ulp` limit failed, 0 otherwise.
+/// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule, the
+/// `--max-ulp` limit or an MPFR confirmation failed, 0 otherwise.
 pub fn verdict(
     crashed: bool,
     hygiene: &[HygieneEntry],
     special_values: &[SpecialRule],
     max_ulp: f64,
     limit: Option<f64>,
+    disagreements: &[BitsValue],
 ) -> Verdict {
     let mut failed = Vec::new();
+    for x in disagreements {
+        failed.push(format!(
+            "fast reference disagrees with MPFR at {} (rerun with --reference mpfr)",
+            x.bits
+        ));
+    }
     for h in hygiene.iter().filter(|h| !h.passed) {
         failed.push(format!("hygiene {}: {}", h.check, h.detail));
     }

@@ -5,6 +5,7 @@
 //! in-process [`InProcessKernel`] both implement it.
 
 mod builtin;
+mod confirm;
 mod gathered;
 mod kernel;
 mod probe;
@@ -14,6 +15,7 @@ mod shard;
 mod stream;
 
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
+pub use confirm::Confirmation;
 pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Prober, RoleReferences};
@@ -297,12 +299,15 @@ pub fn run_check(
         crash,
         extra_inputs,
     } = gathered.figures(format);
+    let extremes = confirm::extremes(format, &accuracy, &non_finite, &thresholds);
+    let reference_check = confirm::confirm(&refs, format, &extremes);
     let verdict = verdict(
         crash.is_some(),
         &hygiene,
         &special_values,
         accuracy.max_ulp,
         config.max_ulp,
+        &reference_check.disagreements,
     );
     let sweep_info = SweepInfo {
         kinds: spec.kinds.clone(),
@@ -346,6 +351,7 @@ pub fn run_check(
         library: config.library.as_deref().map(library_info),
         cpu: cpu_info(),
         date: utc_now(),
+        reference_check,
         sweep: serde_json::json!({
             "kinds": sweep_info.kinds,
             "coverage": sweep_info.coverage,

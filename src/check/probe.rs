@@ -88,10 +88,30 @@ impl RoleReferences {
     }
     /// Reference (and left-hand reference at a kink) for input x.
     pub fn reference(&self, x: u32) -> Result<(Reference, Option<Reference>), String> {
+        self.reference_via(x, true)
+    }
+
+    /// The reference at x from MPFR alone, whatever `--reference` says.
+    pub fn mpfr_reference(&self, x: u32) -> Result<Reference, String> {
+        self.reference_via(x, false).map(|(r, _)| r)
+    }
+
+    /// Whether references may come from the fast path.
+    pub fn uses_fast_path(&self) -> bool {
+        self.fast
+            .as_ref()
+            .is_some_and(|(f, d)| f.is_some() || d.is_some())
+    }
+
+    fn reference_via(
+        &self,
+        x: u32,
+        allow_fast: bool,
+    ) -> Result<(Reference, Option<Reference>), String> {
         let format = self.format();
         let g = match self.role {
             CheckRole::Forward => {
-                if let Some(r) = self.fast_reference(true, x) {
+                if let Some(r) = self.fast_reference(true, x).filter(|_| allow_fast) {
                     return Ok((r, None));
                 }
                 return Ok((self.forward.reference(x).map_err(|e| e.to_string())?, None));
@@ -102,7 +122,9 @@ impl RoleReferences {
                 Some(Rational::from_f64(format.to_f64(g)).expect("finite g"))
             }
         };
-        let fast = g.is_none().then(|| self.fast_reference(false, x)).flatten();
+        let fast = (g.is_none() && allow_fast)
+            .then(|| self.fast_reference(false, x))
+            .flatten();
         let r = match &g {
             _ if fast.is_some() => Ok(fast.expect("checked")),
             None => self.derivative.reference(x),

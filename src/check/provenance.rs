@@ -41,6 +41,8 @@ pub struct Provenance {
     pub date: String,
     /// The sweep: kinds, coverage and points (the same as the report's `sweep`).
     pub sweep: serde_json::Value,
+    /// The reported extremes recomputed with MPFR alone.
+    pub reference_check: super::Confirmation,
 }
 
 /// MPFR's version string, from the library actually linked.

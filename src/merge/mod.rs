@@ -9,7 +9,7 @@
 //! Every figure and verdict equals the unsharded run's; `kernel.ns_per_element` and
 //! `provenance` are shard 1's.
 
-use crate::check::{verdict, Figures, Gathered, HygieneEntry};
+use crate::check::{verdict, Confirmation, Figures, Gathered, HygieneEntry};
 use crate::format::{self, Format};
 use crate::report::model::SCHEMA;
 use serde_json::{Map, Value};
@@ -172,6 +172,14 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
         gathered.merge(state?);
     }
     let hygiene = merged_hygiene(&ordered)?;
+    // Each shard confirmed its own extremes; the merged ones are among them.
+    let mut reference_check = Confirmation::default();
+    for (path, report) in &ordered {
+        let c: Confirmation =
+            serde_json::from_value(report["provenance"]["reference_check"].clone())
+                .map_err(|e| format!("{}: unreadable reference_check: {e}", path.display()))?;
+        reference_check.merge(c);
+    }
     let Figures {
         accuracy,
         non_finite,
@@ -191,6 +199,7 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
             .get("verdict")
             .and_then(|v| v.get("max_ulp_limit"))
             .and_then(Value::as_f64),
+        &reference_check.disagreements,
     );
     let inputs = ordered
         .iter()
@@ -219,6 +228,11 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
     set(map, &["sweep", "extra_inputs"], Value::from(extra_inputs));
     set(map, &["provenance", "sweep", "points"], Value::from(points));
     set(map, &["provenance", "sweep", "inputs"], Value::from(inputs));
+    set(
+        map,
+        &["provenance", "reference_check"],
+        to_value(&reference_check)?,
+    );
     Ok(report)
 }
 

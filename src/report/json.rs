@@ -35,7 +35,11 @@
 //!   reference engine could not decide their rounding.
 //! - `verdict`: {exit_code (0 | 1 | 3), failed: [text], max_ulp_limit}.
 //! - `provenance`: {ulpgauge, mpfr, gmp, library: {path, sha256, compiler} | null, cpu: {model,
-//!   features}, date, sweep: {kinds, coverage, points, inputs}}.
+//!   features}, date, sweep: {kinds, coverage, points, inputs}, reference_check:
+//!   {confirmed_with_mpfr, disagreements: [V]}} — with `--reference auto`, every extreme the
+//!   report names (worst inputs, per-binade worst inputs, non-finite run ends, the reference's
+//!   thresholds and the inputs just before them) recomputed with MPFR alone; a disagreement
+//!   fails the verdict.
 //! - `shard` (only in the report of a `check --shard I/N` run): {index, count, state}; `state`
 //!   is what `ulpgauge merge` joins (the serialised [`crate::check::Gathered`]: accumulators,
 //!   kept points, probe points, crashes by phase, non-finite runs of the part); its layout is

@@ -1,0 +1,183 @@
+//! `check --reference auto` (the proven fast path, MPFR where it cannot decide) and
+//! `--reference mpfr` give the same report, figure for figure, on real kernels; with `auto`
+//! every extreme the report names is recomputed with MPFR alone and agrees.
+
+mod kernel_support;
+
+use kernel_support::kernels;
+use serde_json::Value;
+use std::path::PathBuf;
+use std::process::Command;
+
+fn check(args: &[&str], reference: &str, name: &str) -> Value {
+    let dir = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("reference-paths");
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join(format!("{name}-{reference}.json"));
+    let lib = kernels().join("liblumen_edge.so");
+    let out = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+        .args(["check", "--lib", lib.to_str().unwrap()])
+        .args(args)
+        .args([
+            "--reference",
+            reference,
+            "--quiet",
+            "--no-progress",
+            "--json",
+        ])
+        .arg(&path)
+        .output()
+        .unwrap();
+    let code = out.status.code().unwrap_or(-1);
+    assert!(
+        [0, 1].contains(&code),
+        "{name}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_str(&std::fs::read_to_string(&path).unwrap()).unwrap()
+}
+
+/// Without what legitimately differs between runs: timings, provenance, and how many rounds
+/// the determinism check fitted into its time budget.
+fn comparable(report: &Value) -> Value {
+    let mut r = report.clone();
+    let map = r.as_object_mut().unwrap();
+    map.remove("provenance");
+    map["kernel"]
+        .as_object_mut()
+        .unwrap()
+        .remove("ns_per_element");
+    for h in map["hygiene"].as_array_mut().unwrap() {
+        if h["check"] == "determinism" {
+            h.as_object_mut().unwrap().remove("detail");
+        }
+    }
+    r
+}
+
+fn same_report(name: &str, args: &[&str]) {
+    let auto = check(args, "auto", name);
+    let mpfr = check(args, "mpfr", name);
+    let (a, m) = (comparable(&auto), comparable(&mpfr));
+    for key in a.as_object().unwrap().keys() {
+        assert_eq!(a.get(key), m.get(key), "{name}: key {key}");
+    }
+    let confirmed = &auto["provenance"]["reference_check"];
+    assert!(
+        confirmed["confirmed_with_mpfr"].as_u64().unwrap() > 0,
+        "{name}: {confirmed}"
+    );
+    assert_eq!(confirmed["disagreements"], serde_json::json!([]), "{name}");
+    // MPFR made every reference itself: nothing to confirm.
+    assert_eq!(
+        mpfr["provenance"]["reference_check"]["confirmed_with_mpfr"],
+        0
+    );
+}
+
+#[test]
+fn sigmoid_exhaustive_ranges_agree() {
+    // Across the fast path's closed-form edges (x = 2^-53, x = 38) and the f32 saturation
+    // threshold of the reference (x ≈ 17.33).
+    same_report(
+        "sigmoid-small",
+        &[
+            "--symbol",
+            "lumen_sigmoid_f32",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f32",
+            "--sweep",
+            "exhaustive",
+            "--range=1.0e-16,1.2e-16",
+        ],
+    );
+    same_report(
+        "sigmoid-edge",
+        &[
+            "--symbol",
+            "lumen_sigmoid_f32",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f32",
+            "--sweep",
+            "exhaustive",
+            "--range=16.5,17.5",
+        ],
+    );
+    same_report(
+        "sigmoid-closed",
+        &[
+            "--symbol",
+            "lumen_sigmoid_f32",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f32",
+            "--sweep",
+            "exhaustive",
+            "--range=37.5,38.5",
+        ],
+    );
+}
+
+#[test]
+fn sampled_f32_kernels_agree() {
+    for (name, args) in [
+        (
+            "tanh",
+            vec!["--symbol", "lumen_tanh_f32", "--function", "tanh"],
+        ),
+        (
+            "elu",
+            vec![
+                "--symbol",
+                "lumen_elu_f32",
+                "--function",
+                "elu",
+                "--param",
+                "alpha=0.5",
+                "--param-passing",
+                "trailing",
+            ],
+        ),
+        (
+            "swish",
+            vec![
+                "--symbol",
+                "lumen_swish_f32",
+                "--function",
+                "swish",
+                "--param",
+                "beta=1",
+            ],
+        ),
+        (
+            "gelu",
+            vec!["--symbol", "lumen_gelu_f32", "--function", "gelu"],
+        ),
+        (
+            "sigmoid-derivative",
+            vec![
+                "--symbol",
+                "lumen_sigmoid_deriv_f32",
+                "--function",
+                "sigmoid",
+                "--role",
+                "derivative",
+            ],
+        ),
+    ] {
+        let mut a = args.clone();
+        a.extend([
+            "--format",
+            "f32",
+            "--sweep",
+            "dense,edge",
+            "--per-binade",
+            "32",
+        ]);
+        same_report(name, &a);
+    }
+}
