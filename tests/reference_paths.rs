@@ -4,7 +4,7 @@
 
 mod kernel_support;
 
-use kernel_support::kernels;
+use kernel_support::{comparable, kernels};
 use serde_json::Value;
 use std::path::PathBuf;
 use std::process::Command;
@@ -34,24 +34,6 @@ fn check(args: &[&str], reference: &str, name: &str) -> Value {
         String::from_utf8_lossy(&out.stderr)
     );
     serde_json::from_str(&std::fs::read_to_string(&path).unwrap()).unwrap()
-}
-
-/// Without what legitimately differs between runs: timings, provenance, and how many rounds
-/// the determinism check fitted into its time budget.
-fn comparable(report: &Value) -> Value {
-    let mut r = report.clone();
-    let map = r.as_object_mut().unwrap();
-    map.remove("provenance");
-    map["kernel"]
-        .as_object_mut()
-        .unwrap()
-        .remove("ns_per_element");
-    for h in map["hygiene"].as_array_mut().unwrap() {
-        if h["check"] == "determinism" {
-            h.as_object_mut().unwrap().remove("detail");
-        }
-    }
-    r
 }
 
 fn same_report(name: &str, args: &[&str]) {

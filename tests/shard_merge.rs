@@ -4,7 +4,7 @@
 
 mod kernel_support;
 
-use kernel_support::kernels;
+use kernel_support::{comparable, kernels};
 use serde_json::Value;
 use std::path::{Path, PathBuf};
 use std::process::Command;
@@ -35,25 +35,6 @@ fn strings(args: &[&str]) -> Vec<String> {
 
 fn read(path: &Path) -> Value {
     serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap()
-}
-
-/// A kernel report without what may differ between runs of the same check: timings, the
-/// provenance (date, host), and the number of rounds the determinism check fitted into its
-/// time budget.
-fn comparable(report: &Value) -> Value {
-    let mut r = report.clone();
-    let map = r.as_object_mut().unwrap();
-    map.remove("provenance");
-    map["kernel"]
-        .as_object_mut()
-        .unwrap()
-        .remove("ns_per_element");
-    for h in map["hygiene"].as_array_mut().unwrap() {
-        if h["check"] == "determinism" {
-            h.as_object_mut().unwrap().remove("detail");
-        }
-    }
-    r
 }
 
 fn kernel_reports(v: &Value) -> Vec<Value> {

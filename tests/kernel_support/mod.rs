@@ -92,3 +92,23 @@ pub fn f32_sample(count: usize) -> Vec<u32> {
 pub fn all16() -> Vec<u32> {
     (0..=0xffffu32).collect()
 }
+
+/// A JSON check report without what legitimately differs between runs of the same check:
+/// timings, the provenance (date, host, confirmations), and how many rounds the determinism
+/// check fitted into its time budget.
+pub fn comparable(report: &serde_json::Value) -> serde_json::Value {
+    let mut r = report.clone();
+    let map = r.as_object_mut().expect("a report object");
+    map.remove("provenance");
+    if let Some(kernel) = map.get_mut("kernel").and_then(|k| k.as_object_mut()) {
+        kernel.remove("ns_per_element");
+    }
+    if let Some(list) = map.get_mut("hygiene").and_then(|h| h.as_array_mut()) {
+        for h in list {
+            if h["check"] == "determinism" {
+                h.as_object_mut().expect("an entry").remove("detail");
+            }
+        }
+    }
+    r
+}
