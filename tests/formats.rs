@@ -70,6 +70,28 @@ fn sixteen_bit_decoding_agrees_with_the_half_crate() {
 }
 
 #[test]
+fn binary32_decoding_agrees_with_the_hardware_conversion() {
+    // IEEE 754-2019 §5.4.2 (common practice): widening binary32 to binary64 is exact, so
+    // `f32 as f64` is an independent decoder. Every 4099th pattern, plus the ends of every
+    // exponent field with each sign (zeros, subnormals, infinities and NaNs included).
+    let mut patterns: Vec<u32> = (0..=u32::MAX).step_by(4099).collect();
+    for field in 0u32..256 {
+        for sign in [0, 0x8000_0000] {
+            let base = sign | field << 23;
+            patterns.extend([base, base | 1, base | 0x40_0000, base | 0x7f_ffff]);
+        }
+    }
+    for bits in patterns {
+        let ours = Binary32.to_f64(bits);
+        let theirs = f32::from_bits(bits) as f64;
+        assert!(
+            ours.to_bits() == theirs.to_bits() || (ours.is_nan() && theirs.is_nan()),
+            "f32 {bits:#010x}: {ours:e} vs {theirs:e}"
+        );
+    }
+}
+
+#[test]
 fn exact_encoding_round_trips_every_sixteen_bit_pattern() {
     for format in [&Binary16 as &dyn Format, &Bfloat16] {
         for bits in 0u32..65536 {

@@ -18,7 +18,7 @@ pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
 pub use confirm::Confirmation;
 pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
-pub use probe::{gradient_factor, Prober, RoleReferences};
+pub use probe::{gradient_factor, Folding, Prober, RoleReferences};
 pub use provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance};
 pub use runner_kernel::RunnerKernel;
 pub use shard::Shard;
@@ -85,9 +85,6 @@ pub enum ReferencePath {
 /// Hygiene sample size and throughput sample size.
 const HYGIENE_SAMPLE: usize = 1024;
 const SPEED_SAMPLE: usize = 8192;
-
-/// Measured inputs evaluated per streamed chunk: the main process holds one chunk of points.
-const STREAM_CHUNK: usize = 1 << 18;
 
 /// An evenly spread sample of the finite inputs.
 fn spread(format: &dyn Format, inputs: &Inputs, n: usize) -> Vec<u32> {
@@ -184,21 +181,27 @@ pub fn run_check(
         exhaustive,
     );
     let mut measured: Vec<Point> = Vec::new();
-    for chunk in own.chunks(STREAM_CHUNK) {
-        let template = stream.fresh();
-        let fold = |points: &[Point]| {
+    let template = stream.fresh();
+    let folding = Folding {
+        fold: &|points: &[Point]| {
             let mut part = template.fresh();
             for p in points {
                 part.add(p);
             }
-            let all = (!exhaustive).then(|| points.to_vec());
+            (part, (!exhaustive).then(|| points.to_vec()))
+        },
+        join: &|(mut part, mut all): (Stream, Option<Vec<Point>>), (later, more)| {
+            part.merge(later);
+            if let (Some(all), Some(more)) = (&mut all, more) {
+                all.extend(more);
+            }
             (part, all)
-        };
-        for (part, all) in prober.probe_fold(&chunk, &fold) {
-            stream.merge(part);
-            measured.extend(all.into_iter().flatten());
-        }
-    }
+        },
+    };
+    prober.probe_fold(own.iter(), &folding, &mut |(part, all)| {
+        stream.merge(part);
+        measured.extend(all.into_iter().flatten());
+    });
     let mut crashes = Crashes::default();
     let phase = |prober: &Prober, seen: &mut usize| -> Vec<CrashAt> {
         let new = prober.crashes[*seen..].iter().map(CrashAt::from).collect();

@@ -229,17 +229,25 @@ struct Called {
     outputs: Vec<Option<u32>>,
 }
 
-/// The folded tasks of one batch, and the inputs whose reference failed.
-type Folded<S> = (Vec<S>, Vec<(u32, String)>);
+/// How the points of a streamed sweep are folded: `fold` turns a task's points (in input
+/// order) into a partial result and `join` appends a later partial to an earlier one; both run
+/// on the rayon pool, and `join` must be associative.
+pub struct Folding<'f, S> {
+    /// Points of one task → partial result.
+    pub fold: &'f (dyn Fn(&[Point]) -> S + Sync),
+    /// Earlier partial, later partial → the partial of both.
+    pub join: &'f (dyn Fn(S, S) -> S + Sync),
+}
 
 impl RoleReferences {
-    /// References of one called batch, folded task by task on the rayon pool.
+    /// References of one called batch, folded task by task and joined in input order on the
+    /// rayon pool; also the inputs whose reference failed.
     fn fold_batch<S: Send>(
         &self,
         called: &Called,
-        fold: &(dyn Fn(&[Point]) -> S + Sync),
-    ) -> Folded<S> {
-        let tasks: Vec<(S, Vec<(u32, String)>)> = called
+        folding: &Folding<'_, S>,
+    ) -> Option<(S, Vec<(u32, String)>)> {
+        called
             .inputs
             .par_chunks(FOLD_TASK)
             .enumerate()
@@ -259,67 +267,80 @@ impl RoleReferences {
                         Err(e) => failures.push((x, e)),
                     }
                 }
-                (fold(&points), failures)
+                ((folding.fold)(&points), failures)
             })
-            .collect();
-        let mut failures = Vec::new();
-        let folded = tasks
-            .into_iter()
-            .map(|(s, f)| {
-                failures.extend(f);
-                s
+            .reduce_with(|(a, mut fa), (b, fb)| {
+                fa.extend(fb);
+                ((folding.join)(a, b), fa)
             })
-            .collect();
-        (folded, failures)
+    }
+
+    /// Kernel arguments of a batch: the inputs kept, first and second arguments; inputs whose
+    /// arguments fail go to `failures`.
+    fn batch_arguments(&self, batch: Vec<u32>, failures: &mut Vec<(u32, String)>) -> Arguments {
+        if matches!(self.role, CheckRole::Forward | CheckRole::Derivative) {
+            let seconds = vec![None; batch.len()];
+            return (batch.clone(), batch, seconds);
+        }
+        let computed: Vec<Result<(u32, Option<u32>), String>> =
+            batch.par_iter().map(|&x| self.arguments(x)).collect();
+        let mut kept = Vec::with_capacity(batch.len());
+        let mut firsts = Vec::with_capacity(batch.len());
+        let mut seconds = Vec::with_capacity(batch.len());
+        for (&x, c) in batch.iter().zip(computed) {
+            match c {
+                Ok((f, s)) => {
+                    kept.push(x);
+                    firsts.push(f);
+                    seconds.push(s);
+                }
+                Err(e) => failures.push((x, e)),
+            }
+        }
+        (kept, firsts, seconds)
     }
 }
 
+/// Inputs kept, first arguments, second arguments.
+type Arguments = (Vec<u32>, Vec<u32>, Vec<Option<u32>>);
+
 impl Prober<'_> {
-    /// Evaluates inputs batch by batch and folds their points, task by task, into partial
-    /// results returned in input order (inputs whose reference fails are left out and recorded
-    /// in `failures`).
+    /// Evaluates inputs (in the order given) batch by batch and folds their points; `sink`
+    /// receives one partial result per batch, in input order. Inputs whose reference fails are
+    /// left out and recorded in `failures`.
     ///
     /// The kernel runs batch k + 1 on its own thread while the rayon pool computes the
-    /// references of batch k and folds them, so neither waits for the other.
+    /// references of batch k, folds them and joins the partials, so neither waits for the
+    /// other and the caller's thread only hands batches over.
     pub fn probe_fold<S: Send>(
         &mut self,
-        inputs: &[u32],
-        fold: &(dyn Fn(&[Point]) -> S + Sync),
-    ) -> Vec<S> {
+        inputs: impl Iterator<Item = u32>,
+        folding: &Folding<'_, S>,
+        sink: &mut dyn FnMut(S),
+    ) {
         let (bar, started, own) = match &self.shared {
             Some((bar, started)) => (Some(bar.clone()), *started, false),
-            None => (
-                self.progress.then(|| new_bar(inputs.len() as u64)),
-                std::time::Instant::now(),
-                true,
-            ),
+            None => {
+                let (lo, hi) = inputs.size_hint();
+                (
+                    self.progress.then(|| new_bar(hi.unwrap_or(lo) as u64)),
+                    std::time::Instant::now(),
+                    true,
+                )
+            }
         };
         let refs = self.refs;
-        let mut partials = Vec::new();
         let mut failures = Vec::new();
         let mut crashes = Vec::new();
         let mut kernel: &mut dyn KernelUnderTest = &mut *self.kernel;
+        let mut inputs = inputs.peekable();
         std::thread::scope(|scope| {
             let mut pending: Option<Called> = None;
-            let mut chunks = inputs.chunks(CHUNK);
             loop {
-                let chunk = chunks.next();
-                let call = chunk.map(|chunk| {
-                    let computed: Vec<Result<(u32, Option<u32>), String>> =
-                        chunk.par_iter().map(|&x| refs.arguments(x)).collect();
-                    let mut kept = Vec::with_capacity(chunk.len());
-                    let mut firsts = Vec::with_capacity(chunk.len());
-                    let mut seconds = Vec::with_capacity(chunk.len());
-                    for (&x, c) in chunk.iter().zip(computed) {
-                        match c {
-                            Ok((f, s)) => {
-                                kept.push(x);
-                                firsts.push(f);
-                                seconds.push(s);
-                            }
-                            Err(e) => failures.push((x, e)),
-                        }
-                    }
+                let call = inputs.peek().is_some().then(|| {
+                    let batch: Vec<u32> = inputs.by_ref().take(CHUNK).collect();
+                    let len = batch.len();
+                    let (kept, firsts, seconds) = refs.batch_arguments(batch, &mut failures);
                     let k = kernel;
                     let handle = scope.spawn(move || {
                         let second: Option<Vec<u32>> = seconds.iter().copied().collect();
@@ -330,15 +351,21 @@ impl Prober<'_> {
                         };
                         (k, kept, seconds, out)
                     });
-                    (chunk.len(), handle)
+                    (len, handle)
                 });
+                let t0 = std::time::Instant::now();
                 if let Some(called) = pending.take() {
-                    let (folded, failed) = refs.fold_batch(&called, fold);
-                    partials.extend(folded);
-                    failures.extend(failed);
+                    if let Some((folded, failed)) = refs.fold_batch(&called, folding) {
+                        sink(folded);
+                        failures.extend(failed);
+                    }
                 }
+                let t1 = std::time::Instant::now();
                 let Some((len, handle)) = call else { break };
                 let (k, kept, seconds, out) = handle.join().expect("kernel thread");
+                if std::env::var_os("ULPGAUGE_TRACE").is_some() {
+                    eprintln!("fold {:?} wait {:?}", t1 - t0, t1.elapsed());
+                }
                 kernel = k;
                 crashes.extend(out.crashes.into_iter().map(|crash| KernelCrash {
                     input: kept[crash.index],
@@ -363,16 +390,23 @@ impl Prober<'_> {
         if let Some(bar) = bar.filter(|_| own) {
             bar.finish_and_clear();
         }
-        partials
     }
 }
 
 impl Probe for Prober<'_> {
     /// Inputs whose reference fails are left out (and recorded in `failures`).
     fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
-        self.probe_fold(inputs, &|points: &[Point]| points.to_vec())
-            .into_iter()
-            .flatten()
-            .collect()
+        let mut all = Vec::with_capacity(inputs.len());
+        let folding = Folding {
+            fold: &|points: &[Point]| points.to_vec(),
+            join: &|mut a: Vec<Point>, b: Vec<Point>| {
+                a.extend(b);
+                a
+            },
+        };
+        self.probe_fold(inputs.iter().copied(), &folding, &mut |part| {
+            all.extend(part)
+        });
+        all
     }
 }

@@ -3,7 +3,7 @@
 
 use crate::format::{Class, Format};
 use crate::measure::{
-    self, Accuracy, AccuracyAcc, NonFiniteRun, NonFiniteStream, Point, Shape, ShapeAcc,
+    Accuracy, AccuracyAcc, NonFiniteRun, NonFiniteStream, Point, Shape, ShapeAcc,
 };
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -22,7 +22,8 @@ pub struct Kept {
 impl Kept {
     /// Whether a point is kept whatever its reference: a zero or a kink.
     fn always(format: &dyn Format, p: &Point) -> bool {
-        let sign = format.infinity(true) & !format.infinity(false);
+        let l = format.layout();
+        let sign = l.infinity(true) & !l.infinity(false);
         p.input & !sign == 0 || p.left.is_some()
     }
 
@@ -42,10 +43,9 @@ impl Kept {
         if Self::always(format, p) {
             self.points.insert(p.input, p.clone());
         }
-        if measure::is_finite(format, p.input)
-            && format.classify(p.reference.bits) == Class::Subnormal
-        {
-            let side = format.is_sign_negative(p.input) as usize;
+        let l = format.layout();
+        if l.is_finite(p.input) && l.classify(p.reference.bits) == Class::Subnormal {
+            let side = l.is_sign_negative(p.input) as usize;
             match self.subnormal_ends[side] {
                 None => self.subnormal_ends[side] = Some((p.input, p.input)),
                 Some((first, last)) => {

@@ -17,7 +17,4 @@ impl Format for Bfloat16 {
     fn layout(&self) -> Layout {
         Layout::new(8, 7)
     }
-    fn to_f64(&self, bits: u32) -> f64 {
-        f32::from_bits(bits << 16) as f64
-    }
 }

@@ -16,7 +16,4 @@ impl Format for Binary32 {
     fn layout(&self) -> Layout {
         Layout::new(8, 23)
     }
-    fn to_f64(&self, bits: u32) -> f64 {
-        f32::from_bits(bits) as f64
-    }
 }

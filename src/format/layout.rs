@@ -13,6 +13,7 @@ pub struct Layout {
 
 impl Layout {
     /// A layout with the given exponent and trailing significand widths (at most 31 bits in all).
+    #[inline]
     pub const fn new(exp_bits: u32, mant_bits: u32) -> Self {
         assert!(exp_bits >= 2 && mant_bits >= 1 && 1 + exp_bits + mant_bits <= 32);
         Layout {
@@ -21,42 +22,53 @@ impl Layout {
         }
     }
     /// Storage width in bits.
+    #[inline]
     pub const fn width(self) -> u32 {
         1 + self.exp_bits + self.mant_bits
     }
     /// Precision p = trailing significand bits + 1.
+    #[inline]
     pub const fn precision(self) -> u32 {
         self.mant_bits + 1
     }
     /// Exponent bias 2^(w−1) − 1.
+    #[inline]
     pub const fn bias(self) -> i32 {
         (1 << (self.exp_bits - 1)) - 1
     }
     /// emax = bias.
+    #[inline]
     pub const fn emax(self) -> i32 {
         self.bias()
     }
     /// emin = 1 − emax.
+    #[inline]
     pub const fn emin(self) -> i32 {
         1 - self.emax()
     }
+    #[inline]
     fn sign_bit(self) -> u32 {
         1 << (self.exp_bits + self.mant_bits)
     }
+    #[inline]
     fn exp_mask(self) -> u32 {
         ((1 << self.exp_bits) - 1) << self.mant_bits
     }
+    #[inline]
     fn mant_mask(self) -> u32 {
         (1 << self.mant_bits) - 1
     }
+    #[inline]
     fn magnitude_mask(self) -> u32 {
         self.sign_bit() - 1
     }
     /// Whether the sign bit is set.
+    #[inline]
     pub fn is_sign_negative(self, bits: u32) -> bool {
         bits & self.sign_bit() != 0
     }
     /// IEEE class of a pattern.
+    #[inline]
     pub fn classify(self, bits: u32) -> Class {
         let exp = bits & self.exp_mask();
         let mant = bits & self.mant_mask();
@@ -69,27 +81,45 @@ impl Layout {
         }
     }
     /// Exact value of a pattern as binary64.
+    #[inline]
     pub fn to_f64(self, bits: u32) -> f64 {
-        let negative = self.is_sign_negative(bits);
+        let sign = ((bits & self.sign_bit()) as u64) << (63 - self.exp_bits - self.mant_bits);
         let field = (bits & self.exp_mask()) >> self.mant_bits;
-        let mant = (bits & self.mant_mask()) as f64;
-        let magnitude = match self.classify(bits) {
-            Class::Nan => f64::NAN,
-            Class::Infinite => f64::INFINITY,
-            Class::Zero => 0.0,
-            Class::Subnormal => mant * pow2(self.emin() - self.mant_bits as i32),
-            Class::Normal => {
-                (mant + pow2(self.mant_bits as i32))
-                    * pow2(field as i32 - self.bias() - self.mant_bits as i32)
-            }
-        };
-        if negative {
-            -magnitude
-        } else {
-            magnitude
+        let mant = (bits & self.mant_mask()) as u64;
+        if field == 0 {
+            // Zero or subnormal: mant·2^(emin − mant_bits), exact in binary64.
+            let magnitude = mant as f64 * pow2(self.emin() - self.mant_bits as i32);
+            return f64::from_bits(magnitude.to_bits() | sign);
         }
+        if field == self.exp_mask() >> self.mant_bits {
+            return if mant == 0 {
+                f64::from_bits(f64::INFINITY.to_bits() | sign)
+            } else {
+                f64::NAN
+            };
+        }
+        // A normal number keeps its significand bits and moves its exponent to binary64's bias.
+        let exponent = (field as i64 - self.bias() as i64 + 1023) as u64;
+        f64::from_bits(sign | exponent << 52 | mant << (52 - self.mant_bits))
+    }
+    /// Sign and exponent field of a pattern (the bits above the trailing significand): equal
+    /// for two patterns exactly when they share a sign and a binade (zeros with subnormals).
+    #[inline]
+    pub fn sign_and_exponent(self, bits: u32) -> u32 {
+        bits >> self.mant_bits
+    }
+    /// Whether a pattern is a finite number (not an infinity or NaN).
+    #[inline]
+    pub fn is_finite(self, bits: u32) -> bool {
+        bits & self.exp_mask() != self.exp_mask()
+    }
+    /// ulp of the binade `binade` (already clamped to emin): 2^(binade − p + 1).
+    #[inline]
+    pub fn ulp_of_binade(self, binade: i32) -> f64 {
+        pow2(binade - self.precision() as i32 + 1)
     }
     /// Pattern of an exactly representable binary64 value.
+    #[inline]
     pub fn from_f64_exact(self, value: f64) -> Option<u32> {
         if value.is_nan() {
             return Some(self.quiet_nan());
@@ -111,6 +141,7 @@ impl Layout {
         (self.classify(bits) != Class::Infinite).then_some(bits)
     }
     /// Pattern of `±k·2^quantum_exp` where k ≤ 2^p is an already rounded integer significand.
+    #[inline]
     pub fn encode(self, negative: bool, mut k: u64, mut quantum_exp: i32) -> u32 {
         let sign = if negative { self.sign_bit() } else { 0 };
         if k == 0 {
@@ -141,18 +172,22 @@ impl Layout {
         sign | ((field as u32) << self.mant_bits) | (k as u32 & self.mant_mask())
     }
     /// The canonical quiet NaN (positive, top significand bit set).
+    #[inline]
     pub fn quiet_nan(self) -> u32 {
         self.exp_mask() | (1 << (self.mant_bits - 1))
     }
     /// Infinity of a sign.
+    #[inline]
     pub fn infinity(self, negative: bool) -> u32 {
         self.exp_mask() | if negative { self.sign_bit() } else { 0 }
     }
     /// Largest finite magnitude of a sign.
+    #[inline]
     pub fn max_finite(self, negative: bool) -> u32 {
         self.infinity(negative) - 1
     }
     /// Position on the number line; ±0 → 0.
+    #[inline]
     pub fn ordinal(self, bits: u32) -> i64 {
         let magnitude = (bits & self.magnitude_mask()) as i64;
         if self.is_sign_negative(bits) {
@@ -162,6 +197,7 @@ impl Layout {
         }
     }
     /// Inverse of [`Layout::ordinal`].
+    #[inline]
     pub fn from_ordinal(self, ordinal: i64) -> u32 {
         if ordinal < 0 {
             self.sign_bit() | (-ordinal) as u32
@@ -170,6 +206,7 @@ impl Layout {
         }
     }
     /// IEEE nextUp.
+    #[inline]
     pub fn next_up(self, bits: u32) -> u32 {
         match self.classify(bits) {
             Class::Nan => bits,
@@ -179,6 +216,7 @@ impl Layout {
         }
     }
     /// IEEE nextDown.
+    #[inline]
     pub fn next_down(self, bits: u32) -> u32 {
         match self.classify(bits) {
             Class::Nan => bits,
@@ -190,6 +228,7 @@ impl Layout {
 }
 
 /// 2^e as binary64, exact for −1074 ≤ e ≤ 1023.
+#[inline]
 pub(crate) fn pow2(e: i32) -> f64 {
     if e >= -1022 {
         f64::from_bits(((e + 1023) as u64) << 52)

@@ -30,7 +30,7 @@ impl Default for RunnerOptions {
         RunnerOptions {
             batch_timeout: Duration::from_secs(5),
             stop_on_crash: false,
-            batch_size: 4096,
+            batch_size: 65_536,
         }
     }
 }
@@ -209,6 +209,13 @@ impl Runner {
             .map_err(|e| CallError::Worker(format!("cannot start {}: {e}", self.exe.display())))?;
         let to = child.stdin.take().expect("piped stdin");
         let from = child.stdout.take().expect("piped stdout");
+        // A batch of 2^16 f32 values is 256 KiB each way: a pipe that holds it whole saves the
+        // two processes a dozen wake-ups per call. Linux only; the default size still works.
+        #[cfg(target_os = "linux")]
+        for fd in [to.as_raw_fd(), from.as_raw_fd()] {
+            // SAFETY: fcntl on pipe descriptors we own; failure leaves the pipe as it was.
+            unsafe { libc::fcntl(fd, libc::F_SETPIPE_SZ, PIPE_BYTES) };
+        }
         self.workers_started += 1;
         self.worker = Some(Worker { child, to, from });
         let deadline = Instant::now() + self.options.batch_timeout.max(Duration::from_secs(10));
@@ -473,6 +480,10 @@ impl Drop for Runner {
         }
     }
 }
+
+/// Pipe capacity asked for (the unprivileged Linux maximum by default).
+#[cfg(target_os = "linux")]
+const PIPE_BYTES: libc::c_int = 1 << 20;
 
 /// Reads from the worker's stdout, failing with `TimedOut` past the deadline.
 pub(crate) struct Deadline<'a> {

@@ -122,18 +122,31 @@ struct Kernel {
 // declaration, which the runner honours.
 unsafe impl Sync for Kernel {}
 
-/// Anonymous mapping, unmapped on drop.
+/// Anonymous mapping, unmapped on drop (or kept for the next call of the same size when no
+/// page of it is protected: mapping and faulting in fresh pages cost more than most kernels).
 struct Region {
     base: *mut u8,
     len: usize,
+    guarded: bool,
+}
+
+/// Mappings kept for reuse, per thread: (base, length).
+const POOL_SIZE: usize = 4;
+thread_local! {
+    static POOL: std::cell::RefCell<Vec<(usize, usize)>> = const { std::cell::RefCell::new(Vec::new()) };
 }
 
 impl Region {
     fn new(len: usize) -> Region {
         let page = PAGE.load(Ordering::Relaxed) as usize;
         let len = len.div_ceil(page) * page;
+        let reused = POOL.with(|pool| {
+            let mut pool = pool.borrow_mut();
+            let i = pool.iter().position(|&(_, l)| l == len)?;
+            Some(pool.swap_remove(i).0 as *mut libc::c_void)
+        });
         // SAFETY: a fresh private anonymous mapping.
-        let base = unsafe {
+        let base = reused.unwrap_or_else(|| unsafe {
             libc::mmap(
                 std::ptr::null_mut(),
                 len,
@@ -142,16 +155,19 @@ impl Region {
                 -1,
                 0,
             )
-        };
+        });
         assert!(base != libc::MAP_FAILED, "mmap failed");
+        // A reused mapping looks exactly like a fresh one: canary bytes throughout.
         // SAFETY: the mapping is len bytes long and writable.
         unsafe { std::ptr::write_bytes(base as *mut u8, CANARY, len) };
         Region {
             base: base as *mut u8,
             len,
+            guarded: false,
         }
     }
-    fn protect(&self, offset: usize, len: usize) {
+    fn protect(&mut self, offset: usize, len: usize) {
+        self.guarded = true;
         // SAFETY: the range lies inside this mapping and is page aligned.
         unsafe { libc::mprotect(self.base.add(offset) as *mut c_void, len, libc::PROT_NONE) };
     }
@@ -159,8 +175,19 @@ impl Region {
 
 impl Drop for Region {
     fn drop(&mut self) {
-        // SAFETY: unmaps exactly what new() mapped.
-        unsafe { libc::munmap(self.base as *mut c_void, self.len) };
+        let kept = !self.guarded
+            && POOL.with(|pool| {
+                let mut pool = pool.borrow_mut();
+                let room = pool.len() < POOL_SIZE;
+                if room {
+                    pool.push((self.base as usize, self.len));
+                }
+                room
+            });
+        if !kept {
+            // SAFETY: unmaps exactly what new() mapped.
+            unsafe { libc::munmap(self.base as *mut c_void, self.len) };
+        }
     }
 }
 
@@ -254,7 +281,7 @@ impl Output {
             }
             Layout::GuardAfter | Layout::GuardBefore => {
                 let data = (n_bytes + 128).div_ceil(page) * page;
-                let region = Region::new(page + data + page);
+                let mut region = Region::new(page + data + page);
                 region.protect(0, page);
                 region.protect(page + data, page);
                 let base = region.base as u64;

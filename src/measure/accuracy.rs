@@ -1,7 +1,7 @@
 //! ulp accuracy over the points where kernel output and reference are both finite.
 
-use super::{is_finite, ExactSum, Point};
-use crate::format::{step_distance, ulp_error, Class, ExactValue, Format};
+use super::{ExactSum, Point};
+use crate::format::{Class, ExactValue, Format, Layout};
 use crate::reference::Reference;
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
@@ -178,23 +178,20 @@ struct Judged {
     reference: u32,
 }
 
-fn judge(format: &dyn Format, output: u32, r: &Reference) -> Option<Judged> {
+fn judge(l: Layout, output: u32, r: &Reference) -> Option<Judged> {
     let exact = r.exact?;
-    if !is_finite(format, r.bits) {
+    if !l.is_finite(r.bits) {
         return None;
     }
-    let error = ulp_error(format, output, &exact);
-    let correct = step_distance(format, output, r.bits) == 0;
+    // ŷ and y are both far inside binary64's range, so the difference loses at most 2^−53
+    // relative, i.e. well under 2^−28 ulp of the target format (as in `format::ulp_error`).
+    let error = (l.to_f64(output) - exact.approx).abs() / l.ulp_of_binade(exact.binade);
+    let (out, rn) = (l.ordinal(output), l.ordinal(r.bits));
+    let correct = out == rn;
     // y lies between RN(y) and the neighbour on its side; that neighbour is also faithful.
-    let rv = format.to_f64(r.bits);
-    let other = if exact.approx > rv {
-        Some(format.next_up(r.bits))
-    } else if exact.approx < rv {
-        Some(format.next_down(r.bits))
-    } else {
-        None
-    };
-    let faithful = correct || other.is_some_and(|o| step_distance(format, output, o) == 0);
+    let rv = l.to_f64(r.bits);
+    let faithful =
+        correct || (exact.approx > rv && out == rn + 1) || (exact.approx < rv && out == rn - 1);
     Some(Judged {
         error,
         exact,
@@ -205,9 +202,9 @@ fn judge(format: &dyn Format, output: u32, r: &Reference) -> Option<Judged> {
 }
 
 /// The error at a point: at a kink either one-sided value is accepted, whichever is closer.
-fn judge_point(format: &dyn Format, p: &Point, output: u32) -> Option<Judged> {
-    let right = judge(format, output, &p.reference);
-    let left = p.left.as_ref().and_then(|l| judge(format, output, l));
+fn judge_point(l: Layout, p: &Point, output: u32) -> Option<Judged> {
+    let right = judge(l, output, &p.reference);
+    let left = p.left.as_ref().and_then(|l_ref| judge(l, output, l_ref));
     match (right, left) {
         (Some(r), Some(l)) if l.error < r.error => Some(l),
         (r, _) => r,
@@ -221,14 +218,14 @@ struct BinadeKey {
     exponent: Option<i32>,
 }
 
-fn binade_key(format: &dyn Format, bits: u32) -> BinadeKey {
-    let exponent = match format.classify(bits) {
+fn binade_key(l: Layout, bits: u32) -> BinadeKey {
+    let exponent = match l.classify(bits) {
         Class::Zero | Class::Subnormal => None,
         // The binary64 exponent field is exact, unlike a computed log2.
-        _ => Some(((format.to_f64(bits).to_bits() >> 52) & 0x7ff) as i32 - 1023),
+        _ => Some(((l.to_f64(bits).to_bits() >> 52) & 0x7ff) as i32 - 1023),
     };
     BinadeKey {
-        negative: format.is_sign_negative(bits),
+        negative: l.is_sign_negative(bits),
         exponent,
     }
 }
@@ -274,7 +271,7 @@ impl Acc {
 
 impl Acc {
     /// Joins the figures of later inputs (all above ours in bit order).
-    fn merge(&mut self, other: Acc) {
+    fn merge(&mut self, other: &Acc) {
         if other.points == 0 {
             return;
         }
@@ -293,13 +290,34 @@ impl Acc {
     }
 }
 
-fn worst_of(format: &dyn Format, p: &Point, j: &Judged, error: f64) -> Worst {
-    Worst {
-        input: BitsValue::new(format, p.input),
-        output: BitsValue::new(format, p.output.unwrap_or(0)),
-        reference: BitsValue::new(format, j.reference),
-        exact: j.exact.approx,
-        ulp: error,
+/// A worst point as bit patterns; made into a [`Worst`] only when reported.
+#[derive(Clone, Copy, Debug, Serialize, Deserialize)]
+struct RawWorst {
+    input: u32,
+    output: u32,
+    reference: u32,
+    exact: f64,
+    ulp: f64,
+}
+
+impl RawWorst {
+    fn of(p: &Point, j: &Judged, error: f64) -> RawWorst {
+        RawWorst {
+            input: p.input,
+            output: p.output.unwrap_or(0),
+            reference: j.reference,
+            exact: j.exact.approx,
+            ulp: error,
+        }
+    }
+    fn report(self, format: &dyn Format) -> Worst {
+        Worst {
+            input: BitsValue::new(format, self.input),
+            output: BitsValue::new(format, self.output),
+            reference: BitsValue::new(format, self.reference),
+            exact: self.exact,
+            ulp: self.ulp,
+        }
     }
 }
 
@@ -315,8 +333,28 @@ enum Samples {
     /// Largest error per ordinal of a span known in advance (NaN: no point), then bucketed
     /// over the samples' own span like `All`.
     Dense { lo: i64, max: Vec<f64> },
-    /// Buckets fixed in advance over a span (wide streamed sweeps).
-    Grid(Vec<Bucket>),
+    /// Buckets fixed in advance over the ordinals `lo..=hi` (wide streamed sweeps); only the
+    /// touched ones are kept, as (bucket index, points, largest error), an index possibly
+    /// more than once.
+    Grid {
+        lo: i64,
+        hi: i64,
+        touched: Vec<(usize, u64, f64)>,
+    },
+}
+
+/// Consecutive points sharing the input's sign, binade (hence region) and plot bucket: their
+/// figures are gathered here and joined into the rows when the stretch ends, so that each
+/// point costs one exact-sum update instead of one per row.
+#[derive(Serialize, Deserialize)]
+struct Stretch {
+    /// Sign and exponent field of the inputs.
+    key: u32,
+    /// Grid bucket (index, first and last ordinal), on a grid.
+    bucket: Option<(usize, i64, i64)>,
+    acc: Acc,
+    /// Largest floored error (with --abs-floor).
+    floored: f64,
 }
 
 /// Accuracy figures accumulated point by point, in increasing input bit order, with memory
@@ -332,13 +370,31 @@ pub struct AccuracyAcc {
     histogram: Vec<u64>,
     binades: Vec<(BinadeKey, Acc)>,
     regions: Vec<(Acc, f64)>,
-    worst: Option<Worst>,
-    floor_max: (f64, Option<Worst>),
+    /// The points since the rows were last brought up to date.
+    stretch: Option<Stretch>,
+    worst: Option<RawWorst>,
+    floor_max: (f64, Option<RawWorst>),
     ftz: u64,
     excluded: u64,
     samples: Samples,
     over_limit: Vec<Worst>,
     last_input: Option<u32>,
+}
+
+/// Joins the entries of each touched bucket into one, in bucket order.
+fn compact(touched: &mut Vec<(usize, u64, f64)>) {
+    touched.sort_by_key(|t| t.0);
+    let mut joined: Vec<(usize, u64, f64)> = Vec::with_capacity(touched.len());
+    for &(index, points, max) in touched.iter() {
+        match joined.last_mut() {
+            Some(last) if last.0 == index => {
+                last.1 += points;
+                last.2 = last.2.max(max);
+            }
+            _ => joined.push((index, points, max)),
+        }
+    }
+    *touched = joined;
 }
 
 fn grid(lo: i64, hi: i64) -> Vec<Bucket> {
@@ -369,7 +425,11 @@ impl AccuracyAcc {
                 lo,
                 max: vec![f64::NAN; (hi - lo + 1).max(0) as usize],
             },
-            Some((lo, hi)) => Samples::Grid(grid(lo, hi)),
+            Some((lo, hi)) => Samples::Grid {
+                lo,
+                hi,
+                touched: Vec::new(),
+            },
         };
         AccuracyAcc {
             format,
@@ -380,6 +440,7 @@ impl AccuracyAcc {
             histogram: vec![0u64; BINS.len() + 1],
             binades: Vec::new(),
             regions: (0..REGIONS.len()).map(|_| (Acc::default(), 0.0)).collect(),
+            stretch: None,
             worst: None,
             floor_max: (0.0, None),
             ftz: 0,
@@ -399,24 +460,56 @@ impl AccuracyAcc {
     /// one (a dense plot span is not allocated again: its samples are kept as a list).
     pub fn fresh(&self) -> Self {
         let mut acc = AccuracyAcc::new(self.format, self.abs_floor, self.list_over, None);
-        if let Samples::Grid(buckets) = &self.samples {
-            acc.samples = Samples::Grid(
-                buckets
-                    .iter()
-                    .map(|b| Bucket {
-                        points: 0,
-                        max_ulp: 0.0,
-                        ..*b
-                    })
-                    .collect(),
-            );
+        if let Samples::Grid { lo, hi, .. } = self.samples {
+            acc.samples = Samples::Grid {
+                lo,
+                hi,
+                touched: Vec::new(),
+            };
         }
         acc
+    }
+
+    /// The grid bucket of an ordinal: index, first and last ordinal (`None` off a grid).
+    fn bucket_of(&self, ordinal: i64) -> Option<(usize, i64, i64)> {
+        let Samples::Grid { lo, hi, .. } = self.samples else {
+            return None;
+        };
+        let width = ((hi - lo + 1) + BUCKETS - 1) / BUCKETS;
+        let index = (ordinal - lo) / width;
+        let first = lo + index * width;
+        Some((index as usize, first, first + width - 1))
+    }
+
+    /// Joins the current stretch into the rows, the total and the plot grid.
+    fn settle(&mut self) {
+        let Some(stretch) = self.stretch.take() else {
+            return;
+        };
+        let l = self.format.layout();
+        let first = stretch.acc.first;
+        let region = region_of(l.to_f64(first));
+        debug_assert_eq!(region, region_of(l.to_f64(stretch.acc.last)));
+        if let (Samples::Grid { touched, .. }, Some((index, _, _))) =
+            (&mut self.samples, stretch.bucket)
+        {
+            touched.push((index, stretch.acc.points, stretch.acc.max));
+        }
+        let row = &mut self.regions[region];
+        row.0.merge(&stretch.acc);
+        row.1 = row.1.max(stretch.floored);
+        self.total.merge(&stretch.acc);
+        let key = binade_key(l, first);
+        match self.binades.last_mut() {
+            Some((k, acc)) if *k == key => acc.merge(&stretch.acc),
+            _ => self.binades.push((key, stretch.acc)),
+        }
     }
 
     /// Keeps a dense plot span as a list of its samples, so that the state holds no NaN
     /// (JSON has none); the figures do not change.
     pub fn make_portable(&mut self) {
+        self.settle();
         if let Samples::Dense { lo, max } = &self.samples {
             let list = max
                 .iter()
@@ -431,11 +524,12 @@ impl AccuracyAcc {
     /// Adds one point; points must come in strictly increasing input bit order.
     pub fn add(&mut self, p: &Point) {
         let format = self.format;
-        debug_assert!(self.last_input.map_or(true, |l| l < p.input));
+        let l = format.layout();
+        debug_assert!(self.last_input.map_or(true, |last| last < p.input));
         self.last_input = Some(p.input);
-        let input_finite = is_finite(format, p.input);
+        let input_finite = l.is_finite(p.input);
         let j = match p.output {
-            Some(out) if input_finite && is_finite(format, out) => judge_point(format, p, out),
+            Some(out) if input_finite && l.is_finite(out) => judge_point(l, p, out),
             _ => None,
         };
         let Some(j) = j else {
@@ -445,16 +539,28 @@ impl AccuracyAcc {
             return;
         };
         let out = p.output.expect("judged");
-        if format.classify(j.reference) == Class::Subnormal && format.classify(out) == Class::Zero {
+        if l.classify(j.reference) == Class::Subnormal && l.classify(out) == Class::Zero {
             self.ftz += 1;
             return;
         }
-        let new_worst = self.total.worst.is_none() || j.error > self.total.max;
-        self.total.add(p.input, j.error, j.correct);
-        if new_worst {
-            self.worst = Some(worst_of(format, p, &j, j.error));
+        // Strict comparison keeps the lowest input on ties: points arrive in bit order.
+        if self.worst.as_ref().map_or(true, |w| j.error > w.ulp) {
+            self.worst = Some(RawWorst::of(p, &j, j.error));
         }
-        let ordinal = format.ordinal(p.input);
+        let ordinal = l.ordinal(p.input);
+        let key = l.sign_and_exponent(p.input);
+        let continues = self.stretch.as_ref().is_some_and(|s| {
+            s.key == key && s.bucket.map_or(true, |(_, lo, hi)| lo <= ordinal && ordinal <= hi)
+        });
+        if !continues {
+            self.settle();
+            self.stretch = Some(Stretch {
+                key,
+                bucket: self.bucket_of(ordinal),
+                acc: Acc::default(),
+                floored: 0.0,
+            });
+        }
         match &mut self.samples {
             Samples::All(v) => v.push((ordinal, j.error)),
             Samples::Dense { lo, max } => {
@@ -462,15 +568,10 @@ impl AccuracyAcc {
                 // NaN marks an empty slot; f64::max ignores it.
                 *slot = slot.max(j.error);
             }
-            Samples::Grid(buckets) => {
-                let (lo, width) = (buckets[0].lo, buckets[0].hi - buckets[0].lo + 1);
-                let b = &mut buckets[((ordinal - lo) / width) as usize];
-                b.points += 1;
-                b.max_ulp = b.max_ulp.max(j.error);
-            }
+            Samples::Grid { .. } => {}
         }
         if self.list_over.is_some_and(|limit| j.error > limit) {
-            self.over_limit.push(worst_of(format, p, &j, j.error));
+            self.over_limit.push(RawWorst::of(p, &j, j.error).report(format));
         }
         self.faithful += j.faithful as u64;
         let bin = BINS
@@ -478,36 +579,32 @@ impl AccuracyAcc {
             .position(|&b| j.error <= b)
             .unwrap_or(BINS.len());
         self.histogram[bin] += 1;
-        let key = binade_key(format, p.input);
-        match self.binades.last_mut() {
-            Some((k, acc)) if *k == key => acc.add(p.input, j.error, j.correct),
-            _ => {
-                let mut acc = Acc::default();
-                acc.add(p.input, j.error, j.correct);
-                self.binades.push((key, acc));
-            }
-        }
-        let region = region_of(format.to_f64(p.input));
-        self.regions[region].0.add(p.input, j.error, j.correct);
+        let stretch = self.stretch.as_mut().expect("started above");
+        stretch.acc.add(p.input, j.error, j.correct);
         if let Some(a) = self.abs_floor {
             let ulp = j.exact.ulp(format);
             let floored = j.error * ulp / ulp.max(a);
-            self.regions[region].1 = self.regions[region].1.max(floored);
+            stretch.floored = stretch.floored.max(floored);
             if self.floor_max.1.is_none() || floored > self.floor_max.0 {
-                self.floor_max = (floored, Some(worst_of(format, p, &j, floored)));
+                self.floor_max = (floored, Some(RawWorst::of(p, &j, floored)));
             }
         }
     }
 
     /// Joins an accumulator of later inputs (every one above ours in bit order, same
     /// settings): the result is the accumulator of all the inputs fed one by one.
-    pub fn merge(&mut self, other: AccuracyAcc) {
-        let new_worst = other.total.worst.is_some()
-            && (self.total.worst.is_none() || other.total.max > self.total.max);
+    pub fn merge(&mut self, mut other: AccuracyAcc) {
+        self.settle();
+        other.settle();
+        let new_worst = match (&self.worst, &other.worst) {
+            (_, None) => false,
+            (None, Some(_)) => true,
+            (Some(mine), Some(theirs)) => theirs.ulp > mine.ulp,
+        };
         if new_worst {
             self.worst = other.worst;
         }
-        self.total.merge(other.total);
+        self.total.merge(&other.total);
         self.faithful += other.faithful;
         for (h, o) in self.histogram.iter_mut().zip(other.histogram) {
             *h += o;
@@ -516,13 +613,13 @@ impl AccuracyAcc {
         // Their first row continues our last when both are the same binade.
         if let Some((label, acc)) = rows.next() {
             match self.binades.last_mut() {
-                Some((l, mine)) if *l == label => mine.merge(acc),
+                Some((l, mine)) if *l == label => mine.merge(&acc),
                 _ => self.binades.push((label, acc)),
             }
         }
         self.binades.extend(rows);
         for (mine, (acc, floored)) in self.regions.iter_mut().zip(other.regions) {
-            mine.0.merge(acc);
+            mine.0.merge(&acc);
             mine.1 = mine.1.max(floored);
         }
         if other.floor_max.1.is_some()
@@ -545,10 +642,10 @@ impl AccuracyAcc {
                     *m = m.max(t);
                 }
             }
-            (Samples::Grid(mine), Samples::Grid(theirs)) => {
-                for (m, t) in mine.iter_mut().zip(theirs) {
-                    m.points += t.points;
-                    m.max_ulp = m.max_ulp.max(t.max_ulp);
+            (Samples::Grid { touched: mine, .. }, Samples::Grid { touched: theirs, .. }) => {
+                mine.extend(theirs);
+                if mine.len() > 4 * BUCKETS as usize {
+                    compact(mine);
                 }
             }
             _ => panic!("merging accumulators of different settings"),
@@ -558,7 +655,8 @@ impl AccuracyAcc {
     }
 
     /// The figures.
-    pub fn finish(self) -> Accuracy {
+    pub fn finish(mut self) -> Accuracy {
+        self.settle();
         let format = self.format;
         let total = self.total;
         let fraction = |n: u64| {
@@ -610,7 +708,7 @@ impl AccuracyAcc {
         let abs_floor = abs_floor.map(|a| FloorView {
             floor: a,
             max: floor_max.0,
-            worst: floor_max.1,
+            worst: floor_max.1.map(|w| w.report(format)),
         });
         let mut bounds: Vec<Option<f64>> = BINS.iter().map(|&b| Some(b)).collect();
         bounds.push(None);
@@ -625,12 +723,20 @@ impl AccuracyAcc {
                     .collect();
                 buckets(&v)
             }
-            Samples::Grid(b) => b,
+            Samples::Grid { lo, hi, touched } => {
+                let mut buckets = grid(lo, hi);
+                for (index, points, max) in touched {
+                    let b = &mut buckets[index];
+                    b.points += points;
+                    b.max_ulp = b.max_ulp.max(max);
+                }
+                buckets
+            }
         };
         Accuracy {
             points: total.points,
             max_ulp: total.max,
-            worst: self.worst,
+            worst: self.worst.map(|w| w.report(format)),
             mean_ulp: total.sum.mean(),
             rms_ulp: total.sum.rms(),
             correctly_rounded: fraction(total.correct),

@@ -38,6 +38,9 @@ mod as_text {
     }
 }
 
+/// Exponent fields a first value makes room for: 2^−40 to 2^30.
+const TYPICAL: (usize, usize) = (1023 - 40, 1023 + 30);
+
 /// Exact running sums Σv and Σv².
 #[derive(Clone, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct ExactSum {
@@ -79,7 +82,11 @@ impl Slot {
 impl ExactSum {
     fn slot(&mut self, field: usize) -> &mut Slot {
         if self.slots.is_empty() {
-            self.base = field;
+            // Room at once for the exponents ulp errors usually take (2^−40 to 2^30), so
+            // that a sum of typical errors never moves its slots.
+            let (lo, hi) = (field.min(TYPICAL.0), field.max(TYPICAL.1));
+            self.base = lo;
+            self.slots = vec![Slot::default(); hi - lo + 1];
         }
         if field < self.base {
             let grow = self.base - field;

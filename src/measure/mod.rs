@@ -59,7 +59,7 @@ pub fn value_class(format: &dyn Format, bits: u32) -> &'static str {
 
 /// Whether a pattern is a finite number.
 pub fn is_finite(format: &dyn Format, bits: u32) -> bool {
-    !matches!(format.classify(bits), Class::Nan | Class::Infinite)
+    format.layout().is_finite(bits)
 }
 
 #[cfg(test)]

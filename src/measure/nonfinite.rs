@@ -42,9 +42,13 @@ enum ValueClass {
 
 impl ValueClass {
     fn of(format: &dyn Format, bits: u32) -> ValueClass {
-        match format.classify(bits) {
+        let l = format.layout();
+        if l.is_finite(bits) {
+            return ValueClass::Finite;
+        }
+        match l.classify(bits) {
             Class::Nan => ValueClass::Nan,
-            Class::Infinite if format.is_sign_negative(bits) => ValueClass::MinusInf,
+            Class::Infinite if l.is_sign_negative(bits) => ValueClass::MinusInf,
             Class::Infinite => ValueClass::PlusInf,
             _ => ValueClass::Finite,
         }

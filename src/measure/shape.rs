@@ -1,7 +1,7 @@
 //! The shape of a forward kernel: steps back where the function is monotone, and jumps between
 //! neighbouring inputs far larger than the true change.
 
-use super::{is_finite, Point};
+use super::Point;
 use crate::format::Format;
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
@@ -109,13 +109,12 @@ impl ShapeAcc {
     /// The pair a < b (in x) of neighbouring evaluated inputs.
     fn pair(&mut self, a: Seen, b: Seen) -> Option<Violation> {
         let format = self.format;
-        let (ka, kb) = (format.ordinal(a.output), format.ordinal(b.output));
-        let adjacent = format.ordinal(b.input) - format.ordinal(a.input) <= 1;
-        if adjacent && is_finite(format, a.reference) && is_finite(format, b.reference) {
+        let l = format.layout();
+        let (ka, kb) = (l.ordinal(a.output), l.ordinal(b.output));
+        let adjacent = l.ordinal(b.input) - l.ordinal(a.input) <= 1;
+        if adjacent && l.is_finite(a.reference) && l.is_finite(b.reference) {
             let kernel_steps = ka.abs_diff(kb);
-            let reference_steps = format
-                .ordinal(a.reference)
-                .abs_diff(format.ordinal(b.reference));
+            let reference_steps = l.ordinal(a.reference).abs_diff(l.ordinal(b.reference));
             if kernel_steps > 2 * reference_steps + 16 {
                 self.jump_count += 1;
                 self.jumps
@@ -136,11 +135,11 @@ impl ShapeAcc {
 
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        let format = self.format;
-        let Some(output) = p.output.filter(|&o| is_finite(format, o)) else {
+        let l = self.format.layout();
+        let Some(output) = p.output.filter(|&o| l.is_finite(o)) else {
             return;
         };
-        if !is_finite(format, p.input) {
+        if !l.is_finite(p.input) {
             return;
         }
         let seen = Seen {
@@ -148,7 +147,7 @@ impl ShapeAcc {
             output,
             reference: p.reference.bits,
         };
-        let negative = format.is_sign_negative(p.input);
+        let negative = l.is_sign_negative(p.input);
         let last = if negative {
             self.negative.last
         } else {
