@@ -353,19 +353,14 @@ impl Prober<'_> {
                     });
                     (len, handle)
                 });
-                let t0 = std::time::Instant::now();
                 if let Some(called) = pending.take() {
                     if let Some((folded, failed)) = refs.fold_batch(&called, folding) {
                         sink(folded);
                         failures.extend(failed);
                     }
                 }
-                let t1 = std::time::Instant::now();
                 let Some((len, handle)) = call else { break };
                 let (k, kept, seconds, out) = handle.join().expect("kernel thread");
-                if std::env::var_os("ULPGAUGE_TRACE").is_some() {
-                    eprintln!("fold {:?} wait {:?}", t1 - t0, t1.elapsed());
-                }
                 kernel = k;
                 crashes.extend(out.crashes.into_iter().map(|crash| KernelCrash {
                     input: kept[crash.index],

@@ -1,7 +1,7 @@
 //! The accumulators a streamed sweep feeds, bundled so that parts of the sweep folded in
 //! parallel (or on different machines) merge into the figures of one pass in bit order.
 
-use crate::format::{Class, Format};
+use crate::format::{Class, Format, Layout};
 use crate::measure::{
     Accuracy, AccuracyAcc, NonFiniteRun, NonFiniteStream, Point, Shape, ShapeAcc,
 };
@@ -21,29 +21,23 @@ pub struct Kept {
 
 impl Kept {
     /// Whether a point is kept whatever its reference: a zero or a kink.
-    fn always(format: &dyn Format, p: &Point) -> bool {
-        let l = format.layout();
+    fn always(l: Layout, p: &Point) -> bool {
         let sign = l.infinity(true) & !l.infinity(false);
         p.input & !sign == 0 || p.left.is_some()
     }
 
     /// Drops a former subnormal end unless it is kept for another reason.
-    fn release(&mut self, format: &dyn Format, input: u32) {
-        if self
-            .points
-            .get(&input)
-            .is_some_and(|q| !Self::always(format, q))
-        {
+    fn release(&mut self, l: Layout, input: u32) {
+        if self.points.get(&input).is_some_and(|q| !Self::always(l, q)) {
             self.points.remove(&input);
         }
     }
 
     /// Adds the next point in bit order.
-    pub fn add(&mut self, format: &dyn Format, p: &Point) {
-        if Self::always(format, p) {
+    pub fn add(&mut self, l: Layout, p: &Point) {
+        if Self::always(l, p) {
             self.points.insert(p.input, p.clone());
         }
-        let l = format.layout();
         if l.is_finite(p.input) && l.classify(p.reference.bits) == Class::Subnormal {
             let side = l.is_sign_negative(p.input) as usize;
             match self.subnormal_ends[side] {
@@ -51,7 +45,7 @@ impl Kept {
                 Some((first, last)) => {
                     self.subnormal_ends[side] = Some((first, p.input));
                     if last != first {
-                        self.release(format, last);
+                        self.release(l, last);
                     }
                 }
             }
@@ -60,7 +54,7 @@ impl Kept {
     }
 
     /// Joins the kept points of later inputs (all above ours in bit order).
-    pub fn merge(&mut self, format: &dyn Format, other: Kept) {
+    pub fn merge(&mut self, l: Layout, other: Kept) {
         // Ends that are ends no longer: our last and their first, when each is not also
         // the other end of its own side.
         let mut former = Vec::new();
@@ -81,7 +75,7 @@ impl Kept {
         }
         self.points.extend(other.points);
         for input in former {
-            self.release(format, input);
+            self.release(l, input);
         }
     }
 
@@ -139,7 +133,7 @@ impl Stream {
         if let Some(r) = &mut self.runs {
             r.add(p);
         }
-        self.kept.add(self.format, p);
+        self.kept.add(self.format.layout(), p);
     }
 
     /// Makes the state writable as JSON (see [`AccuracyAcc::make_portable`]).
@@ -156,7 +150,7 @@ impl Stream {
         if let (Some(mine), Some(theirs)) = (&mut self.runs, other.runs) {
             mine.merge(theirs);
         }
-        self.kept.merge(self.format, other.kept);
+        self.kept.merge(self.format.layout(), other.kept);
     }
 
     /// The figures: accuracy, shape, the streamed non-finite runs (exhaustive sweeps) and the

@@ -5,7 +5,7 @@ use super::Class;
 /// Field widths of an IEEE 754-style binary format: one sign bit, `exp_bits` biased exponent
 /// bits and `mant_bits` trailing significand bits, with subnormals, infinities and NaNs encoded
 /// as in IEEE 754-2019 §3.4.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct Layout {
     exp_bits: u32,
     mant_bits: u32,
@@ -113,10 +113,12 @@ impl Layout {
     pub fn is_finite(self, bits: u32) -> bool {
         bits & self.exp_mask() != self.exp_mask()
     }
-    /// ulp of the binade `binade` (already clamped to emin): 2^(binade − p + 1).
+    /// 1/ulp of the binade `binade`: 2^(p − 1 − binade). Multiplying by it gives the same
+    /// binary64 result as dividing by the ulp (a power of two whose reciprocal is exact),
+    /// without a division's latency.
     #[inline]
-    pub fn ulp_of_binade(self, binade: i32) -> f64 {
-        pow2(binade - self.precision() as i32 + 1)
+    pub fn inverse_ulp_of_binade(self, binade: i32) -> f64 {
+        pow2(self.precision() as i32 - 1 - binade)
     }
     /// Pattern of an exactly representable binary64 value.
     #[inline]

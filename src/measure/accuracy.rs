@@ -185,7 +185,7 @@ fn judge(l: Layout, output: u32, r: &Reference) -> Option<Judged> {
     }
     // ŷ and y are both far inside binary64's range, so the difference loses at most 2^−53
     // relative, i.e. well under 2^−28 ulp of the target format (as in `format::ulp_error`).
-    let error = (l.to_f64(output) - exact.approx).abs() / l.ulp_of_binade(exact.binade);
+    let error = (l.to_f64(output) - exact.approx).abs() * l.inverse_ulp_of_binade(exact.binade);
     let (out, rn) = (l.ordinal(output), l.ordinal(r.bits));
     let correct = out == rn;
     // y lies between RN(y) and the neighbour on its side; that neighbour is also faithful.
@@ -363,6 +363,8 @@ struct Stretch {
 pub struct AccuracyAcc {
     #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
+    /// The format's bit arithmetic, inlined in the per-point work.
+    layout: Layout,
     abs_floor: Option<f64>,
     list_over: Option<f64>,
     total: Acc,
@@ -433,6 +435,7 @@ impl AccuracyAcc {
         };
         AccuracyAcc {
             format,
+            layout: format.layout(),
             abs_floor,
             list_over,
             total: Acc::default(),
@@ -486,7 +489,7 @@ impl AccuracyAcc {
         let Some(stretch) = self.stretch.take() else {
             return;
         };
-        let l = self.format.layout();
+        let l = self.layout;
         let first = stretch.acc.first;
         let region = region_of(l.to_f64(first));
         debug_assert_eq!(region, region_of(l.to_f64(stretch.acc.last)));
@@ -524,7 +527,7 @@ impl AccuracyAcc {
     /// Adds one point; points must come in strictly increasing input bit order.
     pub fn add(&mut self, p: &Point) {
         let format = self.format;
-        let l = format.layout();
+        let l = self.layout;
         debug_assert!(self.last_input.map_or(true, |last| last < p.input));
         self.last_input = Some(p.input);
         let input_finite = l.is_finite(p.input);
@@ -550,7 +553,9 @@ impl AccuracyAcc {
         let ordinal = l.ordinal(p.input);
         let key = l.sign_and_exponent(p.input);
         let continues = self.stretch.as_ref().is_some_and(|s| {
-            s.key == key && s.bucket.map_or(true, |(_, lo, hi)| lo <= ordinal && ordinal <= hi)
+            s.key == key
+                && s.bucket
+                    .map_or(true, |(_, lo, hi)| lo <= ordinal && ordinal <= hi)
         });
         if !continues {
             self.settle();
@@ -571,7 +576,8 @@ impl AccuracyAcc {
             Samples::Grid { .. } => {}
         }
         if self.list_over.is_some_and(|limit| j.error > limit) {
-            self.over_limit.push(RawWorst::of(p, &j, j.error).report(format));
+            self.over_limit
+                .push(RawWorst::of(p, &j, j.error).report(format));
         }
         self.faithful += j.faithful as u64;
         let bin = BINS
@@ -642,7 +648,12 @@ impl AccuracyAcc {
                     *m = m.max(t);
                 }
             }
-            (Samples::Grid { touched: mine, .. }, Samples::Grid { touched: theirs, .. }) => {
+            (
+                Samples::Grid { touched: mine, .. },
+                Samples::Grid {
+                    touched: theirs, ..
+                },
+            ) => {
                 mine.extend(theirs);
                 if mine.len() > 4 * BUCKETS as usize {
                     compact(mine);

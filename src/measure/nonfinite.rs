@@ -2,7 +2,7 @@
 //! reference fall in different classes among "nan", "+inf", "-inf", "finite".
 
 use super::{Point, Probe};
-use crate::format::{Class, Format};
+use crate::format::{Class, Format, Layout};
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -41,8 +41,7 @@ enum ValueClass {
 }
 
 impl ValueClass {
-    fn of(format: &dyn Format, bits: u32) -> ValueClass {
-        let l = format.layout();
+    fn of(l: Layout, bits: u32) -> ValueClass {
         if l.is_finite(bits) {
             return ValueClass::Finite;
         }
@@ -67,13 +66,9 @@ impl ValueClass {
 /// The kernel's and the reference's class at a point.
 type Classes = (ValueClass, ValueClass);
 
-fn classes(format: &dyn Format, p: &Point) -> Option<Classes> {
-    p.output.map(|o| {
-        (
-            ValueClass::of(format, o),
-            ValueClass::of(format, p.reference.bits),
-        )
-    })
+fn classes(l: Layout, p: &Point) -> Option<Classes> {
+    p.output
+        .map(|o| (ValueClass::of(l, o), ValueClass::of(l, p.reference.bits)))
 }
 
 #[derive(Serialize, Deserialize)]
@@ -193,6 +188,8 @@ fn report(
 pub struct NonFiniteStream {
     #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
+    /// The format's bit arithmetic, inlined in the per-point work.
+    layout: Layout,
     builder: RunBuilder,
 }
 
@@ -201,12 +198,13 @@ impl NonFiniteStream {
     pub fn new(format: &'static dyn Format) -> Self {
         NonFiniteStream {
             format,
+            layout: format.layout(),
             builder: RunBuilder::new(format),
         }
     }
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        self.builder.push(p.input, classes(self.format, p));
+        self.builder.push(p.input, classes(self.layout, p));
     }
     /// Joins a stream of later points (all above ours in bit order).
     pub fn merge(&mut self, other: NonFiniteStream) {
@@ -270,7 +268,7 @@ pub fn non_finite_part(
 ) -> RunsPart {
     let mut known: BTreeMap<u32, Option<Classes>> = points
         .iter()
-        .map(|p| (p.input, classes(format, p)))
+        .map(|p| (p.input, classes(format.layout(), p)))
         .collect();
     let sign = format.infinity(true) & !format.infinity(false);
     let mut inexact: Vec<u32> = Vec::new();
@@ -317,7 +315,7 @@ pub fn non_finite_part(
     wanted.retain(|b| !known.contains_key(b));
     let scanned = wanted.len() as u64;
     for p in probe.probe(&wanted) {
-        known.insert(p.input, classes(format, &p));
+        known.insert(p.input, classes(format.layout(), &p));
     }
     let mut builder = RunBuilder::new(format);
     for (&bits, &c) in known.range(territory) {

@@ -2,7 +2,7 @@
 //! neighbouring inputs far larger than the true change.
 
 use super::Point;
-use crate::format::Format;
+use crate::format::{Format, Layout};
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
 
@@ -75,6 +75,8 @@ struct Side {
 pub struct ShapeAcc {
     #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
+    /// The format's bit arithmetic, inlined in the per-point work.
+    layout: Layout,
     monotone_function: bool,
     positive: Side,
     negative: Side,
@@ -93,6 +95,7 @@ impl ShapeAcc {
     pub fn new(format: &'static dyn Format, monotone_function: bool) -> Self {
         ShapeAcc {
             format,
+            layout: format.layout(),
             monotone_function,
             positive: Side::default(),
             negative: Side::default(),
@@ -109,7 +112,7 @@ impl ShapeAcc {
     /// The pair a < b (in x) of neighbouring evaluated inputs.
     fn pair(&mut self, a: Seen, b: Seen) -> Option<Violation> {
         let format = self.format;
-        let l = format.layout();
+        let l = self.layout;
         let (ka, kb) = (l.ordinal(a.output), l.ordinal(b.output));
         let adjacent = l.ordinal(b.input) - l.ordinal(a.input) <= 1;
         if adjacent && l.is_finite(a.reference) && l.is_finite(b.reference) {
@@ -135,7 +138,7 @@ impl ShapeAcc {
 
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        let l = self.format.layout();
+        let l = self.layout;
         let Some(output) = p.output.filter(|&o| l.is_finite(o)) else {
             return;
         };

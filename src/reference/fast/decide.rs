@@ -6,7 +6,7 @@
 //! its two ends suffices.
 
 use super::dd::{ilogb, is_pow2, next_down, next_up, pow2, two_sum, Dd, Ev, SLACK};
-use crate::format::{Class, ExactValue, Format};
+use crate::format::{Class, ExactValue, Layout};
 use crate::reference::Reference;
 
 /// Precision recorded for references decided by the fast path (double-word significands).
@@ -43,7 +43,7 @@ pub enum Outcome {
 /// g = frac(s_h) − 1/2 is a multiple of ulp(s_h); the scaled l has magnitude ≤ ulp(s_h)/2, so it
 /// decides only when g = 0 (a tie of h alone), and then by its sign alone.
 #[inline(always)]
-pub fn round_dd(format: &dyn Format, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
+pub fn round_dd(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
     let negative = h < 0.0;
     let (h, l) = if negative { (-h, -l) } else { (h, l) };
     let emin = format.emin();
@@ -90,7 +90,7 @@ pub fn round_dd(format: &dyn Format, h: f64, l: f64, k: i32) -> Option<(u32, i32
 /// Decides 2^k·v with absolute error bound e (in the unscaled units of v): both ends of
 /// [v − e, v + e] must round alike and share the clamped binade.
 #[inline(always)]
-fn decide_interval(format: &dyn Format, v: Dd, e: f64, k: i32) -> Option<(u32, i32)> {
+fn decide_interval(format: Layout, v: Dd, e: f64, k: i32) -> Option<(u32, i32)> {
     if v.hi == 0.0 || !v.hi.is_finite() || !less(e, v.hi.abs() * MAX_REL) {
         // e must be ≤ 2^−40·|v|: the ends keep v's sign and stay normal.
         return None;
@@ -175,7 +175,7 @@ fn absolute(v: &Ev) -> f64 {
 
 /// Applies the decision rule to an outcome.
 #[inline(always)]
-pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
+pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
     let reference = |bits: u32, binade: i32, approx: f64, precision: u32| Reference {
         bits,
         exact: Some(ExactValue { approx, binade }),
@@ -232,7 +232,7 @@ pub fn finish(format: &dyn Format, outcome: Outcome) -> Option<Reference> {
 /// The engine's reference for its `tiny(negative)` tail: a signed zero, binade emin, and the
 /// approximation RN_binary64 of its enclosure [2^−1100, 2^−1080], a signed zero.
 #[inline(always)]
-pub fn engine_tiny(format: &dyn Format, negative: bool) -> Reference {
+pub fn engine_tiny(format: Layout, negative: bool) -> Reference {
     let approx = 0.0;
     Reference {
         bits: format.encode(negative, 0, 0),
@@ -247,7 +247,7 @@ pub fn engine_tiny(format: &dyn Format, negative: bool) -> Reference {
 /// The engine's reference for `above(a)` / `below(a)` with an f64 a: rounded and binned like a
 /// point just beside a, approximated by a itself.
 #[inline(always)]
-pub fn engine_beside(format: &dyn Format, a: f64, above: bool) -> Option<Reference> {
+pub fn engine_beside(format: Layout, a: f64, above: bool) -> Option<Reference> {
     let eb = ilogb(a);
     let side = if above { 1.0 } else { -1.0 };
     let (ph, pl) = two_sum(a, side * pow2(eb - 60));

@@ -10,7 +10,7 @@ use super::dd::{ilogb, Dd};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::expm1;
 use crate::activation::Role;
-use crate::format::Format;
+use crate::format::Layout;
 
 /// ELU or ELU′ where a closed form decides it (x < 0 finite, x > −TAIL); e = ilogb(α), so
 /// α < 2^(e+1).  Logarithms computed with mpmath (50 digits).
@@ -23,7 +23,7 @@ use crate::format::Format;
 /// 5·10^−5, far above the 2^−52 of the two roundings, so x < −(1076 + e)·ln 2): 0 < y = αe^x <
 /// 2^(e+1)·2^(−1076−e) = 2^−1075: the engine's +0.
 #[inline(always)]
-fn elu_closed(format: &dyn Format, x: f64, alpha: f64, role: Role) -> Option<Outcome> {
+fn elu_closed(format: Layout, x: f64, alpha: f64, role: Role) -> Option<Outcome> {
     match role {
         Role::Forward if x < -38.2 => Some(near_side(-alpha, true)),
         Role::Derivative if x > -TWO_M55 => Some(near_side(alpha, false)),
@@ -36,7 +36,7 @@ fn elu_closed(format: &dyn Format, x: f64, alpha: f64, role: Role) -> Option<Out
 
 /// ELU or its derivative at x.
 #[inline(always)]
-pub fn elu(format: &dyn Format, x: f64, alpha: f64, role: Role) -> Outcome {
+pub fn elu(format: Layout, x: f64, alpha: f64, role: Role) -> Outcome {
     match role {
         Role::Forward if x > 0.0 => return Outcome::Exact(x),
         Role::Forward if x == 0.0 => return Outcome::Decline,

@@ -24,7 +24,7 @@ use super::dd::{Dd, Ev, OP, SLACK};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::{expm1, tables};
 use crate::activation::Role;
-use crate::format::Format;
+use crate::format::Layout;
 
 /// Threshold between the series and the continued fraction.
 const SERIES_MAX: f64 = 4.0;
@@ -95,7 +95,7 @@ fn mills(a: f64) -> Option<Ev> {
 /// x < −38.8, a = −x: forward y = −aQ(a) ∈ (−φ(a), 0), derivative y = Q(a) − aφ(a) ∈
 /// (−aφ(a), 0); aφ(a) ≤ 38.8·φ(38.8) = 2^(−1081.99) < 2^−1075: the engine's −0 for both.
 #[inline(always)]
-fn gelu_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
+fn gelu_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     if x.abs() < TWO_M55 {
         return Some(match role {
             Role::Forward => near_side(x * 0.5, true),
@@ -113,7 +113,7 @@ fn gelu_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
 
 /// GELU or its derivative at x.
 #[inline(always)]
-pub fn gelu(format: &dyn Format, x: f64, role: Role) -> Outcome {
+pub fn gelu(format: Layout, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
         return match (role, x > 0.0) {

@@ -32,7 +32,7 @@ use super::dd::{Dd, Ev};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::expm1;
 use crate::activation::Role;
-use crate::format::Format;
+use crate::format::Layout;
 
 #[inline(always)]
 fn one_plus(t: &Decay) -> Ev {
@@ -54,7 +54,7 @@ fn one_plus(t: &Decay) -> Ev {
 /// Derivative, |x| < 2^−26: 1/4 − y = tanh²(x/2)/4 ∈ (0, x²/16), x²/16 < 2^−56 =
 /// 2^(ilogb(1/4) − 54): just below 1/4.
 #[inline(always)]
-fn sigmoid_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
+fn sigmoid_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     let a = x.abs();
     match role {
         Role::Forward if x > 38.0 => Some(near_side(1.0, false)),
@@ -68,7 +68,7 @@ fn sigmoid_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
 
 /// σ(x) or σ′(x).
 #[inline(always)]
-pub fn sigmoid(format: &dyn Format, x: f64, role: Role) -> Outcome {
+pub fn sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
         return match role {
@@ -121,7 +121,7 @@ pub fn sigmoid(format: &dyn Format, x: f64, role: Role) -> Outcome {
 /// Derivative, |x| > 373.5: 0 < y = 4t/(1 + t)² < 4t ≤ 4e^(−747) = 2^(−1075.69) < 2^−1075: +0.
 /// Derivative, |x| < 2^−27: 1 − y = tanh²x ∈ (0, x²), x² < 2^−54: just below 1.
 #[inline(always)]
-fn tanh_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
+fn tanh_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     let a = x.abs();
     match role {
         Role::Forward if a > 19.5 => Some(near_side(x.signum(), x < 0.0)),
@@ -134,7 +134,7 @@ fn tanh_closed(format: &dyn Format, x: f64, role: Role) -> Option<Outcome> {
 
 /// tanh(x) or tanh′(x).
 #[inline(always)]
-pub fn tanh(format: &dyn Format, x: f64, role: Role) -> Outcome {
+pub fn tanh(format: Layout, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
         return match role {
@@ -205,7 +205,7 @@ fn dd_in_tail(z: Dd) -> bool {
 /// Derivative, z < −753: y = t(1 + t − |z|)/(1 + t)² < 0, t = e^(−|z|), |y| < |z|·e^(−|z|) ≤
 /// 753e^(−753) = 2^(−1076.79) < 2^−1075: −0.
 #[inline(always)]
-fn swish_closed(format: &dyn Format, x: f64, z: f64, role: Role) -> Option<Outcome> {
+fn swish_closed(format: Layout, x: f64, z: f64, role: Role) -> Option<Outcome> {
     if z.abs() < TWO_M54 {
         return Some(match role {
             Role::Forward => near_side(x * 0.5, true),
@@ -223,7 +223,7 @@ fn swish_closed(format: &dyn Format, x: f64, z: f64, role: Role) -> Option<Outco
 
 /// swish(x) = x·σ(βx) or its derivative; β > 0 an f64.
 #[inline(always)]
-pub fn swish(format: &dyn Format, x: f64, beta: f64, role: Role) -> Outcome {
+pub fn swish(format: Layout, x: f64, beta: f64, role: Role) -> Outcome {
     let z = Dd::prod(beta, x);
     if dd_in_tail(z) {
         let positive = z.hi > 0.0;

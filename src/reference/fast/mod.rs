@@ -24,7 +24,7 @@ pub use decide::FAST_PRECISION;
 
 use super::{Evaluator, Reference};
 use crate::activation::Role;
-use crate::format::{Class, Format};
+use crate::format::{Class, Layout};
 use decide::finish;
 use rug::Rational;
 
@@ -42,7 +42,8 @@ enum Kind {
 pub struct FastEvaluator {
     kind: Kind,
     role: Role,
-    format: &'static dyn Format,
+    /// The format's bit arithmetic, inlined into the evaluation.
+    layout: Layout,
     /// The CPU has FMA: use [`arch::reference_fma`].
     #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
     fma: bool,
@@ -79,7 +80,7 @@ impl FastEvaluator {
         let fast = FastEvaluator {
             kind,
             role: evaluator.role(),
-            format,
+            layout: format.layout(),
             fma: arch::has_fma(),
         };
         for x in [1.0, -1.0, 0.5, -3.0, 5.0] {
@@ -110,7 +111,7 @@ impl FastEvaluator {
     /// The evaluation itself, inlined into each build (portable and [`arch`]).
     #[inline(always)]
     fn evaluate(&self, x_bits: u32) -> Option<Reference> {
-        let format = self.format;
+        let format = self.layout;
         match format.classify(x_bits) {
             Class::Normal | Class::Subnormal => {}
             _ => return None,
