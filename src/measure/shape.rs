@@ -276,6 +276,7 @@ pub fn shape(format: &'static dyn Format, points: &[Point], monotone_function: b
 mod tests {
     use super::*;
     use crate::format::Binary16;
+    use crate::measure::is_finite;
     use crate::reference::Reference;
 
     /// The findings as first written: every point held, sorted by x, windows of two.
