@@ -92,11 +92,10 @@ impl Layout {
             return f64::from_bits(magnitude.to_bits() | sign);
         }
         if field == self.exp_mask() >> self.mant_bits {
-            return if mant == 0 {
-                f64::from_bits(f64::INFINITY.to_bits() | sign)
-            } else {
-                f64::NAN
-            };
+            // Infinity, or a NaN keeping its sign and payload and made quiet, as hardware
+            // widening does.
+            let quiet = if mant == 0 { 0 } else { 1 << 51 };
+            return f64::from_bits(sign | 0x7ff << 52 | quiet | mant << (52 - self.mant_bits));
         }
         // A normal number keeps its significand bits and moves its exponent to binary64's bias.
         let exponent = (field as i64 - self.bias() as i64 + 1023) as u64;
