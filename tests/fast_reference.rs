@@ -554,3 +554,64 @@ fn closed_regions_gelu_elu() {
     closed_regions("elu", &["alpha=0.25"]);
     closed_regions("elu", &["alpha=1.75"]);
 }
+
+/// `binade_count` binades of each sign from 2^`lowest`: `per` random binary32 patterns each.
+fn per_binade(g: &mut Mix, lowest: i32, binade_count: i32, per: usize) -> Vec<u32> {
+    let mut v = Vec::new();
+    for e in lowest..lowest + binade_count {
+        for sign in [1.0f32, -1.0] {
+            let lo = sign * 2f32.powi(e);
+            let hi = f32::from_bits((2.0 * lo).to_bits() - 1);
+            v.extend((0..per).map(|_| g.between(lo, hi)));
+        }
+    }
+    v
+}
+
+/// The Taylor-series bands of sigmoid (2^−53 ≤ |x| < 2^−12) and tanh (2^−27 ≤ |x| < 2^−12),
+/// forward: every binade, both signs, each edge ±300 patterns in every format. Nearly all are
+/// decided: sigmoid declines where 1/2 + x/4 is a binary64 midpoint and the x³ term (below the
+/// double-word sum's own error bound) would break the tie; MPFR decides those.
+#[test]
+fn series_bands_sigmoid_tanh() {
+    let mut g = Mix(77);
+    for (name, lowest) in [("sigmoid", -53), ("tanh", -27)] {
+        let inside = per_binade(&mut g, lowest, -12 - lowest, 300);
+        let (d, t) = compare(name, Role::Forward, &Binary32, &[], &inside);
+        eprintln!("{name} series band: decided {d}/{t}");
+        assert!(d as f64 >= 0.995 * t as f64, "{name}: {d}/{t} decided");
+        for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
+            let mut edges = Vec::new();
+            for e in [2f64.powi(lowest), 2f64.powi(-12)] {
+                edges.extend(neighbours(format, e, 300));
+                edges.extend(neighbours(format, -e, 300));
+            }
+            let (d, t) = compare(name, Role::Forward, format, &[], &edges);
+            eprintln!("{name} {}: edges decided {d}/{t}", format.name());
+        }
+    }
+}
+
+/// e^a − 1 for |a| < 1/16 sums its high-order terms in f64: every binade of 2^−40 ≤ |x| < 1
+/// of the functions built on it, both roles, against the engine.
+#[test]
+fn short_expm1_series_bands() {
+    let mut g = Mix(78);
+    let inputs = per_binade(&mut g, -40, 40, 200);
+    for (name, params) in [
+        ("sigmoid", &[][..]),
+        ("tanh", &[]),
+        ("silu", &[]),
+        ("swish", &["beta=1.5"][..]),
+        ("elu", &["alpha=0.5"][..]),
+    ] {
+        for role in [Role::Forward, Role::Derivative] {
+            let (d, t) = compare(name, role, &Binary32, params, &inputs);
+            eprintln!("{name} {role:?} short expm1 bands: decided {d}/{t}");
+            assert!(
+                d as f64 >= 0.995 * t as f64,
+                "{name} {role:?}: {d}/{t} decided"
+            );
+        }
+    }
+}

@@ -122,6 +122,12 @@ fn ldexp(x: f64, k: i32) -> f64 {
 /// paths report identical figures.
 #[inline(always)]
 fn nearest_f64(v: Dd, e: f64, k: i32) -> Option<f64> {
+    // Common case first: unscaled, normal, and the whole interval within a quarter ulp of
+    // v.hi, hence strictly inside v.hi's rounding interval (whose half-widths are ulp(v.hi)/2
+    // above and at least ulp(v.hi)/4 below): RN_binary64 is v.hi.
+    if k == 0 && v.hi.is_normal() && v.lo.abs() + e < pow2(ilogb(v.hi) - 54) * 0.9 {
+        return Some(v.hi);
+    }
     // Widen e so that rounding lo ∓ e cannot move an end inwards (each rounding moves it by at
     // most 2^−53 of |lo| + e).
     let e = e * (1.0 + pow2(-40)) + v.lo.abs() * pow2(-50);

@@ -162,10 +162,14 @@ fn exp_small(r: Dd) -> Dd {
 
 /// e^a − 1 for a double-word a with −600 ≤ a.hi ≤ 600.
 ///
-/// |a| < 1/16: Σ_{n≥1} a^n/n! = a·Σ_{n≥0} a^n/(n+1)!, double-word Horner over the first N
-/// terms, N the least with |a|^N/(N+1)! ≤ 2^−110; the remainder is ≤ 2·|a|^N/(N+1)! (ratio of
-/// successive terms ≤ 1/32).  Horner damps inner errors by |a|·c_(n+1)/c_n ≤ 1/32, so the
-/// relative error is ≤ (32/31)·(2·OP + 2^−104) + 2^−109 + OP (final product) < 2^−97.
+/// |a| < 1/16: Σ_{n≥1} a^n/n! = a·Σ_{n≥0} a^n/(n+1)!, Horner over the first N terms, N the
+/// least with |a|^N/(N+1)! ≤ 2^−110; the remainder is ≤ 2·|a|^N/(N+1)! (ratio of successive
+/// terms ≤ 1/32).  The terms from the M-th on, M the least with |a|^M/(M+1)! ≤ 2^−52, are
+/// summed in f64 (Horner with |a|·c_(n+1)/c_n ≤ 1/32, coefficients and a.hi each within 2^−53:
+/// relative error < 2^−48) and enter with weight ≤ 2^−52·(32/31)/(1 − 1/32) relative to the
+/// sum, i.e. ≤ 2^−99.8; the first M run in double-word Horner, which damps inner errors by
+/// |a|·c_(n+1)/c_n ≤ 1/32.  So the relative error is ≤ (32/31)·(2·OP + 2^−104) + 2^−109 + OP
+/// (final product) + 2^−99.8 < 2^−97.
 /// |a| ≥ 1/16: e^a − 1 from [`exp`], a sum tracked by [`Ev::add_f`] (e^a/|e^a − 1| ≤ 17).
 #[inline(always)]
 pub fn expm1(a: Dd) -> Ev {
@@ -182,8 +186,24 @@ pub fn expm1(a: Dd) -> Ev {
         n += 1;
         term *= m / (n as f64 + 1.0);
     }
-    let mut h = t.fact_inv[n];
-    for i in (1..n).rev() {
+    // Σ_{i≥1} a^(i−1)/i!: the terms from i = split on in f64, the first ones in double-word.
+    let mut split = 1usize;
+    let mut weight = 1.0;
+    while weight > 2.220446049250313e-16 && split < n {
+        split += 1;
+        weight *= m / split as f64;
+    }
+    let mut h = if weight <= 2.220446049250313e-16 {
+        let mut q = t.fact_inv[n].hi;
+        for i in (split..n).rev() {
+            q = q.mul_add(a.hi, t.fact_inv[i].hi);
+        }
+        Dd::new(q)
+    } else {
+        // Only for N = 1 (|a| ≤ 2^−109): the single term stays double-word.
+        t.fact_inv[n]
+    };
+    for i in (1..split).rev() {
         h = h.mul(a).add(t.fact_inv[i]);
     }
     Ev {

@@ -30,7 +30,7 @@ use super::common::{
 };
 use super::dd::{Dd, Ev};
 use super::decide::{engine_beside, engine_tiny, Outcome};
-use super::exp::expm1;
+use super::exp::{expm1, tables};
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -66,6 +66,36 @@ fn sigmoid_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     }
 }
 
+/// Inputs below this magnitude (and above the closed form's 2^−53) take [`sigmoid_series`].
+const SERIES_LIMIT: f64 = 2.44140625e-4; // 2^-12
+
+/// σ(x) − 1/2 for 0 < |x| < 2^−12, from its Taylor series, without any exp.
+///
+/// σ(x) − 1/2 = tanh(u)/2, u = x/2, and tanh u = u − u³/3 + 2u⁵/15 − 17u⁷/315 + …: the
+/// coefficients alternate in sign (they carry the Bernoulli numbers B_2n) and the ratio of
+/// successive ones is below 0.41 in magnitude (0.333, 0.4, 0.4048, 0.4052, … towards 4/π²,
+/// checked with mpmath), so with u² < 2^−26 the terms decrease and the remainder after the u⁵
+/// term is at most the u⁷ term. Hence σ(x) − 1/2 = (x/4)·(1 − x²/12 +
+/// x⁴/120) + ρ with |ρ| ≤ 17|x|⁷/80640, a relative |ρ|/|x/4 · (1 − x²/12)| ≤ x⁶/1185 < 2^−82.
+/// x² is exact (TwoProd), 1/12 = 2·(1/4!) and 1/120 = 1/5! come from the double-word table
+/// (2^−104 each), 1/12 − x²/120 adds two terms of unequal sign without cancellation (x² <
+/// 2^−24), and the bound composes through [`Ev`]; the truncation is added by [`widen`] as
+/// x⁶/1180 computed in f64 (its own rounding is far inside the 1180 vs 1185 margin).
+#[inline(always)]
+fn sigmoid_series(x: f64) -> Ev {
+    let table = tables();
+    let coefficient = |v: Dd| Ev {
+        v,
+        r: 4.930380657631324e-32, // 2^-104
+    };
+    let x2 = Ev::exact(Dd::prod(x, x));
+    let inner =
+        coefficient(table.fact_inv[4].scale2(1)).add(x2.mul(coefficient(table.fact_inv[5])).neg());
+    let poly = x2.mul(inner).neg().add_f(1.0);
+    let s = x * x;
+    widen(poly.mul_f(x * 0.25), s * s * s / 1180.0)
+}
+
 /// σ(x) or σ′(x).
 #[inline(always)]
 pub fn sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
@@ -80,6 +110,9 @@ pub fn sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
     }
     if let Some(o) = sigmoid_closed(format, x, role) {
         return o;
+    }
+    if matches!(role, Role::Forward) && a < SERIES_LIMIT {
+        return Outcome::Near(0.5, sigmoid_series(x));
     }
     if a < 1.0 {
         // e^(−a) = 1 + em from expm1 alone (a short series below 1/16, no table exp):
@@ -132,6 +165,32 @@ fn tanh_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     }
 }
 
+/// tanh(x) for 0 < |x| < 2^−12, from its Taylor series, without any exp.
+///
+/// tanh x = x·(1 − x²/3 + 2x⁴/15 − 17x⁶/315) + ρ with |ρ| ≤ 62|x|⁹/2835, the first omitted
+/// term (alternating, decreasing terms: see [`sigmoid_series`]), a relative |ρ|/|tanh x| ≤
+/// 62x⁸/(2835·(1 − x²/3)) ≤ x⁸/45.7 < 2^−101. x² is exact; 1/3 = 2·(1/3!), 2/15 = 16·(1/5!),
+/// 17/315 = 272·(1/7!) from the double-word table (2^−104 each, one more OP for the product by
+/// 272); each Horner step adds terms of unequal sign without cancellation (x² < 2^−24), and
+/// the bound composes through [`Ev`]; the truncation is added by [`widen`] as x⁸/45.
+#[inline(always)]
+fn tanh_series(x: f64) -> Ev {
+    let table = tables();
+    let coefficient = |v: Dd| Ev {
+        v,
+        r: 4.930380657631324e-32, // 2^-104
+    };
+    let x2 = Ev::exact(Dd::prod(x, x));
+    let c7 = coefficient(table.fact_inv[7]).mul_f(272.0);
+    let c5 = coefficient(table.fact_inv[5].scale2(4));
+    let c3 = coefficient(table.fact_inv[3].scale2(1));
+    let inner = c5.add(x2.mul(c7).neg());
+    let inner = c3.add(x2.mul(inner).neg());
+    let poly = x2.mul(inner).neg().add_f(1.0);
+    let s = x * x;
+    widen(poly.mul_f(x), s * s * s * s / 45.0)
+}
+
 /// tanh(x) or tanh′(x).
 #[inline(always)]
 pub fn tanh(format: Layout, x: f64, role: Role) -> Outcome {
@@ -146,6 +205,9 @@ pub fn tanh(format: Layout, x: f64, role: Role) -> Outcome {
     }
     if let Some(o) = tanh_closed(format, x, role) {
         return o;
+    }
+    if matches!(role, Role::Forward) && a < SERIES_LIMIT {
+        return Outcome::Value(tanh_series(x), 0);
     }
     if a < 1.0 {
         let em = expm1(Dd::new(-2.0 * a));
