@@ -568,16 +568,22 @@ fn per_binade(g: &mut Mix, lowest: i32, binade_count: i32, per: usize) -> Vec<u3
     v
 }
 
-/// The Taylor-series bands of sigmoid (2^−53 ≤ |x| < 2^−12) and tanh (2^−27 ≤ |x| < 2^−12),
-/// forward: every binade, both signs, each edge ±300 patterns in every format. Nearly all are
+/// The Taylor-series bands of sigmoid (2^−53 ≤ |x| < 2^−12), tanh (2^−27 ≤ |x| < 2^−12) and
+/// swish (2^−54 ≤ |βx| < 2^−12), forward: every binade, both signs, each edge ±300 patterns in
+/// every format. Nearly all are
 /// decided: sigmoid declines where 1/2 + x/4 is a binary64 midpoint and the x³ term (below the
 /// double-word sum's own error bound) would break the tie; MPFR decides those.
 #[test]
 fn series_bands_sigmoid_tanh() {
     let mut g = Mix(77);
-    for (name, lowest) in [("sigmoid", -53), ("tanh", -27)] {
+    for (name, params, lowest) in [
+        ("sigmoid", &[][..], -53),
+        ("tanh", &[], -27),
+        ("silu", &[], -54),
+        ("swish", &["beta=1.5"][..], -54),
+    ] {
         let inside = per_binade(&mut g, lowest, -12 - lowest, 300);
-        let (d, t) = compare(name, Role::Forward, &Binary32, &[], &inside);
+        let (d, t) = compare(name, Role::Forward, &Binary32, params, &inside);
         eprintln!("{name} series band: decided {d}/{t}");
         assert!(d as f64 >= 0.995 * t as f64, "{name}: {d}/{t} decided");
         for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
@@ -586,7 +592,7 @@ fn series_bands_sigmoid_tanh() {
                 edges.extend(neighbours(format, e, 300));
                 edges.extend(neighbours(format, -e, 300));
             }
-            let (d, t) = compare(name, Role::Forward, format, &[], &edges);
+            let (d, t) = compare(name, Role::Forward, format, params, &edges);
             eprintln!("{name} {}: edges decided {d}/{t}", format.name());
         }
     }
@@ -613,5 +619,22 @@ fn short_expm1_series_bands() {
                 "{name} {role:?}: {d}/{t} decided"
             );
         }
+    }
+}
+
+/// GELU's H series (|x| ≤ 4, its high-order terms summed in f64) per binade from 2^−40, and
+/// the Mills-ratio continued fraction (4 < |x| < 38.8, a short bracket first), both roles.
+#[test]
+fn gelu_series_and_continued_fraction_bands() {
+    let mut g = Mix(79);
+    let mut inputs = per_binade(&mut g, -40, 42, 200);
+    for _ in 0..3000 {
+        inputs.push(g.between(4.0, 38.8));
+        inputs.push(g.between(-4.0, -38.8));
+    }
+    for role in [Role::Forward, Role::Derivative] {
+        let (d, t) = compare("gelu", role, &Binary32, &[], &inputs);
+        eprintln!("gelu {role:?} series and fraction bands: decided {d}/{t}");
+        assert!(d as f64 >= 0.995 * t as f64, "gelu {role:?}: {d}/{t} decided");
     }
 }

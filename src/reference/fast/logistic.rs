@@ -83,17 +83,26 @@ const SERIES_LIMIT: f64 = 2.44140625e-4; // 2^-12
 /// x⁶/1180 computed in f64 (its own rounding is far inside the 1180 vs 1185 margin).
 #[inline(always)]
 fn sigmoid_series(x: f64) -> Ev {
+    logistic_series(Dd::new(x))
+}
+
+/// σ(z) − 1/2 for a double-word 0 < |z| < 2^−12 (swish's z = βx is an exact TwoProd), as in
+/// [`sigmoid_series`]; z² is a double-word product (OP) and the truncation bound z⁶/1180 is
+/// computed from z.hi, within a relative 2^−49 of |z|⁶, far inside the 1180 vs 1185 margin.
+#[inline(always)]
+fn logistic_series(z: Dd) -> Ev {
     let table = tables();
     let coefficient = |v: Dd| Ev {
         v,
         r: 4.930380657631324e-32, // 2^-104
     };
-    let x2 = Ev::exact(Dd::prod(x, x));
-    let inner =
-        coefficient(table.fact_inv[4].scale2(1)).add(x2.mul(coefficient(table.fact_inv[5])).neg());
-    let poly = x2.mul(inner).neg().add_f(1.0);
-    let s = x * x;
-    widen(poly.mul_f(x * 0.25), s * s * s / 1180.0)
+    let ze = Ev::exact(z);
+    let z2 = ze.mul(ze);
+    let inner = coefficient(table.fact_inv[4].scale2(1))
+        .add(z2.mul(coefficient(table.fact_inv[5])).neg());
+    let poly = z2.mul(inner).neg().add_f(1.0);
+    let s = z.hi * z.hi;
+    widen(ze.mul(poly).mul_f(0.25), s * s * s / 1180.0)
 }
 
 /// σ(x) or σ′(x).
@@ -308,6 +317,9 @@ pub fn swish(format: Layout, x: f64, beta: f64, role: Role) -> Outcome {
         return Outcome::Decline;
     }
     let xe = Ev::exact(Dd::new(x));
+    if matches!(role, Role::Forward) && a.hi < SERIES_LIMIT {
+        return Outcome::Value(xe.mul(logistic_series(z).add_f(0.5)), 0);
+    }
     if a.hi < 1.0 {
         // t = e^(−|z|) = 1 + em from expm1 alone (a short series below 1/16, no table exp);
         // em ∈ (−0.64, 0], so t = 1 + em and D = 2 + em lose nothing (tracked by Ev::add_f).

@@ -99,6 +99,7 @@ impl FastEvaluator {
 
     /// Some(reference) only when the fast value ± its proven error bound decides the
     /// rounding into the format and the binade; None means "ask the engine".
+    #[inline]
     pub fn try_reference(&self, x_bits: u32) -> Option<Reference> {
         #[cfg(target_arch = "x86_64")]
         if self.fma {
