@@ -62,7 +62,7 @@ fn rounded(format: &dyn Format, q: &Rational) -> Reference {
 
 impl RoleReferences {
     /// The fast path's reference of f (`forward`) or f′ at x, when it has one and decides it.
-    #[inline]
+    #[inline(always)]
     fn fast_reference(&self, forward: bool, x: u32) -> Option<Reference> {
         let (f, d) = self.fast.as_ref()?;
         let evaluator = if forward { f } else { d };
@@ -88,7 +88,7 @@ impl RoleReferences {
         }
     }
     /// Reference (and left-hand reference at a kink) for input x.
-    #[inline]
+    #[inline(always)]
     pub fn reference(&self, x: u32) -> Result<(Reference, Option<Reference>), String> {
         self.reference_via(x, true)
     }
@@ -105,7 +105,7 @@ impl RoleReferences {
             .is_some_and(|(f, d)| f.is_some() || d.is_some())
     }
 
-    #[inline]
+    #[inline(always)]
     fn reference_via(
         &self,
         x: u32,

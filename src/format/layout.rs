@@ -142,7 +142,7 @@ impl Layout {
         (self.classify(bits) != Class::Infinite).then_some(bits)
     }
     /// Pattern of `±k·2^quantum_exp` where k ≤ 2^p is an already rounded integer significand.
-    #[inline]
+    #[inline(always)]
     pub fn encode(self, negative: bool, mut k: u64, mut quantum_exp: i32) -> u32 {
         let sign = if negative { self.sign_bit() } else { 0 };
         if k == 0 {

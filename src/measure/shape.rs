@@ -110,8 +110,8 @@ impl ShapeAcc {
     }
 
     /// The pair a < b (in x) of neighbouring evaluated inputs.
+    #[inline]
     fn pair(&mut self, a: Seen, b: Seen) -> Option<Violation> {
-        let format = self.format;
         let l = self.layout;
         let (ka, kb) = (l.ordinal(a.output), l.ordinal(b.output));
         let adjacent = l.ordinal(b.input) - l.ordinal(a.input) <= 1;
@@ -128,12 +128,20 @@ impl ShapeAcc {
                 }
             }
         }
-        (self.monotone_function && kb < ka).then(|| Violation {
+        (self.monotone_function && kb < ka).then(|| self.violation(a, b))
+    }
+
+    /// The report entry of a step back (rare: kept out of the per-point path).
+    #[cold]
+    #[inline(never)]
+    fn violation(&self, a: Seen, b: Seen) -> Violation {
+        let format = self.format;
+        Violation {
             from: BitsValue::new(format, a.input),
             to: BitsValue::new(format, b.input),
             from_output: BitsValue::new(format, a.output),
             to_output: BitsValue::new(format, b.output),
-        })
+        }
     }
 
     /// Adds the next point in bit order.

@@ -104,10 +104,7 @@ fn mills_pair(a: f64, n: usize, high: f64) -> (Dd, Dd) {
 /// The bracket proves the bound whatever N is, so a short run (N from [`MILLS_SHORT`]) comes
 /// first and the long one only when the short bracket is too wide.
 fn mills(a: f64) -> Option<Ev> {
-    for n in [
-        (MILLS_SHORT / a) as usize + 4,
-        (440.0 / a) as usize + 10,
-    ] {
+    for n in [(MILLS_SHORT / a) as usize + 4, (440.0 / a) as usize + 10] {
         // T ≥ N/a: one step up from RN(N/a).
         let (r0, r1) = mills_pair(a, n, super::dd::next_up(n as f64 / a));
         let width = r0.sub(r1).hi.abs();

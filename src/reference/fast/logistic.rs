@@ -98,8 +98,8 @@ fn logistic_series(z: Dd) -> Ev {
     };
     let ze = Ev::exact(z);
     let z2 = ze.mul(ze);
-    let inner = coefficient(table.fact_inv[4].scale2(1))
-        .add(z2.mul(coefficient(table.fact_inv[5])).neg());
+    let inner =
+        coefficient(table.fact_inv[4].scale2(1)).add(z2.mul(coefficient(table.fact_inv[5])).neg());
     let poly = z2.mul(inner).neg().add_f(1.0);
     let s = z.hi * z.hi;
     widen(ze.mul(poly).mul_f(0.25), s * s * s / 1180.0)
