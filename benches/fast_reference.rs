@@ -6,6 +6,11 @@
 //! A second table samples the whole binary32 domain (every DOMAIN_STRIDE-th bit pattern of
 //! the 2^32, NaNs, infinities and zeros included, one thread, best of REPEAT runs), where the saturated tails and the
 //! tiny inputs dominate.  `BENCH_PART=binade` or `BENCH_PART=domain` runs one table only.
+//!
+//! `BENCH_PART=binades` instead prints, per function (forward), the one-thread cost of a fast
+//! reference (MPFR fallback included) in every binary32 binade of either sign (every 97th
+//! pattern), the binades above 60 ns, and the sum over all 2^32 patterns: where the time of an
+//! exhaustive sweep goes.
 
 use rayon::prelude::*;
 use std::time::Instant;
@@ -97,9 +102,62 @@ fn domain(filter: Option<&str>) {
     }
 }
 
+/// Stride of the per-binade sample.
+const BINADE_STRIDE: usize = 97;
+
+/// One-thread cost per binade of the forward fast path (MPFR fallback included).
+fn binades(filter: Option<&str>) {
+    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+        if filter.is_some_and(|n| n != name) {
+            continue;
+        }
+        let e = evaluator(name, Role::Forward);
+        let fast = FastEvaluator::new(&e).expect("fast path");
+        let mut total = 0.0;
+        let mut costly = Vec::new();
+        for sign in [0u32, 0x8000_0000] {
+            for field in 0u32..255 {
+                let base = sign | field << 23;
+                let start = Instant::now();
+                let mut n = 0u64;
+                for m in (0..1u32 << 23).step_by(BINADE_STRIDE) {
+                    n += 1;
+                    let x = base | m;
+                    let r = fast
+                        .try_reference(x)
+                        .unwrap_or_else(|| e.reference(x).unwrap());
+                    std::hint::black_box(r);
+                }
+                let ns = start.elapsed().as_nanos() as f64 / n as f64;
+                total += ns * (1u64 << 23) as f64;
+                if ns > 60.0 {
+                    let label = if field == 0 {
+                        "subnormal".to_string()
+                    } else {
+                        format!("2^{}", field as i32 - 127)
+                    };
+                    costly.push(format!(
+                        "{}{label} {ns:.0}",
+                        if sign == 0 { "+" } else { "-" }
+                    ));
+                }
+            }
+        }
+        println!(
+            "{name:<8} all 2^32 patterns, one thread: {:.1} s; binades over 60 ns/point: {}",
+            total * 1e-9,
+            costly.join(", ")
+        );
+    }
+}
+
 fn main() {
     let filter = std::env::args().nth(1).filter(|a| !a.starts_with('-'));
     let part = std::env::var("BENCH_PART").unwrap_or_default();
+    if part == "binades" {
+        binades(filter.as_deref());
+        return;
+    }
     if part != "binade" {
         domain(filter.as_deref());
     }

@@ -635,6 +635,9 @@ fn gelu_series_and_continued_fraction_bands() {
     for role in [Role::Forward, Role::Derivative] {
         let (d, t) = compare("gelu", role, &Binary32, &[], &inputs);
         eprintln!("gelu {role:?} series and fraction bands: decided {d}/{t}");
-        assert!(d as f64 >= 0.995 * t as f64, "gelu {role:?}: {d}/{t} decided");
+        assert!(
+            d as f64 >= 0.995 * t as f64,
+            "gelu {role:?}: {d}/{t} decided"
+        );
     }
 }

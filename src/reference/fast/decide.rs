@@ -179,6 +179,44 @@ fn absolute(v: &Ev) -> f64 {
     v.r * v.v.hi.abs() * SLACK
 }
 
+thread_local! {
+    /// The last [`beside_base`] answer of this thread: saturated and tiny-input regions ask
+    /// for the same one billions of times in a row.
+    static LAST_BESIDE: std::cell::Cell<Option<(u64, bool, Layout, Reference)>> =
+        const { std::cell::Cell::new(None) };
+}
+
+/// The reference of y = base + δ with 0 < |δ| < 2^(ilogb(base) − 54), δ > 0 exactly when `up`
+/// (see [`finish`]); it depends on base, the side and the format only, so the last answer is
+/// kept per thread.
+#[inline(always)]
+fn beside_base(format: Layout, base: f64, up: bool) -> Option<Reference> {
+    let key = base.to_bits();
+    if let Some((b, u, l, r)) = LAST_BESIDE.get() {
+        if b == key && u == up && l == format {
+            return Some(r);
+        }
+    }
+    let side = if up { 1.0 } else { -1.0 };
+    let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
+    let (bits, binade) = round_dd(format, ph, pl, 0)?;
+    if format.classify(bits) == Class::Infinite {
+        return None;
+    }
+    // |δ| < 2^(eb−54) is below half an ulp of base in binary64 (a quarter below a power of
+    // two is still ≥ 2^(eb−54)), so RN_binary64(y) = base.
+    let r = Reference {
+        bits,
+        exact: Some(ExactValue {
+            approx: base,
+            binade,
+        }),
+        precision: FAST_PRECISION,
+    };
+    LAST_BESIDE.set(Some((key, up, format, r)));
+    Some(r)
+}
+
 /// Applies the decision rule to an outcome.
 #[inline(always)]
 pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
@@ -214,15 +252,7 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
             // 2^(eb−54) on delta's side round alike and share a binade.
             let limit = pow2(eb - 54);
             if delta.v.hi.abs() * (1.0 + delta.r) * SLACK < limit {
-                let side = if delta.v.hi > 0.0 { 1.0 } else { -1.0 };
-                let (ph, pl) = two_sum(base, side * pow2(eb - 60));
-                let (bits, binade) = round_dd(format, ph, pl, 0)?;
-                if format.classify(bits) == Class::Infinite {
-                    return None;
-                }
-                // |delta| < 2^(eb−54) is below half an ulp of base in binary64 (a quarter
-                // below a power of two is still ≥ 2^(eb−54)), so RN_binary64(y) = base.
-                return Some(reference(bits, binade, base, FAST_PRECISION));
+                return beside_base(format, base, delta.v.hi > 0.0);
             }
             let sum = delta.add_f(base);
             if !less(sum.r, MAX_REL) {
