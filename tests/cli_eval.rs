@@ -179,3 +179,26 @@ fn batch_reads_patterns_from_stdin() {
         "0x3c00 0x3c00\n0xbc00 0x0000\n0x7e00 0x7e00\n"
     );
 }
+
+/// A reader that stops early (`ulpgauge functions | head -1`) closes standard output: the
+/// command must end with its own status, not a panic (101) on the failed write.
+#[test]
+fn closed_standard_output_is_not_a_crash() {
+    use std::process::Stdio;
+    for args in [
+        &["functions"][..],
+        &["eval", "sigmoid", "0.5", "--format", "f16"],
+    ] {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+            .args(args)
+            .stdout(Stdio::piped())
+            .stderr(Stdio::piped())
+            .spawn()
+            .unwrap();
+        drop(child.stdout.take());
+        let out = child.wait_with_output().unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(0), "{args:?}: {err}");
+        assert!(!err.contains("panicked"), "{args:?}: {err}");
+    }
+}

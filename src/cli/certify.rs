@@ -138,9 +138,9 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
-        print!("{}", certify::table(&cert));
+        say!("{}", certify::table(&cert));
         if let Some(path) = &args.json {
-            println!("  certificate written to {}", path.display());
+            sayln!("  certificate written to {}", path.display());
         }
     }
     Ok(cert.exit_code)

@@ -351,7 +351,7 @@ pub fn emit(reports: &[CheckReport], manifest: bool, outputs: &Outputs) -> Resul
         }
     }
     if outputs.terminal {
-        print!(
+        say!(
             "{}",
             Terminal
                 .render(reports, manifest)

@@ -97,6 +97,6 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         text.push('\n');
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
-    print!("{}", table::render(&comparison, args.changed_only));
+    say!("{}", table::render(&comparison, args.changed_only));
     Ok(exit_code)
 }

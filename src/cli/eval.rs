@@ -196,11 +196,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             "rounding_error_ulp": rounding_error,
             "kink": kink_json,
         });
-        println!("{}", serde_json::to_string_pretty(&report).expect("json"));
+        sayln!("{}", serde_json::to_string_pretty(&report).expect("json"));
         return Ok(0);
     }
     let show = |bits: u32| format!("{} = {}", hex(format, bits), display_value(format, bits));
-    println!(
+    sayln!(
         "{} {} in {}",
         evaluator.function().name(),
         role,
@@ -211,31 +211,31 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             .iter()
             .map(|(k, v)| format!("{k}={}", v.as_str().unwrap_or("")))
             .collect();
-        println!(
+        sayln!(
             "  constants  {} ({:?})",
             list.join(", "),
             args.function_args.param_rounding
         );
     }
     match &input.rounded_from {
-        Some(text) => println!("  input      {}  (rounded from {text})", show(input.bits)),
-        None => println!("  input      {}", show(input.bits)),
+        Some(text) => sayln!("  input      {}  (rounded from {text})", show(input.bits)),
+        None => sayln!("  input      {}", show(input.bits)),
     }
     if let Some(digits) = &exact {
-        println!("  exact      {digits}");
+        sayln!("  exact      {digits}");
     }
-    println!("  rounded    {}", show(out));
+    sayln!("  rounded    {}", show(out));
     if let (Some(b), Some(a)) = (below, above) {
-        println!("  neighbours {}  |  {}", show(b), show(a));
+        sayln!("  neighbours {}  |  {}", show(b), show(a));
     }
     if let Some(u) = ulp {
-        println!("  ulp        {u:e}");
+        sayln!("  ulp        {u:e}");
     }
     if let Some(e) = rounding_error {
-        println!("  |RN(y)-y|  {e:.6} ulp");
+        sayln!("  |RN(y)-y|  {e:.6} ulp");
     }
     if let Some(k) = kink {
-        println!(
+        sayln!(
             "  kink       f' jumps at {}: left {}, right {}; eval gives the right-hand value",
             k.at,
             k.left.to_f64(),

@@ -52,15 +52,15 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         }));
     }
     if args.json {
-        println!("{}", serde_json::to_string_pretty(&all).expect("json"));
+        sayln!("{}", serde_json::to_string_pretty(&all).expect("json"));
         return Ok(0);
     }
     for entry in &all {
-        println!("{}", entry["name"].as_str().unwrap_or(""));
-        println!("  f(x)   {}", entry["definition"].as_str().unwrap_or(""));
-        println!("  f'(x)  {}", entry["derivative"].as_str().unwrap_or(""));
+        sayln!("{}", entry["name"].as_str().unwrap_or(""));
+        sayln!("  f(x)   {}", entry["definition"].as_str().unwrap_or(""));
+        sayln!("  f'(x)  {}", entry["derivative"].as_str().unwrap_or(""));
         for p in entry["params"].as_array().into_iter().flatten() {
-            println!(
+            sayln!(
                 "  param  {} = {} ({})",
                 p["name"].as_str().unwrap_or(""),
                 p["default"].as_str().unwrap_or(""),
@@ -75,20 +75,22 @@ pub fn run(args: Args) -> Result<i32, Failure> {
                 "no"
             }
         };
-        println!(
+        sayln!(
             "  facts  monotone {}, bounded below {}, bounded above {}, continuous {}, f(-0) = -0 {}",
             yes("monotone"), yes("bounded_below"), yes("bounded_above"), yes("continuous"), yes("keeps_negative_zero")
         );
         let lim = &entry["limits"]["forward"];
-        println!(
+        sayln!(
             "  limits f(-inf) = {}, f(+inf) = {}",
             lim["-inf"].as_str().unwrap_or(""),
             lim["+inf"].as_str().unwrap_or("")
         );
         for k in entry["kinks"].as_array().into_iter().flatten() {
-            println!(
+            sayln!(
                 "  kink   at {}: f' left {}, right {} (derivative references use the right value)",
-                k["at"], k["left"], k["right"]
+                k["at"],
+                k["left"],
+                k["right"]
             );
         }
     }

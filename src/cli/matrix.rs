@@ -251,7 +251,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
-        print!("{}", table::render(&matrix));
+        say!("{}", table::render(&matrix));
     }
     Ok(combine(codes))
 }

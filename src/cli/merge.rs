@@ -74,13 +74,13 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         } else {
             "check"
         };
-        println!(
+        sayln!(
             "merged {} shard reports of one {what} ({} kernel(s))",
             files.len(),
             merged.kernels.len()
         );
         for report in &merged.kernels {
-            println!("  {}", summary(report));
+            sayln!("  {}", summary(report));
         }
     }
     Ok(combine(merged.kernels.iter().map(|r| {

@@ -3,6 +3,27 @@
 //! Exit status: 0 clean, 1 a finding failed, 2 bad input (one line on stderr), 3 the kernel
 //! crashed or hung.
 
+/// Like `print!`, but a closed standard output (`ulpgauge … | head`) is not an error: reports
+/// go on to their files and the exit status stays the check's.
+macro_rules! say {
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        let _ = write!(std::io::stdout(), $($arg)*);
+    }};
+}
+
+/// Like `println!`, with [`say!`]'s handling of a closed standard output.
+macro_rules! sayln {
+    () => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stdout());
+    }};
+    ($($arg:tt)*) => {{
+        use std::io::Write as _;
+        let _ = writeln!(std::io::stdout(), $($arg)*);
+    }};
+}
+
 mod batch;
 mod certify;
 pub mod check;
