@@ -60,6 +60,13 @@ pub fn near_side(base: f64, up: bool) -> Outcome {
     Outcome::Near(base, beside(base, up))
 }
 
+/// [`near_side`] for a base that stays the same over many inputs (a literal constant or a
+/// parameter): the decided reference is kept per thread (see [`Outcome::Beside`]).
+#[inline(always)]
+pub fn near_constant(base: f64, up: bool) -> Outcome {
+    Outcome::Beside(base, up)
+}
+
 /// 2^−53.
 pub const TWO_M53: f64 = 1.1102230246251565e-16;
 /// 2^−54.

@@ -27,6 +27,10 @@ pub enum Outcome {
     Value(Ev, i32),
     /// y = base + delta·(1 + θ), |θ| ≤ delta.r < 1/2; base an exact nonzero normal f64.
     Near(f64, Ev),
+    /// y = base + δ as in [`Outcome::Near`] with δ below 2^(ilogb(base) − 54) on the given side
+    /// (true: above), for a base that stays the same over many inputs (a saturation level, a
+    /// constant slope): decided once per thread and kept.
+    Beside(f64, bool),
     /// y is exactly this (nonzero, normal) f64: rounded like the engine's exact rationals.
     Exact(f64),
     /// A reference given as is (the engine's asymptotic tails, replicated).
@@ -180,23 +184,40 @@ fn absolute(v: &Ev) -> f64 {
 }
 
 thread_local! {
-    /// The last [`beside_base`] answer of this thread: saturated and tiny-input regions ask
-    /// for the same one billions of times in a row.
-    static LAST_BESIDE: std::cell::Cell<Option<(u64, bool, Layout, Reference)>> =
-        const { std::cell::Cell::new(None) };
+    /// The key of this thread's last [`remembered_beside`] answer (see [`beside_key`]): saturated
+    /// and tiny-input regions ask for the same one billions of times in a row.
+    static LAST_BESIDE_KEY: std::cell::Cell<(u64, u64)> = const { std::cell::Cell::new((0, 0)) };
+    /// That answer.
+    static LAST_BESIDE: std::cell::Cell<Option<Reference>> = const { std::cell::Cell::new(None) };
 }
 
-/// The reference of y = base + δ with 0 < |δ| < 2^(ilogb(base) − 54), δ > 0 exactly when `up`
-/// (see [`finish`]); it depends on base, the side and the format only, so the last answer is
-/// kept per thread.
+/// Base, side and format packed for [`remembered_beside`]'s one-entry memo (never (0, 0): the side
+/// word holds the format's precision).
 #[inline(always)]
-fn beside_base(format: Layout, base: f64, up: bool) -> Option<Reference> {
-    let key = base.to_bits();
-    if let Some((b, u, l, r)) = LAST_BESIDE.get() {
-        if b == key && u == up && l == format {
+fn beside_key(format: Layout, base: f64, up: bool) -> (u64, u64) {
+    let shape = (format.precision() as u64) << 8 | (format.emax() as u64) << 16;
+    (base.to_bits(), shape | up as u64)
+}
+
+/// [`decide_beside`] through this thread's one-entry memo.
+#[inline(always)]
+fn remembered_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
+    let key = beside_key(format, base, up);
+    if LAST_BESIDE_KEY.get() == key {
+        if let Some(r) = LAST_BESIDE.get() {
             return Some(r);
         }
     }
+    let r = decide_beside(format, base, up)?;
+    LAST_BESIDE_KEY.set(key);
+    LAST_BESIDE.set(Some(r));
+    Some(r)
+}
+
+/// The reference of y = base + δ with 0 < |δ| < 2^(ilogb(base) − 54), δ > 0 exactly when `up`
+/// (see [`finish`]); it depends on base, the side and the format only.
+#[inline(always)]
+fn decide_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
     let side = if up { 1.0 } else { -1.0 };
     let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
     let (bits, binade) = round_dd(format, ph, pl, 0)?;
@@ -213,7 +234,6 @@ fn beside_base(format: Layout, base: f64, up: bool) -> Option<Reference> {
         }),
         precision: FAST_PRECISION,
     };
-    LAST_BESIDE.set(Some((key, up, format, r)));
     Some(r)
 }
 
@@ -228,6 +248,7 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
     match outcome {
         Outcome::Decline => None,
         Outcome::Fixed(r) => Some(r),
+        Outcome::Beside(base, up) => remembered_beside(format, base, up),
         Outcome::Exact(x) => {
             let (bits, binade) = round_dd(format, x, 0.0, 0)?;
             Some(reference(bits, binade, x, 0))
@@ -252,7 +273,7 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
             // 2^(eb−54) on delta's side round alike and share a binade.
             let limit = pow2(eb - 54);
             if delta.v.hi.abs() * (1.0 + delta.r) * SLACK < limit {
-                return beside_base(format, base, delta.v.hi > 0.0);
+                return decide_beside(format, base, delta.v.hi > 0.0);
             }
             let sum = delta.add_f(base);
             if !less(sum.r, MAX_REL) {

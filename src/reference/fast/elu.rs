@@ -5,7 +5,7 @@
 //! without cancellation; for −1 < x < 0 it is α·expm1(x); the derivative for −1 < x < 0 is
 //! α + α·expm1(x) (near α for tiny x) and α·e^x below.  Bounds compose through [`Ev`].
 
-use super::common::{beside, decay, near_side, TAIL, TWO_M55};
+use super::common::{beside, decay, near_constant, TAIL, TWO_M55};
 use super::dd::{ilogb, Dd};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::expm1;
@@ -25,8 +25,8 @@ use crate::format::Layout;
 #[inline(always)]
 fn elu_closed(format: Layout, x: f64, alpha: f64, role: Role) -> Option<Outcome> {
     match role {
-        Role::Forward if x < -38.2 => Some(near_side(-alpha, true)),
-        Role::Derivative if x > -TWO_M55 => Some(near_side(alpha, false)),
+        Role::Forward if x < -38.2 => Some(near_constant(-alpha, true)),
+        Role::Derivative if x > -TWO_M55 => Some(near_constant(alpha, false)),
         Role::Derivative if x < -((1076 + ilogb(alpha)) as f64) * 0.6932 => {
             Some(Outcome::Fixed(engine_tiny(format, false)))
         }

@@ -20,7 +20,7 @@
 //! Q(x) = φ·R, Φ(x) = φ(a)·R(a) for x < 0, gelu = x − x·φ·R for x > 0, gelu′ = 1 + φ·(x − R)
 //! for x > 0 and φ·(R − a) for x < 0 (no cancellation: R < 1/a < a).
 
-use super::common::{beside, decay, near_side, TAIL, TWO_M55};
+use super::common::{beside, decay, near_constant, near_side, TAIL, TWO_M55};
 use super::dd::{Dd, Ev, OP, SLACK};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::{expm1, tables};
@@ -144,13 +144,13 @@ fn gelu_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     if x.abs() < TWO_M55 {
         return Some(match role {
             Role::Forward => near_side(x * 0.5, true),
-            Role::Derivative => near_side(0.5, x > 0.0),
+            Role::Derivative => near_constant(0.5, x > 0.0),
         });
     }
     if x > 9.0 {
         return Some(match role {
             Role::Forward => near_side(x, false),
-            Role::Derivative => near_side(1.0, true),
+            Role::Derivative => near_constant(1.0, true),
         });
     }
     (x < -38.8).then(|| Outcome::Fixed(engine_tiny(format, true)))

@@ -26,7 +26,8 @@
 //! A comparison x > c (x < c) of the f64 input with an f64 constant c is exact.
 
 use super::common::{
-    beside, decay, near_side, widen, Decay, DROPPED, TAIL, TWO_M26, TWO_M27, TWO_M53, TWO_M54,
+    beside, decay, near_constant, near_side, widen, Decay, DROPPED, TAIL, TWO_M26, TWO_M27,
+    TWO_M53, TWO_M54,
 };
 use super::dd::{Dd, Ev};
 use super::decide::{engine_beside, engine_tiny, Outcome};
@@ -57,11 +58,11 @@ fn one_plus(t: &Decay) -> Ev {
 fn sigmoid_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     let a = x.abs();
     match role {
-        Role::Forward if x > 38.0 => Some(near_side(1.0, false)),
+        Role::Forward if x > 38.0 => Some(near_constant(1.0, false)),
         Role::Forward if x < -745.2 => Some(Outcome::Fixed(engine_tiny(format, false))),
-        Role::Forward if a < TWO_M53 => Some(near_side(0.5, x > 0.0)),
+        Role::Forward if a < TWO_M53 => Some(near_constant(0.5, x > 0.0)),
         Role::Derivative if a > 745.2 => Some(Outcome::Fixed(engine_tiny(format, false))),
-        Role::Derivative if a < TWO_M26 => Some(near_side(0.25, false)),
+        Role::Derivative if a < TWO_M26 => Some(near_constant(0.25, false)),
         _ => None,
     }
 }
@@ -166,10 +167,10 @@ pub fn sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
 fn tanh_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     let a = x.abs();
     match role {
-        Role::Forward if a > 19.5 => Some(near_side(x.signum(), x < 0.0)),
+        Role::Forward if a > 19.5 => Some(near_constant(x.signum(), x < 0.0)),
         Role::Forward if a < TWO_M27 => Some(near_side(x, x < 0.0)),
         Role::Derivative if a > 373.5 => Some(Outcome::Fixed(engine_tiny(format, false))),
-        Role::Derivative if a < TWO_M27 => Some(near_side(1.0, false)),
+        Role::Derivative if a < TWO_M27 => Some(near_constant(1.0, false)),
         _ => None,
     }
 }
@@ -280,13 +281,13 @@ fn swish_closed(format: Layout, x: f64, z: f64, role: Role) -> Option<Outcome> {
     if z.abs() < TWO_M54 {
         return Some(match role {
             Role::Forward => near_side(x * 0.5, true),
-            Role::Derivative => near_side(0.5, x > 0.0),
+            Role::Derivative => near_constant(0.5, x > 0.0),
         });
     }
     match role {
         Role::Forward if z > 39.0 => Some(near_side(x, false)),
         Role::Forward if z < -835.0 => Some(Outcome::Fixed(engine_tiny(format, true))),
-        Role::Derivative if z > 42.0 => Some(near_side(1.0, true)),
+        Role::Derivative if z > 42.0 => Some(near_constant(1.0, true)),
         Role::Derivative if z < -753.0 => Some(Outcome::Fixed(engine_tiny(format, true))),
         _ => None,
     }
