@@ -92,6 +92,25 @@ fn binary32_decoding_agrees_with_the_hardware_conversion() {
 }
 
 #[test]
+fn normal_bits_agree_with_the_hardware_encoding() {
+    // Common practice: `v as f32` is exact for an f64 that is an f32 value, so an f32 normal
+    // pattern's widened value must give back that pattern; one more significant bit, a
+    // subnormal or an out-of-range exponent gives None.
+    let l = Binary32.layout();
+    for bits in (0..=u32::MAX).step_by(7919) {
+        let v = f32::from_bits(bits);
+        let want = v.is_normal().then_some(bits);
+        assert_eq!(l.normal_bits(v as f64), want, "{bits:#010x}");
+        if v.is_normal() {
+            let nudged = f64::from_bits((v as f64).to_bits() + 1);
+            assert_eq!(l.normal_bits(nudged), None, "{bits:#010x} + 2^-52 ulp");
+        }
+    }
+    assert_eq!(l.normal_bits(2f64.powi(128)), None);
+    assert_eq!(l.normal_bits(2f64.powi(-127)), None);
+}
+
+#[test]
 fn exact_encoding_round_trips_every_sixteen_bit_pattern() {
     for format in [&Binary16 as &dyn Format, &Bfloat16] {
         for bits in 0u32..65536 {

@@ -107,6 +107,24 @@ impl Layout {
     pub fn sign_and_exponent(self, bits: u32) -> u32 {
         bits >> self.mant_bits
     }
+    /// Pattern of a binary64 value that is a normal number of this format, `None` otherwise
+    /// (subnormal, out of range, more significant bits than p, zero, infinite or NaN).
+    #[inline]
+    pub fn normal_bits(self, value: f64) -> Option<u32> {
+        let b = value.to_bits();
+        let field = ((b >> 52) & 0x7ff) as i32;
+        let e = field - 1023;
+        if field == 0 || field == 0x7ff || e < self.emin() || e > self.emax() {
+            return None;
+        }
+        let dropped = 52 - self.mant_bits;
+        let mant = b & ((1u64 << 52) - 1);
+        if mant & ((1u64 << dropped) - 1) != 0 {
+            return None;
+        }
+        let sign = ((b >> 63) as u32) << (self.exp_bits + self.mant_bits);
+        Some(sign | ((e + self.bias()) as u32) << self.mant_bits | (mant >> dropped) as u32)
+    }
     /// Whether a pattern is a finite number (not an infinity or NaN).
     #[inline]
     pub fn is_finite(self, bits: u32) -> bool {

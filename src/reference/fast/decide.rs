@@ -218,12 +218,25 @@ fn remembered_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
 /// (see [`finish`]); it depends on base, the side and the format only.
 #[inline(always)]
 fn decide_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
-    let side = if up { 1.0 } else { -1.0 };
-    let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
-    let (bits, binade) = round_dd(format, ph, pl, 0)?;
-    if format.classify(bits) == Class::Infinite {
-        return None;
-    }
+    let (bits, binade) = match format.normal_bits(base) {
+        // base is a normal number of the format: y rounds to it (δ is far below half its ulp)
+        // and lies in its binade, or in the one below when base is a power of two and δ points
+        // towards zero — what `round_dd` gives for base ± 2^(eb−60), without its arithmetic.
+        Some(bits) => {
+            let towards_zero = up == (base < 0.0);
+            let below = is_pow2(base) && towards_zero;
+            (bits, (ilogb(base) - below as i32).max(format.emin()))
+        }
+        None => {
+            let side = if up { 1.0 } else { -1.0 };
+            let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
+            let (bits, binade) = round_dd(format, ph, pl, 0)?;
+            if format.classify(bits) == Class::Infinite {
+                return None;
+            }
+            (bits, binade)
+        }
+    };
     // |δ| < 2^(eb−54) is below half an ulp of base in binary64 (a quarter below a power of
     // two is still ≥ 2^(eb−54)), so RN_binary64(y) = base.
     let r = Reference {
