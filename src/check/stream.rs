@@ -90,6 +90,8 @@ impl Kept {
 pub struct Stream {
     #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
+    /// The format's bit arithmetic, inlined in the per-point work.
+    layout: Layout,
     accuracy: AccuracyAcc,
     shape: Option<ShapeAcc>,
     /// Exhaustive sweeps only: non-finite runs stream too.
@@ -103,6 +105,7 @@ impl Stream {
         let format = accuracy.format();
         Stream {
             format,
+            layout: format.layout(),
             accuracy,
             shape,
             runs: exhaustive.then(|| NonFiniteStream::new(format)),
@@ -114,6 +117,7 @@ impl Stream {
     pub fn fresh(&self) -> Stream {
         Stream {
             format: self.format,
+            layout: self.layout,
             accuracy: self.accuracy.fresh(),
             shape: self.shape.as_ref().map(|s| s.fresh()),
             runs: self
@@ -133,7 +137,7 @@ impl Stream {
         if let Some(r) = &mut self.runs {
             r.add(p);
         }
-        self.kept.add(self.format.layout(), p);
+        self.kept.add(self.layout, p);
     }
 
     /// Makes the state writable as JSON (see [`AccuracyAcc::make_portable`]).
@@ -150,7 +154,7 @@ impl Stream {
         if let (Some(mine), Some(theirs)) = (&mut self.runs, other.runs) {
             mine.merge(theirs);
         }
-        self.kept.merge(self.format.layout(), other.kept);
+        self.kept.merge(self.layout, other.kept);
     }
 
     /// The figures: accuracy, shape, the streamed non-finite runs (exhaustive sweeps) and the

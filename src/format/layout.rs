@@ -108,7 +108,8 @@ impl Layout {
         bits >> self.mant_bits
     }
     /// Pattern of a binary64 value that is a normal number of this format, `None` otherwise
-    /// (subnormal, out of range, more significant bits than p, zero, infinite or NaN).
+    /// (subnormal, out of range, more significant bits than p, zero, infinite or NaN): the
+    /// branch-light subset of [`Layout::from_f64_exact`] that per-point code needs.
     #[inline]
     pub fn normal_bits(self, value: f64) -> Option<u32> {
         let b = value.to_bits();
