@@ -1,7 +1,7 @@
 //! The error measures every report uses: ulp error against the exact value, and the step
 //! distance between two representable values.
 
-use super::{layout::pow2, Format};
+use super::{layout::pow2, Format, Layout};
 
 /// What the measures need to know of an exact real value y: an approximation and the binade.
 #[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
@@ -23,10 +23,17 @@ impl ExactValue {
 /// ulp error |ŷ − y| / ulp(y) of a finite output pattern `output` against the exact value y.
 /// +0 and −0 are equal here; the sign of zero is judged elsewhere.
 pub fn ulp_error(format: &dyn Format, output: u32, exact: &ExactValue) -> f64 {
-    let y_hat = format.to_f64(output);
+    ulp_error_in(format.layout(), output, exact)
+}
+
+/// [`ulp_error`] from the format's layout, for per-point code (inlined, no virtual calls).
+#[inline]
+pub fn ulp_error_in(layout: Layout, output: u32, exact: &ExactValue) -> f64 {
+    let y_hat = layout.to_f64(output);
     // ŷ and y are both far inside binary64's range, so the difference loses at most 2^−53
-    // relative, i.e. well under 2^−28 ulp of the target format.
-    (y_hat - exact.approx).abs() / exact.ulp(format)
+    // relative, i.e. well under 2^−28 ulp of the target format. Multiplying by 1/ulp(y) gives
+    // the bits dividing by ulp(y) would (both powers of two are exact).
+    (y_hat - exact.approx).abs() * layout.inverse_ulp_of_binade(exact.binade)
 }
 
 /// Number of representable steps between two non-NaN patterns (+0 and −0 are one point).

@@ -14,7 +14,7 @@ mod layout;
 pub use bfloat16::Bfloat16;
 pub use binary16::Binary16;
 pub use binary32::Binary32;
-pub use error::{step_distance, ulp_error, ExactValue};
+pub use error::{step_distance, ulp_error, ulp_error_in, ExactValue};
 pub use layout::Layout;
 
 /// The class of a bit pattern, following IEEE 754-2019 §5.7.2.

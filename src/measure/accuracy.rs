@@ -1,7 +1,7 @@
 //! ulp accuracy over the points where kernel output and reference are both finite.
 
 use super::{ExactSum, Point};
-use crate::format::{Class, ExactValue, Format, Layout};
+use crate::format::{ulp_error_in, Class, ExactValue, Format, Layout};
 use crate::reference::Reference;
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
@@ -183,9 +183,7 @@ fn judge(l: Layout, output: u32, r: &Reference) -> Option<Judged> {
     if !l.is_finite(r.bits) {
         return None;
     }
-    // ŷ and y are both far inside binary64's range, so the difference loses at most 2^−53
-    // relative, i.e. well under 2^−28 ulp of the target format (as in `format::ulp_error`).
-    let error = (l.to_f64(output) - exact.approx).abs() * l.inverse_ulp_of_binade(exact.binade);
+    let error = ulp_error_in(l, output, &exact);
     let (out, rn) = (l.ordinal(output), l.ordinal(r.bits));
     let correct = out == rn;
     // y lies between RN(y) and the neighbour on its side; that neighbour is also faithful.

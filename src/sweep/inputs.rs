@@ -106,15 +106,6 @@ impl Inputs {
         self.runs.iter().flat_map(|&(a, b)| a..=b)
     }
 
-    /// The inputs in increasing bit order, `size` at a time.
-    pub fn chunks(&self, size: usize) -> impl Iterator<Item = Vec<u32>> + '_ {
-        let mut it = self.iter().peekable();
-        std::iter::from_fn(move || {
-            it.peek()?;
-            Some(it.by_ref().take(size).collect())
-        })
-    }
-
     /// The inputs with index `from..to` (in bit order).
     pub fn slice(&self, from: u64, to: u64) -> Inputs {
         let mut out = Inputs::default();
@@ -205,8 +196,6 @@ mod tests {
             let inputs = Inputs::of_range(f, &range);
             assert_eq!(inputs.iter().collect::<Vec<_>>(), expected, "{text:?}");
             assert_eq!(inputs.len(), range.pattern_count(f));
-            let chunks: Vec<u32> = inputs.chunks(1000).flatten().collect();
-            assert_eq!(chunks, expected);
             let finite: Vec<u32> = expected
                 .iter()
                 .copied()
