@@ -568,32 +568,61 @@ fn per_binade(g: &mut Mix, lowest: i32, binade_count: i32, per: usize) -> Vec<u3
     v
 }
 
-/// The Taylor-series bands of sigmoid (2^−53 ≤ |x| < 2^−12), tanh (2^−27 ≤ |x| < 2^−12) and
-/// swish (2^−54 ≤ |βx| < 2^−12), forward: every binade, both signs, each edge ±300 patterns in
-/// every format. Nearly all are
-/// decided: sigmoid declines where 1/2 + x/4 is a binary64 midpoint and the x³ term (below the
-/// double-word sum's own error bound) would break the tie; MPFR decides those.
+/// Binary32 inputs with at most 8 significant bits in every binade from 2^`lowest` to 2^−7,
+/// both signs, and odd multiples of 2^−52, 2^−27, 2^−26, 2^−24 and 2^−23 below 2^−6: there
+/// leading parts such as 1/2 + x/4, 1 − x², 1/4 − x²/16 or x/2 + x²/4 land exactly on binary64
+/// or binary32 midpoints and powers of two, so only the rest's sign decides.
+fn short_patterns(lowest: i32) -> Vec<u32> {
+    let mut v = Vec::new();
+    for e in lowest..-6 {
+        for m in 0u32..128 {
+            let x = 2f32.powi(e) * (1.0 + m as f32 / 128.0);
+            v.extend([x.to_bits(), (-x).to_bits()]);
+        }
+    }
+    for unit in [-52, -27, -26, -24, -23] {
+        for k in (1u32..4000).step_by(2) {
+            let x = k as f64 * 2f64.powi(unit);
+            if x < 2f64.powi(-6) && x >= 2f64.powi(lowest) {
+                v.extend([(x as f32).to_bits(), (-x as f32).to_bits()]);
+            }
+        }
+    }
+    v
+}
+
+/// The leading-term bands (below 2^−6, past the closed forms): an exact leading part plus a
+/// binary64 rest, both roles, every binade and both signs (300 random patterns each), the short
+/// patterns where the leading part is a rounding boundary, and each band's lower edge ±300
+/// patterns in every format, against the engine.
 #[test]
-fn series_bands_sigmoid_tanh() {
+fn leading_term_bands() {
     let mut g = Mix(77);
     for (name, params, lowest) in [
         ("sigmoid", &[][..], -53),
         ("tanh", &[], -27),
         ("silu", &[], -54),
         ("swish", &["beta=1.5"][..], -54),
+        ("gelu", &[], -55),
     ] {
-        let inside = per_binade(&mut g, lowest, -12 - lowest, 300);
-        let (d, t) = compare(name, Role::Forward, &Binary32, params, &inside);
-        eprintln!("{name} series band: decided {d}/{t}");
-        assert!(d as f64 >= 0.995 * t as f64, "{name}: {d}/{t} decided");
-        for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
-            let mut edges = Vec::new();
-            for e in [2f64.powi(lowest), 2f64.powi(-12)] {
-                edges.extend(neighbours(format, e, 300));
-                edges.extend(neighbours(format, -e, 300));
+        let mut inside = per_binade(&mut g, lowest, -6 - lowest, 300);
+        inside.extend(short_patterns(lowest));
+        for role in [Role::Forward, Role::Derivative] {
+            let (d, t) = compare(name, role, &Binary32, params, &inside);
+            eprintln!("{name} {role:?} leading-term band: decided {d}/{t}");
+            assert!(
+                d as f64 >= 0.999 * t as f64,
+                "{name} {role:?}: {d}/{t} decided"
+            );
+            for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
+                let mut edges = Vec::new();
+                for e in [2f64.powi(lowest), 2f64.powi(-6)] {
+                    edges.extend(neighbours(format, e, 300));
+                    edges.extend(neighbours(format, -e, 300));
+                }
+                let (d, t) = compare(name, role, format, params, &edges);
+                eprintln!("{name} {role:?} {}: edges decided {d}/{t}", format.name());
             }
-            let (d, t) = compare(name, Role::Forward, format, params, &edges);
-            eprintln!("{name} {}: edges decided {d}/{t}", format.name());
         }
     }
 }

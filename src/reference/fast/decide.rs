@@ -31,6 +31,11 @@ pub enum Outcome {
     /// (true: above), for a base that stays the same over many inputs (a saturation level, a
     /// constant slope): decided once per thread and kept.
     Beside(f64, bool),
+    /// y = s + c + θ with s = h + l an exact normalized double-word (h normal), c an f64 and
+    /// |θ| ≤ e < |c|, |c| < |h|/4: a leading part known exactly and the sign of the rest (see
+    /// [`decide_leading`]), so that a leading part exactly on a rounding boundary is decided by
+    /// the rest's sign, as the engine decides it.
+    Leading(Dd, f64, f64),
     /// y is exactly this (nonzero, normal) f64: rounded like the engine's exact rationals.
     Exact(f64),
     /// A reference given as is (the engine's asymptotic tails, replicated).
@@ -262,6 +267,10 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
         Outcome::Decline => None,
         Outcome::Fixed(r) => Some(r),
         Outcome::Beside(base, up) => remembered_beside(format, base, up),
+        Outcome::Leading(s, c, e) => {
+            let (bits, binade, approx) = decide_leading(format, s, c, e)?;
+            Some(reference(bits, binade, approx, FAST_PRECISION))
+        }
         Outcome::Exact(x) => {
             let (bits, binade) = round_dd(format, x, 0.0, 0)?;
             Some(reference(bits, binade, x, 0))
@@ -296,6 +305,88 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
             let approx = nearest_f64(sum.v, absolute(&sum), 0)?;
             Some(reference(bits, binade, approx, FAST_PRECISION))
         }
+    }
+}
+
+/// RN into `format`, the clamped binade and RN_binary64 of y = s + c + θ ([`Outcome::Leading`]).
+///
+/// Every point where one of the three changes (a midpoint or number of the format, a power of
+/// two, a binary64 midpoint) lies, near s (within |h|/4), on the grid G of multiples of
+/// 2^(eb−54), eb = ilogb(h).  If l = 0, s = h ∈ G; if not, s − g for g ∈ G is a multiple of
+/// min(q, 2^(eb−54)), q the lowest set bit of l (h is a multiple of 2^(eb−52)), so it is zero
+/// or at least that large.  So with d = min(q, 2^(eb−54))/4 and |c| + e < d, no such point lies strictly
+/// between s and y, nor at y: y rounds and falls like s nudged towards c's side, and s itself
+/// can be such a point only when l = 0 or |l| is half a binary64 gap (handled by
+/// [`nearest_nudged`]; `round_dd` takes the nudge as a tiny l of c's sign).  Otherwise the
+/// ends s + (c ∓ e), each rounded outwards twice (c ∓ e, then l + it) and added exactly by
+/// TwoSum, must agree in all three.
+#[inline(always)]
+fn decide_leading(format: Layout, s: Dd, c: f64, e: f64) -> Option<(u32, i32, f64)> {
+    if !less(e, c.abs())
+        || !less(c.abs(), s.hi.abs() * 0.25)
+        || !s.hi.is_normal()
+        || (s.lo != 0.0 && !s.lo.is_normal())
+    {
+        return None;
+    }
+    let eb = ilogb(s.hi);
+    let quantum = if s.lo == 0.0 {
+        pow2(eb - 54)
+    } else {
+        lowest_bit(s.lo).min(pow2(eb - 54))
+    };
+    if c.abs() + e < quantum * 0.25 {
+        let up = c > 0.0;
+        let l = if s.lo == 0.0 {
+            let tiny = pow2((eb - 100).max(-1022));
+            if up {
+                tiny
+            } else {
+                -tiny
+            }
+        } else {
+            s.lo
+        };
+        let (bits, binade) = round_dd(format, s.hi, l, 0)?;
+        if format.classify(bits) == Class::Infinite {
+            return None;
+        }
+        return Some((bits, binade, nearest_nudged(s, up)));
+    }
+    let low = two_sum(s.hi, next_down(s.lo + next_down(c - e)));
+    let high = two_sum(s.hi, next_up(s.lo + next_up(c + e)));
+    let lo_end = round_dd(format, low.0, low.1, 0)?;
+    let hi_end = round_dd(format, high.0, high.1, 0)?;
+    if lo_end != hi_end || format.classify(lo_end.0) == Class::Infinite || low.0 != high.0 {
+        return None;
+    }
+    // TwoSum's leading part is RN_binary64 of each end, so of every point between.
+    Some((lo_end.0, lo_end.1, low.0))
+}
+
+/// The lowest set bit of a normal nonzero f64, as a power of two (every multiple of it).
+#[inline(always)]
+fn lowest_bit(v: f64) -> f64 {
+    let significand = v.to_bits() & ((1u64 << 52) - 1) | 1u64 << 52;
+    pow2(ilogb(v) - 52 + significand.trailing_zeros() as i32)
+}
+
+/// RN_binary64(s + 0·side): s = h + l normalized by TwoSum, so h = RN(s) and s is a binary64
+/// midpoint only when l is exactly half the gap from h to a neighbour; then the nudge decides.
+#[inline(always)]
+fn nearest_nudged(s: Dd, up: bool) -> f64 {
+    let (h, l) = (s.hi, s.lo);
+    if l == 0.0 {
+        return h;
+    }
+    let (above, below) = (next_up(h), next_down(h));
+    // The gaps are powers of two: their halves are exact.
+    if up && l == (above - h) * 0.5 {
+        above
+    } else if !up && l == (below - h) * 0.5 {
+        below
+    } else {
+        h
     }
 }
 

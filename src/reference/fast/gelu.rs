@@ -20,10 +20,11 @@
 //! Q(x) = φ·R, Φ(x) = φ(a)·R(a) for x < 0, gelu = x − x·φ·R for x > 0, gelu′ = 1 + φ·(x − R)
 //! for x > 0 and φ·(R − a) for x < 0 (no cancellation: R < 1/a < a).
 
-use super::common::{beside, decay, near_constant, near_side, TAIL, TWO_M55};
-use super::dd::{Dd, Ev, OP, SLACK};
+use super::common::{beside, decay, near_constant, near_side, TAIL, TWO_M53, TWO_M55};
+use super::dd::{two_prod, Dd, Ev, OP, SLACK};
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::exp::{expm1, tables};
+use super::series::{horner, leading, BAND_LIMIT, NORMAL_CDF, NORMAL_SLOPE};
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -156,6 +157,51 @@ fn gelu_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     (x < -38.8).then(|| Outcome::Fixed(engine_tiny(format, true)))
 }
 
+/// GELU or GELU′ for |x| < 2^−6 past the closed forms ([`super::series`]), with w = x² exact
+/// and φ(0) = 1/√(2π) = c_h + c_l + ε, |ε| ≤ r·φ(0) (the double-word constant):
+/// * gelu(x) = x/2 + φ(0)·w·(1 + Σ_(n≥1) P_n·wⁿ) ([`NORMAL_CDF`]): w·c_h = p + q exactly
+///   (TwoProd), the leading part x/2 + p, the rest q + w·c_l + p·Σ_(n=1..5) P_n·wⁿ; left out
+///   are |P_6|·w⁶·|p| (the series), c_l·w·Σ P_n wⁿ < 2^−53·|p|·w/5, and ε·w·(1 + …) <
+///   1.01·r·|p|·(1 + 2^−52);
+/// * gelu′(x) = 1/2 + φ(0)·x·(2 + Σ_(n≥1) D_n·wⁿ) ([`NORMAL_SLOPE`]): x·c_h = p + q, the
+///   leading part 1/2 + 2p, the rest 2q + 2x·c_l + p·Σ_(n=1..5) D_n·wⁿ; left out are
+///   |D_6|·w⁶·|p|, c_l·x·Σ D_n wⁿ < 2^−53·|p|·w, and ε·x·(2 + …) < 2.01·r·|p|·(1 + 2^−52).
+#[inline(always)]
+fn gelu_band(x: f64, role: Role) -> Outcome {
+    let c = tables().inv_sqrt_2pi;
+    let w = x * x;
+    let w5 = w * w * w * w * w;
+    match role {
+        Role::Forward => {
+            let (p, q) = two_prod(w, c.v.hi);
+            let series = p * w * horner(&NORMAL_CDF[..5], w);
+            let low = w * c.v.lo;
+            let left = p.abs() * (NORMAL_CDF[5].abs() * w5 * w + TWO_M53 * w + 1.02 * c.r);
+            leading(
+                x * 0.5,
+                p,
+                q + low + series,
+                q.abs() + low.abs() + series.abs(),
+                left,
+            )
+        }
+        Role::Derivative => {
+            let (p, q) = two_prod(x, c.v.hi);
+            let series = p * w * horner(&NORMAL_SLOPE[..5], w);
+            let low = 2.0 * x * c.v.lo;
+            let left = p.abs() * (NORMAL_SLOPE[5].abs() * w5 * w + TWO_M53 * w + 2.02 * c.r);
+            let rest = 2.0 * q + low + series;
+            leading(
+                0.5,
+                2.0 * p,
+                rest,
+                2.0 * q.abs() + low.abs() + series.abs(),
+                left,
+            )
+        }
+    }
+}
+
 /// GELU or its derivative at x.
 #[inline(always)]
 pub fn gelu(format: Layout, x: f64, role: Role) -> Outcome {
@@ -173,6 +219,9 @@ pub fn gelu(format: Layout, x: f64, role: Role) -> Outcome {
     }
     if let Some(o) = gelu_closed(format, x, role) {
         return o;
+    }
+    if a < BAND_LIMIT {
+        return gelu_band(x, role);
     }
     let tb = tables();
     let x2 = Dd::prod(x, x);

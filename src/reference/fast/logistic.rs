@@ -29,9 +29,10 @@ use super::common::{
     beside, decay, near_constant, near_side, widen, Decay, DROPPED, TAIL, TWO_M26, TWO_M27,
     TWO_M53, TWO_M54,
 };
-use super::dd::{Dd, Ev};
+use super::dd::{two_prod, Dd, Ev};
 use super::decide::{engine_beside, engine_tiny, Outcome};
-use super::exp::{expm1, tables};
+use super::exp::expm1;
+use super::series::{horner, leading, BAND_LIMIT, SECH2, SWISH_SLOPE, TANH};
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -67,43 +68,42 @@ fn sigmoid_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     }
 }
 
-/// Inputs below this magnitude (and above the closed form's 2^−53) take [`sigmoid_series`].
-const SERIES_LIMIT: f64 = 2.44140625e-4; // 2^-12
-
-/// σ(x) − 1/2 for 0 < |x| < 2^−12, from its Taylor series, without any exp.
-///
-/// σ(x) − 1/2 = tanh(u)/2, u = x/2, and tanh u = u − u³/3 + 2u⁵/15 − 17u⁷/315 + …: the
-/// coefficients alternate in sign (they carry the Bernoulli numbers B_2n) and the ratio of
-/// successive ones is below 0.41 in magnitude (0.333, 0.4, 0.4048, 0.4052, … towards 4/π²,
-/// checked with mpmath), so with u² < 2^−26 the terms decrease and the remainder after the u⁵
-/// term is at most the u⁷ term. Hence σ(x) − 1/2 = (x/4)·(1 − x²/12 +
-/// x⁴/120) + ρ with |ρ| ≤ 17|x|⁷/80640, a relative |ρ|/|x/4 · (1 − x²/12)| ≤ x⁶/1185 < 2^−82.
-/// x² is exact (TwoProd), 1/12 = 2·(1/4!) and 1/120 = 1/5! come from the double-word table
-/// (2^−104 each), 1/12 − x²/120 adds two terms of unequal sign without cancellation (x² <
-/// 2^−24), and the bound composes through [`Ev`]; the truncation is added by [`widen`] as
-/// x⁶/1180 computed in f64 (its own rounding is far inside the 1180 vs 1185 margin).
+/// σ(x) or σ′(x) for |x| < 2^−6 past the closed forms ([`super::series`]), with u = x/2 and
+/// w = u² both exact (u has at most 24 significant bits):
+/// * σ(x) = 1/2 + u/2 + (u³/2)·Σ_(n≥1) T_n·w^(n−1) (σ(x) − 1/2 = tanh(u)/2), kept to T_5,
+///   the rest below |T_6|·|u|¹³/2;
+/// * σ′(x) = sech²(u)/4 = 1/4 − w/4 + (w²/4)·Σ_(n≥2) S_n·w^(n−2), kept to S_6, the rest
+///   below |S_7|·w⁷/4.
 #[inline(always)]
-fn sigmoid_series(x: f64) -> Ev {
-    logistic_series(Dd::new(x))
-}
-
-/// σ(z) − 1/2 for a double-word 0 < |z| < 2^−12 (swish's z = βx is an exact TwoProd), as in
-/// [`sigmoid_series`]; z² is a double-word product (OP) and the truncation bound z⁶/1180 is
-/// computed from z.hi, within a relative 2^−49 of |z|⁶, far inside the 1180 vs 1185 margin.
-#[inline(always)]
-fn logistic_series(z: Dd) -> Ev {
-    let table = tables();
-    let coefficient = |v: Dd| Ev {
-        v,
-        r: 4.930380657631324e-32, // 2^-104
-    };
-    let ze = Ev::exact(z);
-    let z2 = ze.mul(ze);
-    let inner =
-        coefficient(table.fact_inv[4].scale2(1)).add(z2.mul(coefficient(table.fact_inv[5])).neg());
-    let poly = z2.mul(inner).neg().add_f(1.0);
-    let s = z.hi * z.hi;
-    widen(ze.mul(poly).mul_f(0.25), s * s * s / 1180.0)
+fn sigmoid_band(x: f64, role: Role) -> Outcome {
+    let u = x * 0.5;
+    let w = u * u;
+    match role {
+        Role::Forward => {
+            let cube = u * w;
+            let rest = cube * horner(&TANH[..5], w) * 0.5;
+            let w5 = w * w * w * w * w;
+            leading(
+                0.5,
+                u * 0.5,
+                rest,
+                rest.abs(),
+                TANH[5].abs() * (cube * w5).abs() * 0.5,
+            )
+        }
+        Role::Derivative => {
+            let w2 = w * w;
+            let rest = w2 * horner(&SECH2[..5], w) * 0.25;
+            let w7 = w2 * w2 * w2 * w;
+            leading(
+                0.25,
+                -w * 0.25,
+                rest,
+                rest.abs(),
+                SECH2[5].abs() * w7 * 0.25,
+            )
+        }
+    }
 }
 
 /// σ(x) or σ′(x).
@@ -121,8 +121,8 @@ pub fn sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
     if let Some(o) = sigmoid_closed(format, x, role) {
         return o;
     }
-    if matches!(role, Role::Forward) && a < SERIES_LIMIT {
-        return Outcome::Near(0.5, sigmoid_series(x));
+    if a < BAND_LIMIT {
+        return sigmoid_band(x, role);
     }
     if a < 1.0 {
         // e^(−a) = 1 + em from expm1 alone (a short series below 1/16, no table exp):
@@ -175,30 +175,26 @@ fn tanh_closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     }
 }
 
-/// tanh(x) for 0 < |x| < 2^−12, from its Taylor series, without any exp.
-///
-/// tanh x = x·(1 − x²/3 + 2x⁴/15 − 17x⁶/315) + ρ with |ρ| ≤ 62|x|⁹/2835, the first omitted
-/// term (alternating, decreasing terms: see [`sigmoid_series`]), a relative |ρ|/|tanh x| ≤
-/// 62x⁸/(2835·(1 − x²/3)) ≤ x⁸/45.7 < 2^−101. x² is exact; 1/3 = 2·(1/3!), 2/15 = 16·(1/5!),
-/// 17/315 = 272·(1/7!) from the double-word table (2^−104 each, one more OP for the product by
-/// 272); each Horner step adds terms of unequal sign without cancellation (x² < 2^−24), and
-/// the bound composes through [`Ev`]; the truncation is added by [`widen`] as x⁸/45.
+/// tanh(x) or tanh′(x) for |x| < 2^−6 past the closed forms ([`super::series`]), with
+/// w = x² exact:
+/// * tanh x = x + x³·Σ_(n≥1) T_n·w^(n−1), kept to T_5, the rest below |T_6|·|x|¹³;
+/// * tanh′ x = sech² x = 1 − w + w²·Σ_(n≥2) S_n·w^(n−2), kept to S_6, the rest below |S_7|·w⁷.
 #[inline(always)]
-fn tanh_series(x: f64) -> Ev {
-    let table = tables();
-    let coefficient = |v: Dd| Ev {
-        v,
-        r: 4.930380657631324e-32, // 2^-104
-    };
-    let x2 = Ev::exact(Dd::prod(x, x));
-    let c7 = coefficient(table.fact_inv[7]).mul_f(272.0);
-    let c5 = coefficient(table.fact_inv[5].scale2(4));
-    let c3 = coefficient(table.fact_inv[3].scale2(1));
-    let inner = c5.add(x2.mul(c7).neg());
-    let inner = c3.add(x2.mul(inner).neg());
-    let poly = x2.mul(inner).neg().add_f(1.0);
-    let s = x * x;
-    widen(poly.mul_f(x), s * s * s * s / 45.0)
+fn tanh_band(x: f64, role: Role) -> Outcome {
+    let w = x * x;
+    match role {
+        Role::Forward => {
+            let cube = x * w;
+            let rest = cube * horner(&TANH[..5], w);
+            let w5 = w * w * w * w * w;
+            leading(x, 0.0, rest, rest.abs(), TANH[5].abs() * (cube * w5).abs())
+        }
+        Role::Derivative => {
+            let w2 = w * w;
+            let rest = w2 * horner(&SECH2[..5], w);
+            leading(1.0, -w, rest, rest.abs(), SECH2[5].abs() * w2 * w2 * w2 * w)
+        }
+    }
 }
 
 /// tanh(x) or tanh′(x).
@@ -216,8 +212,8 @@ pub fn tanh(format: Layout, x: f64, role: Role) -> Outcome {
     if let Some(o) = tanh_closed(format, x, role) {
         return o;
     }
-    if matches!(role, Role::Forward) && a < SERIES_LIMIT {
-        return Outcome::Value(tanh_series(x), 0);
+    if a < BAND_LIMIT {
+        return tanh_band(x, role);
     }
     if a < 1.0 {
         let em = expm1(Dd::new(-2.0 * a));
@@ -293,6 +289,44 @@ fn swish_closed(format: Layout, x: f64, z: f64, role: Role) -> Option<Outcome> {
     }
 }
 
+/// swish(x) or swish′(x) for |z| < 2^−6 past the closed forms ([`super::series`]), z = βx =
+/// z_h + z_l (TwoProd), v = z/2 taken as z_h/2 (the dropped z_l moves v³ by a relative 3u at
+/// most, inside the rest's bound), w = v²:
+/// * swish(x) = x/2 + βx²/4 + x·(v³/2)·Σ_(n≥1) T_n·w^(n−1) (σ(z) − 1/2 = tanh(v)/2), with
+///   βx² = p + q exactly (x² is exact, then TwoProd): the leading part x/2 + p/4, the rest
+///   q/4 plus the series kept to T_5, below |x|·|T_6|·|v|¹³/2 after it;
+/// * swish′(x) = σ(z) + z·σ′(z) = 1/2 + v + Σ_(n≥1) (n + 1)·T_n·v^(2n+1) (termwise from
+///   σ(z) − 1/2 = Σ T_n v^(2n+1)/2 and z·σ′(z) = Σ (2n + 1)·T_n·v^(2n+1)/2): the leading part
+///   1/2 + z_h/2, the rest z_l/2 plus the series kept to 6T_5, below 7|T_6|·|v|¹³ after it.
+#[inline(always)]
+fn swish_band(x: f64, beta: f64, z: Dd, role: Role) -> Outcome {
+    let v = z.hi * 0.5;
+    let w = v * v;
+    let cube = v * w;
+    let v13 = (cube * w * w * w * w * w).abs();
+    match role {
+        Role::Forward => {
+            let (p, q) = two_prod(beta, x * x);
+            let series = x * cube * horner(&TANH[..5], w) * 0.5;
+            let low = q * 0.25;
+            let truncation = x.abs() * TANH[5].abs() * v13 * 0.5;
+            leading(
+                x * 0.5,
+                p * 0.25,
+                low + series,
+                low.abs() + series.abs(),
+                truncation,
+            )
+        }
+        Role::Derivative => {
+            let series = cube * horner(&SWISH_SLOPE, w);
+            let low = z.lo * 0.5;
+            let truncation = 7.0 * TANH[5].abs() * v13;
+            leading(0.5, v, low + series, low.abs() + series.abs(), truncation)
+        }
+    }
+}
+
 /// swish(x) = x·σ(βx) or its derivative; β > 0 an f64.
 #[inline(always)]
 pub fn swish(format: Layout, x: f64, beta: f64, role: Role) -> Outcome {
@@ -317,10 +351,10 @@ pub fn swish(format: Layout, x: f64, beta: f64, role: Role) -> Outcome {
         // βx so small that TwoProd's error term could be subnormal: not exact any more.
         return Outcome::Decline;
     }
-    let xe = Ev::exact(Dd::new(x));
-    if matches!(role, Role::Forward) && a.hi < SERIES_LIMIT {
-        return Outcome::Value(xe.mul(logistic_series(z).add_f(0.5)), 0);
+    if a.hi < BAND_LIMIT {
+        return swish_band(x, beta, z, role);
     }
+    let xe = Ev::exact(Dd::new(x));
     if a.hi < 1.0 {
         // t = e^(−|z|) = 1 + em from expm1 alone (a short series below 1/16, no table exp);
         // em ∈ (−0.64, 0], so t = 1 + em and D = 2 + em lose nothing (tracked by Ev::add_f).
