@@ -42,8 +42,6 @@ pub struct Tables {
     inv: f64,
     /// 1/n! for n = 0..=24 (double-word, relative error ≤ 2^−104 each).
     pub fact_inv: [Dd; 25],
-    /// 1/(2n+1)!! for n = 0..=127 (double-word, relative error ≤ 2^−104 each).
-    pub odd_fact_inv: Vec<Dd>,
     /// 1/√(2π).
     pub inv_sqrt_2pi: Ev,
 }
@@ -77,12 +75,6 @@ pub fn tables() -> &'static Tables {
             }
             *slot = constant(&Float::with_val(prec, f.clone().recip())).v;
         }
-        let mut odd_fact_inv = Vec::with_capacity(128);
-        let mut g = Float::with_val(prec, 1);
-        for n in 0..128u32 {
-            g *= 2 * n + 1;
-            odd_fact_inv.push(constant(&Float::with_val(prec, g.clone().recip())).v);
-        }
         let pi2 = Float::with_val(prec, Constant::Pi) * 2u32;
         Tables {
             pow,
@@ -92,7 +84,6 @@ pub fn tables() -> &'static Tables {
             rho,
             inv: 64.0 / std::f64::consts::LN_2,
             fact_inv,
-            odd_fact_inv,
             inv_sqrt_2pi: constant(&pi2.sqrt().recip()),
         }
     })

@@ -19,6 +19,7 @@ mod elu;
 pub mod exp;
 mod gelu;
 mod logistic;
+mod mills;
 mod series;
 
 pub use decide::FAST_PRECISION;
