@@ -185,9 +185,7 @@ pub fn run_check(
     let folding = Folding {
         fold: &|points: &[Point]| {
             let mut part = template.fresh();
-            for p in points {
-                part.add(p);
-            }
+            part.add_all(points);
             (part, (!exhaustive).then(|| points.to_vec()))
         },
         join: &|(mut part, mut all): (Stream, Option<Vec<Point>>), (later, more)| {

@@ -140,6 +140,73 @@ impl Stream {
         self.kept.add(self.layout, p);
     }
 
+    /// Adds points in bit order, taking runs of equal points at once (see [`Self::add_run`]).
+    pub fn add_all(&mut self, points: &[Point]) {
+        let mut i = 0;
+        while i < points.len() {
+            let p = &points[i];
+            let mut end = i + 1;
+            if self.runnable(p) {
+                while end < points.len() && self.continues(p, &points[end], end - i) {
+                    end += 1;
+                }
+            }
+            if end - i > 1 {
+                self.add_run(p, points[end - 1].input);
+            } else {
+                self.add(p);
+            }
+            i = end;
+        }
+    }
+
+    /// Whether a point can start a run: finite nonzero input, finite output, a reference that
+    /// is finite and not subnormal (such points are kept one by one), no left-hand value.
+    #[inline(always)]
+    fn runnable(&self, p: &Point) -> bool {
+        let l = self.layout;
+        p.left.is_none()
+            && p.second.is_none()
+            && matches!(l.classify(p.input), Class::Normal | Class::Subnormal)
+            && p.output.is_some_and(|o| l.is_finite(o))
+            && matches!(l.classify(p.reference.bits), Class::Normal | Class::Zero)
+    }
+
+    /// Whether `q`, `offset` points after the run's first point `p`, continues the run: the
+    /// next bit pattern, same sign and exponent field, and the same output and reference.
+    #[inline(always)]
+    fn continues(&self, p: &Point, q: &Point, offset: usize) -> bool {
+        let l = self.layout;
+        let (a, b) = (p.reference, q.reference);
+        q.input.wrapping_sub(p.input) as usize == offset
+            && l.sign_and_exponent(q.input) == l.sign_and_exponent(p.input)
+            && q.output == p.output
+            && q.left.is_none()
+            && q.second.is_none()
+            && a.bits == b.bits
+            && a.precision == b.precision
+            && match (a.exact, b.exact) {
+                (Some(x), Some(y)) => {
+                    x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
+                }
+                (None, None) => true,
+                _ => false,
+            }
+    }
+
+    /// Adds the points of inputs `p.input..=last`, all equal to p but for the input (checked by
+    /// [`Self::add_all`]): each accumulator takes them at once, with the figures of adding
+    /// them one by one; none of them is a kept point.
+    fn add_run(&mut self, p: &Point, last: u32) {
+        self.accuracy.add_run(p, last);
+        if let Some(s) = &mut self.shape {
+            s.add_run(p, last);
+        }
+        if let Some(r) = &mut self.runs {
+            r.add_run(p, last);
+        }
+    }
+
     /// Makes the state writable as JSON (see [`AccuracyAcc::make_portable`]).
     pub fn make_portable(&mut self) {
         self.accuracy.make_portable();
@@ -173,5 +240,113 @@ impl Stream {
             self.runs.map(|r| r.finish()),
             self.kept.into_points(),
         )
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::format::{Binary32, ExactValue};
+    use crate::reference::Reference;
+
+    fn reference(bits: u32, approx: f64, binade: i32) -> Reference {
+        Reference {
+            bits,
+            exact: Some(ExactValue { approx, binade }),
+            precision: 64,
+        }
+    }
+
+    /// Points of binary32 inputs with long stretches of equal output and reference — across
+    /// a binade edge, plot-bucket edges, both signs, zeros — broken by a few differing
+    /// outputs, a NaN output, subnormal references and a lone point.
+    fn points() -> Vec<Point> {
+        let mut v = Vec::new();
+        let mut push = |input: u32, output: Option<u32>, r: Reference| {
+            v.push(Point {
+                input,
+                second: None,
+                output,
+                reference: r,
+                left: None,
+            })
+        };
+        let one = reference(0x3f80_0000, 1.0, 0);
+        let zero = reference(0x8000_0000, -0.0, -126);
+        let tiny = reference(0x0000_0003, 3.0 * 2f64.powi(-149), -126);
+        for x in 0u32..=3 {
+            push(x, Some(0), reference(0, 0.0, -126));
+        }
+        for x in 0x4100_0000u32 - 9000..0x4100_0000 + 9000 {
+            let output = match x % 4099 {
+                0 => Some(0x3f80_0001),
+                7 => Some(0x7fc0_0000),
+                _ => Some(0x3f80_0000),
+            };
+            push(x, output, one);
+        }
+        for x in 0x4200_0000u32..0x4200_0002 {
+            push(
+                x,
+                Some(0x3f80_0000),
+                reference(0x3f80_0000, 1.0 - 1e-12, -1),
+            );
+        }
+        for x in 0x8000_0000u32..0x8000_0100 {
+            push(x, Some(0x8000_0000), zero);
+        }
+        for x in 0x8100_0000u32..0x8100_0300 {
+            push(x, Some(if x % 5 == 0 { 0 } else { 3 }), tiny);
+        }
+        for x in 0xc100_0000u32 - 6000..0xc100_0000 + 6000 {
+            push(x, Some(0x8000_0000), zero);
+        }
+        v
+    }
+
+    /// Runs taken at once leave exactly the state that adding the points one by one leaves.
+    #[test]
+    fn runs_add_like_single_points() {
+        let points = points();
+        let span = Some((-(1i64 << 31), 1i64 << 31));
+        let narrow = Some((-(1i64 << 21), 1i64 << 21));
+        for (span, list_over, abs_floor) in [
+            (span, None, None),
+            (narrow, None, Some(1e-6)),
+            (span, Some(0.5), None),
+            (None, None, None),
+        ] {
+            let new = || {
+                Stream::new(
+                    AccuracyAcc::new(&Binary32, abs_floor, list_over, span),
+                    Some(ShapeAcc::new(&Binary32, true)),
+                    true,
+                )
+            };
+            let (mut single, mut runs) = (new(), new());
+            // Parts of 2048 points, as the sweep folds them, then merged in order.
+            for chunk in points.chunks(2048) {
+                let (mut one_by_one, mut at_once) = (single.fresh(), runs.fresh());
+                for p in chunk {
+                    one_by_one.add(p);
+                }
+                at_once.add_all(chunk);
+                single.merge(one_by_one);
+                runs.merge(at_once);
+            }
+            single.make_portable();
+            runs.make_portable();
+            let text = |s: &Stream| serde_json::to_string(s).unwrap();
+            let (a, b) = (text(&single), text(&runs));
+            let at = a.bytes().zip(b.bytes()).position(|(x, y)| x != y);
+            let around =
+                |t: &str, i: usize| t[i.saturating_sub(300)..(i + 100).min(t.len())].to_string();
+            assert!(
+                a == b,
+                "{span:?} {list_over:?} {abs_floor:?}: one by one {} vs runs {}",
+                around(&a, at.unwrap_or(0)),
+                around(&b, at.unwrap_or(0))
+            );
+        }
     }
 }

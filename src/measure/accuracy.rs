@@ -251,19 +251,24 @@ struct Acc {
 }
 
 impl Acc {
-    fn add(&mut self, input: u32, error: f64, correct: bool) {
+    /// Adds n points of equal error, inputs `input..=last`.
+    fn add(&mut self, input: u32, last: u32, error: f64, correct: bool, n: u64) {
         if self.points == 0 {
             self.first = input;
         }
-        self.last = input;
-        self.points += 1;
+        self.last = last;
+        self.points += n;
         // Strict comparison keeps the lowest input on ties: points arrive in bit order.
         if self.worst.is_none() || error > self.max {
             self.max = error;
             self.worst = Some(input);
         }
-        self.sum.add(error);
-        self.correct += correct as u64;
+        if n == 1 {
+            self.sum.add(error);
+        } else {
+            self.sum.add_times(error, n);
+        }
+        self.correct += correct as u64 * n;
     }
 }
 
@@ -524,10 +529,35 @@ impl AccuracyAcc {
 
     /// Adds one point; points must come in strictly increasing input bit order.
     pub fn add(&mut self, p: &Point) {
+        self.add_points(p, p.input, 1);
+    }
+
+    /// Adds the points of inputs `p.input..=last` (consecutive bit patterns of one sign and
+    /// one exponent field, finite and nonzero), each with p's output, reference and no
+    /// left-hand reference: the figures of adding them one by one.
+    pub fn add_run(&mut self, p: &Point, last: u32) {
+        let l = self.layout;
+        let within = self
+            .bucket_of(l.ordinal(p.input))
+            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last)));
+        // Listed points and points off a fixed grid are recorded one by one.
+        if !within || self.list_over.is_some() {
+            for input in p.input..=last {
+                self.add(&Point { input, ..p.clone() });
+            }
+            return;
+        }
+        self.add_points(p, last, u64::from(last - p.input) + 1);
+    }
+
+    /// [`Self::add`] for `n` equal points from p.input to `last` (n > 1 only on a grid and
+    /// without listing, see [`Self::add_run`]).
+    #[inline(always)]
+    fn add_points(&mut self, p: &Point, last: u32, n: u64) {
         let format = self.format;
         let l = self.layout;
-        debug_assert!(self.last_input.map_or(true, |last| last < p.input));
-        self.last_input = Some(p.input);
+        debug_assert!(self.last_input.map_or(true, |before| before < p.input));
+        self.last_input = Some(last);
         let input_finite = l.is_finite(p.input);
         let j = match p.output {
             Some(out) if input_finite && l.is_finite(out) => judge_point(l, p, out),
@@ -535,13 +565,13 @@ impl AccuracyAcc {
         };
         let Some(j) = j else {
             if input_finite && p.output.is_some() {
-                self.excluded += 1;
+                self.excluded += n;
             }
             return;
         };
         let out = p.output.expect("judged");
         if l.classify(j.reference) == Class::Subnormal && l.classify(out) == Class::Zero {
-            self.ftz += 1;
+            self.ftz += n;
             return;
         }
         // Strict comparison keeps the lowest input on ties: points arrive in bit order.
@@ -577,14 +607,14 @@ impl AccuracyAcc {
             self.over_limit
                 .push(RawWorst::of(p, &j, j.error).report(format));
         }
-        self.faithful += j.faithful as u64;
+        self.faithful += j.faithful as u64 * n;
         let bin = BINS
             .iter()
             .position(|&b| j.error <= b)
             .unwrap_or(BINS.len());
-        self.histogram[bin] += 1;
+        self.histogram[bin] += n;
         let stretch = self.stretch.as_mut().expect("started above");
-        stretch.acc.add(p.input, j.error, j.correct);
+        stretch.acc.add(p.input, last, j.error, j.correct, n);
         if let Some(a) = self.abs_floor {
             let ulp = j.exact.ulp(format);
             let floored = j.error * ulp / ulp.max(a);

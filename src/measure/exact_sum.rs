@@ -71,6 +71,20 @@ impl Slot {
         self.squares_lo = lo;
         self.squares_carries += carry as u64;
     }
+    /// Adds k, n times: Σk grows by k·n (|k·n| < 2^85), Σk² by k²·n (< 2^138: its part above
+    /// 2^128 goes to the carry counter).
+    fn add_times(&mut self, k: i64, n: u64) {
+        self.sum += k as i128 * n as i128;
+        let sq = (k.unsigned_abs() as u128) * (k.unsigned_abs() as u128);
+        let (high, low) = (sq >> 64, sq & u64::MAX as u128);
+        // sq·n = high·n·2^64 + low·n, each product below 2^128.
+        let upper = high * n as u128;
+        let lower = low * n as u128;
+        let (lo, c1) = self.squares_lo.overflowing_add(lower);
+        let (lo, c2) = lo.overflowing_add((upper & u64::MAX as u128) << 64);
+        self.squares_lo = lo;
+        self.squares_carries += (upper >> 64) as u64 + c1 as u64 + c2 as u64;
+    }
     fn merge(&mut self, other: &Slot) {
         self.sum += other.sum;
         let (lo, carry) = self.squares_lo.overflowing_add(other.squares_lo);
@@ -107,6 +121,15 @@ impl ExactSum {
         let (k, field) = decompose(v);
         if k != 0 {
             self.slot(field).add(k);
+        }
+    }
+    /// Adds a finite value n times (the sum of n equal values, exactly).
+    pub fn add_times(&mut self, v: f64, n: u64) {
+        debug_assert!(v.is_finite());
+        self.count += n;
+        let (k, field) = decompose(v);
+        if k != 0 {
+            self.slot(field).add_times(k, n);
         }
     }
     /// Adds another sum.
@@ -227,5 +250,24 @@ mod tests {
             (k.clone() * &k * (1u64 << 23)) << (2 * shift)
         );
         assert_eq!(many.totals().0, (k * (1u64 << 23)) << shift);
+        // The same values added at once, and a mix of counts, equal the one-by-one sums.
+        let mut at_once = ExactSum::default();
+        at_once.add_times(v, 1 << 23);
+        assert_eq!(at_once, many);
+        let (mut one_by_one, mut batched) = (ExactSum::default(), ExactSum::default());
+        for (i, &v) in values.iter().chain(&[-v, v, 1e-310]).enumerate() {
+            let n = [1u64, 2, 3, 4095, 70_000, 1 << 32][i % 6];
+            batched.add_times(v, n);
+            for _ in 0..n.min(70_000) {
+                one_by_one.add(v);
+            }
+            if n > 70_000 {
+                let mut rest = ExactSum::default();
+                rest.add_times(v, n - 70_000);
+                one_by_one.merge(&rest);
+            }
+        }
+        assert_eq!(batched.totals(), one_by_one.totals());
+        assert_eq!(batched.count(), one_by_one.count());
     }
 }

@@ -206,6 +206,13 @@ impl NonFiniteStream {
     pub fn add(&mut self, p: &Point) {
         self.builder.push(p.input, classes(self.layout, p));
     }
+    /// Adds the points of inputs `p.input..=last`, each with p's output and reference, both
+    /// finite: none is a mismatch, so the run only moves the previous point along.
+    pub fn add_run(&mut self, p: &Point, last: u32) {
+        let c = classes(self.layout, p);
+        self.builder.push(p.input, c);
+        self.builder.previous = Some((last, c));
+    }
     /// Joins a stream of later points (all above ours in bit order).
     pub fn merge(&mut self, other: NonFiniteStream) {
         self.builder.merge(other.builder);

@@ -194,6 +194,21 @@ impl ShapeAcc {
         side.last = Some(seen);
     }
 
+    /// Adds the points of inputs `p.input..=last` (consecutive patterns of one sign, finite
+    /// input and output), each with p's output and reference: no pair inside such a run steps
+    /// back or jumps, so only its first point's pair and its last point count.
+    pub fn add_run(&mut self, p: &Point, last: u32) {
+        self.add(p);
+        let side = if self.layout.is_sign_negative(p.input) {
+            &mut self.negative
+        } else {
+            &mut self.positive
+        };
+        if let Some(seen) = &mut side.last {
+            seen.input = last;
+        }
+    }
+
     /// Joins an accumulator of later points (all above ours in bit order).
     pub fn merge(&mut self, other: ShapeAcc) {
         // The pairs across the seam: our last and their first point of each sign.
