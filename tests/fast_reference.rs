@@ -627,6 +627,44 @@ fn leading_term_bands() {
     }
 }
 
+/// ELU's leading-term bands (forward −2^−8 ≤ x < 0 from the subnormals up, derivative
+/// −2^−20 ≤ x ≤ −2^−55): every binade (200 random patterns each, negative side), the short
+/// patterns, the bands' ends ±300 patterns in every format, α = 1, 0.5 and the binary64
+/// nearest 1.7 (53 significant bits, so α·x is inexact).
+#[test]
+fn elu_leading_term_bands() {
+    let mut g = Mix(81);
+    let long = "alpha=1.70000000000000017763568394002504646778106689453125";
+    for alpha in ["alpha=1", "alpha=0.5", long] {
+        for (role, lowest, top) in [(Role::Forward, -126, -8), (Role::Derivative, -55, -20)] {
+            let mut inside = per_binade(&mut g, lowest, top - lowest, 200);
+            inside.extend(short_patterns(lowest));
+            if role == Role::Forward {
+                // Subnormal inputs.
+                inside.extend((0..2000).map(|_| 0x8000_0001 + (g.next() % 0x7f_ffff) as u32));
+            }
+            inside.retain(|&x| f32::from_bits(x) < 0.0 && f32::from_bits(x) >= -(2f32.powi(top)));
+            let (d, t) = compare("elu", role, &Binary32, &[alpha], &inside);
+            eprintln!("elu {alpha} {role:?} leading-term band: decided {d}/{t}");
+            assert!(
+                d as f64 >= 0.999 * t as f64,
+                "elu {alpha} {role:?}: {d}/{t} decided"
+            );
+            for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
+                let mut edges = Vec::new();
+                for e in [2f64.powi(lowest.max(-60)), 2f64.powi(top)] {
+                    edges.extend(neighbours(format, -e, 300));
+                }
+                let (d, t) = compare("elu", role, format, &[alpha], &edges);
+                eprintln!(
+                    "elu {alpha} {role:?} {}: edges decided {d}/{t}",
+                    format.name()
+                );
+            }
+        }
+    }
+}
+
 /// e^a − 1 for |a| < 1/16 sums its high-order terms in f64: every binade of 2^−40 ≤ |x| < 1
 /// of the functions built on it, both roles, against the engine.
 #[test]

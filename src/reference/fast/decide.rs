@@ -53,6 +53,14 @@ pub enum Outcome {
 /// decides only when g = 0 (a tie of h alone), and then by its sign alone.
 #[inline(always)]
 pub fn round_dd(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
+    round_flagged(format, h, l, k).map(|(bits, binade, _)| (bits, binade))
+}
+
+/// [`round_dd`], and whether 2^k·h with l = 0 would be a point where the rounding or the
+/// binade changes (a midpoint of the format or a power of two): only then can a neighbour of
+/// 2^k·h round or fall differently.
+#[inline(always)]
+fn round_flagged(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32, bool)> {
     let negative = h < 0.0;
     let (h, l) = if negative { (-h, -l) } else { (h, l) };
     let emin = format.emin();
@@ -66,7 +74,7 @@ pub fn round_dd(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
     }
     if b <= (emin - p - 1) as i64 {
         // |y| < 2^(emin − p), half the smallest subnormal: rounds to a signed zero.
-        return Some((format.encode(negative, 0, 0), emin));
+        return Some((format.encode(negative, 0, 0), emin, false));
     }
     let b = b as i32;
     let cb = b.max(emin);
@@ -93,27 +101,26 @@ pub fn round_dd(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
         (n0 as u64) % 2 == 1
     };
     let kint = n0 as u64 + up as u64;
-    Some((format.encode(negative, kint, q), cb))
+    let boundary = (sh != n0 && g == 0.0) || is_pow2(h);
+    Some((format.encode(negative, kint, q), cb, boundary))
 }
 
-/// Decides 2^k·v with absolute error bound e (in the unscaled units of v): both ends of
-/// [v − e, v + e] must round alike and share the clamped binade.
+/// Decides 2^k·v with absolute error bound e (in the unscaled units of v): every point of
+/// [v − e, v + e]·2^k must round alike into the format and binary64 and share the clamped
+/// binade; returns the bits, the binade and RN_binary64.
 #[inline(always)]
-fn decide_interval(format: Layout, v: Dd, e: f64, k: i32) -> Option<(u32, i32)> {
+fn decide_interval(format: Layout, v: Dd, e: f64, k: i32) -> Option<(u32, i32, f64)> {
     if v.hi == 0.0 || !v.hi.is_finite() || !less(e, v.hi.abs() * MAX_REL) {
         // e must be ≤ 2^−40·|v|: the ends keep v's sign and stay normal.
         return None;
     }
+    let approx = nearest_f64(v, e, k)?;
     // RN(lo − e) rounds by at most half the gap beside it, so one step down (up) gives a
     // number below (above) the exact lo − e (lo + e); TwoSum then adds hi exactly.
-    let (lh, ll) = two_sum(v.hi, next_down(v.lo - e));
-    let (hh, hl) = two_sum(v.hi, next_up(v.lo + e));
-    let lo_end = round_dd(format, lh, ll, k)?;
-    let hi_end = round_dd(format, hh, hl, k)?;
-    if lo_end != hi_end || format.classify(lo_end.0) == Class::Infinite {
-        return None;
-    }
-    Some(lo_end)
+    let low = two_sum(v.hi, next_down(v.lo - e));
+    let high = two_sum(v.hi, next_up(v.lo + e));
+    let (bits, binade) = round_within(format, approx, low, high, k)?;
+    Some((bits, binade, approx))
 }
 
 /// 2^k·x as an f64 (RN, through at most two roundings: within 1 ulp of binary64).
@@ -279,8 +286,7 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
             if !less(v.r, MAX_REL) {
                 return None;
             }
-            let (bits, binade) = decide_interval(format, v.v, absolute(&v), k)?;
-            let approx = nearest_f64(v.v, absolute(&v), k)?;
+            let (bits, binade, approx) = decide_interval(format, v.v, absolute(&v), k)?;
             Some(reference(bits, binade, approx, FAST_PRECISION))
         }
         Outcome::Near(base, delta) => {
@@ -301,8 +307,7 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
             if !less(sum.r, MAX_REL) {
                 return None;
             }
-            let (bits, binade) = decide_interval(format, sum.v, absolute(&sum), 0)?;
-            let approx = nearest_f64(sum.v, absolute(&sum), 0)?;
+            let (bits, binade, approx) = decide_interval(format, sum.v, absolute(&sum), 0)?;
             Some(reference(bits, binade, approx, FAST_PRECISION))
         }
     }
@@ -355,13 +360,37 @@ fn decide_leading(format: Layout, s: Dd, c: f64, e: f64) -> Option<(u32, i32, f6
     }
     let low = two_sum(s.hi, next_down(s.lo + next_down(c - e)));
     let high = two_sum(s.hi, next_up(s.lo + next_up(c + e)));
-    let lo_end = round_dd(format, low.0, low.1, 0)?;
-    let hi_end = round_dd(format, high.0, high.1, 0)?;
-    if lo_end != hi_end || format.classify(lo_end.0) == Class::Infinite || low.0 != high.0 {
+    // TwoSum's leading part is RN_binary64 of each end, so of every point between.
+    if low.0 != high.0 {
         return None;
     }
-    // TwoSum's leading part is RN_binary64 of each end, so of every point between.
-    Some((lo_end.0, lo_end.1, low.0))
+    let (bits, binade) = round_within(format, low.0, low, high, 0)?;
+    Some((bits, binade, low.0))
+}
+
+/// RN into the format and the clamped binade of every point of an interval [L, H] (the ends
+/// as double-words, scaled by 2^k) whose points all have RN_binary64 = `approx`.  Every point
+/// where the rounding or the binade changes is a binary64 number (p ≤ 24), and one inside the
+/// interval would round to itself, so it could only be `approx`: unless `approx` is such a
+/// point (or zero), the interval rounds and falls like `approx` alone; if it is, both ends
+/// decide.
+#[inline(always)]
+fn round_within(
+    format: Layout,
+    approx: f64,
+    low: (f64, f64),
+    high: (f64, f64),
+    k: i32,
+) -> Option<(u32, i32)> {
+    // A zero approximation (|y| < 2^−1075) takes the ends too: its sign is the ends' own.
+    let (bits, binade, boundary) = round_flagged(format, approx, 0.0, 0)?;
+    let decided = if boundary || approx == 0.0 {
+        let lo_end = round_dd(format, low.0, low.1, k)?;
+        (lo_end == round_dd(format, high.0, high.1, k)?).then_some(lo_end)?
+    } else {
+        (bits, binade)
+    };
+    (format.classify(decided.0) != Class::Infinite).then_some(decided)
 }
 
 /// The lowest set bit of a normal nonzero f64, as a power of two (every multiple of it).

@@ -8,10 +8,11 @@
 //! (ratios given beside each table), so the truncation error is below the first omitted term.
 //! The kept part is a polynomial Σ c_k w^k in w = (argument)² ≥ 0 with |c_(k+1)|·w ≤
 //! |c_k|·2^−10 in every band (w ≤ 2^−12 and coefficient ratios at most 0.6), so Σ|c_k|w^k and
-//! |Σ c_k w^k| are within a factor 1 ± 2^−9 of |c_0|.  Horner in binary64 with at most six
-//! steps errs by γ_12·Σ|c_k|w^k (Higham, Accuracy and Stability of Numerical Algorithms,
-//! eq. 5.3; remembered), the coefficients, each rounded once from its rational value, by
-//! u·Σ|c_k|w^k more, u = 2^−53: together below 14u·|p|·1.01.  At most four more roundings
+//! |Σ c_k w^k| are within a factor 1 ± 2^−9 of |c_0| (ELU's series runs in x rather than x²,
+//! with the same ratio bound).  Horner in binary64 with at most seven steps errs by
+//! γ_14·Σ|c_k|w^k (Higham, Accuracy and Stability of Numerical Algorithms, eq. 5.3;
+//! remembered), the coefficients, each rounded once from its rational value, by u·Σ|c_k|w^k
+//! more, u = 2^−53: together below 16u·|p|·1.01.  At most four more roundings
 //! (the power of the argument, the products with it, a dropped low word of βx) bring the
 //! computed rest within [`REST_REL`] = 32u of its exact value; a rest that is a sum of two
 //! such parts takes the bound on the sum of their magnitudes.
@@ -81,6 +82,19 @@ pub const NORMAL_SLOPE: [f64; 6] = [
     5.0 / 1728.0,
     -1.0 / 3520.0,
     7.0 / 299520.0,
+];
+
+/// e^x − 1 − x − x²/2 = x³·Σ_(k≥0) x^k/(k + 3)!: 1/3! … 1/10!.  For x < 0 the terms
+/// alternate; ratios |x|/(k + 4) ≤ 2^−10 for |x| ≤ 2^−8.
+pub const EXPM1_CUBIC: [f64; 8] = [
+    1.0 / 6.0,
+    1.0 / 24.0,
+    1.0 / 120.0,
+    1.0 / 720.0,
+    1.0 / 5040.0,
+    1.0 / 40320.0,
+    1.0 / 362880.0,
+    1.0 / 3628800.0,
 ];
 
 /// Σ c_k·w^k by Horner in plain binary64.
