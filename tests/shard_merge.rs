@@ -295,6 +295,22 @@ fn incomplete_duplicate_or_mixed_shards_are_refused() {
     ]));
     assert_eq!(code, 0);
     merge_fails(&dir, &[&whole], "not a shard report");
+    // A shard written by a build whose state has another layout (here: one without the
+    // version field, like every build before it, and one from a later layout).
+    for (version, expected) in [
+        (None, "state version none"),
+        (Some(999), "state version 999"),
+    ] {
+        let mut old = read(&a[1]);
+        let shard = old["shard"].as_object_mut().unwrap();
+        match version {
+            None => shard.remove("state_version"),
+            Some(v) => shard.insert("state_version".into(), v.into()),
+        };
+        let path = dir.join("other-build.json");
+        std::fs::write(&path, old.to_string()).unwrap();
+        merge_fails(&dir, &[&a[0], &path, &a[2]], expected);
+    }
     let garbage = dir.join("garbage.json");
     std::fs::write(&garbage, "{ not json").unwrap();
     merge_fails(&dir, &[&garbage], "not a JSON report");

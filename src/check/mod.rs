@@ -21,7 +21,7 @@ pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, Kerne
 pub use probe::{gradient_factor, Folding, Prober, RoleReferences};
 pub use provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance};
 pub use runner_kernel::RunnerKernel;
-pub use shard::Shard;
+pub use shard::{Shard, STATE_VERSION};
 
 use crate::activation::{Constants, Entry, Role};
 use crate::format::Format;
@@ -286,6 +286,7 @@ pub fn run_check(
             Some(ShardSection {
                 index: s.index,
                 count: s.count,
+                state_version: STATE_VERSION,
                 state,
             })
         }

@@ -140,19 +140,21 @@ impl Stream {
         self.kept.add(self.layout, p);
     }
 
-    /// Adds points in bit order, taking runs of equal points at once (see [`Self::add_run`]).
+    /// Adds points in bit order, taking runs at once (see [`Self::add_run`]).
     pub fn add_all(&mut self, points: &[Point]) {
         let mut i = 0;
         while i < points.len() {
             let p = &points[i];
             let mut end = i + 1;
             if self.runnable(p) {
-                while end < points.len() && self.continues(p, &points[end], end - i) {
+                while end < points.len()
+                    && self.continues(p, &points[end - 1], &points[end], end - i)
+                {
                     end += 1;
                 }
             }
             if end - i > 1 {
-                self.add_run(p, points[end - 1].input);
+                self.add_run(p, &points[end - 1]);
             } else {
                 self.add(p);
             }
@@ -172,38 +174,66 @@ impl Stream {
             && matches!(l.classify(p.reference.bits), Class::Normal | Class::Zero)
     }
 
-    /// Whether `q`, `offset` points after the run's first point `p`, continues the run: the
-    /// next bit pattern, same sign and exponent field, and the same output and reference.
+    /// Whether the output is the reference and equals the exact value: error 0.
     #[inline(always)]
-    fn continues(&self, p: &Point, q: &Point, offset: usize) -> bool {
-        let l = self.layout;
-        let (a, b) = (p.reference, q.reference);
-        q.input.wrapping_sub(p.input) as usize == offset
-            && l.sign_and_exponent(q.input) == l.sign_and_exponent(p.input)
-            && q.output == p.output
-            && q.left.is_none()
-            && q.second.is_none()
-            && a.bits == b.bits
-            && a.precision == b.precision
-            && match (a.exact, b.exact) {
-                (Some(x), Some(y)) => {
-                    x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
-                }
-                (None, None) => true,
-                _ => false,
-            }
+    fn exact(&self, p: &Point) -> bool {
+        let r = p.reference;
+        p.output == Some(r.bits)
+            && r.exact
+                .is_some_and(|e| e.approx.to_bits() == self.layout.to_f64(r.bits).to_bits())
     }
 
-    /// Adds the points of inputs `p.input..=last`, all equal to p but for the input (checked by
-    /// [`Self::add_all`]): each accumulator takes them at once, with the figures of adding
-    /// them one by one; none of them is a kept point.
-    fn add_run(&mut self, p: &Point, last: u32) {
-        self.accuracy.add_run(p, last);
+    /// Whether `q`, `offset` points after the run's first point `p` (just after `previous`),
+    /// continues the run: the next bit pattern, same sign and exponent field, no left-hand
+    /// value, and either the same output and reference as p, or both exact (see
+    /// [`Self::exact`]) with a reference that does not step back from the previous one.
+    #[inline(always)]
+    fn continues(&self, p: &Point, previous: &Point, q: &Point, offset: usize) -> bool {
+        let l = self.layout;
+        let (a, b) = (p.reference, q.reference);
+        let consecutive = q.input.wrapping_sub(p.input) as usize == offset
+            && l.sign_and_exponent(q.input) == l.sign_and_exponent(p.input)
+            && q.left.is_none()
+            && q.second.is_none();
+        let equal = || {
+            q.output == p.output
+                && a.bits == b.bits
+                && a.precision == b.precision
+                && match (a.exact, b.exact) {
+                    (Some(x), Some(y)) => {
+                        x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
+                    }
+                    (None, None) => true,
+                    _ => false,
+                }
+        };
+        let both_exact = || {
+            let (before, now) = (l.ordinal(previous.reference.bits), l.ordinal(b.bits));
+            // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
+            let forward = if l.is_sign_negative(q.input) {
+                now <= before
+            } else {
+                now >= before
+            };
+            self.exact(p)
+                && self.exact(q)
+                && forward
+                && matches!(l.classify(b.bits), Class::Normal | Class::Zero)
+        };
+        consecutive && (equal() || both_exact())
+    }
+
+    /// Adds the run from `first` to `last` (consecutive inputs, checked by [`Self::add_all`]):
+    /// either every point equals `first` but for the input, or every output is its reference
+    /// and equals the exact value (error 0), the references never stepping back.  Each accumulator takes the run at once, with the
+    /// figures of adding the points one by one; none of them is a kept point.
+    fn add_run(&mut self, first: &Point, last: &Point) {
+        self.accuracy.add_run(first, last.input);
         if let Some(s) = &mut self.shape {
-            s.add_run(p, last);
+            s.add_run(first, last);
         }
         if let Some(r) = &mut self.runs {
-            r.add_run(p, last);
+            r.add_run(first, last.input);
         }
     }
 
@@ -300,6 +330,17 @@ mod tests {
         }
         for x in 0xc100_0000u32 - 6000..0xc100_0000 + 6000 {
             push(x, Some(0x8000_0000), zero);
+        }
+        // Exact outputs that change from point to point (an identity), a few off by one ulp,
+        // and a stretch whose reference steps back (only a kernel error could show it).
+        for x in 0x4400_0000u32 - 5000..0x4400_0000 + 5000 {
+            let value = f32::from_bits(x) as f64;
+            let output = if x % 3001 == 0 { x + 1 } else { x };
+            push(x, Some(output), reference(x, value, 0));
+        }
+        for x in 0x4500_0000u32..0x4500_0040 {
+            let r = 0x4600_0000 - (x & 7);
+            push(x, Some(r), reference(r, f32::from_bits(r) as f64, 13));
         }
         v
     }

@@ -533,8 +533,9 @@ impl AccuracyAcc {
     }
 
     /// Adds the points of inputs `p.input..=last` (consecutive bit patterns of one sign and
-    /// one exponent field, finite and nonzero), each with p's output, reference and no
-    /// left-hand reference: the figures of adding them one by one.
+    /// one exponent field, finite and nonzero, no left-hand reference), each with p's error,
+    /// correctness and faithfulness — p's output and reference, or any exact output (error 0)
+    /// when p's is — and no subnormal reference: the figures of adding them one by one.
     pub fn add_run(&mut self, p: &Point, last: u32) {
         let l = self.layout;
         let within = self

@@ -194,18 +194,23 @@ impl ShapeAcc {
         side.last = Some(seen);
     }
 
-    /// Adds the points of inputs `p.input..=last` (consecutive patterns of one sign, finite
-    /// input and output), each with p's output and reference: no pair inside such a run steps
-    /// back or jumps, so only its first point's pair and its last point count.
-    pub fn add_run(&mut self, p: &Point, last: u32) {
-        self.add(p);
-        let side = if self.layout.is_sign_negative(p.input) {
+    /// Adds a run of consecutive inputs of one sign, finite inputs and outputs, in which either
+    /// every point has `first`'s output and reference, or every output is its reference and
+    /// the references never step back: no pair inside steps back or jumps (equal kernel and
+    /// reference steps are no jump), so only the first point's pair and the last point count.
+    pub fn add_run(&mut self, first: &Point, last: &Point) {
+        self.add(first);
+        let side = if self.layout.is_sign_negative(first.input) {
             &mut self.negative
         } else {
             &mut self.positive
         };
-        if let Some(seen) = &mut side.last {
-            seen.input = last;
+        if let (Some(seen), Some(output)) = (&mut side.last, last.output) {
+            *seen = Seen {
+                input: last.input,
+                output,
+                reference: last.reference.bits,
+            };
         }
     }
 

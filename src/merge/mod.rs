@@ -9,7 +9,7 @@
 //! Every figure and verdict equals the unsharded run's; `kernel.ns_per_element` and
 //! `provenance` are shard 1's.
 
-use crate::check::{verdict, Confirmation, Figures, Gathered, HygieneEntry};
+use crate::check::{verdict, Confirmation, Figures, Gathered, HygieneEntry, STATE_VERSION};
 use crate::format::{self, Format};
 use crate::report::model::SCHEMA;
 use serde_json::{Map, Value};
@@ -158,6 +158,16 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
     let format_name = first.get("format").and_then(Value::as_str).unwrap_or("");
     let format: &'static dyn Format = format::by_name(format_name)
         .ok_or_else(|| format!("{}: unknown format {format_name:?}", first_path.display()))?;
+    for &(path, report) in &ordered {
+        let version = report["shard"].get("state_version").and_then(Value::as_u64);
+        if version != Some(u64::from(STATE_VERSION)) {
+            let written = version.map_or("none".to_string(), |v| v.to_string());
+            return Err(format!(
+                "{}: shard state version {written}, this build reads {STATE_VERSION} (run every shard with one ulpgauge build)",
+                path.display()
+            ));
+        }
+    }
     let mut states = ordered.iter().map(|&(path, report)| {
         let state = report
             .get("shard")

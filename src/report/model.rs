@@ -157,6 +157,9 @@ pub struct ShardSection {
     pub index: u64,
     /// How many parts.
     pub count: u64,
+    /// The layout of `state` ([`crate::check::STATE_VERSION`]): `merge` joins only states of
+    /// the layout it reads.
+    pub state_version: u32,
     /// The measured state (accumulators, kept points, probe points, crashes), for `merge`.
     pub state: serde_json::Value,
 }
