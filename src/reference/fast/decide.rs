@@ -319,8 +319,8 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
 /// two, a binary64 midpoint) lies, near s (within |h|/4), on the grid G of multiples of
 /// 2^(eb−54), eb = ilogb(h).  If l = 0, s = h ∈ G; if not, s − g for g ∈ G is a multiple of
 /// min(q, 2^(eb−54)), q the lowest set bit of l (h is a multiple of 2^(eb−52)), so it is zero
-/// or at least that large.  So with d = min(q, 2^(eb−54))/4 and |c| + e < d, no such point lies strictly
-/// between s and y, nor at y: y rounds and falls like s nudged towards c's side, and s itself
+/// or at least that large.  So with d = min(q, 2^(eb−54))/4 and |c| + e < d, no such point
+/// lies strictly between s and y, nor at y: y rounds and falls like s nudged towards c's side, and s itself
 /// can be such a point only when l = 0 or |l| is half a binary64 gap (handled by
 /// [`nearest_nudged`]; `round_dd` takes the nudge as a tiny l of c's sign).  Otherwise the
 /// ends s + (c ∓ e), each rounded outwards twice (c ∓ e, then l + it) and added exactly by
@@ -330,6 +330,7 @@ fn decide_leading(format: Layout, s: Dd, c: f64, e: f64) -> Option<(u32, i32, f6
     if !less(e, c.abs())
         || !less(c.abs(), s.hi.abs() * 0.25)
         || !s.hi.is_normal()
+        || ilogb(s.hi) < -960
         || (s.lo != 0.0 && !s.lo.is_normal())
     {
         return None;
@@ -393,11 +394,17 @@ fn round_within(
     (format.classify(decided.0) != Class::Infinite).then_some(decided)
 }
 
-/// The lowest set bit of a normal nonzero f64, as a power of two (every multiple of it).
+/// The lowest set bit of a normal nonzero f64, as a power of two (v is a multiple of it); 0
+/// when that is below 2^−1022, which leaves [`decide_leading`] no nudge.
 #[inline(always)]
 fn lowest_bit(v: f64) -> f64 {
     let significand = v.to_bits() & ((1u64 << 52) - 1) | 1u64 << 52;
-    pow2(ilogb(v) - 52 + significand.trailing_zeros() as i32)
+    let exponent = ilogb(v) - 52 + significand.trailing_zeros() as i32;
+    if exponent < -1022 {
+        0.0
+    } else {
+        pow2(exponent)
+    }
 }
 
 /// RN_binary64(s + 0·side): s = h + l normalized by TwoSum, so h = RN(s) and s is a binary64

@@ -3,7 +3,8 @@
 //!
 //! For x ≤ −1 the forward value is −α + α·e^x, an asymptote plus a positive delta computed
 //! without cancellation; for −1 < x < 0 it is α·expm1(x); the derivative for −1 < x < 0 is
-//! α + α·expm1(x) (near α for tiny x) and α·e^x below.  Bounds compose through [`Ev`].
+//! α + α·expm1(x) (near α for tiny x) and α·e^x below.  Bounds compose through [`Ev`].  Near
+//! zero the leading-term bands of [`elu_band`] take over.
 
 use super::common::{beside, decay, near_constant, TAIL, TWO_M55};
 use super::dd::{ilogb, two_prod, Dd};

@@ -14,7 +14,8 @@
 //!   is a sum of positives); swish′ − 1 = t(|z| − 1 − t)/D² for z ≥ 1 and swish′ = t(1 + t −
 //!   |z|)/D² for z ≤ −1 (the cancellation near |z| ≈ 1.28 is tracked by [`Ev::add`]).
 //!
-//! Every error bound composes through [`Ev`].
+//! Every error bound composes through [`Ev`].  Below |z| = 2^−6, past the closed forms, the
+//! leading-term bands (`*_band`, see [`super::series`]) take over without any exp.
 //!
 //! Closed-form regions (`*_closed`) come first: where the function is within 2^(ilogb(base)−54)
 //! of an exact binary64 base on a known side, [`near_side`] decides without any exp (the rule
