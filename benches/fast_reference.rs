@@ -4,13 +4,13 @@
 //! 8) to keep the run short; rates are per point, so they compare directly.
 //!
 //! A second table samples the whole binary32 domain (every DOMAIN_STRIDE-th bit pattern of
-//! the 2^32, NaNs, infinities and zeros included, one thread, best of REPEAT runs), where the saturated tails and the
-//! tiny inputs dominate.  `BENCH_PART=binade` or `BENCH_PART=domain` runs one table only.
+//! the 2^32, NaNs, infinities and zeros included, one thread, best of REPEAT runs), where the
+//! saturated tails and the tiny inputs dominate.  `BENCH_PART=binade` or `BENCH_PART=domain` runs one table only.
 //!
 //! `BENCH_PART=binades` instead prints, per function (forward), the one-thread cost of a fast
 //! reference (MPFR fallback included) in every binary32 binade of either sign (every 97th
-//! pattern), the binades above 60 ns (env `BENCH_OVER`), and the sum over all 2^32 patterns: where the time of an
-//! exhaustive sweep goes.
+//! pattern), the binades above 60 ns (env `BENCH_OVER`), and the sum over all 2^32 patterns:
+//! where the time of an exhaustive sweep goes.
 
 use rayon::prelude::*;
 use std::time::Instant;

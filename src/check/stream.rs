@@ -225,8 +225,9 @@ impl Stream {
 
     /// Adds the run from `first` to `last` (consecutive inputs, checked by [`Self::add_all`]):
     /// either every point equals `first` but for the input, or every output is its reference
-    /// and equals the exact value (error 0), the references never stepping back.  Each accumulator takes the run at once, with the
-    /// figures of adding the points one by one; none of them is a kept point.
+    /// and equals the exact value (error 0), the references never stepping back.  Each
+    /// accumulator takes the run at once, with the figures of adding the points one by one;
+    /// none of them is a kept point.
     fn add_run(&mut self, first: &Point, last: &Point) {
         self.accuracy.add_run(first, last.input);
         if let Some(s) = &mut self.shape {

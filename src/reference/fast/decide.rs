@@ -320,11 +320,11 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
 /// 2^(eb−54), eb = ilogb(h).  If l = 0, s = h ∈ G; if not, s − g for g ∈ G is a multiple of
 /// min(q, 2^(eb−54)), q the lowest set bit of l (h is a multiple of 2^(eb−52)), so it is zero
 /// or at least that large.  So with d = min(q, 2^(eb−54))/4 and |c| + e < d, no such point
-/// lies strictly between s and y, nor at y: y rounds and falls like s nudged towards c's side, and s itself
-/// can be such a point only when l = 0 or |l| is half a binary64 gap (handled by
+/// lies strictly between s and y, nor at y: y rounds and falls like s nudged towards c's side,
+/// and s itself can be such a point only when l = 0 or |l| is half a binary64 gap (handled by
 /// [`nearest_nudged`]; `round_dd` takes the nudge as a tiny l of c's sign).  Otherwise the
 /// ends s + (c ∓ e), each rounded outwards twice (c ∓ e, then l + it) and added exactly by
-/// TwoSum, must agree in all three.
+/// TwoSum, must have one RN_binary64, and [`round_within`] rounds them into the format.
 #[inline(always)]
 fn decide_leading(format: Layout, s: Dd, c: f64, e: f64) -> Option<(u32, i32, f64)> {
     if !less(e, c.abs())

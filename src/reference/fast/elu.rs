@@ -46,8 +46,9 @@ const TWO_M20: f64 = 9.5367431640625e-7;
 /// ELU or ELU′ near zero ([`super::series`]), x < 0, w = x² exact, αx = p + q and αw = p₂ + q₂
 /// exactly (TwoProd):
 /// * elu(x) = α·(e^x − 1) = αx + αw/2 + αx³·Σ_(k≥0) x^k/(k + 3)!: the leading part
-///   p + p₂/2, the rest q + q₂/2 plus the series kept to 1/10!, below α|x|¹¹/11! < α|x|³·2^−89 after it
-///   (for |x| < 2^−20 the leading part p + q, the rest p₂/2 + q₂/2 plus the series);
+///   p + p₂/2, the rest q + q₂/2 plus the series kept to 1/10!, below α|x|¹¹/11! <
+///   α|x|³·2^−89 after it (for |x| < 2^−20 the leading part p + q, the rest p₂/2 + q₂/2 plus
+///   the series);
 /// * elu′(x) = α·e^x = α + αx + αw·(1/2 + x/6 + x²/24 + x³/120): the leading part α + p, the
 ///   rest q plus the series (|x| ≤ 2^−20), below α·x⁶/720 after it.
 #[inline(always)]
