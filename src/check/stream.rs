@@ -147,8 +147,9 @@ impl Stream {
             let p = &points[i];
             let mut end = i + 1;
             if self.runnable(p) {
+                let exact = self.exact(p);
                 while end < points.len()
-                    && self.continues(p, &points[end - 1], &points[end], end - i)
+                    && self.continues(p, exact, &points[end - 1], &points[end], end - i)
                 {
                     end += 1;
                 }
@@ -185,10 +186,17 @@ impl Stream {
 
     /// Whether `q`, `offset` points after the run's first point `p` (just after `previous`),
     /// continues the run: the next bit pattern, same sign and exponent field, no left-hand
-    /// value, and either the same output and reference as p, or both exact (see
+    /// value, and either the same output and reference as p, or both exact (`p_exact` and
     /// [`Self::exact`]) with a reference that does not step back from the previous one.
     #[inline(always)]
-    fn continues(&self, p: &Point, previous: &Point, q: &Point, offset: usize) -> bool {
+    fn continues(
+        &self,
+        p: &Point,
+        p_exact: bool,
+        previous: &Point,
+        q: &Point,
+        offset: usize,
+    ) -> bool {
         let l = self.layout;
         let (a, b) = (p.reference, q.reference);
         let consecutive = q.input.wrapping_sub(p.input) as usize == offset
@@ -215,7 +223,7 @@ impl Stream {
             } else {
                 now >= before
             };
-            self.exact(p)
+            p_exact
                 && self.exact(q)
                 && forward
                 && matches!(l.classify(b.bits), Class::Normal | Class::Zero)

@@ -541,7 +541,9 @@ impl AccuracyAcc {
         let within = self
             .bucket_of(l.ordinal(p.input))
             .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last)));
-        // Listed points and points off a fixed grid are recorded one by one.
+        // Listed points and points off a fixed grid are recorded one by one.  p's output and
+        // reference stand in for each point's: only the error, correctness and faithfulness
+        // (shared by the whole run) and the first point's details (p's own) are read.
         if !within || self.list_over.is_some() {
             for input in p.input..=last {
                 self.add(&Point { input, ..p.clone() });
