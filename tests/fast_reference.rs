@@ -607,23 +607,32 @@ fn leading_term_bands() {
     ] {
         let mut inside = per_binade(&mut g, lowest, -6 - lowest, 300);
         inside.extend(short_patterns(lowest));
+        let (low, high) = (2f64.powi(lowest), 2f64.powi(-6));
         for role in [Role::Forward, Role::Derivative] {
-            let (d, t) = compare(name, role, &Binary32, params, &inside);
-            eprintln!("{name} {role:?} leading-term band: decided {d}/{t}");
-            assert!(
-                d as f64 >= 0.999 * t as f64,
-                "{name} {role:?}: {d}/{t} decided"
-            );
-            for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
-                let mut edges = Vec::new();
-                for e in [2f64.powi(lowest), 2f64.powi(-6)] {
-                    edges.extend(neighbours(format, e, 300));
-                    edges.extend(neighbours(format, -e, 300));
-                }
-                let (d, t) = compare(name, role, format, params, &edges);
-                eprintln!("{name} {role:?} {}: edges decided {d}/{t}", format.name());
-            }
+            check_band(name, role, params, &inside, &[low, -low, high, -high]);
         }
+    }
+}
+
+/// A band against MPFR: its inside points (at least 99.9% decided) in binary32, then ±300
+/// patterns around each edge value in every format.
+fn check_band(name: &str, role: Role, params: &[&str], inside: &[u32], edges: &[f64]) {
+    let (d, t) = compare(name, role, &Binary32, params, inside);
+    eprintln!("{name} {params:?} {role:?} leading-term band: decided {d}/{t}");
+    assert!(
+        d as f64 >= 0.999 * t as f64,
+        "{name} {params:?} {role:?}: {d}/{t} decided"
+    );
+    for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
+        let around: Vec<u32> = edges
+            .iter()
+            .flat_map(|&e| neighbours(format, e, 300))
+            .collect();
+        let (d, t) = compare(name, role, format, params, &around);
+        eprintln!(
+            "{name} {params:?} {role:?} {}: edges decided {d}/{t}",
+            format.name()
+        );
     }
 }
 
@@ -644,23 +653,8 @@ fn elu_leading_term_bands() {
                 inside.extend((0..2000).map(|_| 0x8000_0001 + (g.next() % 0x7f_ffff) as u32));
             }
             inside.retain(|&x| f32::from_bits(x) < 0.0 && f32::from_bits(x) >= -(2f32.powi(top)));
-            let (d, t) = compare("elu", role, &Binary32, &[alpha], &inside);
-            eprintln!("elu {alpha} {role:?} leading-term band: decided {d}/{t}");
-            assert!(
-                d as f64 >= 0.999 * t as f64,
-                "elu {alpha} {role:?}: {d}/{t} decided"
-            );
-            for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
-                let mut edges = Vec::new();
-                for e in [2f64.powi(lowest.max(-60)), 2f64.powi(top)] {
-                    edges.extend(neighbours(format, -e, 300));
-                }
-                let (d, t) = compare("elu", role, format, &[alpha], &edges);
-                eprintln!(
-                    "elu {alpha} {role:?} {}: edges decided {d}/{t}",
-                    format.name()
-                );
-            }
+            let edges = [-(2f64.powi(lowest.max(-60))), -(2f64.powi(top))];
+            check_band("elu", role, &[alpha], &inside, &edges);
         }
     }
 }
