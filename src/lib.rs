@@ -10,6 +10,7 @@ pub mod check;
 pub mod cli;
 pub mod compare;
 pub mod format;
+pub mod guard;
 pub mod kernel;
 pub mod matrix;
 pub mod measure;

@@ -2,7 +2,11 @@
 
 fn main() {
     keep_large_buffers();
-    std::process::exit(ulpgauge::cli::run());
+    ulpgauge::guard::adopt_orphans();
+    let code = ulpgauge::cli::run();
+    // Whatever a kernel detached from its worker was adopted by us; it ends with us.
+    ulpgauge::guard::reap_orphans();
+    std::process::exit(code);
 }
 
 /// Streamed sweeps allocate and free buffers of a few hundred KiB per batch; glibc would map

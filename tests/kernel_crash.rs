@@ -67,6 +67,7 @@ fn hang_is_pinned_to_its_input() {
             batch_timeout: Duration::from_millis(250),
             stop_on_crash: false,
             batch_size: 512,
+            ..RunnerOptions::default()
         },
     )
     .unwrap();

@@ -13,7 +13,7 @@ use crate::check::{
 };
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
 use crate::report::{
-    check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
+    check_outputs, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
 };
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
@@ -91,6 +91,13 @@ pub struct Args {
     /// Stop at the first crash or hang instead of carrying on past it.
     #[arg(long)]
     pub stop_on_crash: bool,
+    /// Calls that may crash, hang or corrupt the worker's channel (each restarts the worker)
+    /// before the kernel is given up on (exit 3).
+    #[arg(long, value_name = "N", default_value_t = crate::kernel::DEFAULT_MAX_RESTARTS)]
+    pub max_restarts: u64,
+    /// Seconds that failing calls may take in all before the kernel is given up on (exit 3).
+    #[arg(long, value_name = "SECONDS", default_value_t = crate::kernel::DEFAULT_MAX_FAULT_TIME.as_secs_f64())]
+    pub max_fault_time: f64,
     /// References: `auto` uses the proven fast path where it decides (identical results),
     /// `mpfr` forces MPFR for every point.
     #[arg(long, value_enum, default_value_t = ReferencePath::Auto)]
@@ -185,14 +192,13 @@ pub struct Outputs {
 impl Outputs {
     /// The outputs of the arguments, each file checked writable (exit 2 before any work).
     pub fn from_args(args: &Args) -> Result<Outputs, Failure> {
-        for path in [&args.json, &args.csv, &args.plot].into_iter().flatten() {
-            check_writable(path).map_err(Failure::bad_input)?;
-        }
+        let files = [&args.json, &args.csv, &args.plot].map(|p| p.as_deref());
+        let to_stdout = check_outputs(&files).map_err(Failure::bad_input)?;
         Ok(Outputs {
             json: args.json.clone(),
             csv: args.csv.clone(),
             plot: args.plot.clone(),
-            terminal: !args.quiet,
+            terminal: !args.quiet && !to_stdout,
         })
     }
 }
@@ -392,9 +398,13 @@ fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
             args.timeout
         )));
     }
+    let limits = crate::kernel::fault_limits(args.max_restarts, args.max_fault_time)
+        .map_err(Failure::bad_input)?;
     Ok(RunnerOptions {
         batch_timeout: Duration::from_secs_f64(args.timeout),
         stop_on_crash: args.stop_on_crash,
+        max_restarts: limits.0,
+        max_fault_time: limits.1,
         ..RunnerOptions::default()
     })
 }

@@ -39,6 +39,8 @@ pub fn defaults() -> Args {
         not_thread_safe: false,
         timeout: 10.0,
         stop_on_crash: false,
+        max_restarts: crate::kernel::DEFAULT_MAX_RESTARTS,
+        max_fault_time: crate::kernel::DEFAULT_MAX_FAULT_TIME.as_secs_f64(),
         reference: crate::check::ReferencePath::Auto,
         shard: None,
         quiet: true,

@@ -6,7 +6,7 @@
 use super::Failure;
 use crate::compare::{self, table, Comparison, Tolerance, COMPARE_SCHEMA};
 use crate::report::model::SCHEMA;
-use crate::report::{check_writable, write_atomic};
+use crate::report::{check_writable, is_stdout, write_atomic};
 use std::path::PathBuf;
 
 /// Arguments of `compare`.
@@ -97,6 +97,8 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         text.push('\n');
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
-    say!("{}", table::render(&comparison, args.changed_only));
+    if !args.json.as_deref().is_some_and(is_stdout) {
+        say!("{}", table::render(&comparison, args.changed_only));
+    }
     Ok(exit_code)
 }

@@ -24,6 +24,9 @@ pub struct Args {
     /// A trailing float argument, as the hex of its bits (exact), repeatable.
     #[arg(long)]
     trailing: Vec<String>,
+    /// The runner's pid: the worker ends its process group when this parent is gone.
+    #[arg(long)]
+    parent: Option<i32>,
 }
 
 /// Serves the runner until it closes the pipe.
@@ -45,5 +48,6 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             gradient: args.gradient,
             trailing,
         },
+        parent: args.parent,
     }))
 }

@@ -120,6 +120,8 @@ fn failed_to_run(e: &CallError, at: &str) -> String {
             format!("not passed: the kernel crashed ({signal}{addr}) at {at}")
         }
         CallError::Hang => format!("not passed: the kernel hung at {at}"),
+        CallError::Channel(_) => format!("not passed: {} at {at}", e.label()),
+        CallError::Stopped(reason) => format!("could not run: {reason}"),
         CallError::Worker(m) => format!("could not run: worker error at {at}: {m}"),
     }
 }
@@ -132,6 +134,17 @@ pub fn run_checks(
 ) -> Vec<HygieneCheck> {
     let spec = runner.spec().clone();
     let bulk = runner.run(sample, second);
+    if let Some(reason) = runner.stopped() {
+        let why = format!("could not run: {reason}");
+        return CHECKS
+            .iter()
+            .map(|&check| HygieneCheck {
+                check,
+                passed: false,
+                detail: why.clone(),
+            })
+            .collect();
+    }
     let keep: Vec<usize> = (0..sample.len())
         .filter(|&i| bulk.outputs[i].is_some())
         .collect();

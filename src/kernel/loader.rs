@@ -3,11 +3,15 @@
 //! The main process never loads the library: loading runs constructors, which is exactly what
 //! the worker is there to contain.  [`validate`] reads the file as data instead.
 
-use object::{Object, ObjectKind};
+use object::{
+    Object, ObjectKind, ObjectSection, ObjectSegment, ObjectSymbol, SectionKind, SegmentFlags,
+    SymbolKind,
+};
 use std::ffi::c_void;
 use std::path::Path;
 
-/// Checks that `path` is a shared library for this machine that exports `symbol`; the error is
+/// Checks that `path` is a shared library for this machine that exports `symbol` as code (a
+/// function in an executable section: calling anything else fails on every call); the error is
 /// one line naming the file (and the symbol).
 pub fn validate(path: &Path, symbol: &str) -> Result<(), String> {
     let shown = path.display();
@@ -61,6 +65,56 @@ pub fn validate(path: &Path, symbol: &str) -> Result<(), String> {
         return Err(format!(
             "kernel library {shown}: does not export symbol '{symbol}'{hint}"
         ));
+    }
+    check_code(&file, symbol)
+        .map_err(|why| format!("kernel library {shown}: symbol '{symbol}' {why}"))
+}
+
+/// Fails unless the symbol is a function (or untyped) and lies in executable code; the error
+/// completes "symbol 'NAME' …".
+fn check_code(file: &object::File, symbol: &str) -> Result<(), String> {
+    let named = |s: &object::Symbol| {
+        s.is_definition()
+            && s.name()
+                .is_ok_and(|n| n == symbol || n.strip_prefix('_') == Some(symbol))
+    };
+    let Some(sym) = file
+        .dynamic_symbols()
+        .find(named)
+        .or_else(|| file.symbols().find(named))
+    else {
+        // Exported without a symbol-table entry to inspect (a Mach-O export trie).
+        return Ok(());
+    };
+    // Hand-written assembly often leaves symbols untyped; where they live decides then.
+    let what = match sym.kind() {
+        SymbolKind::Text | SymbolKind::Unknown => None,
+        SymbolKind::Data => Some("a data object"),
+        SymbolKind::Tls => Some("a thread-local variable"),
+        SymbolKind::Section => Some("a section"),
+        SymbolKind::File => Some("a file name"),
+        _ => Some("not code"),
+    };
+    if let Some(what) = what {
+        return Err(format!("is {what}, not a function"));
+    }
+    let executable = match sym.section_index() {
+        Some(i) => file
+            .section_by_index(i)
+            .is_ok_and(|s| s.kind() == SectionKind::Text),
+        // No section (an absolute symbol, or section headers stripped): ask the segments.
+        None => file.segments().any(|seg| {
+            let (start, size) = (seg.address(), seg.size());
+            let inside = sym.address() >= start && sym.address() - start < size;
+            let exec = match seg.flags() {
+                SegmentFlags::Elf { p_flags } => p_flags & object::elf::PF_X != 0,
+                _ => true,
+            };
+            inside && exec
+        }),
+    };
+    if !executable {
+        return Err("is not in an executable section, so it cannot be a function".to_string());
     }
     Ok(())
 }

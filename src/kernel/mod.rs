@@ -5,20 +5,27 @@
 //! hidden `worker` subcommand, which loads the library and calls the kernel on batches sent over
 //! pipes; a crash or hang kills only the worker, and the runner bisects the batch down to the
 //! input that triggers it.  Loading a library runs its code, so the worker isolates crashes but
-//! is not a sandbox.
+//! is not a sandbox: what it guarantees is that the main process trusts nothing the worker
+//! sends (`protocol.rs`), bounds the workers it starts (`bisect.rs`), and leaves no process
+//! behind (each worker leads its own process group, killed with it; see `crate::guard`).
 
 pub mod abi;
+pub mod bisect;
 pub mod fpenv;
 pub mod hygiene;
 pub mod loader;
 pub mod manifest;
 pub mod protocol;
 mod runner;
+mod spawn;
 pub mod worker;
 
+pub use bisect::fault_limits;
 pub use hygiene::HygieneCheck;
 pub use manifest::load_manifest;
-pub use runner::{CrashRecord, RunOutcome, Runner, RunnerOptions};
+pub use runner::{
+    CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME, DEFAULT_MAX_RESTARTS,
+};
 
 use crate::format::Format;
 use std::path::PathBuf;

@@ -1,7 +1,13 @@
-//! The byte protocol between the runner and its worker, over the worker's stdin and a private
-//! copy of its stdout.  Every field is a little-endian u32 or u64; arrays of bit patterns travel
-//! as u32 whatever the format, which keeps one code path (the overhead is measured by the
-//! `worker_overhead` benchmark).
+//! The byte protocol between the runner and its worker, over two pipes the worker moves away
+//! from descriptors 0 and 1 before it loads the kernel.  Every field is a little-endian u32 or
+//! u64; arrays of bit patterns travel as u32 whatever the format, which keeps one code path (the
+//! overhead is measured by the `worker_overhead` benchmark).
+//!
+//! The kernel runs in the worker and can write into the reply pipe, so the runner trusts
+//! nothing it reads: every request carries a token the reply must echo, and every count,
+//! index and tag of a reply is checked against the request before anything is allocated from
+//! it (see [`decode_reply`]).  A reply that fails a check is a [`io::ErrorKind::InvalidData`]
+//! error, which the runner reports as the kernel writing into the worker's channel.
 
 use std::io::{self, Read, Write};
 
@@ -18,6 +24,20 @@ pub const TAG_OK: u32 = 0;
 pub const TAG_FAULT: u32 = 2;
 /// Reply: the worker could not do what was asked (message follows).
 pub const TAG_ERROR: u32 = 3;
+/// First word after TAG_OK in the worker's greeting ("ULPG").
+pub const HELLO_MAGIC: u32 = 0x4750_4c55;
+
+/// Most elements in one request; the runner's batches are far smaller, so a larger count can
+/// only come from a corrupted stream.
+pub const MAX_ELEMENTS: usize = 1 << 24;
+/// Most threads of one request.
+pub const MAX_THREADS: u32 = 256;
+/// Most calls per thread of one request.
+pub const MAX_REPS: u32 = 1 << 16;
+/// Longest error message accepted.
+pub const MAX_MESSAGE: usize = 1 << 16;
+/// Size of a fault record after its tag: token, signal, in-guard flag, three addresses.
+pub const FAULT_BODY: usize = 8 + 4 + 4 + 8 + 8 + 8;
 
 /// Where the worker puts the buffers of a call.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -46,7 +66,7 @@ impl Layout {
 }
 
 /// One call request.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, PartialEq, Eq)]
 pub struct CallRequest {
     /// Buffer placement.
     pub layout: Layout,
@@ -65,7 +85,7 @@ pub struct CallRequest {
 }
 
 /// What a successful call reports.
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, PartialEq, Eq)]
 pub struct CallReply {
     /// FP control word before and after the (last) call.
     pub env: (u32, u32),
@@ -78,8 +98,10 @@ pub struct CallReply {
 }
 
 /// What the signal handler reports before the worker dies.
-#[derive(Clone, Copy, Debug)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct Fault {
+    /// Token of the request being served.
+    pub token: u64,
     /// Signal number.
     pub signo: i32,
     /// Faulting address (si_addr).
@@ -149,8 +171,12 @@ impl<R: Read> Reader<'_, R> {
         self.0.read_exact(&mut b)?;
         Ok(u64::from_le_bytes(b))
     }
-    /// Reads `n` u32.
+    /// Reads `n` u32 (at most [`MAX_ELEMENTS`]: callers check counts first, this is the
+    /// backstop against allocating from a forged one).
     pub fn u32s(&mut self, n: usize) -> io::Result<Vec<u32>> {
+        if n > MAX_ELEMENTS {
+            return Err(bad(&format!("an array of {n} elements")));
+        }
         let mut v = vec![0u32; n];
         // SAFETY: the u32 buffer viewed as bytes; every byte pattern is a valid u32.
         let bytes = unsafe { std::slice::from_raw_parts_mut(v.as_mut_ptr() as *mut u8, n * 4) };
@@ -160,10 +186,13 @@ impl<R: Read> Reader<'_, R> {
         }
         Ok(v)
     }
-    /// Reads a length-prefixed string.
+    /// Reads a length-prefixed string of at most [`MAX_MESSAGE`] bytes.
     pub fn str(&mut self) -> io::Result<String> {
         let n = self.u32()? as usize;
-        let mut b = vec![0u8; n.min(1 << 16)];
+        if n > MAX_MESSAGE {
+            return Err(bad(&format!("a message of {n} bytes")));
+        }
+        let mut b = vec![0u8; n];
         self.0.read_exact(&mut b)?;
         Ok(String::from_utf8_lossy(&b).into_owned())
     }
@@ -173,10 +202,11 @@ fn bad(what: &str) -> io::Error {
     io::Error::new(io::ErrorKind::InvalidData, what.to_string())
 }
 
-/// Encodes a call request.
-pub fn encode_call(req: &CallRequest) -> Writer {
+/// Encodes a call request (`op` is [`OP_CALL`] or [`OP_BENCH`]) with its token.
+pub fn encode_call(op: u32, token: u64, req: &CallRequest) -> Writer {
     let mut w = Writer::default();
-    w.u32(OP_CALL)
+    w.u32(op)
+        .u64(token)
         .u32(req.layout as u32)
         .u32(req.x_offset)
         .u32(req.y_offset)
@@ -191,31 +221,57 @@ pub fn encode_call(req: &CallRequest) -> Writer {
     w
 }
 
-/// Decodes a call request after its op code.
-pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<CallRequest> {
+/// Decodes a call request after its op code: (token, request).  Counts are bounded, so a
+/// corrupted request stream cannot make the worker allocate without limit either.
+pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<(u64, CallRequest)> {
+    let token = r.u64()?;
     let layout = Layout::from_u32(r.u32()?)?;
     let (x_offset, y_offset, threads, reps) = (r.u32()?, r.u32()?, r.u32()?, r.u32()?);
     let n = r.u32()? as usize;
-    let has_second = r.u32()? != 0;
+    let has_second = match r.u32()? {
+        0 => false,
+        1 => true,
+        _ => return Err(bad("second-array flag")),
+    };
+    if n > MAX_ELEMENTS || threads > MAX_THREADS || reps > MAX_REPS {
+        return Err(bad("request out of bounds"));
+    }
     let first = r.u32s(n)?;
     let second = if has_second { Some(r.u32s(n)?) } else { None };
-    Ok(CallRequest {
-        layout,
-        x_offset,
-        y_offset,
-        threads: threads.max(1),
-        reps: reps.max(1),
-        first,
-        second,
-    })
+    Ok((
+        token,
+        CallRequest {
+            layout,
+            x_offset,
+            y_offset,
+            threads: threads.max(1),
+            reps: reps.max(1),
+            first,
+            second,
+        },
+    ))
+}
+
+/// Output arrays a reply to `req` must hold, and elements in each: one array per call of a
+/// thread, and with several threads each holds every thread's equal slice.
+pub fn reply_shape(req: &CallRequest) -> (usize, usize) {
+    let n = req.first.len();
+    let threads = req.threads.max(1) as usize;
+    let len = if threads > 1 {
+        n / threads * threads
+    } else {
+        n
+    };
+    (req.reps.max(1) as usize, len)
 }
 
 /// Encodes a successful call reply.
-pub fn encode_reply(reply: &CallReply) -> Writer {
+pub fn encode_reply(token: u64, reply: &CallReply) -> Writer {
     let mut w = Writer::default();
     let n = reply.outputs.first().map_or(0, |o| o.len());
     let (which, index, value) = reply.input_changed.unwrap_or((u32::MAX, 0, 0));
     w.u32(TAG_OK)
+        .u64(token)
         .u32(reply.env.0)
         .u32(reply.env.1)
         .u32(which)
@@ -231,31 +287,80 @@ pub fn encode_reply(reply: &CallReply) -> Writer {
     w
 }
 
-/// Decodes a call reply after its TAG_OK.
-pub fn decode_reply<R: Read>(r: &mut Reader<R>) -> io::Result<CallReply> {
+/// Reads the token after a reply's tag and fails unless it is `token`.
+pub fn expect_token<R: Read>(r: &mut Reader<R>, token: u64) -> io::Result<()> {
+    let got = r.u64()?;
+    if got != token {
+        return Err(bad(&format!(
+            "a reply to request {got:#x} while {token:#x} was asked"
+        )));
+    }
+    Ok(())
+}
+
+/// Decodes the reply to `req` after its TAG_OK and token, checking every field against the
+/// request before reading the arrays: their number and length, which input changed and where,
+/// the canary flag and offset.
+pub fn decode_reply<R: Read>(r: &mut Reader<R>, req: &CallRequest) -> io::Result<CallReply> {
     let env = (r.u32()?, r.u32()?);
     let (which, index, value) = (r.u32()?, r.u32()?, r.u32()?);
-    let has_canary = r.u32()? != 0;
+    let has_canary = r.u32()?;
     let canary = r.u64()? as i64;
     let copies = r.u32()? as usize;
     let n = r.u32()? as usize;
+    let (want_copies, want_n) = reply_shape(req);
+    if (copies, n) != (want_copies, want_n) {
+        return Err(bad(&format!(
+            "{copies} output arrays of {n} elements in reply to {want_copies} of {want_n}"
+        )));
+    }
+    let arrays = if req.second.is_some() { 2 } else { 1 };
+    let input_changed = match which {
+        u32::MAX if (index, value) == (0, 0) => None,
+        w if w < arrays && (index as usize) < req.first.len() => Some((which, index, value)),
+        _ => return Err(bad("input-changed record out of range")),
+    };
+    // The canary area is a page or two around y: an offset beyond n elements plus a few pages
+    // cannot come from the worker.
+    let reach = 4 * req.first.len() as i64 + (1 << 20);
+    let canary = match has_canary {
+        0 if canary == 0 => None,
+        1 if canary.abs() <= reach => Some(canary),
+        _ => return Err(bad("canary record out of range")),
+    };
     let outputs = (0..copies).map(|_| r.u32s(n)).collect::<io::Result<_>>()?;
     Ok(CallReply {
         env,
-        input_changed: (which != u32::MAX).then_some((which, index, value)),
-        canary: has_canary.then_some(canary),
+        input_changed,
+        canary,
         outputs,
     })
 }
 
+/// Decodes a throughput reply after its TAG_OK and token: nanoseconds per element, finite and
+/// not negative.
+pub fn decode_bench<R: Read>(r: &mut Reader<R>) -> io::Result<f64> {
+    let ns = f64::from_bits(r.u64()?);
+    if !(ns.is_finite() && ns >= 0.0) {
+        return Err(bad(&format!("a throughput of {ns} ns per element")));
+    }
+    Ok(ns)
+}
+
 /// Decodes a fault record after its TAG_FAULT.
 pub fn decode_fault<R: Read>(r: &mut Reader<R>) -> io::Result<Fault> {
+    let token = r.u64()?;
     let signo = r.u32()? as i32;
-    let in_guard = r.u32()? != 0;
+    let in_guard = match r.u32()? {
+        0 => false,
+        1 => true,
+        _ => return Err(bad("fault record flag")),
+    };
     let addr = r.u64()?;
     let y_base = r.u64()?;
     let n = r.u64()?;
     Ok(Fault {
+        token,
         signo,
         addr,
         in_guard,
@@ -266,14 +371,15 @@ pub fn decode_fault<R: Read>(r: &mut Reader<R>) -> io::Result<Fault> {
 
 /// Fixed-size encoding of a fault record, built without allocating (it is written from a
 /// signal handler).
-pub fn fault_bytes(f: &Fault) -> [u8; 36] {
-    let mut b = [0u8; 36];
+pub fn fault_bytes(f: &Fault) -> [u8; 4 + FAULT_BODY] {
+    let mut b = [0u8; 4 + FAULT_BODY];
     b[0..4].copy_from_slice(&TAG_FAULT.to_le_bytes());
-    b[4..8].copy_from_slice(&(f.signo as u32).to_le_bytes());
-    b[8..12].copy_from_slice(&(f.in_guard as u32).to_le_bytes());
-    b[12..20].copy_from_slice(&f.addr.to_le_bytes());
-    b[20..28].copy_from_slice(&f.y_base.to_le_bytes());
-    b[28..36].copy_from_slice(&f.n.to_le_bytes());
+    b[4..12].copy_from_slice(&f.token.to_le_bytes());
+    b[12..16].copy_from_slice(&(f.signo as u32).to_le_bytes());
+    b[16..20].copy_from_slice(&(f.in_guard as u32).to_le_bytes());
+    b[20..28].copy_from_slice(&f.addr.to_le_bytes());
+    b[28..36].copy_from_slice(&f.y_base.to_le_bytes());
+    b[36..44].copy_from_slice(&f.n.to_le_bytes());
     b
 }
 
@@ -289,7 +395,147 @@ pub fn signal_name(signo: i32) -> String {
         libc::SIGTERM => "SIGTERM",
         libc::SIGTRAP => "SIGTRAP",
         libc::SIGSYS => "SIGSYS",
+        libc::SIGPIPE => "SIGPIPE",
+        libc::SIGHUP => "SIGHUP",
+        libc::SIGINT => "SIGINT",
+        libc::SIGQUIT => "SIGQUIT",
+        libc::SIGALRM => "SIGALRM",
+        libc::SIGUSR1 => "SIGUSR1",
+        libc::SIGUSR2 => "SIGUSR2",
+        libc::SIGXCPU => "SIGXCPU",
+        libc::SIGXFSZ => "SIGXFSZ",
+        libc::SIGVTALRM => "SIGVTALRM",
+        libc::SIGPROF => "SIGPROF",
         _ => return format!("signal {signo}"),
     };
     name.to_string()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn request(n: usize, threads: u32, reps: u32, second: bool) -> CallRequest {
+        CallRequest {
+            layout: Layout::Padded,
+            x_offset: 0,
+            y_offset: 0,
+            threads,
+            reps,
+            first: (0..n as u32).collect(),
+            second: second.then(|| vec![7; n]),
+        }
+    }
+
+    fn reply(req: &CallRequest) -> CallReply {
+        let (copies, n) = reply_shape(req);
+        CallReply {
+            env: (0x1f80, 0x1f80),
+            input_changed: None,
+            canary: None,
+            outputs: vec![vec![3; n]; copies],
+        }
+    }
+
+    /// Decodes `bytes` (a reply after its tag) as the reply to `req`.
+    fn decode(bytes: &[u8], req: &CallRequest) -> io::Result<CallReply> {
+        let mut cursor = io::Cursor::new(bytes);
+        let mut r = Reader(&mut cursor);
+        expect_token(&mut r, 42)?;
+        decode_reply(&mut r, req)
+    }
+
+    #[test]
+    fn a_reply_round_trips_and_echoes_its_token() {
+        for req in [request(10, 1, 1, false), request(10, 4, 3, true)] {
+            let good = reply(&req);
+            let bytes = encode_reply(42, &good).0;
+            assert_eq!(decode(&bytes[4..], &req).unwrap(), good);
+            let wrong_token = encode_reply(43, &good).0;
+            assert!(decode(&wrong_token[4..], &req).is_err());
+        }
+    }
+
+    #[test]
+    fn forged_counts_are_refused_before_any_allocation() {
+        let req = request(4096, 1, 1, false);
+        let mut forged = reply(&req);
+        forged.outputs = vec![vec![0; 4096]];
+        let mut bytes = encode_reply(42, &forged).0;
+        // The element count sits after tag, token, 5 words, canary flag and offset, copies.
+        let at = 4 + 8 + 5 * 4 + 4 + 8 + 4;
+        for (copies, n) in [
+            (1u32, u32::MAX),
+            (u32::MAX, 4096),
+            (1, 4095),
+            (2, 4096),
+            (0, 0),
+        ] {
+            bytes[at - 4..at].copy_from_slice(&copies.to_le_bytes());
+            bytes[at..at + 4].copy_from_slice(&n.to_le_bytes());
+            let e = decode(&bytes[4..], &req).unwrap_err();
+            assert_eq!(e.kind(), io::ErrorKind::InvalidData, "{copies} x {n}");
+        }
+    }
+
+    #[test]
+    fn records_out_of_range_and_truncated_replies_are_errors() {
+        let req = request(8, 1, 1, false);
+        let mut bad_index = reply(&req);
+        bad_index.input_changed = Some((0, 8, 1));
+        let mut bad_array = reply(&req);
+        bad_array.input_changed = Some((1, 0, 1));
+        let mut far_canary = reply(&req);
+        far_canary.canary = Some(1 << 40);
+        for forged in [bad_index, bad_array, far_canary] {
+            let bytes = encode_reply(42, &forged).0;
+            assert_eq!(
+                decode(&bytes[4..], &req).unwrap_err().kind(),
+                io::ErrorKind::InvalidData
+            );
+        }
+        let bytes = encode_reply(42, &reply(&req)).0;
+        for cut in [5, 20, bytes.len() - 1] {
+            assert_eq!(
+                decode(&bytes[4..cut], &req).unwrap_err().kind(),
+                io::ErrorKind::UnexpectedEof
+            );
+        }
+    }
+
+    #[test]
+    fn requests_are_bounded_too() {
+        let req = request(3, 1, 2, true);
+        let bytes = encode_call(OP_CALL, 9, &req).0;
+        let mut cursor = io::Cursor::new(&bytes[4..]);
+        assert_eq!(decode_call(&mut Reader(&mut cursor)).unwrap(), (9, req));
+        let mut huge = bytes.clone();
+        // n sits after op, token and five words.
+        huge[4 + 8 + 20..4 + 8 + 24].copy_from_slice(&u32::MAX.to_le_bytes());
+        let mut cursor = io::Cursor::new(&huge[4..]);
+        assert!(decode_call(&mut Reader(&mut cursor)).is_err());
+    }
+
+    #[test]
+    fn fault_records_round_trip_and_bench_figures_are_checked() {
+        let f = Fault {
+            token: 5,
+            signo: libc::SIGSEGV,
+            addr: 0xdead,
+            in_guard: true,
+            y_base: 0x1000,
+            n: 9,
+        };
+        let bytes = fault_bytes(&f);
+        let mut cursor = io::Cursor::new(&bytes[4..]);
+        assert_eq!(decode_fault(&mut Reader(&mut cursor)).unwrap(), f);
+        for bad in [f64::NAN, -1.0, f64::INFINITY] {
+            let b = bad.to_bits().to_le_bytes();
+            let mut cursor = io::Cursor::new(&b[..]);
+            assert!(decode_bench(&mut Reader(&mut cursor)).is_err());
+        }
+        // Signal numbers from <signal.h> on Linux (signal(7)).
+        assert_eq!(signal_name(13), "SIGPIPE");
+        assert_eq!(signal_name(11), "SIGSEGV");
+    }
 }

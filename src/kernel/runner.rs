@@ -1,17 +1,19 @@
-//! The main-process side: starts worker processes, sends batches, survives crashes and hangs,
-//! and bisects a failing batch down to the input that triggers the failure.
+//! The main-process side: starts worker processes, sends batches, survives crashes, hangs and
+//! forged replies, and keeps count of the calls that failed (bisection lives in `bisect.rs`).
 
 use super::abi::Abi;
+use super::bisect::Faults;
 use super::protocol::{
-    self, decode_fault, decode_reply, encode_call, CallReply, CallRequest, Fault, Layout, Reader,
-    Writer, OP_BENCH, OP_QUIT, TAG_ERROR, TAG_FAULT, TAG_OK,
+    self, decode_bench, decode_fault, decode_reply, encode_call, expect_token, CallReply,
+    CallRequest, Fault, Layout, Reader, Writer, HELLO_MAGIC, OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR,
+    TAG_FAULT, TAG_OK,
 };
+use super::spawn::{Deadline, WorkerProcess};
 use super::{loader, KernelSpec};
-use std::io::{self, Read};
-use std::os::fd::AsRawFd;
+use std::io;
 use std::os::unix::process::ExitStatusExt;
 use std::path::PathBuf;
-use std::process::{Child, ChildStdin, ChildStdout, Command, Stdio};
+use std::process::Command;
 use std::time::{Duration, Instant};
 
 /// How the runner calls the kernel.
@@ -23,7 +25,18 @@ pub struct RunnerOptions {
     pub stop_on_crash: bool,
     /// Elements per call.
     pub batch_size: usize,
+    /// Calls that may fail (crash, hang, or write into the channel; each one ends its worker,
+    /// so this bounds the restarts) before the runner stops calling the kernel.
+    pub max_restarts: u64,
+    /// Time that calls which failed may take in all before the runner stops calling the kernel.
+    pub max_fault_time: Duration,
 }
+
+/// Default of [`RunnerOptions::max_restarts`]: a kernel that crashes on a few hundred inputs
+/// is still pinned input by input (each crash costs about two restarts while bisecting).
+pub const DEFAULT_MAX_RESTARTS: u64 = 1000;
+/// Default of [`RunnerOptions::max_fault_time`].
+pub const DEFAULT_MAX_FAULT_TIME: Duration = Duration::from_secs(300);
 
 impl Default for RunnerOptions {
     fn default() -> Self {
@@ -31,6 +44,8 @@ impl Default for RunnerOptions {
             batch_timeout: Duration::from_secs(5),
             stop_on_crash: false,
             batch_size: 65_536,
+            max_restarts: DEFAULT_MAX_RESTARTS,
+            max_fault_time: DEFAULT_MAX_FAULT_TIME,
         }
     }
 }
@@ -38,9 +53,11 @@ impl Default for RunnerOptions {
 /// Results of [`Runner::run`].
 #[derive(Clone, Debug, Default)]
 pub struct RunOutcome {
-    /// Output bits per input; `None` where the kernel crashed or hung on that input.
+    /// Output bits per input; `None` where the kernel crashed or hung on that input, or was
+    /// not called because the runner had stopped.
     pub outputs: Vec<Option<u32>>,
-    /// Each input that crashed or hung the kernel, in input order.
+    /// Each input that crashed or hung the kernel, in input order; bounded by the number of
+    /// calls that may fail ([`RunnerOptions::max_restarts`]).
     pub crashes: Vec<CrashRecord>,
 }
 
@@ -51,7 +68,7 @@ pub struct CrashRecord {
     pub input: u32,
     /// Its index in the inputs given to [`Runner::run`].
     pub index: usize,
-    /// "SIGSEGV", "SIGABRT", …, or "hang".
+    /// "SIGSEGV", "SIGABRT", …, "hang", "channel: …", or why the runner stopped there.
     pub signal: String,
 }
 
@@ -67,34 +84,40 @@ pub enum CallError {
     },
     /// No reply within the batch timeout.
     Hang,
-    /// The worker could not be started or spoke nonsense.
+    /// The reply broke the protocol: the kernel wrote into the worker's channel.
+    Channel(String),
+    /// The runner stopped calling the kernel (too many failed calls); the reason.
+    Stopped(String),
+    /// The worker could not be started or could not load the library.
     Worker(String),
 }
 
 impl CallError {
-    /// "SIGSEGV", "hang", or "worker error: …".
+    /// "SIGSEGV", "hang", "channel: …", the reason the runner stopped, or "worker error: …".
     pub fn label(&self) -> String {
         match self {
             CallError::Crashed { signal, .. } => signal.clone(),
             CallError::Hang => "hang".to_string(),
+            CallError::Channel(m) => {
+                format!("channel: the kernel wrote into the worker's channel ({m})")
+            }
+            CallError::Stopped(reason) => reason.clone(),
             CallError::Worker(m) => format!("worker error: {m}"),
         }
     }
 }
 
-struct Worker {
-    child: Child,
-    to: ChildStdin,
-    from: ChildStdout,
-}
-
 /// Runs one kernel in a worker process.
 pub struct Runner {
     spec: KernelSpec,
-    options: RunnerOptions,
+    pub(super) options: RunnerOptions,
     abi: Abi,
     exe: PathBuf,
-    worker: Option<Worker>,
+    worker: Option<WorkerProcess>,
+    /// Token of the last request; replies must echo it.
+    token: u64,
+    /// Calls that failed, and whether the runner stopped.
+    pub(super) faults: Faults,
     /// FP control word before and after loading the library (first worker), if readable.
     pub(crate) load_env: Option<(u32, u32)>,
     /// First call after which the FP control word differed from before it: (n, before, after).
@@ -127,6 +150,27 @@ pub fn worker_executable() -> Result<PathBuf, String> {
     )
 }
 
+/// Where a runner's token sequence starts: different per runner, so a stale or replayed reply
+/// does not match by chance.
+fn first_token() -> u64 {
+    use std::hash::{BuildHasher, Hasher};
+    let mut h = std::collections::hash_map::RandomState::new().build_hasher();
+    h.write_u128(
+        std::time::SystemTime::now()
+            .duration_since(std::time::UNIX_EPOCH)
+            .map_or(0, |d| d.as_nanos()),
+    );
+    h.finish()
+}
+
+/// What came back for one request, read while the worker's pipe is borrowed.
+enum Got<T> {
+    Reply(T),
+    Fault(Fault),
+    Io(io::Error),
+    Forged(String),
+}
+
 impl Runner {
     /// Validates the library and symbol without loading them here, then starts a worker (which
     /// loads them).  An error is one line naming the file and symbol.
@@ -140,6 +184,7 @@ impl Runner {
                 super::abi::MAX_TRAILING
             ));
         }
+        crate::guard::install_handler();
         let abi = Abi {
             elem_bytes: spec.format.width().div_ceil(8) as usize,
             gradient: spec.role.takes_gradient(),
@@ -148,12 +193,14 @@ impl Runner {
         let mut runner = Runner {
             spec: spec.clone(),
             options: RunnerOptions {
-                batch_size: options.batch_size.max(1),
+                batch_size: options.batch_size.clamp(1, protocol::MAX_ELEMENTS),
                 ..options
             },
             abi,
             exe: worker_executable()?,
             worker: None,
+            token: first_token(),
+            faults: Faults::default(),
             load_env: None,
             call_env_change: None,
             workers_started: 0,
@@ -179,6 +226,11 @@ impl Runner {
         &self.options
     }
 
+    /// Why the runner stopped calling the kernel, once it has.
+    pub fn stopped(&self) -> Option<&str> {
+        self.faults.stopped.as_deref()
+    }
+
     fn ensure_worker(&mut self) -> Result<(), CallError> {
         if self.worker.is_some() {
             return Ok(());
@@ -197,39 +249,28 @@ impl Runner {
         for t in &self.abi.trailing {
             cmd.arg("--trailing").arg(format!("{:08x}", t.to_bits()));
         }
-        cmd.stdin(Stdio::piped()).stdout(Stdio::piped()).stderr(
-            if std::env::var_os("ULPGAUGE_WORKER_STDERR").is_some() {
-                Stdio::inherit()
-            } else {
-                Stdio::null()
-            },
-        );
-        let mut child = cmd
-            .spawn()
+        let worker = WorkerProcess::spawn(cmd)
             .map_err(|e| CallError::Worker(format!("cannot start {}: {e}", self.exe.display())))?;
-        let to = child.stdin.take().expect("piped stdin");
-        let from = child.stdout.take().expect("piped stdout");
-        // A batch of 2^16 f32 values is 256 KiB each way: a pipe that holds it whole saves the
-        // two processes a dozen wake-ups per call. Linux only; the default size still works.
-        #[cfg(target_os = "linux")]
-        for fd in [to.as_raw_fd(), from.as_raw_fd()] {
-            // SAFETY: fcntl on pipe descriptors we own; failure leaves the pipe as it was.
-            unsafe { libc::fcntl(fd, libc::F_SETPIPE_SZ, PIPE_BYTES) };
-        }
         self.workers_started += 1;
-        self.worker = Some(Worker { child, to, from });
+        let w = self.worker.insert(worker);
         let deadline = Instant::now() + self.options.batch_timeout.max(Duration::from_secs(10));
-        let hello = (|| -> Result<Result<(bool, u32, u32), String>, io::Error> {
-            let w = self.worker.as_mut().expect("worker");
-            let mut src = Deadline {
-                from: &mut w.from,
-                deadline,
-            };
+        let hello = (|| -> io::Result<Result<(bool, u32, u32), String>> {
+            let mut src = w.replies(deadline);
             let mut r = Reader(&mut src);
             match r.u32()? {
-                TAG_OK => Ok(Ok((r.u32()? != 0, r.u32()?, r.u32()?))),
+                TAG_OK => {
+                    if r.u32()? != HELLO_MAGIC {
+                        return Err(forged("a greeting without its magic word"));
+                    }
+                    let readable = match r.u32()? {
+                        0 => false,
+                        1 => true,
+                        _ => return Err(forged("a greeting with a bad flag")),
+                    };
+                    Ok(Ok((readable, r.u32()?, r.u32()?)))
+                }
                 TAG_ERROR => Ok(Err(r.str()?)),
-                _ => Err(io::Error::new(io::ErrorKind::InvalidData, "bad hello")),
+                t => Err(forged(&format!("a greeting with tag {t}"))),
             }
         })();
         match hello {
@@ -249,33 +290,38 @@ impl Runner {
 
     /// Turns an I/O failure on the pipe into what happened to the worker, and discards it.
     fn failure(&mut self, e: io::Error) -> CallError {
-        let fault = None;
-        if e.kind() == io::ErrorKind::TimedOut {
-            self.kill();
-            return CallError::Hang;
+        match e.kind() {
+            io::ErrorKind::TimedOut => {
+                self.kill();
+                CallError::Hang
+            }
+            io::ErrorKind::InvalidData => {
+                self.kill();
+                CallError::Channel(e.to_string())
+            }
+            _ => self.died(None),
         }
-        self.died(fault)
     }
 
+    /// The worker is dying or dead: gives it a moment, ends its group and names the cause.  A
+    /// fault record the worker's own death does not confirm was forged by the kernel.
     fn died(&mut self, fault: Option<Fault>) -> CallError {
-        let Some(mut w) = self.worker.take() else {
+        let Some(w) = self.worker.take() else {
             return CallError::Worker("no worker".into());
         };
-        drop(w.to);
-        // The worker is dying or dead; give it a moment, then make sure.
-        let deadline = Instant::now() + Duration::from_secs(2);
-        let status = loop {
-            match w.child.try_wait() {
-                Ok(Some(s)) => break Some(s),
-                Ok(None) if Instant::now() < deadline => {
-                    std::thread::sleep(Duration::from_millis(1))
-                }
-                _ => {
-                    let _ = w.child.kill();
-                    break w.child.wait().ok();
-                }
+        let status = w.end(Duration::from_secs(2));
+        let signo = status.and_then(|s| s.signal());
+        if let Some(f) = fault {
+            if Some(f.signo) != signo {
+                let death = signo.map_or("did not die of a signal".to_string(), |s| {
+                    format!("died of {}", protocol::signal_name(s))
+                });
+                return CallError::Channel(format!(
+                    "a fault record for {} while the worker {death}",
+                    protocol::signal_name(f.signo)
+                ));
             }
-        };
+        }
         let signal = match status {
             Some(s) => match (s.signal(), s.code()) {
                 (Some(sig), _) => protocol::signal_name(sig),
@@ -287,53 +333,88 @@ impl Runner {
         CallError::Crashed { signal, fault }
     }
 
+    /// Ends the worker and everything in its process group now.
     fn kill(&mut self) {
-        if let Some(mut w) = self.worker.take() {
-            let _ = w.child.kill();
-            let _ = w.child.wait();
+        if let Some(w) = self.worker.take() {
+            w.end(Duration::ZERO);
         }
     }
 
-    fn exchange_raw<T>(
+    /// Runs `f` unless the runner has stopped, and counts what it gives: a call that crashed,
+    /// hung or broke the protocol counts against the limits of [`RunnerOptions`].
+    fn guarded<T>(
         &mut self,
-        request: &Writer,
+        f: impl FnOnce(&mut Self) -> Result<T, CallError>,
+    ) -> Result<T, CallError> {
+        if let Some(reason) = &self.faults.stopped {
+            return Err(CallError::Stopped(reason.clone()));
+        }
+        let started = Instant::now();
+        let result = f(self);
+        match &result {
+            Ok(_) => self.faults.succeeded(),
+            Err(CallError::Worker(_) | CallError::Stopped(_)) => {}
+            Err(e) => self.faults.failed(e, started.elapsed(), &self.options),
+        }
+        result
+    }
+
+    /// Sends `request` under a fresh token and reads the reply with `read`, which checks it
+    /// against the request.
+    fn exchange<T>(
+        &mut self,
+        op: u32,
+        request: &CallRequest,
+        timeout: Duration,
         read: impl FnOnce(&mut Reader<Deadline>) -> io::Result<T>,
     ) -> Result<T, CallError> {
-        let deadline = Instant::now() + self.options.batch_timeout;
-        let w = self.worker.as_mut().expect("worker");
-        if let Err(e) = request.send(&mut w.to) {
+        self.token = self.token.wrapping_add(1);
+        let token = self.token;
+        let deadline = Instant::now() + timeout;
+        let Some(w) = self.worker.as_mut() else {
+            return Err(CallError::Worker("no worker".into()));
+        };
+        if let Err(e) = encode_call(op, token, request).send(&mut w.to) {
             return Err(self.failure(e));
         }
-        let mut src = Deadline {
-            from: &mut w.from,
-            deadline,
-        };
-        let mut r = Reader(&mut src);
-        let tag = match r.u32() {
-            Ok(t) => t,
-            Err(e) => return Err(self.failure(e)),
-        };
-        match tag {
-            TAG_OK => match read(&mut r) {
-                Ok(v) => Ok(v),
-                Err(e) => Err(self.failure(e)),
-            },
-            TAG_FAULT => {
-                let fault = decode_fault(&mut r).ok();
-                Err(self.died(fault))
+        let got = {
+            let mut src = w.replies(deadline);
+            let mut r = Reader(&mut src);
+            match r.u32() {
+                Err(e) => Got::Io(e),
+                Ok(TAG_OK) => match expect_token(&mut r, token).and_then(|_| read(&mut r)) {
+                    Ok(v) => Got::Reply(v),
+                    Err(e) => Got::Io(e),
+                },
+                Ok(TAG_FAULT) => match decode_fault(&mut r) {
+                    Ok(f) if f.token == token => Got::Fault(f),
+                    Ok(f) => Got::Forged(format!(
+                        "a fault record for request {:#x} while {token:#x} was asked",
+                        f.token
+                    )),
+                    Err(e) => Got::Io(e),
+                },
+                Ok(t) => Got::Forged(format!("a reply with unknown tag {t}")),
             }
-            _ => {
+        };
+        match got {
+            Got::Reply(v) => Ok(v),
+            Got::Fault(f) => Err(self.died(Some(f))),
+            Got::Io(e) => Err(self.failure(e)),
+            Got::Forged(m) => {
                 self.kill();
-                Err(CallError::Worker(format!("unexpected reply tag {tag}")))
+                Err(CallError::Channel(m))
             }
         }
     }
 
     /// Sends one call request and waits for the reply.
     pub fn call(&mut self, request: &CallRequest) -> Result<CallReply, CallError> {
-        self.ensure_worker()?;
-        #[allow(clippy::redundant_closure)] // the closure pins the reader lifetime
-        let reply = self.exchange_raw(&encode_call(request), |r| decode_reply(r))?;
+        let timeout = self.options.batch_timeout;
+        let reply = self.guarded(|runner| {
+            runner.ensure_worker()?;
+            runner.exchange(OP_CALL, request, timeout, |r| decode_reply(r, request))
+        })?;
         if self.call_env_change.is_none()
             && super::fpenv::control_bits(reply.env.0) != super::fpenv::control_bits(reply.env.1)
         {
@@ -342,7 +423,12 @@ impl Runner {
         Ok(reply)
     }
 
-    fn call_plain(&mut self, first: &[u32], second: Option<&[u32]>) -> Result<Vec<u32>, CallError> {
+    /// One plain call (padded buffers, one thread, one repetition): the outputs.
+    pub(super) fn call_plain(
+        &mut self,
+        first: &[u32],
+        second: Option<&[u32]>,
+    ) -> Result<Vec<u32>, CallError> {
         let req = CallRequest {
             layout: Layout::Padded,
             x_offset: 0,
@@ -356,74 +442,6 @@ impl Runner {
         Ok(reply.outputs.swap_remove(0))
     }
 
-    /// Calls the kernel on `first` (x, or y for from-output gradient kernels) and optional
-    /// `second` (g), in batches.
-    pub fn run(&mut self, first: &[u32], second: Option<&[u32]>) -> RunOutcome {
-        let mut outcome = RunOutcome {
-            outputs: vec![None; first.len()],
-            crashes: Vec::new(),
-        };
-        if second.is_some_and(|s| s.len() != first.len()) || second.is_none() == self.abi.gradient {
-            outcome.crashes.push(CrashRecord {
-                input: first.first().copied().unwrap_or(0),
-                index: 0,
-                signal: "worker error: gradient kernels take x and g of equal length".into(),
-            });
-            return outcome;
-        }
-        let mut stop = false;
-        let mut lo = 0;
-        while lo < first.len() && !stop {
-            let hi = (lo + self.options.batch_size).min(first.len());
-            self.run_range(lo, hi, first, second, &mut outcome, &mut stop);
-            lo = hi;
-        }
-        outcome
-    }
-
-    fn run_range(
-        &mut self,
-        lo: usize,
-        hi: usize,
-        first: &[u32],
-        second: Option<&[u32]>,
-        outcome: &mut RunOutcome,
-        stop: &mut bool,
-    ) {
-        if *stop || lo >= hi {
-            return;
-        }
-        match self.call_plain(&first[lo..hi], second.map(|s| &s[lo..hi])) {
-            Ok(ys) => {
-                for (slot, y) in outcome.outputs[lo..hi].iter_mut().zip(ys) {
-                    *slot = Some(y);
-                }
-            }
-            Err(CallError::Worker(message)) => {
-                // Not the kernel's doing: bisecting would only start more failing workers.
-                outcome.crashes.push(CrashRecord {
-                    input: first[lo],
-                    index: lo,
-                    signal: format!("worker error: {message}"),
-                });
-                *stop = true;
-            }
-            Err(e) if hi - lo == 1 => {
-                outcome.crashes.push(CrashRecord {
-                    input: first[lo],
-                    index: lo,
-                    signal: e.label(),
-                });
-                *stop |= self.options.stop_on_crash;
-            }
-            Err(_) => {
-                let mid = lo + (hi - lo) / 2;
-                self.run_range(lo, mid, first, second, outcome, stop);
-                self.run_range(mid, hi, first, second, outcome, stop);
-            }
-        }
-    }
-
     /// The six hygiene checks on a sample of inputs (and g for gradient kernels), in the order
     /// tail, alignment, bounds, input-untouched, fp-environment, determinism.
     pub fn hygiene(&mut self, sample: &[u32], second: Option<&[u32]>) -> Vec<super::HygieneCheck> {
@@ -431,7 +449,7 @@ impl Runner {
     }
 
     /// The kernel's own throughput in nanoseconds per element, timed inside the worker on the
-    /// sample; `None` if the kernel crashed or hung.
+    /// sample; `None` if the kernel crashed or hung, or the runner has stopped.
     pub fn ns_per_element(&mut self, sample: &[u32], second: Option<&[u32]>) -> Option<f64> {
         if sample.is_empty() {
             return None;
@@ -445,21 +463,24 @@ impl Runner {
             first: sample.to_vec(),
             second: second.map(|s| s.to_vec()),
         };
-        let mut w = encode_call(&req);
-        w.0[0..4].copy_from_slice(&OP_BENCH.to_le_bytes());
-        let saved = self.options.batch_timeout;
         // Timing runs many calls; allow for that beyond the per-batch limit.
-        self.options.batch_timeout = saved * 20;
-        let result = self
-            .ensure_worker()
-            .and_then(|_| self.exchange_raw(&w, |r| r.u64()));
-        self.options.batch_timeout = saved;
-        result.ok().map(f64::from_bits)
+        let timeout = self.options.batch_timeout.saturating_mul(20);
+        self.guarded(|runner| {
+            runner.ensure_worker()?;
+            #[allow(clippy::redundant_closure)] // the closure pins the reader lifetime
+            runner.exchange(OP_BENCH, &req, timeout, |r| decode_bench(r))
+        })
+        .ok()
     }
 
     /// Element size in bytes.
     pub(crate) fn elem_bytes(&self) -> usize {
         self.abi.elem_bytes
+    }
+
+    /// Whether the kernel takes a second input array.
+    pub(super) fn gradient(&self) -> bool {
+        self.abi.gradient
     }
 }
 
@@ -467,56 +488,11 @@ impl Drop for Runner {
     fn drop(&mut self) {
         if let Some(mut w) = self.worker.take() {
             let _ = Writer::default().u32(OP_QUIT).send(&mut w.to);
-            drop(w.to);
-            let deadline = Instant::now() + Duration::from_millis(200);
-            while Instant::now() < deadline {
-                if let Ok(Some(_)) = w.child.try_wait() {
-                    return;
-                }
-                std::thread::sleep(Duration::from_millis(1));
-            }
-            let _ = w.child.kill();
-            let _ = w.child.wait();
+            w.end(Duration::from_millis(200));
         }
     }
 }
 
-/// Pipe capacity asked for (the unprivileged Linux maximum by default).
-#[cfg(target_os = "linux")]
-const PIPE_BYTES: libc::c_int = 1 << 20;
-
-/// Reads from the worker's stdout, failing with `TimedOut` past the deadline.
-pub(crate) struct Deadline<'a> {
-    from: &'a mut ChildStdout,
-    deadline: Instant,
-}
-
-impl Read for Deadline<'_> {
-    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
-        loop {
-            let left = self.deadline.saturating_duration_since(Instant::now());
-            if left.is_zero() {
-                return Err(io::Error::new(io::ErrorKind::TimedOut, "worker timed out"));
-            }
-            let mut pfd = libc::pollfd {
-                fd: self.from.as_raw_fd(),
-                events: libc::POLLIN,
-                revents: 0,
-            };
-            let ms = left.as_millis().clamp(1, i32::MAX as u128) as i32;
-            // SAFETY: one valid pollfd.
-            let ready = unsafe { libc::poll(&mut pfd, 1, ms) };
-            if ready < 0 {
-                let e = io::Error::last_os_error();
-                if e.kind() == io::ErrorKind::Interrupted {
-                    continue;
-                }
-                return Err(e);
-            }
-            if ready == 0 {
-                continue;
-            }
-            return self.from.read(buf);
-        }
-    }
+fn forged(what: &str) -> io::Error {
+    io::Error::new(io::ErrorKind::InvalidData, what.to_string())
 }

@@ -1,11 +1,17 @@
 //! The worker side: runs inside `ulpgauge worker`, loads the library, and serves call requests
 //! until its input closes.  A fatal signal is reported over the protocol by a handler that then
 //! lets the signal kill the process, so the runner learns both the signal and the fault address.
+//!
+//! Before the kernel is loaded the protocol pipes move off descriptors 0 and 1 (to
+//! close-on-exec descriptors), 0 becomes /dev/null and 1 a copy of stderr: a kernel that prints
+//! or reads its standard input touches neither pipe by accident.  A thread watches the parent:
+//! when ulpgauge dies, the worker kills its own process group (itself and whatever the kernel
+//! forked), even while the kernel is stuck in a call.
 
 use super::abi::Abi;
 use super::protocol::{
     self, decode_call, encode_reply, CallReply, CallRequest, Fault, Layout, Reader, Writer,
-    OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR, TAG_OK,
+    HELLO_MAGIC, OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR, TAG_OK,
 };
 use super::{fpenv, loader};
 use std::ffi::c_void;
@@ -14,7 +20,7 @@ use std::io::{BufReader, Write};
 use std::os::fd::FromRawFd;
 use std::path::PathBuf;
 use std::sync::atomic::{AtomicI32, AtomicU64, Ordering};
-use std::time::Instant;
+use std::time::{Duration, Instant};
 
 /// What the worker needs to know, from its command line.
 #[derive(Clone, Debug)]
@@ -25,9 +31,12 @@ pub struct WorkerConfig {
     pub symbol: String,
     /// How to call it.
     pub abi: Abi,
+    /// The runner's pid: when it is no longer our parent, the worker ends its process group.
+    pub parent: Option<i32>,
 }
 
 static PROTO_FD: AtomicI32 = AtomicI32::new(-1);
+static TOKEN: AtomicU64 = AtomicU64::new(0);
 static Y_BASE: AtomicU64 = AtomicU64::new(0);
 static CALL_N: AtomicU64 = AtomicU64::new(0);
 static GUARD_LO: AtomicU64 = AtomicU64::new(0);
@@ -35,23 +44,81 @@ static GUARD_HI: AtomicU64 = AtomicU64::new(0);
 static PAGE: AtomicU64 = AtomicU64::new(4096);
 
 const CANARY: u8 = 0xa5;
+/// Lowest descriptor the protocol pipes move to.
+const PROTOCOL_FD_BASE: libc::c_int = 200;
+/// How often the parent watch looks.
+const PARENT_WATCH: Duration = Duration::from_millis(100);
 
-/// Serves requests on stdin; replies go to a private duplicate of stdout, and the kernel's own
-/// stdout is redirected to stderr so that its prints cannot corrupt the protocol.
-pub fn serve(config: WorkerConfig) -> i32 {
-    // SAFETY: plain descriptor juggling on descriptors this process owns.
-    let out_fd = unsafe {
-        let fd = libc::dup(1);
+/// Moves the request pipe (stdin) and the reply pipe (stdout) to fresh close-on-exec
+/// descriptors; stdin becomes /dev/null and stdout a copy of stderr.  Returns (requests,
+/// replies).
+fn move_protocol() -> Option<(libc::c_int, libc::c_int)> {
+    // SAFETY: descriptor juggling on descriptors this process owns.
+    unsafe {
+        let high = |fd| {
+            let moved = libc::fcntl(fd, libc::F_DUPFD_CLOEXEC, PROTOCOL_FD_BASE);
+            if moved >= 0 {
+                moved
+            } else {
+                libc::fcntl(fd, libc::F_DUPFD_CLOEXEC, 3)
+            }
+        };
+        let (input, output) = (high(0), high(1));
+        if input < 0 || output < 0 {
+            return None;
+        }
+        let null = libc::open(c"/dev/null".as_ptr(), libc::O_RDONLY | libc::O_CLOEXEC);
+        if null >= 0 {
+            libc::dup2(null, 0);
+            libc::close(null);
+        } else {
+            libc::close(0);
+        }
         libc::dup2(2, 1);
-        fd
+        Some((input, output))
+    }
+}
+
+/// Ends the worker's process group as soon as `parent` is no longer its parent (ulpgauge died
+/// and the worker was adopted by another process).
+fn watch_parent(parent: i32) {
+    let end = || {
+        // SAFETY: getpgrp/getpid/kill/_exit have no preconditions; the group is ours only when
+        // we lead it (the runner starts workers that way), otherwise only this process ends.
+        unsafe {
+            if libc::getpgrp() == libc::getpid() {
+                libc::kill(0, libc::SIGKILL);
+            }
+            libc::_exit(0);
+        }
     };
-    if out_fd < 0 {
+    // SAFETY: getppid has no preconditions.
+    if unsafe { libc::getppid() } != parent {
+        end();
+    }
+    let _ = std::thread::Builder::new()
+        .name("parent-watch".into())
+        .spawn(move || loop {
+            std::thread::sleep(PARENT_WATCH);
+            // SAFETY: as above.
+            if unsafe { libc::getppid() } != parent {
+                end();
+            }
+        });
+}
+
+/// Serves requests until the request pipe closes (see the module documentation).
+pub fn serve(config: WorkerConfig) -> i32 {
+    let Some((in_fd, out_fd)) = move_protocol() else {
         return 70;
+    };
+    if let Some(parent) = config.parent {
+        watch_parent(parent);
     }
     PROTO_FD.store(out_fd, Ordering::SeqCst);
-    // SAFETY: out_fd is a fresh descriptor owned by nothing else; stdin is ours to read.
+    // SAFETY: both descriptors are fresh duplicates owned by nothing else.
     let mut out = unsafe { File::from_raw_fd(out_fd) };
-    let mut input = BufReader::with_capacity(1 << 16, unsafe { File::from_raw_fd(0) });
+    let mut input = BufReader::with_capacity(1 << 16, unsafe { File::from_raw_fd(in_fd) });
     // SAFETY: sysconf has no preconditions.
     PAGE.store(
         unsafe { libc::sysconf(libc::_SC_PAGESIZE) } as u64,
@@ -74,6 +141,7 @@ pub fn serve(config: WorkerConfig) -> i32 {
     };
     let hello = Writer::default()
         .u32(TAG_OK)
+        .u32(HELLO_MAGIC)
         .u32(before.is_some() as u32)
         .u32(before.unwrap_or(0))
         .u32(after.unwrap_or(0))
@@ -93,10 +161,14 @@ pub fn serve(config: WorkerConfig) -> i32 {
             Err(_) => return 0,
         };
         let result = match op {
-            OP_CALL => decode_call(&mut r).map(|req| encode_reply(&kernel.call(&req))),
-            OP_BENCH => decode_call(&mut r).map(|req| {
+            OP_CALL => decode_call(&mut r).map(|(token, req)| {
+                TOKEN.store(token, Ordering::SeqCst);
+                encode_reply(token, &kernel.call(&req))
+            }),
+            OP_BENCH => decode_call(&mut r).map(|(token, req)| {
+                TOKEN.store(token, Ordering::SeqCst);
                 let mut w = Writer::default();
-                w.u32(TAG_OK).u64(kernel.bench(&req).to_bits());
+                w.u32(TAG_OK).u64(token).u64(kernel.bench(&req).to_bits());
                 w
             }),
             OP_QUIT => return 0,
@@ -517,6 +589,7 @@ extern "C" fn on_fatal(signo: i32, info: *mut libc::siginfo_t, _ctx: *mut c_void
     let page = PAGE.load(Ordering::Relaxed);
     let in_page = |start: u64| start != 0 && addr >= start && addr < start + page;
     let fault = Fault {
+        token: TOKEN.load(Ordering::Relaxed),
         signo,
         addr,
         in_guard: in_page(GUARD_LO.load(Ordering::Relaxed))

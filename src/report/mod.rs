@@ -14,7 +14,7 @@ pub use model::CheckReport;
 pub use svg::Svg;
 pub use terminal::Terminal;
 pub use value::{display_value, BitsValue};
-pub use write::{check_writable, write_atomic};
+pub use write::{check_outputs, check_writable, is_stdout, write_atomic};
 
 /// An output format of `check` reports.
 pub trait ReportFormat {

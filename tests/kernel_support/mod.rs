@@ -46,6 +46,7 @@ pub fn options() -> RunnerOptions {
         batch_timeout: Duration::from_secs(5),
         stop_on_crash: false,
         batch_size: 4096,
+        ..RunnerOptions::default()
     }
 }
 

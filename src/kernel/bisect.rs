@@ -1,0 +1,217 @@
+//! Running many inputs through the kernel in batches, bisecting a failing batch down to the
+//! input that fails, and knowing when to stop.
+//!
+//! Every failed call (crash, hang, a reply the kernel forged) ends its worker, so bisection
+//! costs a worker start per failure.  Two limits bound that cost ([`RunnerOptions`]): the
+//! number of failed calls and the time they took.  A kernel that fails on every call is caught
+//! long before either: once the first calls have all failed (a few in a row, or two hangs), a
+//! few single inputs spread over the batch are tried in fresh workers, and if none returns
+//! either the runner stops, naming the failure "on every call".  Once stopped, the runner calls
+//! the kernel no more: later inputs get no output and no crash record, so what the caller keeps
+//! stays bounded whatever the kernel does.
+
+use super::runner::{CallError, CrashRecord, RunOutcome, Runner, RunnerOptions};
+use std::time::Duration;
+
+/// Failed calls in a row, with none returned yet, that make the runner ask whether every call
+/// fails.
+const EVERY_CALL_STREAK: u32 = 8;
+/// Hangs in a row (each costs a whole timeout) that do the same.
+const EVERY_CALL_HANGS: u32 = 2;
+/// Single inputs, spread over the batch, tried to answer it.
+const EVERY_CALL_SAMPLES: usize = 3;
+
+/// Largest `--max-restarts`: the crash records a runner keeps grow with it.
+pub const MAX_RESTARTS_LIMIT: u64 = 1_000_000;
+/// Largest `--max-fault-time`, in seconds (a day).
+pub const MAX_FAULT_TIME_LIMIT: f64 = 86_400.0;
+
+/// Validates `--max-restarts` and `--max-fault-time` (seconds); the error is one line.
+pub fn fault_limits(max_restarts: u64, max_fault_time: f64) -> Result<(u64, Duration), String> {
+    if max_restarts > MAX_RESTARTS_LIMIT {
+        return Err(format!(
+            "--max-restarts must be at most {MAX_RESTARTS_LIMIT}, got {max_restarts}"
+        ));
+    }
+    if !(max_fault_time.is_finite()
+        && max_fault_time > 0.0
+        && max_fault_time <= MAX_FAULT_TIME_LIMIT)
+    {
+        return Err(format!(
+            "--max-fault-time must be a number of seconds above 0 and at most \
+             {MAX_FAULT_TIME_LIMIT}, got {max_fault_time}"
+        ));
+    }
+    Ok((max_restarts, Duration::from_secs_f64(max_fault_time)))
+}
+
+/// Calls that failed, the time they took, and whether the runner stopped.
+#[derive(Debug, Default)]
+pub(crate) struct Faults {
+    /// Calls that returned.
+    ok: u64,
+    /// Calls that failed; each ended its worker.
+    failed: u64,
+    /// Failed calls since the last call that returned.
+    streak: u32,
+    /// Hangs since the last call that returned.
+    streak_hangs: u32,
+    /// Time spent in calls that failed.
+    time: Duration,
+    /// Whether the every-call question was asked.
+    asked: bool,
+    /// Why the runner stopped calling the kernel.
+    pub(crate) stopped: Option<String>,
+}
+
+impl Faults {
+    /// A call returned.
+    pub(crate) fn succeeded(&mut self) {
+        self.ok += 1;
+        self.streak = 0;
+        self.streak_hangs = 0;
+    }
+
+    /// A call failed with `e` after `took`; stops the runner once a limit is passed.
+    pub(crate) fn failed(&mut self, e: &CallError, took: Duration, options: &RunnerOptions) {
+        self.failed += 1;
+        self.streak += 1;
+        self.streak_hangs += u32::from(matches!(e, CallError::Hang));
+        self.time += took;
+        if self.stopped.is_some() {
+            return;
+        }
+        if self.failed > options.max_restarts {
+            self.stopped = Some(format!(
+                "{}; gave up after {} failed calls, each ending its worker (--max-restarts {})",
+                e.label(),
+                self.failed,
+                options.max_restarts
+            ));
+        } else if self.time >= options.max_fault_time {
+            self.stopped = Some(format!(
+                "{}; gave up after {:.1} s spent in calls that crashed or hung \
+                 (--max-fault-time {})",
+                e.label(),
+                self.time.as_secs_f64(),
+                options.max_fault_time.as_secs_f64()
+            ));
+        }
+    }
+
+    /// Whether the calls so far look like a kernel that fails on every call.
+    fn every_call_suspected(&self) -> bool {
+        !self.asked
+            && self.ok == 0
+            && (self.streak >= EVERY_CALL_STREAK || self.streak_hangs >= EVERY_CALL_HANGS)
+    }
+}
+
+impl Runner {
+    /// Calls the kernel on `first` (x, or y for from-output gradient kernels) and optional
+    /// `second` (g), in batches.
+    pub fn run(&mut self, first: &[u32], second: Option<&[u32]>) -> RunOutcome {
+        let mut outcome = RunOutcome {
+            outputs: vec![None; first.len()],
+            crashes: Vec::new(),
+        };
+        if second.is_some_and(|s| s.len() != first.len()) || second.is_none() == self.gradient() {
+            outcome.crashes.push(CrashRecord {
+                input: first.first().copied().unwrap_or(0),
+                index: 0,
+                signal: "worker error: gradient kernels take x and g of equal length".into(),
+            });
+            return outcome;
+        }
+        let mut stop = self.faults.stopped.is_some();
+        let mut lo = 0;
+        while lo < first.len() && !stop {
+            let hi = (lo + self.options.batch_size).min(first.len());
+            self.run_range(lo, hi, first, second, &mut outcome, &mut stop);
+            lo = hi;
+        }
+        outcome
+    }
+
+    fn run_range(
+        &mut self,
+        lo: usize,
+        hi: usize,
+        first: &[u32],
+        second: Option<&[u32]>,
+        outcome: &mut RunOutcome,
+        stop: &mut bool,
+    ) {
+        if *stop || lo >= hi {
+            return;
+        }
+        match self.call_plain(&first[lo..hi], second.map(|s| &s[lo..hi])) {
+            Ok(ys) => {
+                for (slot, y) in outcome.outputs[lo..hi].iter_mut().zip(ys) {
+                    *slot = Some(y);
+                }
+            }
+            Err(CallError::Worker(message)) => {
+                // Not the kernel's doing: bisecting would only start more failing workers.
+                outcome.crashes.push(CrashRecord {
+                    input: first[lo],
+                    index: lo,
+                    signal: format!("worker error: {message}"),
+                });
+                *stop = true;
+            }
+            // Recorded where the runner stopped.
+            Err(CallError::Stopped(_)) => *stop = true,
+            Err(e) => {
+                if self.faults.every_call_suspected() {
+                    self.ask_every_call(first, second, &e);
+                }
+                if let Some(reason) = &self.faults.stopped {
+                    outcome.crashes.push(CrashRecord {
+                        input: first[lo],
+                        index: lo,
+                        signal: reason.clone(),
+                    });
+                    *stop = true;
+                } else if hi - lo == 1 {
+                    outcome.crashes.push(CrashRecord {
+                        input: first[lo],
+                        index: lo,
+                        signal: e.label(),
+                    });
+                    *stop |= self.options.stop_on_crash;
+                } else {
+                    let mid = lo + (hi - lo) / 2;
+                    self.run_range(lo, mid, first, second, outcome, stop);
+                    self.run_range(mid, hi, first, second, outcome, stop);
+                }
+            }
+        }
+    }
+
+    /// Tries a few single inputs spread over `first` in fresh workers; when none returns, the
+    /// kernel fails on every call and the runner stops.  Their outputs are not kept: each input
+    /// is called again in its own batch.
+    fn ask_every_call(&mut self, first: &[u32], second: Option<&[u32]>, e: &CallError) {
+        self.faults.asked = true;
+        let len = first.len();
+        let mut picks: Vec<usize> = (0..EVERY_CALL_SAMPLES)
+            .map(|k| (2 * k + 1) * len / (2 * EVERY_CALL_SAMPLES))
+            .collect();
+        picks.dedup();
+        for i in picks {
+            match self.call_plain(&first[i..=i], second.map(|s| &s[i..=i])) {
+                Ok(_) | Err(CallError::Worker(_) | CallError::Stopped(_)) => return,
+                Err(_) => {}
+            }
+        }
+        if self.faults.stopped.is_none() {
+            self.faults.stopped = Some(format!(
+                "{} on every call ({} calls tried, whole batches and single inputs spread \
+                 over them; none returned)",
+                e.label(),
+                self.faults.failed
+            ));
+        }
+    }
+}
