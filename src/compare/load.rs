@@ -89,10 +89,49 @@ fn get<'a>(v: &'a Value, path: &str, what: &str) -> Result<&'a Value, String> {
     Ok(cur)
 }
 
+/// A number at least 0 (JSON has no NaN or infinity, so it is finite too).
 fn num(v: &Value, path: &str, what: &str) -> Result<f64, String> {
     get(v, path, what)?
         .as_f64()
-        .ok_or_else(|| format!("{what}: key `{path}` is not a number"))
+        .filter(|x| *x >= 0.0)
+        .ok_or_else(|| format!("{what}: key `{path}` is not a number >= 0"))
+}
+
+/// A fraction, from 0 to 1.
+fn fraction(v: &Value, path: &str, what: &str) -> Result<f64, String> {
+    get(v, path, what)?
+        .as_f64()
+        .filter(|x| (0.0..=1.0).contains(x))
+        .ok_or_else(|| format!("{what}: key `{path}` is not a fraction from 0 to 1"))
+}
+
+/// A count: a whole number at least 0.
+fn count(v: &Value, path: &str, what: &str) -> Result<u64, String> {
+    get(v, path, what)?
+        .as_u64()
+        .ok_or_else(|| format!("{what}: key `{path}` is not a whole number >= 0"))
+}
+
+fn string(v: &Value, path: &str, what: &str) -> Result<String, String> {
+    get(v, path, what)?
+        .as_str()
+        .map(String::from)
+        .ok_or_else(|| format!("{what}: key `{path}` is not a string"))
+}
+
+fn boolean(v: &Value, path: &str, what: &str) -> Result<bool, String> {
+    get(v, path, what)?
+        .as_bool()
+        .ok_or_else(|| format!("{what}: key `{path}` is not true or false"))
+}
+
+/// Null, or a string.
+fn optional_string(v: &Value, path: &str, what: &str) -> Result<Option<String>, String> {
+    match v.get(path) {
+        None | Some(Value::Null) => Ok(None),
+        Some(Value::String(s)) => Ok(Some(s.clone())),
+        Some(_) => Err(format!("{what}: key `{path}` is not a string or null")),
+    }
 }
 
 fn text(v: &Value) -> String {
@@ -102,7 +141,31 @@ fn text(v: &Value) -> String {
     }
 }
 
+/// The entries of a list, each an object, with the name an error gives each.
+fn list<'a>(v: &'a Value, name: &str, what: &str) -> Result<Vec<(String, &'a Value)>, String> {
+    let items = get(v, name, what)?
+        .as_array()
+        .ok_or_else(|| format!("{what}: key `{name}` is not a list"))?;
+    items
+        .iter()
+        .enumerate()
+        .map(|(i, item)| {
+            let at = format!("{what}: {name}[{i}]");
+            if item.is_object() {
+                Ok((at, item))
+            } else {
+                Err(format!("{at} is not an object"))
+            }
+        })
+        .collect()
+}
+
+/// Every judged figure must be present and well formed: a field read as 0 or as "passed" by
+/// default could make a regression look like an improvement.
 fn figures(v: &Value, what: &str) -> Result<Figures, String> {
+    if !v.is_object() {
+        return Err(format!("{what} is not an object"));
+    }
     let params = match get(v, "params", what)? {
         Value::Object(m) => m
             .iter()
@@ -111,71 +174,97 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
             .join(", "),
         _ => return Err(format!("{what}: key `params` is not an object")),
     };
-    let mut role = text(get(v, "role", what)?);
-    if v.get("from_output").and_then(Value::as_bool) == Some(true) {
-        role.push_str("-from-output");
+    let mut role = string(v, "role", what)?;
+    match v.get("from_output") {
+        None | Some(Value::Bool(false)) => {}
+        Some(Value::Bool(true)) => role.push_str("-from-output"),
+        Some(_) => return Err(format!("{what}: key `from_output` is not true or false")),
     }
+    let symbol = match v.get("kernel") {
+        None => String::new(),
+        Some(k @ Value::Object(_)) => {
+            optional_string(k, "symbol", &format!("{what}: kernel"))?.unwrap_or_default()
+        }
+        Some(_) => return Err(format!("{what}: key `kernel` is not an object")),
+    };
     let key = KernelKey {
-        function: text(get(v, "function", what)?),
+        function: string(v, "function", what)?,
         params,
-        format: text(get(v, "format", what)?),
+        format: string(v, "format", what)?,
         role,
-        symbol: v
-            .get("kernel")
-            .and_then(|k| k.get("symbol"))
-            .map(text)
-            .unwrap_or_default(),
+        symbol,
     };
-    let list = |name: &str| -> Result<Vec<Value>, String> {
-        get(v, name, what)?
-            .as_array()
-            .cloned()
-            .ok_or_else(|| format!("{what}: key `{name}` is not a list"))
-    };
-    let runs = list("non_finite")?;
-    let non_finite_inputs = runs
-        .iter()
-        .map(|r| r.get("count").and_then(Value::as_u64).unwrap_or(0))
-        .sum();
-    let hygiene = list("hygiene")?
-        .iter()
-        .map(|h| {
-            (
-                h.get("check").map(text).unwrap_or_default(),
-                h.get("passed").and_then(Value::as_bool).unwrap_or(false),
-            )
-        })
-        .collect();
-    let special = list("special_values")?
-        .iter()
-        .map(|r| {
-            let bits = r
-                .get("input")
-                .and_then(|i| i.get("bits"))
-                .map(text)
-                .unwrap_or_default();
-            // "subnormal input: flushed to zero …" is the same rule as "subnormal input".
-            let rule = r.get("rule").map(text).unwrap_or_default();
-            let rule = match rule.split_once(':') {
-                Some((head, _)) if !head.starts_with("signed zero") => head.to_string(),
-                _ => rule,
-            };
-            (
-                (bits, rule),
-                r.get("passed").and_then(Value::as_bool).unwrap_or(false),
-            )
-        })
-        .collect();
+    let runs = list(v, "non_finite", what)?;
+    let mut non_finite_inputs = 0u64;
+    for (at, run) in &runs {
+        let n = count(run, "count", at)?;
+        if n == 0 {
+            return Err(format!(
+                "{at}: key `count` is 0: a run holds at least one input"
+            ));
+        }
+        non_finite_inputs = non_finite_inputs
+            .checked_add(n)
+            .ok_or_else(|| format!("{what}: the non-finite runs hold more than 2^64 inputs"))?;
+    }
+    let mut hygiene = BTreeMap::new();
+    for (at, h) in list(v, "hygiene", what)? {
+        let check = string(h, "check", &at)?;
+        if hygiene
+            .insert(check.clone(), boolean(h, "passed", &at)?)
+            .is_some()
+        {
+            return Err(format!("{what}: hygiene check `{check}` is listed twice"));
+        }
+    }
+    let mut special = BTreeMap::new();
+    for (at, r) in list(v, "special_values", what)? {
+        let bits = string(r, "input.bits", &at)?;
+        // "subnormal input: flushed to zero …" is the same rule as "subnormal input".
+        let rule = string(r, "rule", &at)?;
+        let rule = match rule.split_once(':') {
+            Some((head, _)) if !head.starts_with("signed zero") => head.to_string(),
+            _ => rule,
+        };
+        let passed = boolean(r, "passed", &at)?;
+        // One rule at one input twice: failing wins, so a duplicate cannot hide a failure.
+        let entry = special.entry((bits, rule)).or_insert(passed);
+        *entry &= passed;
+    }
     let crash = match get(v, "crash", what)? {
         Value::Null => None,
-        c => Some(format!(
-            "{} at {}",
-            c.get("signal").map(text).unwrap_or_default(),
-            c.get("input")
-                .and_then(|i| i.get("bits"))
-                .map(text)
-                .unwrap_or_default()
-        )),
+        c @ Value::Object(_) => {
+            let at = format!("{what}: crash");
+            count(c, "count", &at)?;
+            Some(format!(
+                "{} at {}",
+                string(c, "signal", &at)?,
+                string(c, "input.bits", &at)?
+            ))
+        }
+        _ => return Err(format!("{what}: key `crash` is not an object or null")),
+    };
+    let max_ulp = num(v, "accuracy.max_ulp", what)?;
+    let mean_ulp = num(v, "accuracy.mean_ulp", what)?;
+    if mean_ulp > max_ulp {
+        return Err(format!(
+            "{what}: accuracy.mean_ulp {mean_ulp} exceeds accuracy.max_ulp {max_ulp}"
+        ));
+    }
+    let correctly_rounded = fraction(v, "accuracy.correctly_rounded", what)?;
+    let faithful = fraction(v, "accuracy.faithful", what)?;
+    // A correctly rounded result is one of the two faithful ones.
+    if correctly_rounded > faithful {
+        return Err(format!(
+            "{what}: accuracy.correctly_rounded {correctly_rounded} exceeds accuracy.faithful {faithful}"
+        ));
+    }
+    let points = count(v, "accuracy.points", what)?;
+    let ns_per_element = match v.get("kernel").and_then(|k| k.get("ns_per_element")) {
+        None | Some(Value::Null) => None,
+        Some(x) => Some(x.as_f64().filter(|x| *x >= 0.0).ok_or_else(|| {
+            format!("{what}: key `kernel.ns_per_element` is not a number >= 0 or null")
+        })?),
     };
     let library = v.get("provenance").and_then(|p| p.get("library"));
     let sweep = v.get("sweep").map_or(String::new(), |s| {
@@ -192,20 +281,17 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
     });
     Ok(Figures {
         key,
-        max_ulp: num(v, "accuracy.max_ulp", what)?,
-        mean_ulp: num(v, "accuracy.mean_ulp", what)?,
-        correctly_rounded: num(v, "accuracy.correctly_rounded", what)?,
-        faithful: num(v, "accuracy.faithful", what)?,
-        points: num(v, "accuracy.points", what)? as u64,
+        max_ulp,
+        mean_ulp,
+        correctly_rounded,
+        faithful,
+        points,
         non_finite_inputs,
         non_finite_runs: runs.len() as u64,
         hygiene,
         special,
         crash,
-        ns_per_element: v
-            .get("kernel")
-            .and_then(|k| k.get("ns_per_element"))
-            .and_then(Value::as_f64),
+        ns_per_element,
         sha256: library
             .and_then(|l| l.get("sha256"))
             .and_then(Value::as_str)
@@ -251,6 +337,9 @@ pub fn load(path: &Path, role: &str) -> Result<Loaded, String> {
         });
     }
     let kernels = match body.get("kernels") {
+        Some(Value::Array(list)) if list.is_empty() => {
+            return Err(format!("{what}: key `kernels` lists no kernel"))
+        }
         Some(Value::Array(list)) => list
             .iter()
             .enumerate()
