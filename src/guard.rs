@@ -222,3 +222,50 @@ fn children(parent: i32) -> Vec<(i32, i32)> {
     })
     .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_signal_removes_registered_temporaries_and_ends_the_process() {
+        let path = std::env::temp_dir().join(format!(".ulpgauge-guard-{}.tmp", std::process::id()));
+        std::fs::write(&path, "half a report").unwrap();
+        // Registered before the fork: the child inherits the table and must not allocate.
+        let temp = Temporary::new(&path);
+        // SAFETY: the child only makes async-signal-safe calls (sigaction, raise, _exit).
+        let child = unsafe { libc::fork() };
+        if child == 0 {
+            unsafe {
+                let mut action: libc::sigaction = std::mem::zeroed();
+                action.sa_sigaction = on_signal as *const () as usize;
+                libc::sigemptyset(&mut action.sa_mask);
+                libc::sigaction(libc::SIGTERM, &action, std::ptr::null_mut());
+                libc::raise(libc::SIGTERM);
+                libc::_exit(0);
+            }
+        }
+        let mut status = 0;
+        // SAFETY: waits for the child forked above.
+        assert_eq!(unsafe { libc::waitpid(child, &mut status, 0) }, child);
+        // The handler re-raised the signal with its default action (POSIX: WIFSIGNALED).
+        assert!(libc::WIFSIGNALED(status) && libc::WTERMSIG(status) == libc::SIGTERM);
+        assert!(!path.exists(), "the temporary file was removed");
+        drop(temp);
+        slots_are_released_on_drop();
+    }
+
+    /// Run by the test above, so that no other test takes the slot in between.
+    fn slots_are_released_on_drop() {
+        let t = Temporary::new(Path::new("/nonexistent/ulpgauge-slot-test"));
+        let i = t.slot.expect("a free slot");
+        assert!(!TEMPS[i].load(Ordering::SeqCst).is_null());
+        drop(t);
+        assert!(TEMPS[i].load(Ordering::SeqCst).is_null());
+        let g = Group::new(i32::MAX);
+        let j = g.slot.expect("a free slot");
+        assert_eq!(GROUPS[j].load(Ordering::SeqCst), i32::MAX);
+        drop(g);
+        assert_eq!(GROUPS[j].load(Ordering::SeqCst), 0);
+    }
+}
