@@ -257,6 +257,26 @@ fn the_restart_and_time_budgets_end_a_kernel_that_keeps_failing() {
         assert!(f32::from_bits(c.input) < 0.0);
     }
 
+    // Only negative inputs: every call of the run fails, yet the kernel is not one that fails
+    // on every call (the sign-flipped probe returns), so each crash is pinned until the budget.
+    let negatives: Vec<u32> = x.iter().map(|b| b | 0x8000_0000).collect();
+    let mut r = hostile_runner(
+        "lumen_sigmoid_f32_negative_crash",
+        RunnerOptions {
+            max_restarts: 30,
+            ..kernel_support::options()
+        },
+    );
+    let out = r.run(&negatives, None);
+    assert!(out.crashes.len() > 5, "{:?}", out.crashes);
+    assert!(out.crashes.iter().all(|c| !c.signal.contains("every call")));
+    assert!(out
+        .crashes
+        .last()
+        .unwrap()
+        .signal
+        .contains("--max-restarts 30"));
+
     let mut r = hostile_runner(
         "lumen_sigmoid_f32_dma_wait",
         RunnerOptions {

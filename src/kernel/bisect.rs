@@ -189,26 +189,33 @@ impl Runner {
         }
     }
 
-    /// Tries a few single inputs spread over `first` in fresh workers; when none returns, the
-    /// kernel fails on every call and the runner stops.  Their outputs are not kept: each input
-    /// is called again in its own batch.
+    /// Tries a few single inputs spread over `first` in fresh workers, the middle one with its
+    /// sign flipped (a run's inputs often share a sign, a kernel's failures often follow it);
+    /// when none returns, the kernel fails on every call and the runner stops.  Their outputs
+    /// are not kept: each input is called again in its own batch.
     fn ask_every_call(&mut self, first: &[u32], second: Option<&[u32]>, e: &CallError) {
         self.faults.asked = true;
         let len = first.len();
+        let sign = 1u32 << (self.spec().format.width() - 1);
         let mut picks: Vec<usize> = (0..EVERY_CALL_SAMPLES)
             .map(|k| (2 * k + 1) * len / (2 * EVERY_CALL_SAMPLES))
             .collect();
         picks.dedup();
-        for i in picks {
-            match self.call_plain(&first[i..=i], second.map(|s| &s[i..=i])) {
+        for (k, &i) in picks.iter().enumerate() {
+            let x = if k == EVERY_CALL_SAMPLES / 2 {
+                first[i] ^ sign
+            } else {
+                first[i]
+            };
+            match self.call_plain(&[x], second.map(|s| &s[i..=i])) {
                 Ok(_) | Err(CallError::Worker(_) | CallError::Stopped(_)) => return,
                 Err(_) => {}
             }
         }
         if self.faults.stopped.is_none() {
             self.faults.stopped = Some(format!(
-                "{} on every call ({} calls tried, whole batches and single inputs spread \
-                 over them; none returned)",
+                "{} on every call ({} calls tried, whole batches and single inputs of both \
+                 signs spread over them; none returned)",
                 e.label(),
                 self.faults.failed
             ));
