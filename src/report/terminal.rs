@@ -27,6 +27,11 @@ fn count(n: u64) -> String {
     text
 }
 
+/// "1 input", "12,916 inputs".
+fn counted(n: u64, noun: &str) -> String {
+    format!("{} {noun}{}", count(n), if n == 1 { "" } else { "s" })
+}
+
 /// The non-finite findings in a few sentences: per kind, how many runs and inputs, in which
 /// binades of each sign, how dense, and the longest runs; never one line per run.
 fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
@@ -36,9 +41,9 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
     }
     writeln!(
         out,
-        "  non-finite  {} inputs in {} runs where kernel and reference differ in class:",
-        count(total.inputs),
-        count(total.runs)
+        "  non-finite  {} in {} where kernel and reference differ in class:",
+        counted(total.inputs, "input"),
+        counted(total.runs, "run")
     )?;
     let per_binade = crate::format::by_name(r.format).map(|f| 1u64 << (f.precision() - 1));
     let mut kinds: Vec<(&str, &str)> = r
@@ -79,9 +84,9 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
             };
             writeln!(
                 out,
-                "              kernel {kernel} where the reference is {reference}: {} inputs in {} runs, {binades}{density}; x from {} to {}",
-                count(inputs),
-                count(runs),
+                "              kernel {kernel} where the reference is {reference}: {} in {}, {binades}{density}; x from {} to {}",
+                counted(inputs, "input"),
+                counted(runs, "run"),
                 v(&first.first),
                 v(&last.last)
             )?;
@@ -90,12 +95,12 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
     for run in r.non_finite.iter().take(3) {
         writeln!(
             out,
-            "              longest: {} .. {}: kernel {}, reference {} ({} inputs)",
+            "              longest: {} .. {}: kernel {}, reference {} ({})",
             v(&run.first),
             v(&run.last),
             run.kernel,
             run.reference,
-            count(run.count)
+            counted(run.count, "input")
         )?;
     }
     if total.runs > 3 {
