@@ -151,3 +151,47 @@ fn findings_cannot_be_streamed_from_a_shard() {
     assert_eq!(String::from_utf8_lossy(&out.stderr).lines().count(), 1);
     assert!(!findings.exists());
 }
+
+#[test]
+fn points_over_the_listing_limit_are_streamed_into_the_csv_and_the_findings_file() {
+    // A kernel one step above the correctly rounded result everywhere (`next-up`): every
+    // binary16 point errs by more than half an ulp and by at most 2.5: |ŷ − y| ≤ ulp(RN(y)) +
+    // ulp(y)/2, and ulp(RN(y)) ≤ 2·ulp(y) when y rounds up to a power of two (common
+    // practice).
+    let dir = out_dir("points");
+    let (json, csv, findings) = (dir.join("r.json"), dir.join("r.csv"), dir.join("f.csv"));
+    let out = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+        .args(["check", "--builtin-kernel", "next-up", "--function", "tanh"])
+        .args(["--format", "f16", "--quiet", "--no-progress"])
+        .args(["--csv-points-over", "0.5"])
+        .args(["--json", json.to_str().unwrap()])
+        .args(["--csv", csv.to_str().unwrap()])
+        .args(["--findings", findings.to_str().unwrap()])
+        .output()
+        .unwrap();
+    assert!(
+        out.status.code().is_some_and(|c| c < 2),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let v: Value = serde_json::from_str(&std::fs::read_to_string(&json).unwrap()).unwrap();
+    let listed = v["accuracy"]["points_over_limit"].as_u64().unwrap();
+    let points = v["accuracy"]["points"].as_u64().unwrap();
+    assert!(listed > 60_000 && listed <= points, "{listed} of {points}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let rows: Vec<Vec<&str>> = text.lines().map(|l| l.split(',').collect()).collect();
+    let point_rows: Vec<&Vec<&str>> = rows.iter().filter(|r| r[4] == "point").collect();
+    assert_eq!(point_rows.len() as u64, listed);
+    assert!(rows.iter().any(|r| r[4] == "binade"));
+    let mut previous = None;
+    for r in &point_rows {
+        let ulp: f64 = r[16].parse().unwrap();
+        assert!(ulp > 0.5 && ulp <= 2.5, "{ulp}");
+        let input = u32::from_str_radix(r[6].trim_start_matches("0x"), 16).unwrap();
+        assert!(previous.is_none_or(|p| p < input));
+        previous = Some(input);
+    }
+    let findings = std::fs::read_to_string(&findings).unwrap();
+    let streamed = findings.lines().filter(|l| l.contains(",point,")).count();
+    assert_eq!(streamed as u64, listed);
+}
