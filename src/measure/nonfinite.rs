@@ -175,6 +175,9 @@ pub struct RunSummary {
     cells: Vec<Cell>,
     /// The longest runs, at most 2·keep between truncations.
     longest: Vec<Raw>,
+    /// The last of `keep` runs kept at the last truncation: a run that sorts after it is
+    /// never listed.
+    floor: Option<Raw>,
     keep: usize,
 }
 
@@ -185,6 +188,7 @@ impl RunSummary {
             totals: RunTotals::default(),
             cells: Vec::new(),
             longest: Vec::new(),
+            floor: None,
             keep,
         }
     }
@@ -231,7 +235,13 @@ impl RunSummary {
             cell.first = cell.first.min(lo);
             cell.last = cell.last.max(hi);
         }
-        if self.keep > 0 {
+        // Once `keep` runs are kept, a run that would sort after the last of them never
+        // will be listed (most runs of a broken kernel are alike).
+        let listed = self.keep > 0
+            && self
+                .floor
+                .is_none_or(|last| listing_order(&run, &last) == std::cmp::Ordering::Less);
+        if listed {
             self.longest.push(run);
             if self.longest.len() >= 2 * self.keep {
                 self.trim();
@@ -242,6 +252,9 @@ impl RunSummary {
     fn trim(&mut self) {
         self.longest.sort_by(listing_order);
         self.longest.truncate(self.keep);
+        if self.longest.len() == self.keep {
+            self.floor = self.longest.last().copied();
+        }
     }
 
     /// Joins the summary of other runs (any stretch).
