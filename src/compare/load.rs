@@ -194,8 +194,10 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
         role,
         symbol,
     };
+    // Version 2 lists the longest runs and counts them all in `non_finite_total`; version 1
+    // listed every run. Either way the listed runs must be well formed and within the totals.
     let runs = list(v, "non_finite", what)?;
-    let mut non_finite_inputs = 0u64;
+    let mut listed_inputs = 0u64;
     for (at, run) in &runs {
         let n = count(run, "count", at)?;
         if n == 0 {
@@ -203,10 +205,24 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
                 "{at}: key `count` is 0: a run holds at least one input"
             ));
         }
-        non_finite_inputs = non_finite_inputs
+        listed_inputs = listed_inputs
             .checked_add(n)
             .ok_or_else(|| format!("{what}: the non-finite runs hold more than 2^64 inputs"))?;
     }
+    let (non_finite_runs, non_finite_inputs) = match v.get("non_finite_total") {
+        Some(total) => {
+            let runs_total = count(total, "runs", &format!("{what}: non_finite_total"))?;
+            let inputs = count(total, "inputs", &format!("{what}: non_finite_total"))?;
+            if runs_total < runs.len() as u64 || inputs < listed_inputs || inputs < runs_total {
+                return Err(format!(
+                    "{what}: non_finite_total ({runs_total} runs, {inputs} inputs) is less than the runs listed ({} runs, {listed_inputs} inputs)",
+                    runs.len()
+                ));
+            }
+            (runs_total, inputs)
+        }
+        None => (runs.len() as u64, listed_inputs),
+    };
     let mut hygiene = BTreeMap::new();
     for (at, h) in list(v, "hygiene", what)? {
         let check = string(h, "check", &at)?;
@@ -287,7 +303,7 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
         faithful,
         points,
         non_finite_inputs,
-        non_finite_runs: runs.len() as u64,
+        non_finite_runs,
         hygiene,
         special,
         crash,
@@ -330,12 +346,15 @@ pub fn load(path: &Path, role: &str) -> Result<Loaded, String> {
     } else {
         (schema, v)
     };
-    if schema != SCHEMA {
+    // Version 1 listed every non-finite run; version 2 lists the longest and counts them all.
+    // Both carry the figures compared, so a baseline of either version compares.
+    if schema != SCHEMA && schema != "ulpgauge-check/1" {
         return Ok(Loaded {
             schema,
             kernels: Vec::new(),
         });
     }
+    let schema = SCHEMA.to_string();
     let kernels = match body.get("kernels") {
         Some(Value::Array(list)) if list.is_empty() => {
             return Err(format!("{what}: key `kernels` lists no kernel"))

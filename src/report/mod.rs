@@ -1,20 +1,23 @@
 //! Reports: the data model of a check and one file per output format behind [`ReportFormat`].
 
 mod csv;
+mod findings;
 pub mod json;
 pub mod model;
+pub mod provenance;
 mod svg;
 mod terminal;
 mod value;
 mod write;
 
 pub use self::csv::Csv;
+pub use findings::FindingsWriter;
 pub use json::Json;
 pub use model::CheckReport;
 pub use svg::Svg;
 pub use terminal::Terminal;
 pub use value::{display_value, BitsValue};
-pub use write::{check_outputs, check_writable, is_stdout, write_atomic};
+pub use write::{check_outputs, check_writable, is_stdout, write_atomic, write_atomic_with};
 
 /// An output format of `check` reports.
 pub trait ReportFormat {

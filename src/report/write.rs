@@ -153,22 +153,70 @@ pub fn check_outputs(paths: &[Option<&Path>]) -> Result<bool, String> {
 /// written to a temporary file beside it, then renamed over it: readers see the old file or
 /// the whole new one, never half of it, and an interrupted write leaves no temporary behind.
 pub fn write_atomic(path: &Path, text: &str) -> Result<(), String> {
+    write_atomic_with(path, |out| {
+        out.write_all(text.as_bytes()).map_err(|e| e.to_string())
+    })
+}
+
+/// [`write_atomic`] for content written piece by piece by `fill` (a large report streamed from
+/// files rather than held as one string).
+pub fn write_atomic_with(
+    path: &Path,
+    fill: impl FnOnce(&mut dyn Write) -> Result<(), String>,
+) -> Result<(), String> {
     let shown = path.display();
+    let failed = |e: String| format!("cannot write {shown}: {e}");
     match resolve(path)? {
         Target::Stdout => {
-            let mut out = std::io::stdout().lock();
-            match out.write_all(text.as_bytes()).and_then(|_| out.flush()) {
-                // A closed standard output (`… --json - | head`) is the reader's choice.
-                Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => {
-                    Err(format!("cannot write standard output: {e}"))
-                }
-                _ => Ok(()),
-            }
+            let mut out =
+                std::io::BufWriter::with_capacity(1 << 20, QuietStdout(std::io::stdout()));
+            fill(&mut out)
+                .and_then(|_| out.flush().map_err(|e| e.to_string()))
+                .map_err(|e| format!("cannot write standard output: {e}"))
         }
-        Target::Stream(target) => write_through(&target, text.as_bytes())
-            .map_err(|e| format!("cannot write {shown}: {e}")),
-        Target::Regular(target) => {
-            replace(&target, text.as_bytes()).map_err(|e| format!("cannot write {shown}: {e}"))
+        Target::Stream(target) => {
+            let f = open_through(&target).map_err(|e| failed(e.to_string()))?;
+            let mut out = std::io::BufWriter::with_capacity(1 << 20, f);
+            fill(&mut out)
+                .and_then(|_| out.flush().map_err(|e| e.to_string()))
+                .map_err(failed)
+        }
+        Target::Regular(target) => replace(&target, fill).map_err(failed),
+    }
+}
+
+/// Puts a finished temporary file `tmp` (written beside `path`) in place at `path`, as
+/// [`write_atomic`] would: renamed over a regular file (a link's target included), copied into
+/// a device, FIFO or standard output; `tmp` is gone afterwards either way.
+pub fn place(tmp: &Path, path: &Path) -> Result<(), String> {
+    let result = match resolve(path) {
+        Ok(Target::Regular(target)) if std::fs::rename(tmp, &target).is_ok() => Ok(()),
+        Ok(_) => write_atomic_with(path, |out| {
+            let mut file = std::fs::File::open(tmp).map_err(|e| e.to_string())?;
+            std::io::copy(&mut file, out)
+                .map(|_| ())
+                .map_err(|e| e.to_string())
+        }),
+        Err(e) => Err(e),
+    };
+    let _ = std::fs::remove_file(tmp);
+    result
+}
+
+/// Standard output, with a closed pipe (`… --json - | head`) taken as the reader's choice.
+struct QuietStdout(std::io::Stdout);
+
+impl Write for QuietStdout {
+    fn write(&mut self, buf: &[u8]) -> std::io::Result<usize> {
+        match self.0.write(buf) {
+            Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(buf.len()),
+            other => other,
+        }
+    }
+    fn flush(&mut self) -> std::io::Result<()> {
+        match self.0.flush() {
+            Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+            other => other,
         }
     }
 }
@@ -176,12 +224,12 @@ pub fn write_atomic(path: &Path, text: &str) -> Result<(), String> {
 /// How long a FIFO may go without a reader before writing to it is an error.
 const FIFO_WAIT: std::time::Duration = std::time::Duration::from_secs(10);
 
-/// Writes into a device or FIFO as it is.  A FIFO nobody reads is an error after
+/// Opens a device or FIFO for writing as it is.  A FIFO nobody reads is an error after
 /// [`FIFO_WAIT`], not a wait forever: it is opened without blocking, retried while no reader
 /// has it open.
-fn write_through(target: &Path, bytes: &[u8]) -> std::io::Result<()> {
+fn open_through(target: &Path) -> std::io::Result<File> {
     let deadline = std::time::Instant::now() + FIFO_WAIT;
-    let mut f = loop {
+    let f = loop {
         match OpenOptions::new()
             .write(true)
             .custom_flags(libc::O_NONBLOCK | libc::O_NOCTTY)
@@ -210,24 +258,29 @@ fn write_through(target: &Path, bytes: &[u8]) -> std::io::Result<()> {
             libc::fcntl(fd, libc::F_SETFL, flags & !libc::O_NONBLOCK);
         }
     }
-    f.write_all(bytes)?;
-    f.flush()
+    Ok(f)
 }
 
-/// Atomic replacement of a regular file (or creation of a new one); an existing file keeps its
-/// permission bits.
-fn replace(target: &Path, bytes: &[u8]) -> std::io::Result<()> {
-    let (tmp, mut file, _guard) = create_temporary(target)?;
+/// Atomic replacement of a regular file (or creation of a new one) with what `fill` writes; an
+/// existing file keeps its permission bits.
+fn replace(
+    target: &Path,
+    fill: impl FnOnce(&mut dyn Write) -> Result<(), String>,
+) -> Result<(), String> {
+    let (tmp, file, _guard) = create_temporary(target).map_err(|e| e.to_string())?;
     let result = (|| {
         if let Ok(meta) = std::fs::metadata(target) {
             file.set_permissions(std::fs::Permissions::from_mode(
                 meta.permissions().mode() & 0o7777,
-            ))?;
+            ))
+            .map_err(|e| e.to_string())?;
         }
-        file.write_all(bytes)?;
-        file.sync_all()?;
+        let mut out = std::io::BufWriter::with_capacity(1 << 20, file);
+        fill(&mut out)?;
+        let file = out.into_inner().map_err(|e| e.to_string())?;
+        file.sync_all().map_err(|e| e.to_string())?;
         drop(file);
-        std::fs::rename(&tmp, target)
+        std::fs::rename(&tmp, target).map_err(|e| e.to_string())
     })();
     if result.is_err() {
         let _ = std::fs::remove_file(&tmp);
