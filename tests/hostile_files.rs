@@ -72,8 +72,10 @@ fn a_character_device_is_written_through_never_replaced() {
     };
     let before = std::fs::metadata(&target).unwrap();
     assert!(before.file_type().is_char_device());
-    let (code, _, stderr) = check(&["--quiet", "--json", target.to_str().unwrap()]);
-    assert_eq!(code, 0, "{stderr}");
+    for flag in ["--json", "--findings"] {
+        let (code, _, stderr) = check(&["--quiet", flag, target.to_str().unwrap()]);
+        assert_eq!(code, 0, "{flag}: {stderr}");
+    }
     let after = std::fs::metadata(&target).unwrap();
     assert!(
         after.file_type().is_char_device(),
