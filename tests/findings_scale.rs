@@ -188,7 +188,7 @@ fn points_over_the_listing_limit_are_streamed_into_the_csv_and_the_findings_file
         let ulp: f64 = r[16].parse().unwrap();
         assert!(ulp > 0.5 && ulp <= 2.5, "{ulp}");
         let input = u32::from_str_radix(r[6].trim_start_matches("0x"), 16).unwrap();
-        assert!(previous.is_none_or(|p| p < input));
+        assert!(previous.map_or(true, |p| p < input));
         previous = Some(input);
     }
     let findings = std::fs::read_to_string(&findings).unwrap();

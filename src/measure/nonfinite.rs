@@ -238,9 +238,9 @@ impl RunSummary {
         // Once `keep` runs are kept, a run that would sort after the last of them never
         // will be listed (most runs of a broken kernel are alike).
         let listed = self.keep > 0
-            && self
-                .floor
-                .is_none_or(|last| listing_order(&run, &last) == std::cmp::Ordering::Less);
+            && self.floor.map_or(true, |last| {
+                listing_order(&run, &last) == std::cmp::Ordering::Less
+            });
         if listed {
             self.longest.push(run);
             if self.longest.len() >= 2 * self.keep {

@@ -6,6 +6,7 @@
 
 use super::csv::point_record;
 use super::{write_atomic_with, CheckReport, Csv};
+use crate::guard::Temporary;
 use crate::measure::{FindingSink, NonFiniteRun, Worst};
 use std::fs::File;
 use std::io::{BufWriter, Write};
@@ -37,16 +38,20 @@ struct Spool {
     tmp: PathBuf,
     writer: csv::Writer<BufWriter<File>>,
     rows: u64,
+    /// A signal deletes the file while it is registered.
+    registered: Temporary,
 }
 
 impl Spool {
     fn create(tmp: PathBuf) -> Result<Spool, String> {
+        let registered = Temporary::new(&tmp);
         let file =
             File::create(&tmp).map_err(|e| format!("cannot write {}: {e}", tmp.display()))?;
         Ok(Spool {
             tmp,
             writer: csv::Writer::from_writer(BufWriter::with_capacity(1 << 20, file)),
             rows: 0,
+            registered,
         })
     }
     fn row(&mut self, record: &[String]) -> Result<(), String> {
@@ -55,8 +60,9 @@ impl Spool {
             .write_record(record)
             .map_err(|e| format!("cannot write {}: {e}", self.tmp.display()))
     }
-    /// Flushes and closes the file, leaving it under its temporary name.
-    fn close(self) -> Result<PathBuf, String> {
+    /// Flushes and closes the file, leaving it under its temporary name (still registered
+    /// for deletion on a signal while the registration lives).
+    fn close(self) -> Result<(PathBuf, Temporary), String> {
         let tmp = self.tmp.clone();
         let mut inner = self
             .writer
@@ -65,7 +71,7 @@ impl Spool {
         inner
             .flush()
             .map_err(|e| format!("cannot write {}: {e}", tmp.display()))?;
-        Ok(tmp)
+        Ok((tmp, self.registered))
     }
 }
 
@@ -87,7 +93,7 @@ pub struct FindingsWriter {
     /// The CSV report, when it lists points.
     csv: Option<PathBuf>,
     /// The point spool of each kernel begun, in order (the last one still open).
-    spools: Vec<PathBuf>,
+    spools: Vec<(PathBuf, Temporary)>,
     open: Option<Spool>,
     /// The first write error; reported at the end, the check goes on.
     error: Option<String>,
@@ -132,7 +138,7 @@ impl FindingsWriter {
     fn close_spool(&mut self) {
         if let Some(spool) = self.open.take() {
             match spool.close() {
-                Ok(path) => self.spools.push(path),
+                Ok(closed) => self.spools.push(closed),
                 Err(e) => self.fail(e),
             }
         }
@@ -160,21 +166,21 @@ impl FindingsWriter {
                 for (i, r) in reports.iter().enumerate() {
                     out.write_all(Csv.binade_rows(r, i == 0)?.as_bytes())
                         .map_err(|e| e.to_string())?;
-                    if let Some(spool) = spools.get(i) {
+                    if let Some((spool, _)) = spools.get(i) {
                         let mut file = File::open(spool).map_err(|e| e.to_string())?;
                         std::io::copy(&mut file, out).map_err(|e| e.to_string())?;
                     }
                 }
                 Ok(())
             });
-            for spool in &spools {
+            for (spool, _) in &spools {
                 let _ = std::fs::remove_file(spool);
             }
             result?;
         }
         if let Some((spool, target)) = self.all.take() {
             // Renamed over a regular file, copied into a device, FIFO or standard output.
-            super::write::place(&spool.close()?, &target)?;
+            super::write::place(&spool.close()?.0, &target)?;
         }
         Ok(())
     }
@@ -189,7 +195,7 @@ impl Drop for FindingsWriter {
         if let Some((spool, _)) = self.all.take() {
             let _ = std::fs::remove_file(&spool.tmp);
         }
-        for spool in &self.spools {
+        for (spool, _) in &self.spools {
             let _ = std::fs::remove_file(spool);
         }
     }
