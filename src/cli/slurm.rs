@@ -348,9 +348,11 @@ rm -f -- "$report"
     } else {
         " --no-progress"
     };
+    s += "# The time line is the cost model's input: shards x time per shard.\n";
+    s += "TIMEFORMAT=\"shard $task/$shards: check took %R s wall, %U s user, %S s system\"\n";
     let _ = writeln!(
         s,
-        "{} check {} --shard \"$task/$shards\" --json \"$report\"{progress}",
+        "time {} check {} --shard \"$task/$shards\" --json \"$report\"{progress}",
         quote_path(&plan.exe),
         words.join(" ")
     );
@@ -358,10 +360,10 @@ rm -f -- "$report"
 # A written report is a measured shard whatever its verdict (1: a finding, 3: the kernel
 # crashed): the merged report carries the verdict, so the task succeeds and the merge runs.
 if [ -f "$report" ]; then
-  echo "shard $task/$shards: wrote $report in ${SECONDS} s (check exit status $status)"
+  echo "shard $task/$shards: wrote $report (check exit status $status)"
   exit 0
 fi
-echo "shard $task/$shards: no report written after ${SECONDS} s (check exit status $status)" >&2
+echo "shard $task/$shards: no report written (check exit status $status)" >&2
 exit $(( status == 0 ? 1 : status ))
 "#;
     s

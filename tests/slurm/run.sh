@@ -47,10 +47,10 @@ check=(--lib kernels-under-test/build/liblumen_edge.so --symbol lumen_tanh_f32 -
 
 echo "== unsharded run"
 start=$SECONDS
-"$ulpgauge" check "${check[@]}" --quiet --no-progress --json "$out/whole.json" ||
+TIMEFORMAT="unsharded: check took %R s wall, %U s user, %S s system"
+time "$ulpgauge" check "${check[@]}" --quiet --no-progress --json "$out/whole.json" ||
   fail "the unsharded check exited $?"
 whole_seconds=$((SECONDS - start))
-echo "unsharded: ${whole_seconds} s"
 
 echo "== single-node cluster"
 cluster_start "$state"
@@ -178,4 +178,4 @@ PY
 echo "== tests/slurm: PASS"
 printf 'unsharded %d s; 4-task array with faults %d s; resubmission of 2 tasks %d s\n' \
   "$whole_seconds" "$first_seconds" "$resubmit_seconds"
-grep -h "wrote .* in " "$out"/slurm-*.out | sed 's/^/  /'
+grep -h "check took" "$out"/slurm-*.out | sed 's/^/  /'
