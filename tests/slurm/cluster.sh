@@ -18,17 +18,20 @@ cluster_install() {
   command -v slurmd >/dev/null 2>&1 || need+=(slurmd)
   command -v sbatch >/dev/null 2>&1 || need+=(slurm-client)
   [ ${#need[@]} -eq 0 ] && return 0
-  local sudo=""
-  if [ "$(id -u)" -ne 0 ]; then
-    command -v sudo >/dev/null 2>&1 || return 1
-    sudo="sudo -n"
-  fi
+  command -v apt-get >/dev/null 2>&1 || return 1
   echo "installing ${need[*]} from the distribution's packages"
-  # The packages' scripts try to start services; there is no init system to start them with,
-  # and this test starts its own daemons.
-  $sudo apt-get update -qq >/dev/null 2>&1 || return 1
-  DEBIAN_FRONTEND=noninteractive $sudo apt-get install -y -qq --no-install-recommends \
-    "${need[@]}" >/dev/null 2>&1 || return 1
+  # The test starts its own daemons: a policy-rc.d answering 101 (Debian's invoke-rc.d
+  # convention) keeps the packages' scripts from starting the system's services.
+  local policy=/usr/sbin/policy-rc.d ours=""
+  if [ ! -e "$policy" ]; then
+    printf '#!/bin/sh\nexit 101\n' >"$policy" && chmod +x "$policy" && ours=1
+  fi
+  local ok=0
+  apt-get update -qq >/dev/null 2>&1 &&
+    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq --no-install-recommends \
+      "${need[@]}" >/dev/null 2>&1 || ok=1
+  [ -z "$ours" ] || rm -f "$policy"
+  [ $ok -eq 0 ] || return 1
   command -v munged >/dev/null && command -v slurmctld >/dev/null &&
     command -v slurmd >/dev/null && command -v sbatch >/dev/null
 }

@@ -25,6 +25,10 @@ mkdir -p "$1"
 out="$(cd "$1" && pwd)"
 fail() { echo "tests/slurm: FAIL: $*" >&2; exit 1; }
 
+if [ "$(id -u)" -ne 0 ]; then
+  echo "tests/slurm: needs root: slurmd starts each job as its user, and munge and Slurm may need installing" >&2
+  exit 2
+fi
 source tests/slurm/cluster.sh
 if ! cluster_install; then
   echo "tests/slurm: SKIPPED: munge and Slurm are not installed and could not be installed from the distribution's packages (slurmctld, slurmd, slurm-client, munge)"
@@ -39,6 +43,7 @@ ulpgauge="$root/target/release/ulpgauge"
 # The daemons' state lives outside OUT_DIR: munge's socket path must stay short.
 state="$(mktemp -d /tmp/ulpgauge-slurm.XXXXXX)"
 trap 'cluster_stop; rm -rf "$state"' EXIT
+trap 'exit 130' INT TERM
 rm -rf "$out/shards" "$out/crash" "$out"/slurm-*.out "$out"/merge-*.out "$out/merged.json" \
   "$out/whole.json" "$out/jobs.txt"
 
@@ -179,3 +184,5 @@ echo "== tests/slurm: PASS"
 printf 'unsharded %d s; 4-task array with faults %d s; resubmission of 2 tasks %d s\n' \
   "$whole_seconds" "$first_seconds" "$resubmit_seconds"
 grep -h "check took" "$out"/slurm-*.out | sed 's/^/  /'
+grep -h "check took" "$out"/slurm-*.out |
+  awk '{ w += $5; u += $8; s += $11 } END { printf "  all shards: %.1f s wall, %.1f s user, %.1f s system\n", w, u, s }'
