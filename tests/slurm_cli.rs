@@ -382,3 +382,41 @@ fn bad_input_is_refused_and_nothing_written() {
     let out = ulpgauge(&strings(&["slurm", "--shards", "2", "--dir", "x"]));
     assert_eq!(code(&out), 2);
 }
+
+#[test]
+fn submit_flag_runs_submit_sh() {
+    let dir = out_dir("submit-flag");
+    let check = demo_check("liblumen_edge.so", "lumen_sigmoid_f16", "sigmoid");
+    let bin = fake_sbatch(&dir);
+    let path = format!("{}:{}", bin.display(), std::env::var("PATH").unwrap());
+    let run = |jobs: &Path| {
+        let mut args = strings(&["slurm", "--shards", "2", "--submit", "--dir"]);
+        args.push(jobs.display().to_string());
+        args.push("--".into());
+        args.extend(check.iter().cloned());
+        Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+            .args(&args)
+            .env("PATH", &path)
+            .output()
+            .unwrap()
+    };
+    let out = run(&dir.join("ok"));
+    assert_eq!(code(&out), 0, "{}", stderr(&out));
+    let calls = std::fs::read_to_string(dir.join("sbatch.log")).unwrap();
+    assert_eq!(calls.lines().count(), 2, "{calls}");
+    assert!(calls.lines().next().unwrap().contains("--array=1-2 "));
+    // sbatch refusing the job (a bad partition, say): exit 2, the scripts kept for a retry.
+    std::fs::write(
+        bin.join("sbatch"),
+        "#!/bin/bash\necho 'sbatch: error: invalid partition' >&2\nexit 1\n",
+    )
+    .unwrap();
+    let out = run(&dir.join("refused"));
+    assert_eq!(code(&out), 2);
+    assert!(
+        stderr(&out).contains("submit.sh failed"),
+        "{}",
+        stderr(&out)
+    );
+    assert!(dir.join("refused/shard.sbatch").is_file());
+}
