@@ -34,6 +34,7 @@ mod functions;
 mod golden;
 mod matrix;
 mod merge;
+mod slurm;
 mod worker;
 
 use clap::{Parser, Subcommand};
@@ -92,6 +93,8 @@ enum Command {
     Matrix(matrix::Args),
     /// Join the reports of `check --shard I/N` runs into the report of the whole sweep.
     Merge(merge::Args),
+    /// Write (and optionally submit) a Slurm job array that runs a check in shards and merges them.
+    Slurm(Box<slurm::Args>),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -118,6 +121,7 @@ pub fn run() -> i32 {
         Command::Compare(args) => compare::run(args),
         Command::Matrix(args) => matrix::run(args),
         Command::Merge(args) => merge::run(args),
+        Command::Slurm(args) => slurm::run(*args),
     };
     match result {
         Ok(code) => code,
