@@ -433,11 +433,7 @@ pub fn load(path: &Path) -> Result<Spec, String> {
         }
     };
     let timeout = k.timeout.unwrap_or(10.0);
-    if !(timeout.is_finite() && timeout > 0.0) {
-        return Err(format!(
-            "key `kernel.timeout`: must be a positive number of seconds, got {timeout}"
-        ));
-    }
+    crate::kernel::batch_timeout(timeout, "key `kernel.timeout`")?;
     let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
     let library = {
         let p = PathBuf::from(&k.library);

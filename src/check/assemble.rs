@@ -59,6 +59,8 @@ pub(super) fn report(
         accuracy.max_ulp,
         config.max_ulp,
         &reference_check.disagreements,
+        non_finite_total,
+        config.allow_non_finite,
     );
     let sweep_info = SweepInfo {
         kinds: spec.kinds.clone(),

@@ -172,7 +172,9 @@ impl Gathered {
 }
 
 /// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule, the
-/// `--max-ulp` limit or an MPFR confirmation failed, 0 otherwise.
+/// `--max-ulp` limit or an MPFR confirmation failed or a non-finite run was found (unless
+/// allowed), 0 otherwise.
+#[allow(clippy::too_many_arguments)]
 pub fn verdict(
     crashed: bool,
     hygiene: &[HygieneEntry],
@@ -180,6 +182,8 @@ pub fn verdict(
     max_ulp: f64,
     limit: Option<f64>,
     disagreements: &[BitsValue],
+    non_finite: RunTotals,
+    allow_non_finite: bool,
 ) -> Verdict {
     let mut failed = Vec::new();
     for x in disagreements {
@@ -193,6 +197,13 @@ pub fn verdict(
     }
     for r in special_values.iter().filter(|r| !r.passed) {
         failed.push(format!("{} at {}", r.rule, r.input.bits));
+    }
+    if non_finite.runs > 0 && !allow_non_finite {
+        failed.push(format!(
+            "non-finite: {} inputs in {} runs where kernel and reference differ in class \
+             (NaN or ±inf against a finite value, or the reverse; --allow-non-finite accepts them)",
+            non_finite.inputs, non_finite.runs
+        ));
     }
     if let Some(limit) = limit {
         if max_ulp > limit {
@@ -210,5 +221,6 @@ pub fn verdict(
         exit_code,
         failed,
         max_ulp_limit: limit,
+        non_finite_allowed: allow_non_finite,
     }
 }

@@ -58,6 +58,8 @@ pub struct CheckConfig {
     pub abs_floor: Option<f64>,
     /// `--max-ulp`.
     pub max_ulp: Option<f64>,
+    /// `--allow-non-finite`: non-finite runs are reported but do not fail the check.
+    pub allow_non_finite: bool,
     /// List every point whose error exceeds this (CSV `point` rows).
     pub list_over: Option<f64>,
     /// Non-finite runs listed in the report (the longest; every run is counted).

@@ -19,7 +19,6 @@ use crate::report::{
 };
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
-use std::time::Duration;
 
 /// The role named on the command line.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
@@ -79,6 +78,10 @@ pub struct Args {
     /// Fail (exit 1) when max_ulp exceeds U.
     #[arg(long, value_name = "U")]
     pub max_ulp: Option<f64>,
+    /// Report non-finite runs (NaN or ±inf against a finite reference, or the reverse)
+    /// without failing the check.
+    #[arg(long)]
+    pub allow_non_finite: bool,
     /// Also report errors as |ŷ − y| / max(ulp(y), A).
     #[arg(long, value_name = "A")]
     pub abs_floor: Option<f64>,
@@ -299,6 +302,18 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
     if args.sweep_options.per_binade < 2 {
         return Err(Failure::bad_input("--per-binade must be at least 2"));
     }
+    // A dense sweep of binary32 has up to 2^9 binades (both signs).
+    let max_sampled = crate::sweep::MAX_SAMPLED;
+    let too_many = |flag: &str, n: u64, max: u64| {
+        Failure::bad_input(format!(
+            "{flag} {n} is more than a sampled sweep lists (at most {max}); \
+             use --sweep exhaustive with --range for more"
+        ))
+    };
+    let points = args.sweep_options.points.unwrap_or(0);
+    if points > max_sampled {
+        return Err(too_many("--points", points, max_sampled));
+    }
     let kinds = if args.sweep_options.sweep.is_empty() {
         if format.width() <= 16 {
             vec![SweepKind::Exhaustive]
@@ -325,6 +340,13 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
     let per_binade = dense_points
         .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
         .unwrap_or(args.sweep_options.per_binade);
+    if u64::from(per_binade) > max_sampled >> 9 {
+        return Err(too_many(
+            "significands per binade",
+            per_binade.into(),
+            max_sampled >> 9,
+        ));
+    }
     let sweep = SweepSpec {
         kinds,
         range,
@@ -343,6 +365,7 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         sweep,
         abs_floor: positive(args.abs_floor, "--abs-floor", false)?,
         max_ulp: positive(args.max_ulp, "--max-ulp", true)?,
+        allow_non_finite: args.allow_non_finite,
         list_over: positive(args.csv_points_over, "--csv-points-over", true)?,
         listed_runs: args.list_runs,
         library: target.library.clone(),
@@ -457,16 +480,12 @@ fn lead(config: &CheckConfig) -> [String; 4] {
 }
 
 fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
-    if !(args.timeout.is_finite() && args.timeout > 0.0) {
-        return Err(Failure::bad_input(format!(
-            "--timeout must be a positive number of seconds, got {}",
-            args.timeout
-        )));
-    }
+    let batch_timeout =
+        crate::kernel::batch_timeout(args.timeout, "--timeout").map_err(Failure::bad_input)?;
     let limits = crate::kernel::fault_limits(args.max_restarts, args.max_fault_time)
         .map_err(Failure::bad_input)?;
     Ok(RunnerOptions {
-        batch_timeout: Duration::from_secs_f64(args.timeout),
+        batch_timeout,
         stop_on_crash: args.stop_on_crash,
         max_restarts: limits.0,
         max_fault_time: limits.1,

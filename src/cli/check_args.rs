@@ -34,6 +34,7 @@ pub fn defaults() -> Args {
         list_runs: crate::measure::LISTED_RUNS,
         plot: None,
         max_ulp: None,
+        allow_non_finite: false,
         abs_floor: None,
         manifest: None,
         param_passing: PassingArg::Baked,

@@ -11,7 +11,6 @@ use crate::kernel::{load_manifest, Runner, RunnerOptions};
 use crate::matrix::{build, table, BuildResult, BuildStatus, Cell, Matrix, MATRIX_SCHEMA};
 use crate::report::{check_writable, write_atomic, Json, ReportFormat};
 use std::path::{Path, PathBuf};
-use std::time::Duration;
 
 /// Arguments of `matrix`.
 #[derive(clap::Args, Debug, Clone)]
@@ -148,7 +147,8 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             .map_err(|e| Failure::bad_input(format!("cannot create {}: {e}", dir.display())))?;
     }
     let runner_options = RunnerOptions {
-        batch_timeout: Duration::from_secs_f64(args.timeout),
+        batch_timeout: crate::kernel::batch_timeout(args.timeout, "--timeout")
+            .map_err(Failure::bad_input)?,
         ..RunnerOptions::default()
     };
     let kernels: Vec<String> = specs.iter().map(|s| s.symbol.clone()).collect();

@@ -45,6 +45,18 @@ pub fn fault_limits(max_restarts: u64, max_fault_time: f64) -> Result<(u64, Dura
     Ok((max_restarts, Duration::from_secs_f64(max_fault_time)))
 }
 
+/// Validates a per-batch timeout in seconds (`--timeout`, a spec's `kernel.timeout`): above 0
+/// and at most a day, so that it is a valid duration; `what` names the option in the error.
+pub fn batch_timeout(seconds: f64, what: &str) -> Result<Duration, String> {
+    if !(seconds.is_finite() && seconds > 0.0 && seconds <= MAX_FAULT_TIME_LIMIT) {
+        return Err(format!(
+            "{what} must be a number of seconds above 0 and at most {MAX_FAULT_TIME_LIMIT}, \
+             got {seconds}"
+        ));
+    }
+    Ok(Duration::from_secs_f64(seconds))
+}
+
 /// Calls that failed, the time they took, and whether the runner stopped.
 #[derive(Debug, Default)]
 pub(crate) struct Faults {

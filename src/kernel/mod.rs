@@ -20,7 +20,7 @@ mod runner;
 mod spawn;
 pub mod worker;
 
-pub use bisect::fault_limits;
+pub use bisect::{batch_timeout, fault_limits};
 pub use hygiene::HygieneCheck;
 pub use manifest::load_manifest;
 pub use runner::{

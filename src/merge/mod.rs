@@ -86,6 +86,7 @@ fn frame(report: &Value) -> Value {
         "library": pick(&["provenance", "library", "sha256"]),
         "abs_floor": pick(&["accuracy", "abs_floor", "floor"]),
         "max_ulp_limit": pick(&["verdict", "max_ulp_limit"]),
+        "non_finite_allowed": pick(&["verdict", "non_finite_allowed"]),
         "sweep": sweep,
         "count": pick(&["shard", "count"]),
     })
@@ -212,6 +213,12 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
             .and_then(|v| v.get("max_ulp_limit"))
             .and_then(Value::as_f64),
         &reference_check.disagreements,
+        non_finite_total,
+        first
+            .get("verdict")
+            .and_then(|v| v.get("non_finite_allowed"))
+            .and_then(Value::as_bool)
+            .unwrap_or(false),
     );
     let inputs = ordered
         .iter()

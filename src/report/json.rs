@@ -47,7 +47,8 @@
 //!   reference_steps}]}; null otherwise.
 //! - `reference_failures`: {count, inputs: [V], first_message}: inputs left out because the
 //!   reference engine could not decide their rounding.
-//! - `verdict`: {exit_code (0 | 1 | 3), failed: [text], max_ulp_limit}.
+//! - `verdict`: {exit_code (0 | 1 | 3), failed: [text], max_ulp_limit, non_finite_allowed}:
+//!   any non-finite run fails it unless `--allow-non-finite` was given.
 //! - `provenance`: {ulpgauge, mpfr, gmp, library: {path, sha256, compiler} | null, cpu: {model,
 //!   features}, date, sweep: {kinds, coverage, points, inputs}, reference_check:
 //!   {confirmed_with_mpfr, disagreements: [V]}} — with `--reference auto`, every extreme the

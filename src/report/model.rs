@@ -102,6 +102,8 @@ pub struct Verdict {
     pub failed: Vec<String>,
     /// `--max-ulp`, if given (compared with the raw max_ulp).
     pub max_ulp_limit: Option<f64>,
+    /// `--allow-non-finite`: non-finite runs do not fail the verdict.
+    pub non_finite_allowed: bool,
 }
 
 /// Everything `check` found about one kernel.

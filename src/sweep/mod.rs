@@ -86,6 +86,11 @@ pub struct Plan {
 /// chunks, so memory does not grow with the sweep).
 pub const MAX_EXHAUSTIVE: u64 = 1 << 32;
 
+/// Most inputs a random sample, or significands per binade of a dense sweep, may ask for: a
+/// sampled sweep's inputs are listed before they are measured, so this bounds its memory
+/// (16 Mi inputs, 64 MiB listed); larger ones belong to an exhaustive sweep of a range.
+pub const MAX_SAMPLED: u64 = 1 << 24;
+
 /// Builds the inputs of a sweep; `interesting` comes from [`interesting_points`].
 pub fn plan(
     format: &'static dyn Format,

@@ -38,6 +38,7 @@ pub fn config(
         max_ulp: None,
         list_over: None,
         listed_runs: ulpgauge::measure::LISTED_RUNS,
+        allow_non_finite: false,
         library: None,
         shard: None,
         symbol: None,
