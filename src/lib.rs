@@ -14,6 +14,7 @@ pub mod kernel;
 pub mod matrix;
 pub mod measure;
 pub mod merge;
+pub mod recorded;
 pub mod reference;
 pub mod report;
 pub mod sweep;
