@@ -67,12 +67,12 @@ impl Element {
 
     /// Fails unless this element can carry the patterns of `format` exactly.
     pub fn holds(self, format: &dyn Format) -> Result<(), String> {
-        let fits = match (format.name(), self) {
-            ("f32", Element::Float32 | Element::Bits32) => true,
-            ("f16", Element::Float16 | Element::Bits16) => true,
-            ("bf16", Element::Bits16 | Element::Void16) => true,
-            _ => false,
-        };
+        let fits = matches!(
+            (format.name(), self),
+            ("f32", Element::Float32 | Element::Bits32)
+                | ("f16", Element::Float16 | Element::Bits16)
+                | ("bf16", Element::Bits16 | Element::Void16)
+        );
         if fits {
             return Ok(());
         }
