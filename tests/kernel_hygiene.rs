@@ -17,7 +17,7 @@ fn verdicts(spec: &KernelSpec) -> Vec<HygieneCheck> {
         // g: the sample reversed, so each x meets a different g.
         sample.iter().rev().copied().collect::<Vec<u32>>()
     });
-    let checks = r.hygiene(&sample, g.as_deref());
+    let checks = ulpgauge::kernel::hygiene::run_checks(&mut r, &sample, g.as_deref());
     let names: Vec<_> = checks.iter().map(|c| c.check).collect();
     assert_eq!(
         names,

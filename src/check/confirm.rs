@@ -7,25 +7,8 @@
 use super::probe::RoleReferences;
 use crate::format::{parse_hex, Format};
 use crate::measure::{Accuracy, NonFiniteRun, ThresholdReport};
+pub use crate::report::provenance::Confirmation;
 use crate::report::BitsValue;
-use serde::{Deserialize, Serialize};
-
-/// The outcome, kept in `provenance.reference_check`.
-#[derive(Clone, Debug, Default, Serialize, Deserialize)]
-pub struct Confirmation {
-    /// Extremes recomputed with MPFR alone (0 with `--reference mpfr`: MPFR made them all).
-    pub confirmed_with_mpfr: u64,
-    /// Inputs where the two disagreed (a bug of the fast path: the verdict fails).
-    pub disagreements: Vec<BitsValue>,
-}
-
-impl Confirmation {
-    /// Joins the confirmations of the shards of one check.
-    pub fn merge(&mut self, other: Confirmation) {
-        self.confirmed_with_mpfr += other.confirmed_with_mpfr;
-        self.disagreements.extend(other.disagreements);
-    }
-}
 
 /// The inputs of the extremes a report names.
 pub fn extremes(

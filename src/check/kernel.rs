@@ -1,6 +1,6 @@
 //! What `check` needs of a kernel, and an in-process implementation for tests.
 
-use serde::{Deserialize, Serialize};
+pub use crate::report::model::HygieneEntry;
 use std::time::Instant;
 
 /// One input on which the kernel crashed or hung.
@@ -21,17 +21,6 @@ pub struct KernelOutput {
     pub outputs: Vec<Option<u32>>,
     /// Every crash of the batch.
     pub crashes: Vec<KernelCrash>,
-}
-
-/// One hygiene check of the runner (buffer overruns, in-place use, thread safety, …).
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-pub struct HygieneEntry {
-    /// The check's name.
-    pub check: String,
-    /// Whether it passed.
-    pub passed: bool,
-    /// One line of detail.
-    pub detail: String,
 }
 
 /// A kernel under test: calls on batches of bit patterns, hygiene, throughput.

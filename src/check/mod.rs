@@ -4,32 +4,33 @@
 //! The kernel is reached only through [`KernelUnderTest`]; the shared-library runner and the
 //! in-process [`InProcessKernel`] both implement it.
 
+mod assemble;
 mod builtin;
 mod confirm;
 mod gathered;
 mod kernel;
 mod probe;
-mod provenance;
 mod runner_kernel;
 mod shard;
 mod stream;
 
+pub use crate::report::provenance::{
+    cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance,
+};
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
 pub use confirm::Confirmation;
 pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Folding, Prober, RoleReferences};
-pub use provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance};
 pub use runner_kernel::RunnerKernel;
 pub use shard::{Shard, STATE_VERSION};
 
 use crate::activation::{Constants, Entry, Role};
 use crate::format::Format;
 use crate::measure::{self, Point, Probe};
-use crate::reference::{Evaluator, ParamRounding, Real};
+use crate::reference::{Evaluator, ParamRounding};
 use crate::report::model::*;
-use crate::report::BitsValue;
-use crate::sweep::{self, Coverage, Inputs, SweepKind, SweepSpec};
+use crate::sweep::{self, Coverage, Inputs, SweepSpec};
 use rug::Rational;
 use std::path::PathBuf;
 use stream::Stream;
@@ -107,48 +108,72 @@ fn ordinal_span(format: &dyn Format, inputs: &Inputs) -> Option<(i64, i64)> {
     Some((*ends.iter().min()?, *ends.iter().max()?))
 }
 
-/// Runs a check of one kernel.
-pub fn run_check(
-    kernel: &mut dyn KernelUnderTest,
-    config: &CheckConfig,
-) -> Result<CheckReport, String> {
-    let format = config.format;
-    let function = config.function;
-    let constants = Constants::resolve(function, &config.params, config.param_rounding, format);
-    let kinks = function
-        .kinks(&constants)
-        .into_iter()
-        .map(|k| (k.at as f64, k.left))
-        .collect();
-    let forward = Evaluator::new(function, Role::Forward, constants.clone(), format);
-    let derivative = Evaluator::new(function, Role::Derivative, constants.clone(), format);
-    let fast = (config.reference == ReferencePath::Auto).then(|| {
-        (
-            FastEvaluator::new(&forward),
-            FastEvaluator::new(&derivative),
-        )
-    });
-    let refs = RoleReferences {
-        forward,
-        derivative,
-        role: config.role,
-        seed: config.sweep.seed,
-        kinks,
-        fast,
-    };
-    let spec = &config.sweep;
-    let role_is_forward = config.role == CheckRole::Forward;
-    let (interesting, role_thresholds) = sweep::interesting_points(
-        &refs.forward,
-        &refs.derivative,
-        role_is_forward,
-        spec.neighbours,
-    );
-    let plan = sweep::plan(format, spec, interesting)?;
+/// What a check settles before it calls the kernel: the constants, the references of the
+/// role, the planned sweep and the probes.
+struct Setup {
+    constants: Constants,
+    refs: RoleReferences,
+    plan: sweep::Plan,
+    role_thresholds: Vec<sweep::Threshold>,
+    probes: Vec<u32>,
+}
+
+impl Setup {
+    fn new(config: &CheckConfig) -> Result<Setup, String> {
+        let format = config.format;
+        let function = config.function;
+        let constants = Constants::resolve(function, &config.params, config.param_rounding, format);
+        let kinks = function
+            .kinks(&constants)
+            .into_iter()
+            .map(|k| (k.at as f64, k.left))
+            .collect();
+        let forward = Evaluator::new(function, Role::Forward, constants.clone(), format);
+        let derivative = Evaluator::new(function, Role::Derivative, constants.clone(), format);
+        let fast = (config.reference == ReferencePath::Auto).then(|| {
+            (
+                FastEvaluator::new(&forward),
+                FastEvaluator::new(&derivative),
+            )
+        });
+        let refs = RoleReferences {
+            forward,
+            derivative,
+            role: config.role,
+            seed: config.sweep.seed,
+            kinks,
+            fast,
+        };
+        let role_is_forward = config.role == CheckRole::Forward;
+        let (interesting, role_thresholds) = sweep::interesting_points(
+            &refs.forward,
+            &refs.derivative,
+            role_is_forward,
+            config.sweep.neighbours,
+        );
+        let plan = sweep::plan(format, &config.sweep, interesting)?;
+        let probes = probe_inputs(format, &plan, &refs, role_is_forward);
+        Ok(Setup {
+            constants,
+            refs,
+            plan,
+            role_thresholds,
+            probes,
+        })
+    }
+}
+
+/// The edge probes of the plan, the format's special values and, for derivative roles, both
+/// zeros and every kink (so the kink report never depends on the sweep); sorted, distinct.
+fn probe_inputs(
+    format: &dyn Format,
+    plan: &sweep::Plan,
+    refs: &RoleReferences,
+    role_is_forward: bool,
+) -> Vec<u32> {
     let mut probes = plan.probes.clone();
     probes.extend(sweep::format_specials(format));
     if !role_is_forward {
-        // Both zeros and every kink, so the kink report never depends on the sweep.
         for (at, _) in &refs.kinks {
             if let Some(b) = format.from_f64_exact(*at) {
                 probes.push(b);
@@ -158,7 +183,45 @@ pub fn run_check(
     }
     probes.sort_unstable();
     probes.dedup();
+    probes
+}
 
+/// Runs a check of one kernel.
+pub fn run_check(
+    kernel: &mut dyn KernelUnderTest,
+    config: &CheckConfig,
+) -> Result<CheckReport, String> {
+    let setup = Setup::new(config)?;
+    let mut prober = Prober::new(kernel, &setup.refs, config.progress);
+    let (gathered, thresholds) = gather(&mut prober, &setup, config);
+    let format = config.format;
+    let hygiene_sample = spread(format, &setup.plan.measured, HYGIENE_SAMPLE);
+    let (first, second) = prober.arguments(&hygiene_sample);
+    let hygiene = prober.kernel().hygiene(&first, second.as_deref());
+    let speed_sample = spread(format, &setup.plan.measured, SPEED_SAMPLE);
+    let (first, second) = prober.arguments(&speed_sample);
+    let ns_per_element = prober.kernel().ns_per_element(&first, second.as_deref());
+    assemble::report(
+        config,
+        &setup,
+        gathered,
+        thresholds,
+        hygiene,
+        ns_per_element,
+    )
+}
+
+/// Calls the kernel on the measured inputs (this shard's part), the probes, the inputs next to
+/// non-finite runs and the threshold searches, and gathers what it measured.
+fn gather(
+    prober: &mut Prober,
+    setup: &Setup,
+    config: &CheckConfig,
+) -> (Gathered, Vec<measure::ThresholdReport>) {
+    let format = config.format;
+    let function = config.function;
+    let plan = &setup.plan;
+    let role_is_forward = config.role == CheckRole::Forward;
     let exhaustive = plan.coverage == Coverage::Exhaustive;
     // This part of the measured inputs (all of them unless sharded), and the measured inputs
     // just outside it, whose gaps to ours decide non-finite runs in sampled sweeps.
@@ -168,18 +231,76 @@ pub fn run_check(
     let own = plan.measured.slice(from, to);
     let before = from.checked_sub(1).and_then(|i| plan.measured.nth(i));
     let after = plan.measured.nth(to);
-    let mut prober = Prober::new(kernel, &refs, config.progress);
-    prober.expect(own.len() + probes.len() as u64);
-    // Measured points stream through the accumulators chunk by chunk, in bit order; a sampled
-    // sweep also keeps them all (its runs' gaps are scanned later).
+    prober.expect(own.len() + setup.probes.len() as u64);
     let span = exhaustive
         .then(|| ordinal_span(format, &plan.measured))
         .flatten();
-    let mut stream = Stream::new(
+    let stream = Stream::new(
         measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span),
         role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone)),
         exhaustive,
     );
+    let (stream, measured) = stream_measured(prober, stream, &own, exhaustive);
+    let mut crashes = Crashes::default();
+    let mut seen = 0;
+    crashes.measured = crashes_since(prober, &mut seen);
+    let probe_points = prober.probe(&setup.probes);
+    crashes.probes = crashes_since(prober, &mut seen);
+    prober.expect(0);
+
+    let runs = (!exhaustive).then(|| {
+        // Another part's inputs next to ours: evaluated again here, counted there.
+        let neighbours: Vec<u32> = before.into_iter().chain(after).collect();
+        let (evaluated, failures) = (prober.evaluated, prober.failures.len());
+        let mut run_points = prober.probe(&neighbours);
+        prober.evaluated = evaluated;
+        prober.failures.truncate(failures);
+        crashes_since(prober, &mut seen);
+        run_points.extend(measured);
+        run_points.extend(
+            probe_points
+                .iter()
+                .filter(|p| config.sweep.range.contains(format, p.input))
+                .cloned(),
+        );
+        let territory = territory(plan, before, from, to);
+        measure::non_finite_part(format, &run_points, prober, territory)
+    });
+    crashes.scans = crashes_since(prober, &mut seen);
+    let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
+    let evaluated = prober.evaluated;
+    let thresholds = measure::thresholds(
+        format,
+        &setup.role_thresholds,
+        prober,
+        search_kernel,
+        config.sweep.neighbours,
+    );
+    crashes.thresholds = crashes_since(prober, &mut seen);
+    let threshold_inputs = prober.evaluated - evaluated;
+    let gathered = Gathered {
+        stream,
+        runs,
+        probe_points,
+        failures: prober.failures.clone(),
+        crashes,
+        inputs: own.len(),
+        threshold_inputs,
+        keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
+        tolerance: config.max_ulp.unwrap_or(1.0).max(1.0),
+        role_is_forward,
+    };
+    (gathered, thresholds)
+}
+
+/// Streams the measured inputs through the accumulators, chunk by chunk in bit order; a
+/// sampled sweep also keeps its points (its runs' gaps are scanned later).
+fn stream_measured(
+    prober: &mut Prober,
+    mut stream: Stream,
+    own: &Inputs,
+    exhaustive: bool,
+) -> (Stream, Vec<Point>) {
     let mut measured: Vec<Point> = Vec::new();
     let template = stream.fresh();
     let folding = Folding {
@@ -200,195 +321,40 @@ pub fn run_check(
         stream.merge(part);
         measured.extend(all.into_iter().flatten());
     });
-    let mut crashes = Crashes::default();
-    let phase = |prober: &Prober, seen: &mut usize| -> Vec<CrashAt> {
-        let new = prober.crashes[*seen..].iter().map(CrashAt::from).collect();
-        *seen = prober.crashes.len();
-        new
-    };
-    let mut seen = 0;
-    crashes.measured = phase(&prober, &mut seen);
-    let probe_points = prober.probe(&probes);
-    crashes.probes = phase(&prober, &mut seen);
-    prober.expect(0);
+    (stream, measured)
+}
 
-    let runs = (!exhaustive).then(|| {
-        // Another part's inputs next to ours: evaluated again here, counted there.
-        let neighbours: Vec<u32> = before.into_iter().chain(after).collect();
-        let (evaluated, failures) = (prober.evaluated, prober.failures.len());
-        let mut run_points = prober.probe(&neighbours);
-        prober.evaluated = evaluated;
-        prober.failures.truncate(failures);
-        phase(&prober, &mut seen);
-        run_points.extend(measured);
-        run_points.extend(
-            probe_points
-                .iter()
-                .filter(|p| spec.range.contains(format, p.input))
-                .cloned(),
-        );
-        // Our territory: from just after the previous part's last input to our last input
-        // (to the last pattern for the final part); empty when we have no inputs.
-        let first = match before {
-            None => Some(0),
-            Some(b) => b.checked_add(1),
-        };
-        let last = if to == plan.measured.len() {
-            Some(u32::MAX)
-        } else {
-            to.checked_sub(1)
-                .filter(|&i| i >= from)
-                .and_then(|i| plan.measured.nth(i))
-        };
-        let (first, last) = match (first, last) {
-            (Some(f), Some(l)) => (f, l),
-            _ => (1, 0),
-        };
-        measure::non_finite_part(format, &run_points, &mut prober, first..=last)
-    });
-    crashes.scans = phase(&prober, &mut seen);
-    let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
-    let evaluated = prober.evaluated;
-    let thresholds = measure::thresholds(
-        format,
-        &role_thresholds,
-        &mut prober,
-        search_kernel,
-        spec.neighbours,
-    );
-    crashes.thresholds = phase(&prober, &mut seen);
-    let threshold_inputs = prober.evaluated - evaluated;
+/// The crashes met since the last call, for the phase that just ended.
+fn crashes_since(prober: &Prober, seen: &mut usize) -> Vec<CrashAt> {
+    let new = prober.crashes[*seen..].iter().map(CrashAt::from).collect();
+    *seen = prober.crashes.len();
+    new
+}
 
-    let hygiene_sample = spread(format, &plan.measured, HYGIENE_SAMPLE);
-    let (first, second) = prober.arguments(&hygiene_sample);
-    let hygiene = prober.kernel().hygiene(&first, second.as_deref());
-    let speed_sample = spread(format, &plan.measured, SPEED_SAMPLE);
-    let (first, second) = prober.arguments(&speed_sample);
-    let ns_per_element = prober.kernel().ns_per_element(&first, second.as_deref());
-
-    let mut gathered = Gathered {
-        stream,
-        runs,
-        probe_points,
-        failures: prober.failures.clone(),
-        crashes,
-        inputs: own.len(),
-        threshold_inputs,
-        keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
-        tolerance: config.max_ulp.unwrap_or(1.0).max(1.0),
-        role_is_forward,
+/// A part's territory of bit patterns: from just after the previous part's last measured
+/// input to its own last one (to the last pattern for the final part); empty when the part
+/// has no inputs.
+fn territory(
+    plan: &sweep::Plan,
+    before: Option<u32>,
+    from: u64,
+    to: u64,
+) -> std::ops::RangeInclusive<u32> {
+    let first = match before {
+        None => Some(0),
+        Some(b) => b.checked_add(1),
     };
-    let shard = match config.shard {
-        None => None,
-        Some(s) => {
-            gathered.stream.make_portable();
-            let state = serde_json::to_value(&gathered).map_err(|e| e.to_string())?;
-            Some(ShardSection {
-                index: s.index,
-                count: s.count,
-                state_version: STATE_VERSION,
-                state,
-            })
-        }
+    let last = if to == plan.measured.len() {
+        Some(u32::MAX)
+    } else {
+        to.checked_sub(1)
+            .filter(|&i| i >= from)
+            .and_then(|i| plan.measured.nth(i))
     };
-    let Figures {
-        accuracy,
-        non_finite,
-        special_values,
-        kinks,
-        shape,
-        reference_failures,
-        crash,
-        extra_inputs,
-    } = gathered.figures(format);
-    let extremes = confirm::extremes(format, &accuracy, &non_finite, &thresholds);
-    let reference_check = confirm::confirm(&refs, format, &extremes);
-    let verdict = verdict(
-        crash.is_some(),
-        &hygiene,
-        &special_values,
-        accuracy.max_ulp,
-        config.max_ulp,
-        &reference_check.disagreements,
-    );
-    let sweep_info = SweepInfo {
-        kinds: spec.kinds.clone(),
-        range: spec.range.text.clone(),
-        coverage: plan.coverage,
-        inputs: own.len(),
-        probes: probes.len() as u64,
-        extra_inputs,
-        per_binade: spec.per_binade,
-        neighbours: spec.neighbours,
-        random_points: spec
-            .kinds
-            .contains(&SweepKind::Random)
-            .then_some(spec.random_points),
-        random_mode: spec.kinds.contains(&SweepKind::Random).then_some(spec.mode),
-        seed: spec.seed,
-        interesting: plan
-            .interesting
-            .iter()
-            .map(|i| InterestingPoint {
-                input: BitsValue::new(format, i.input),
-                what: i.what.clone(),
-            })
-            .collect(),
-    };
-    let params = constants
-        .entries()
-        .iter()
-        .map(|(name, value)| {
-            let text = match value {
-                Real::Exact(q) => q.to_string(),
-                Real::Irrational(name, _) => name.to_string(),
-            };
-            (name.to_string(), text)
-        })
-        .collect();
-    let provenance = Provenance {
-        ulpgauge: env!("CARGO_PKG_VERSION"),
-        mpfr: mpfr_version(),
-        gmp: gmp_version(),
-        library: config.library.as_deref().map(library_info),
-        cpu: cpu_info(),
-        date: utc_now(),
-        reference_check,
-        sweep: serde_json::json!({
-            "kinds": sweep_info.kinds,
-            "coverage": sweep_info.coverage,
-            "points": accuracy.points,
-            "inputs": sweep_info.inputs,
-        }),
-    };
-    Ok(CheckReport {
-        schema: SCHEMA,
-        function: function.name().to_string(),
-        format: format.name(),
-        role: config.role.report_name().to_string(),
-        from_output: matches!(config.role, CheckRole::Gradient { from_output: true }),
-        params,
-        param_rounding: config.param_rounding,
-        kernel: KernelInfo {
-            library: config.library.as_ref().map(|p| p.display().to_string()),
-            symbol: config.symbol.clone(),
-            ns_per_element,
-        },
-        sweep: sweep_info,
-        accuracy: AccuracySection {
-            figures: accuracy,
-            coverage: plan.coverage,
-        },
-        non_finite,
-        special_values,
-        hygiene,
-        crash,
-        thresholds,
-        kinks,
-        shape,
-        reference_failures,
-        verdict,
-        provenance,
-        shard,
-    })
+    match (first, last) {
+        (Some(f), Some(l)) => f..=l,
+        // Deliberately empty: a part without inputs owns no patterns.
+        #[allow(clippy::reversed_empty_ranges)]
+        _ => 1..=0,
+    }
 }

@@ -124,7 +124,9 @@ fn failed_to_run(e: &CallError, at: &str) -> String {
     }
 }
 
-/// Runs the six checks; every entry is present whatever happens.
+/// Runs the six checks (tail, alignment, bounds, input-untouched, fp-environment, determinism,
+/// in that order) on a sample of inputs and g for gradient kernels; every entry is present
+/// whatever happens.
 pub fn run_checks(
     runner: &mut Runner,
     sample: &[u32],

@@ -424,12 +424,6 @@ impl Runner {
         }
     }
 
-    /// The six hygiene checks on a sample of inputs (and g for gradient kernels), in the order
-    /// tail, alignment, bounds, input-untouched, fp-environment, determinism.
-    pub fn hygiene(&mut self, sample: &[u32], second: Option<&[u32]>) -> Vec<super::HygieneCheck> {
-        super::hygiene::run_checks(self, sample, second)
-    }
-
     /// The kernel's own throughput in nanoseconds per element, timed inside the worker on the
     /// sample; `None` if the kernel crashed or hung.
     pub fn ns_per_element(&mut self, sample: &[u32], second: Option<&[u32]>) -> Option<f64> {

@@ -3,6 +3,7 @@
 mod csv;
 pub mod json;
 pub mod model;
+pub mod provenance;
 mod svg;
 mod terminal;
 mod value;

@@ -1,10 +1,10 @@
 //! The report of one checked kernel; its JSON form is documented in [`super::json`].
 
-use crate::check::{HygieneEntry, Provenance};
+pub use super::provenance::Provenance;
 use crate::measure::{Accuracy, KinkSide, NonFiniteRun, Shape, SpecialRule, ThresholdReport};
 use crate::report::BitsValue;
 use crate::sweep::{Coverage, SampleMode, SweepKind};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
 /// Version tag of the JSON schema.
@@ -162,4 +162,15 @@ pub struct ShardSection {
     pub state_version: u32,
     /// The measured state (accumulators, kept points, probe points, crashes), for `merge`.
     pub state: serde_json::Value,
+}
+
+/// One hygiene check of the runner (buffer overruns, in-place use, thread safety, …).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct HygieneEntry {
+    /// The check's name.
+    pub check: String,
+    /// Whether it passed.
+    pub passed: bool,
+    /// One line of detail.
+    pub detail: String,
 }

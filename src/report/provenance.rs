@@ -1,6 +1,7 @@
 //! Where a report comes from: versions, the library, the machine, the date, the sweep.
 
-use serde::Serialize;
+use super::BitsValue;
+use serde::{Deserialize, Serialize};
 use sha2::{Digest, Sha256};
 use std::path::Path;
 
@@ -42,7 +43,7 @@ pub struct Provenance {
     /// The sweep: kinds, coverage and points (the same as the report's `sweep`).
     pub sweep: serde_json::Value,
     /// The reported extremes recomputed with MPFR alone.
-    pub reference_check: super::Confirmation,
+    pub reference_check: Confirmation,
 }
 
 /// MPFR's version string, from the library actually linked.
@@ -136,4 +137,21 @@ pub fn utc_now() -> String {
         rem % 3600 / 60,
         rem % 60
     )
+}
+
+/// The outcome, kept in `provenance.reference_check`.
+#[derive(Clone, Debug, Default, Serialize, Deserialize)]
+pub struct Confirmation {
+    /// Extremes recomputed with MPFR alone (0 with `--reference mpfr`: MPFR made them all).
+    pub confirmed_with_mpfr: u64,
+    /// Inputs where the two disagreed (a bug of the fast path: the verdict fails).
+    pub disagreements: Vec<BitsValue>,
+}
+
+impl Confirmation {
+    /// Joins the confirmations of the shards of one check.
+    pub fn merge(&mut self, other: Confirmation) {
+        self.confirmed_with_mpfr += other.confirmed_with_mpfr;
+        self.disagreements.extend(other.disagreements);
+    }
 }

@@ -1,0 +1,141 @@
+//! The last step of a check: from what was gathered to the report's sections, the verdict and
+//! the provenance.
+
+use super::{confirm, verdict, CheckConfig, CheckRole, Figures, Gathered, Setup, STATE_VERSION};
+use crate::measure::ThresholdReport;
+use crate::reference::Real;
+use crate::report::model::*;
+use crate::report::provenance::{cpu_info, gmp_version, library_info, mpfr_version, utc_now};
+use crate::report::BitsValue;
+use crate::sweep::SweepKind;
+
+/// The report of a check from its gathered state, thresholds and the kernel's hygiene and
+/// speed.
+pub(super) fn report(
+    config: &CheckConfig,
+    setup: &Setup,
+    mut gathered: Gathered,
+    thresholds: Vec<ThresholdReport>,
+    hygiene: Vec<HygieneEntry>,
+    ns_per_element: Option<f64>,
+) -> Result<CheckReport, String> {
+    let format = config.format;
+    let function = config.function;
+    let spec = &config.sweep;
+    let plan = &setup.plan;
+    let own_inputs = gathered.inputs;
+    let shard = match config.shard {
+        None => None,
+        Some(s) => {
+            gathered.stream.make_portable();
+            let state = serde_json::to_value(&gathered).map_err(|e| e.to_string())?;
+            Some(ShardSection {
+                index: s.index,
+                count: s.count,
+                state_version: STATE_VERSION,
+                state,
+            })
+        }
+    };
+    let Figures {
+        accuracy,
+        non_finite,
+        special_values,
+        kinks,
+        shape,
+        reference_failures,
+        crash,
+        extra_inputs,
+    } = gathered.figures(format);
+    let extremes = confirm::extremes(format, &accuracy, &non_finite, &thresholds);
+    let reference_check = confirm::confirm(&setup.refs, format, &extremes);
+    let verdict = verdict(
+        crash.is_some(),
+        &hygiene,
+        &special_values,
+        accuracy.max_ulp,
+        config.max_ulp,
+        &reference_check.disagreements,
+    );
+    let sweep_info = SweepInfo {
+        kinds: spec.kinds.clone(),
+        range: spec.range.text.clone(),
+        coverage: plan.coverage,
+        inputs: own_inputs,
+        probes: setup.probes.len() as u64,
+        extra_inputs,
+        per_binade: spec.per_binade,
+        neighbours: spec.neighbours,
+        random_points: spec
+            .kinds
+            .contains(&SweepKind::Random)
+            .then_some(spec.random_points),
+        random_mode: spec.kinds.contains(&SweepKind::Random).then_some(spec.mode),
+        seed: spec.seed,
+        interesting: plan
+            .interesting
+            .iter()
+            .map(|i| InterestingPoint {
+                input: BitsValue::new(format, i.input),
+                what: i.what.clone(),
+            })
+            .collect(),
+    };
+    let params = setup
+        .constants
+        .entries()
+        .iter()
+        .map(|(name, value)| {
+            let text = match value {
+                Real::Exact(q) => q.to_string(),
+                Real::Irrational(name, _) => name.to_string(),
+            };
+            (name.to_string(), text)
+        })
+        .collect();
+    let provenance = Provenance {
+        ulpgauge: env!("CARGO_PKG_VERSION"),
+        mpfr: mpfr_version(),
+        gmp: gmp_version(),
+        library: config.library.as_deref().map(library_info),
+        cpu: cpu_info(),
+        date: utc_now(),
+        reference_check,
+        sweep: serde_json::json!({
+            "kinds": sweep_info.kinds,
+            "coverage": sweep_info.coverage,
+            "points": accuracy.points,
+            "inputs": sweep_info.inputs,
+        }),
+    };
+    Ok(CheckReport {
+        schema: SCHEMA,
+        function: function.name().to_string(),
+        format: format.name(),
+        role: config.role.report_name().to_string(),
+        from_output: matches!(config.role, CheckRole::Gradient { from_output: true }),
+        params,
+        param_rounding: config.param_rounding,
+        kernel: KernelInfo {
+            library: config.library.as_ref().map(|p| p.display().to_string()),
+            symbol: config.symbol.clone(),
+            ns_per_element,
+        },
+        sweep: sweep_info,
+        accuracy: AccuracySection {
+            figures: accuracy,
+            coverage: plan.coverage,
+        },
+        non_finite,
+        special_values,
+        hygiene,
+        crash,
+        thresholds,
+        kinks,
+        shape,
+        reference_failures,
+        verdict,
+        provenance,
+        shard,
+    })
+}
