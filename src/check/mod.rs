@@ -186,6 +186,13 @@ fn probe_inputs(
     probes
 }
 
+/// The inputs a check of `config` evaluates before any search: its planned sweep and its
+/// probes (sorted, distinct); what `ulpgauge inputs` writes for recording elsewhere.
+pub fn planned_inputs(config: &CheckConfig) -> Result<(sweep::Plan, Vec<u32>), String> {
+    let setup = Setup::new(config)?;
+    Ok((setup.plan, setup.probes))
+}
+
 /// Runs a check of one kernel.
 pub fn run_check(
     kernel: &mut dyn KernelUnderTest,

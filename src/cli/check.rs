@@ -15,6 +15,7 @@ use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptio
 use crate::report::{
     check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
 };
+use crate::format::Format;
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
 use std::time::Duration;
@@ -235,6 +236,55 @@ fn positive(value: Option<f64>, flag: &str, allow_zero: bool) -> Result<Option<f
     }
 }
 
+/// The sweep of `--sweep`, `--range`, `--points`, … for a format; every error is bad input.
+pub fn sweep_spec(format: &'static dyn Format, options: &SweepOptions) -> Result<SweepSpec, Failure> {
+    let range = match &options.range {
+        Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
+        None => InputRange::all(format),
+    };
+    if options.points == Some(0) {
+        return Err(Failure::bad_input("--points must be at least 1"));
+    }
+    if options.per_binade < 2 {
+        return Err(Failure::bad_input("--per-binade must be at least 2"));
+    }
+    let kinds = if options.sweep.is_empty() {
+        if format.width() <= 16 {
+            vec![SweepKind::Exhaustive]
+        } else {
+            vec![SweepKind::Dense, SweepKind::Edge]
+        }
+    } else {
+        options.sweep.clone()
+    };
+    if kinds.contains(&SweepKind::Exhaustive)
+        && range.pattern_count(format) > crate::sweep::MAX_EXHAUSTIVE
+    {
+        return Err(Failure::bad_input(format!(
+            "an exhaustive {} sweep of {} patterns is too large (at most {}); narrow it with --range",
+            format.name(),
+            range.pattern_count(format),
+            crate::sweep::MAX_EXHAUSTIVE
+        )));
+    }
+    let dense_points = kinds
+        .contains(&SweepKind::Dense)
+        .then_some(options.points)
+        .flatten();
+    let per_binade = dense_points
+        .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
+        .unwrap_or(options.per_binade);
+    Ok(SweepSpec {
+        kinds,
+        range,
+        per_binade,
+        random_points: options.points.unwrap_or(100_000),
+        neighbours: options.neighbours,
+        seed: options.seed,
+        mode: options.random_mode,
+    })
+}
+
 /// Validates a target with the sweep options into a [`CheckConfig`]; every error is bad input.
 pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, Failure> {
     if args.from_output && args.role != RoleArg::Gradient {
@@ -257,51 +307,7 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         ))
     })?;
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
-    let range = match &args.sweep_options.range {
-        Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
-        None => InputRange::all(format),
-    };
-    if args.sweep_options.points == Some(0) {
-        return Err(Failure::bad_input("--points must be at least 1"));
-    }
-    if args.sweep_options.per_binade < 2 {
-        return Err(Failure::bad_input("--per-binade must be at least 2"));
-    }
-    let kinds = if args.sweep_options.sweep.is_empty() {
-        if format.width() <= 16 {
-            vec![SweepKind::Exhaustive]
-        } else {
-            vec![SweepKind::Dense, SweepKind::Edge]
-        }
-    } else {
-        args.sweep_options.sweep.clone()
-    };
-    if kinds.contains(&SweepKind::Exhaustive)
-        && range.pattern_count(format) > crate::sweep::MAX_EXHAUSTIVE
-    {
-        return Err(Failure::bad_input(format!(
-            "an exhaustive {} sweep of {} patterns is too large (at most {}); narrow it with --range",
-            format.name(),
-            range.pattern_count(format),
-            crate::sweep::MAX_EXHAUSTIVE
-        )));
-    }
-    let dense_points = kinds
-        .contains(&SweepKind::Dense)
-        .then_some(args.sweep_options.points)
-        .flatten();
-    let per_binade = dense_points
-        .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
-        .unwrap_or(args.sweep_options.per_binade);
-    let sweep = SweepSpec {
-        kinds,
-        range,
-        per_binade,
-        random_points: args.sweep_options.points.unwrap_or(100_000),
-        neighbours: args.sweep_options.neighbours,
-        seed: args.sweep_options.seed,
-        mode: args.sweep_options.random_mode,
-    };
+    let sweep = sweep_spec(format, &args.sweep_options)?;
     Ok(CheckConfig {
         function,
         format,

@@ -32,6 +32,7 @@ mod compare;
 mod eval;
 mod functions;
 mod golden;
+mod inputs;
 mod matrix;
 mod merge;
 mod worker;
@@ -92,6 +93,8 @@ enum Command {
     Matrix(matrix::Args),
     /// Join the reports of `check --shard I/N` runs into the report of the whole sweep.
     Merge(merge::Args),
+    /// Write the inputs of a sweep as a .npy array, to record a kernel's outputs anywhere.
+    Inputs(inputs::Args),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -118,6 +121,7 @@ pub fn run() -> i32 {
         Command::Compare(args) => compare::run(args),
         Command::Matrix(args) => matrix::run(args),
         Command::Merge(args) => merge::run(args),
+        Command::Inputs(args) => inputs::run(args),
     };
     match result {
         Ok(code) => code,
