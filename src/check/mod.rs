@@ -10,6 +10,7 @@ mod confirm;
 mod gathered;
 mod kernel;
 mod probe;
+mod recorded;
 mod runner_kernel;
 mod shard;
 mod stream;
@@ -22,6 +23,7 @@ pub use confirm::Confirmation;
 pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Folding, Prober, RoleReferences};
+pub use recorded::run_recorded;
 pub use runner_kernel::RunnerKernel;
 pub use shard::{Shard, STATE_VERSION};
 
@@ -200,7 +202,7 @@ pub fn run_check(
 ) -> Result<CheckReport, String> {
     let setup = Setup::new(config)?;
     let mut prober = Prober::new(kernel, &setup.refs, config.progress);
-    let (gathered, thresholds) = gather(&mut prober, &setup, config);
+    let (gathered, thresholds) = gather(&mut prober, &setup, config, false);
     let format = config.format;
     let hygiene_sample = spread(format, &setup.plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
@@ -220,10 +222,15 @@ pub fn run_check(
 
 /// Calls the kernel on the measured inputs (this shard's part), the probes, the inputs next to
 /// non-finite runs and the threshold searches, and gathers what it measured.
+///
+/// A `recorded` set is measured whole (a shard's files hold its part already), its gaps are
+/// scanned only at recorded inputs (the measured ones and the probes) and its thresholds are
+/// walked by the set itself, not searched here.
 fn gather(
     prober: &mut Prober,
     setup: &Setup,
     config: &CheckConfig,
+    recorded: bool,
 ) -> (Gathered, Vec<measure::ThresholdReport>) {
     let format = config.format;
     let function = config.function;
@@ -234,6 +241,7 @@ fn gather(
     // just outside it, whose gaps to ours decide non-finite runs in sampled sweeps.
     let (from, to) = config
         .shard
+        .filter(|_| !recorded)
         .map_or((0, plan.measured.len()), |s| s.bounds(plan.measured.len()));
     let own = plan.measured.slice(from, to);
     let before = from.checked_sub(1).and_then(|i| plan.measured.nth(i));
@@ -271,18 +279,32 @@ fn gather(
                 .cloned(),
         );
         let territory = territory(plan, before, from, to);
-        measure::non_finite_part(format, &run_points, prober, territory)
+        if !recorded {
+            return measure::non_finite_part(format, &run_points, prober, territory);
+        }
+        let present = |x: u32| plan.measured.contains(x) || setup.probes.binary_search(&x).is_ok();
+        let mut only_present = recorded::PresentOnly {
+            prober: &mut *prober,
+            present: &present,
+        };
+        let mut part = measure::non_finite_part(format, &run_points, &mut only_present, territory);
+        part.mark_unevaluated_ends(present);
+        part
     });
     crashes.scans = crashes_since(prober, &mut seen);
     let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
     let evaluated = prober.evaluated;
-    let thresholds = measure::thresholds(
-        format,
-        &setup.role_thresholds,
-        prober,
-        search_kernel,
-        config.sweep.neighbours,
-    );
+    let thresholds = if recorded {
+        Vec::new()
+    } else {
+        measure::thresholds(
+            format,
+            &setup.role_thresholds,
+            prober,
+            search_kernel,
+            config.sweep.neighbours,
+        )
+    };
     crashes.thresholds = crashes_since(prober, &mut seen);
     let threshold_inputs = prober.evaluated - evaluated;
     let gathered = Gathered {
@@ -296,6 +318,7 @@ fn gather(
         keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
         tolerance: config.max_ulp.unwrap_or(1.0).max(1.0),
         role_is_forward,
+        recorded: None,
     };
     (gathered, thresholds)
 }

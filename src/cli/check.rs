@@ -9,13 +9,15 @@
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
 use crate::check::{
-    builtin, run_check, CheckConfig, CheckRole, KernelUnderTest, ReferencePath, RunnerKernel, Shard,
+    builtin, run_check, run_recorded, CheckConfig, CheckRole, KernelUnderTest, ReferencePath,
+    RunnerKernel, Shard,
 };
+use crate::format::Format;
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
+use crate::recorded::{Recorded, RecordedPaths};
 use crate::report::{
     check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
 };
-use crate::format::Format;
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
 use std::time::Duration;
@@ -110,6 +112,16 @@ pub struct Args {
     /// flush-to-zero, blended-elu, crash-on-nan).
     #[arg(long, hide = true, value_name = "NAME")]
     pub builtin_kernel: Option<String>,
+    /// Measure recorded outputs instead of calling a kernel: the inputs, a 1-D .npy array
+    /// (float32, float16, uint16 bit patterns, ml_dtypes bfloat16), e.g. from `ulpgauge inputs`.
+    #[arg(long, value_name = "X.npy", requires = "outputs")]
+    pub inputs: Option<PathBuf>,
+    /// The recorded outputs, one per input, in the kernel's format.
+    #[arg(long, value_name = "Y.npy", requires = "inputs")]
+    pub outputs: Option<PathBuf>,
+    /// Gradient roles: the recorded upstream gradients g, one per input.
+    #[arg(long, value_name = "G.npy", requires = "inputs")]
+    pub grads: Option<PathBuf>,
 }
 
 /// Which inputs a check sweeps: shared by `check` and `matrix` (certify sets them from its
@@ -237,7 +249,10 @@ fn positive(value: Option<f64>, flag: &str, allow_zero: bool) -> Result<Option<f
 }
 
 /// The sweep of `--sweep`, `--range`, `--points`, … for a format; every error is bad input.
-pub fn sweep_spec(format: &'static dyn Format, options: &SweepOptions) -> Result<SweepSpec, Failure> {
+pub fn sweep_spec(
+    format: &'static dyn Format,
+    options: &SweepOptions,
+) -> Result<SweepSpec, Failure> {
     let range = match &options.range {
         Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
         None => InputRange::all(format),
@@ -484,8 +499,50 @@ fn manifest_kernels(path: &std::path::Path, args: &Args) -> Result<Vec<Configure
     Ok(kernels)
 }
 
+/// Checks recorded outputs (`--inputs/--outputs`); every problem with the files is bad input.
+fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
+    let called = [
+        (args.lib.is_some(), "--lib"),
+        (args.symbol.is_some(), "--symbol"),
+        (args.manifest.is_some(), "--manifest"),
+        (args.builtin_kernel.is_some(), "--builtin-kernel"),
+        (!args.sweep_options.sweep.is_empty(), "--sweep"),
+    ];
+    if let Some((_, flag)) = called.iter().find(|(given, _)| *given) {
+        return Err(Failure::bad_input(format!(
+            "{flag} does not apply to recorded outputs: the recorded inputs are the sweep (--range restricts them)"
+        )));
+    }
+    let gradient = args.role == RoleArg::Gradient;
+    if gradient != args.grads.is_some() {
+        return Err(Failure::bad_input(if gradient {
+            "--role gradient with recorded outputs needs --grads G.npy (the g of each input)"
+        } else {
+            "--grads applies to --role gradient only"
+        }));
+    }
+    let target = target_from_args(args)?;
+    let mut config = build_config(&target, args)?;
+    config.sweep.kinds = vec![SweepKind::Recorded];
+    let outputs = Outputs::from_args(args)?;
+    let paths = RecordedPaths {
+        inputs: args.inputs.as_deref().expect("checked by clap"),
+        outputs: args.outputs.as_deref().expect("checked by clap"),
+        grads: args.grads.as_deref(),
+    };
+    let set =
+        Recorded::open(&paths, config.format, &config.sweep.range).map_err(Failure::bad_input)?;
+    let report = run_recorded(set, &config).map_err(Failure::bad_input)?;
+    let code = report.verdict.exit_code;
+    emit(std::slice::from_ref(&report), false, &outputs)?;
+    Ok(code)
+}
+
 /// Runs `check`.
 pub fn run(args: Args) -> Result<i32, Failure> {
+    if args.inputs.is_some() {
+        return run_recorded_set(&args);
+    }
     if let Some(path) = &args.manifest {
         if args.lib.is_some()
             || args.symbol.is_some()

@@ -44,5 +44,8 @@ pub fn defaults() -> Args {
         quiet: true,
         no_progress: true,
         builtin_kernel: None,
+        inputs: None,
+        outputs: None,
+        grads: None,
     }
 }

@@ -122,7 +122,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             args.out.display()
         );
         if args.function.is_none()
-            && args.sweep_options.sweep.iter().any(|k| *k != SweepKind::Exhaustive)
+            && args
+                .sweep_options
+                .sweep
+                .iter()
+                .any(|k| *k != SweepKind::Exhaustive)
         {
             sayln!("note: without --function, dense and edge sweeps leave out the neighbourhoods of the function's interesting points");
         }

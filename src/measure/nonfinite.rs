@@ -247,6 +247,22 @@ impl RunsPart {
     pub fn finish(self) -> Vec<NonFiniteRun> {
         report(self.format, self.builder.runs, false, &self.inexact)
     }
+
+    /// Marks as inexact every run end whose neighbouring pattern (on the same sign) was not
+    /// evaluated: without a kernel to call (recorded outputs) the gaps are never scanned.
+    pub fn mark_unevaluated_ends(&mut self, evaluated: impl Fn(u32) -> bool) {
+        let sign = self.builder.sign;
+        for run in &self.builder.runs {
+            let side_start = run.first & sign;
+            let side_end = side_start | (sign - 1);
+            if run.first != side_start && !evaluated(run.first - 1) {
+                self.inexact.push(run.first);
+            }
+            if run.last != side_end && !evaluated(run.last + 1) {
+                self.inexact.push(run.last);
+            }
+        }
+    }
 }
 
 /// Finds the runs among `points` and scans the gaps next to every run through `probe` so

@@ -15,12 +15,14 @@ pub mod files;
 mod group;
 pub mod set;
 pub mod sorted;
+pub mod state;
 pub mod streamed;
 pub mod survey;
 pub mod table;
 pub mod write;
 
 pub use element::Element;
-pub use set::{Recorded, RecordedPaths, RecordedSummary};
+pub use set::{Recorded, RecordedPaths};
+pub use state::{RecordedState, ThresholdWalk};
 pub use survey::Survey;
 pub use write::{natural_element, write_patterns};

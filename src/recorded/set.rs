@@ -7,9 +7,8 @@ use super::streamed::Streamed;
 use super::survey::Survey;
 use super::table::Table;
 use crate::format::Format;
-use crate::report::BitsValue;
+use crate::report::model::RecordedFile;
 use crate::sweep::{InputRange, Inputs};
-use serde::Serialize;
 use std::path::{Path, PathBuf};
 
 enum Store {
@@ -105,90 +104,32 @@ impl Recorded {
         Ok(self.get(x)?.is_some())
     }
 
-    /// The report's description of the set.
-    pub fn summary(&self) -> RecordedSummary {
-        let s = &self.survey;
-        let file = |i: usize| {
-            self.paths[i].as_ref().map(|p| RecordedFile {
-                path: p.display().to_string(),
-                dtype: self.dtypes[i].unwrap_or_default(),
+    /// The arrays, for the report.
+    pub fn files(&self) -> Vec<RecordedFile> {
+        ["inputs", "outputs", "grads"]
+            .iter()
+            .zip(&self.paths)
+            .zip(&self.dtypes)
+            .filter_map(|((array, path), dtype)| {
+                Some(RecordedFile {
+                    array: array.to_string(),
+                    path: path.as_ref()?.display().to_string(),
+                    dtype: dtype.unwrap_or_default().to_string(),
+                })
             })
-        };
-        RecordedSummary {
-            inputs: file(0).expect("inputs"),
-            outputs: file(1).expect("outputs"),
-            grads: file(2),
-            entries: s.entries,
-            distinct_inputs: s.distinct,
-            outside_range: s.outside_range,
-            repeated: s.repeats,
-            in_bit_order: s.in_bit_order,
-            non_deterministic: NonDeterminism {
-                inputs: s.disagreeing,
-                examples: s
-                    .examples
-                    .iter()
-                    .map(|d| DisagreementReport {
-                        input: BitsValue::new(self.format, d.input),
-                        measured: BitsValue::new(self.format, d.first),
-                        other: BitsValue::new(self.format, d.other),
-                    })
-                    .collect(),
-            },
-        }
+            .collect()
     }
-}
 
-/// One file of a recorded set in a report.
-#[derive(Clone, Debug, Serialize)]
-pub struct RecordedFile {
-    /// As given on the command line.
-    pub path: String,
-    /// Its element type.
-    pub dtype: &'static str,
-}
+    /// The format of the set.
+    pub fn format(&self) -> &'static dyn Format {
+        self.format
+    }
 
-/// An input recorded with different outputs, in a report.
-#[derive(Clone, Debug, Serialize)]
-pub struct DisagreementReport {
-    /// The input.
-    pub input: BitsValue,
-    /// The output of its first occurrence: the one measured.
-    pub measured: BitsValue,
-    /// A different output recorded for it later.
-    pub other: BitsValue,
-}
-
-/// Inputs whose repeats disagree: the kernel gave different outputs for the same input.
-#[derive(Clone, Debug, Serialize)]
-pub struct NonDeterminism {
-    /// How many inputs (inside the range).
-    pub inputs: u64,
-    /// The first few in bit order.
-    pub examples: Vec<DisagreementReport>,
-}
-
-/// The `recorded` section of a report.
-#[derive(Clone, Debug, Serialize)]
-pub struct RecordedSummary {
-    /// `--inputs`.
-    pub inputs: RecordedFile,
-    /// `--outputs`.
-    pub outputs: RecordedFile,
-    /// `--grads`.
-    pub grads: Option<RecordedFile>,
-    /// Elements per file.
-    pub entries: u64,
-    /// Distinct inputs inside the range (the measured inputs).
-    pub distinct_inputs: u64,
-    /// Elements whose input lies outside the range.
-    pub outside_range: u64,
-    /// Elements repeating an input already recorded.
-    pub repeated: u64,
-    /// Whether the file lists its inputs in increasing bit order.
-    pub in_bit_order: bool,
-    /// Inputs recorded with different outputs.
-    pub non_deterministic: NonDeterminism,
+    /// Moves the measured inputs out (for the check's plan); [`Self::measured`] fails after.
+    pub fn take_measured(&mut self) -> Result<Inputs, String> {
+        self.measured()?;
+        Ok(self.survey.inputs.take().expect("checked"))
+    }
 }
 
 #[cfg(test)]

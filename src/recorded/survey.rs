@@ -3,7 +3,7 @@
 
 use crate::format::{hex, Class, Format, Layout};
 use crate::sweep::{InputRange, Inputs};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// Most times one input may appear: a determinism re-run repeats each input a few times, an
 /// array filled with one value repeats it thousands of times.
@@ -13,10 +13,10 @@ pub const MAX_REPEATS: u64 = 64;
 pub const MAX_RUNS: usize = 1 << 24;
 
 /// Most disagreeing inputs listed in a report.
-const EXAMPLES: usize = 8;
+pub const EXAMPLES: usize = 8;
 
 /// An input recorded more than once with different outputs.
-#[derive(Clone, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Eq, Serialize, Deserialize)]
 pub struct Disagreement {
     /// The input.
     pub input: u32,

@@ -85,6 +85,12 @@ impl Inputs {
         self.runs.len()
     }
 
+    /// Whether `bits` is one of the inputs.
+    pub fn contains(&self, bits: u32) -> bool {
+        let i = self.runs.partition_point(|&(_, hi)| hi < bits);
+        self.runs.get(i).is_some_and(|&(lo, _)| lo <= bits)
+    }
+
     /// The union with another set.
     pub fn union(&self, other: &Inputs) -> Inputs {
         let mut all: Vec<(u32, u32)> = self.runs.iter().chain(&other.runs).copied().collect();
