@@ -5,6 +5,7 @@
 //! definitions, [`reference`] the correctly rounded MPFR engine.
 
 pub mod activation;
+pub mod api;
 pub mod certify;
 pub mod check;
 pub mod cli;
