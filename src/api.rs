@@ -214,6 +214,7 @@ impl Check {
             abs_floor: None,
             max_ulp: self.max_ulp,
             list_over: None,
+            listed_runs: crate::measure::LISTED_RUNS,
             library: None,
             symbol: None,
             progress: false,

@@ -104,6 +104,7 @@ fn manifest_report_lists_every_kernel() {
         csv: None,
         plot: None,
         terminal: false,
+        ..Default::default()
     };
     let code = run_many(&mut kernels, &outputs).unwrap();
     // One kernel crashed: 3 beats 0.

@@ -140,7 +140,8 @@ fn missing_kernel_exits_1_and_added_kernel_is_listed() {
 fn bad_input_exits_2() {
     let (code, _, stderr) = compare_edited(
         "schema",
-        |v| v["schema"] = Value::from("ulpgauge-check/2"),
+        // A version this ulpgauge does not read (it reads 1 and 2).
+        |v| v["schema"] = Value::from("ulpgauge-check/9"),
         &[],
     );
     assert_eq!(code, 2);

@@ -335,3 +335,46 @@ fn bad_shard_specs_are_refused() {
         assert!(err.contains("--shard"), "{err}");
     }
 }
+
+#[test]
+fn patchy_nan_totals_summary_and_listing_merge_exactly() {
+    // NaN on 8 of every 16 patterns for |x| >= 2^70: over a million runs in these ranges,
+    // shard boundaries cutting runs anywhere. The merged totals, per-binade summary and the
+    // listed runs equal the unsharded run's (every key is compared).
+    let lib = kernels().join("liblumen_faulty.so");
+    let lib = lib.to_str().unwrap();
+    whole_equals_merged(
+        "patchy-exhaustive",
+        &[
+            "--lib",
+            lib,
+            "--symbol",
+            "lumen_sigmoid_f32_patchy",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f32",
+            "--sweep",
+            "exhaustive",
+            "--range",
+            "-2361183241434822606848,-590295810358705651712",
+        ],
+        &[2, 5],
+    );
+    whole_equals_merged(
+        "patchy-sampled",
+        &[
+            "--lib",
+            lib,
+            "--symbol",
+            "lumen_sigmoid_f32_patchy",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f32",
+            "--list-runs",
+            "7",
+        ],
+        &[3, 16],
+    );
+}

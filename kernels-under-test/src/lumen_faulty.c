@@ -83,3 +83,16 @@ LUMEN_EXPORT void lumen_sigmoid_f32_hang(const float *x, float *y, size_t n) {
         y[i] = 1.0f / (1.0f + e);
     }
 }
+
+/* findings at scale: a range-reduction shortcut that misreads one bit of the significand for
+ * huge arguments, so for every finite |x| >= 2^70 the output is NaN on 8 of every 16
+ * consecutive bit patterns (bit 3 set): 486,539,264 inputs in 60,817,408 runs over the whole
+ * binary32 domain, the worst case for anything that lists findings one by one. */
+LUMEN_EXPORT void lumen_sigmoid_f32_patchy(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        uint32_t bits;
+        memcpy(&bits, &x[i], sizeof bits);
+        int huge = isfinite(x[i]) && fabsf(x[i]) >= 0x1p70f;
+        y[i] = huge && (bits >> 3) & 1 ? NAN : sigmoidf_ref(x[i]);
+    }
+}

@@ -156,25 +156,34 @@ pub fn judge(req: &Requirements, report: &CheckReport, ranges: &[CheckReport]) -
         ));
     }
     if req.no_spurious_overflow {
-        let spurious: Vec<_> = report
-            .non_finite
+        // Counted over every run (the summary), not only the listed ones.
+        let cells: Vec<_> = report
+            .non_finite_summary
             .iter()
-            .filter(|r| r.reference == "finite")
+            .filter(|c| c.reference == "finite")
             .collect();
-        let inputs: u64 = spurious.iter().map(|r| r.count).sum();
+        let runs: u64 = cells.iter().map(|c| c.runs).sum();
+        let inputs: u64 = cells.iter().map(|c| c.inputs).sum();
+        let listed = report.non_finite.iter().find(|r| r.reference == "finite");
+        let detail = match (listed, cells.first()) {
+            (Some(r), _) => format!(
+                "kernel {} from {} ({}) to {} ({})",
+                r.kernel, r.first.value, r.first.bits, r.last.value, r.last.bits
+            ),
+            (None, Some(c)) => format!(
+                "kernel {} in binade {} from {} ({})",
+                c.kernel, c.binade, c.first.value, c.first.bits
+            ),
+            (None, None) => "none".into(),
+        };
         out.push(Judged {
             key: "require.no_spurious_overflow".into(),
             requirement: "no non-finite output where the reference is finite".into(),
             limit: json!(true),
-            measured: json!({ "runs": spurious.len(), "inputs": inputs }),
-            shown: format!("{} runs, {inputs} inputs", spurious.len()),
-            passed: spurious.is_empty(),
-            detail: spurious.first().map_or("none".into(), |r| {
-                format!(
-                    "kernel {} from {} ({}) to {} ({})",
-                    r.kernel, r.first.value, r.first.bits, r.last.value, r.last.bits
-                )
-            }),
+            measured: json!({ "runs": runs, "inputs": inputs }),
+            shown: format!("{runs} runs, {inputs} inputs"),
+            passed: runs == 0,
+            detail,
         });
     }
     if req.monotone {

@@ -18,6 +18,7 @@ pub(super) fn report(
     thresholds: Vec<ThresholdReport>,
     hygiene: Vec<HygieneEntry>,
     ns_per_element: Option<f64>,
+    sink: &mut dyn crate::measure::FindingSink,
 ) -> Result<CheckReport, String> {
     let format = config.format;
     let function = config.function;
@@ -48,13 +49,15 @@ pub(super) fn report(
     let Figures {
         accuracy,
         non_finite,
+        non_finite_total,
+        non_finite_summary,
         special_values,
         kinks,
         shape,
         reference_failures,
         crash,
         extra_inputs,
-    } = gathered.figures(format);
+    } = gathered.figures(format, sink);
     let extremes = confirm::extremes(format, &accuracy, &non_finite, &thresholds);
     let reference_check = confirm::confirm(&setup.refs, format, &extremes);
     let verdict = verdict(
@@ -135,6 +138,8 @@ pub(super) fn report(
             coverage: plan.coverage,
         },
         non_finite,
+        non_finite_total,
+        non_finite_summary,
         special_values,
         hygiene,
         crash,

@@ -6,7 +6,8 @@ use super::stream::Stream;
 use super::{HygieneEntry, KernelCrash};
 use crate::format::Format;
 use crate::measure::{
-    self, Accuracy, KinkSide, NonFiniteRun, Point, RuleContext, RunsPart, Shape, SpecialRule,
+    self, Accuracy, FindingSink, KinkSide, NonFiniteRun, Point, RuleContext, RunCell, RunTotals,
+    RunsPart, Shape, SpecialRule,
 };
 use crate::recorded::RecordedState;
 use crate::report::model::{CrashReport, ReferenceFailures, Verdict};
@@ -76,8 +77,12 @@ pub struct Gathered {
 pub struct Figures {
     /// Accuracy.
     pub accuracy: Accuracy,
-    /// Non-finite runs.
+    /// The listed non-finite runs (the longest, ties to the lowest first input).
     pub non_finite: Vec<NonFiniteRun>,
+    /// Exact totals over every non-finite run.
+    pub non_finite_total: RunTotals,
+    /// Every non-finite run counted per sign × binade × kind.
+    pub non_finite_summary: Vec<RunCell>,
     /// Special-value rules.
     pub special_values: Vec<SpecialRule>,
     /// Kinks of derivative roles.
@@ -115,14 +120,14 @@ impl Gathered {
         self.inputs += other.inputs;
     }
 
-    /// The figures.
-    pub fn figures(self, format: &'static dyn Format) -> Figures {
-        let (accuracy, shape, streamed_runs, kept) = self.stream.finish();
+    /// The figures; findings still held go to the sink.
+    pub fn figures(self, format: &'static dyn Format, sink: &mut dyn FindingSink) -> Figures {
+        let (accuracy, shape, streamed_runs, kept) = self.stream.finish(sink);
         let scanned = self.runs.as_ref().map_or(0, |r| r.scanned);
-        let non_finite = match (streamed_runs, self.runs) {
+        let summary = match (streamed_runs, self.runs) {
             (Some(runs), _) => runs,
-            (None, Some(part)) => part.finish(),
-            (None, None) => Vec::new(),
+            (None, Some(part)) => part.finish(sink),
+            (None, None) => measure::RunSummary::new(0),
         };
         let ctx = RuleContext {
             keeps_negative_zero: self.keeps_negative_zero,
@@ -167,7 +172,9 @@ impl Gathered {
         });
         Figures {
             accuracy,
-            non_finite,
+            non_finite: summary.listed(format),
+            non_finite_total: summary.totals(),
+            non_finite_summary: summary.cells(format),
             special_values,
             kinks,
             shape,

@@ -62,6 +62,8 @@ pub struct CheckConfig {
     pub max_ulp: Option<f64>,
     /// List every point whose error exceeds this (CSV `point` rows).
     pub list_over: Option<f64>,
+    /// Non-finite runs listed in the report (the longest; every run is counted).
+    pub listed_runs: usize,
     /// Library file, for provenance.
     pub library: Option<PathBuf>,
     /// Symbol, for the report.
@@ -200,9 +202,19 @@ pub fn run_check(
     kernel: &mut dyn KernelUnderTest,
     config: &CheckConfig,
 ) -> Result<CheckReport, String> {
+    run_check_into(kernel, config, &mut measure::NoSink)
+}
+
+/// Runs a check of one kernel, handing every non-finite run and every point over the listing
+/// limit to `sink` as it is found.
+pub fn run_check_into(
+    kernel: &mut dyn KernelUnderTest,
+    config: &CheckConfig,
+    sink: &mut dyn measure::FindingSink,
+) -> Result<CheckReport, String> {
     let setup = Setup::new(config)?;
     let mut prober = Prober::new(kernel, &setup.refs, config.progress);
-    let (gathered, thresholds) = gather(&mut prober, &setup, config, false);
+    let (gathered, thresholds) = gather(&mut prober, &setup, config, sink, false);
     let format = config.format;
     let hygiene_sample = spread(format, &setup.plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
@@ -217,6 +229,7 @@ pub fn run_check(
         thresholds,
         hygiene,
         ns_per_element,
+        sink,
     )
 }
 
@@ -230,6 +243,7 @@ fn gather(
     prober: &mut Prober,
     setup: &Setup,
     config: &CheckConfig,
+    sink: &mut dyn measure::FindingSink,
     recorded: bool,
 ) -> (Gathered, Vec<measure::ThresholdReport>) {
     let format = config.format;
@@ -254,8 +268,11 @@ fn gather(
         measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span),
         role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone)),
         exhaustive,
+        config.listed_runs,
     );
-    let (stream, measured) = stream_measured(prober, stream, &own, exhaustive);
+    // A recorded part is measured whole but may follow other parts.
+    let leftmost = from == 0 && config.shard.is_none_or(|s| !recorded || s.index == 1);
+    let (stream, measured) = stream_measured(prober, stream, &own, exhaustive, sink, leftmost);
     let mut crashes = Crashes::default();
     let mut seen = 0;
     crashes.measured = crashes_since(prober, &mut seen);
@@ -267,28 +284,46 @@ fn gather(
         // Another part's inputs next to ours: evaluated again here, counted there.
         let neighbours: Vec<u32> = before.into_iter().chain(after).collect();
         let (evaluated, failures) = (prober.evaluated, prober.failures.len());
-        let mut run_points = prober.probe(&neighbours);
+        let l = format.layout();
+        let mut known: Vec<measure::Known> = prober
+            .probe(&neighbours)
+            .iter()
+            .map(|p| (p.input, measure::classes(l, p)))
+            .collect();
         prober.evaluated = evaluated;
         prober.failures.truncate(failures);
         crashes_since(prober, &mut seen);
-        run_points.extend(measured);
-        run_points.extend(
+        known.extend(measured);
+        known.extend(
             probe_points
                 .iter()
                 .filter(|p| config.sweep.range.contains(format, p.input))
-                .cloned(),
+                .map(|p| (p.input, measure::classes(l, p))),
         );
-        let territory = territory(plan, before, from, to);
         if !recorded {
-            return measure::non_finite_part(format, &run_points, prober, territory);
+            let territory = territory(plan, before, from, to);
+            return measure::non_finite_part(
+                format,
+                &mut known,
+                prober,
+                territory,
+                config.listed_runs,
+                sink,
+            );
         }
-        let present = |x: u32| plan.measured.contains(x) || setup.probes.binary_search(&x).is_ok();
-        let mut only_present = recorded::PresentOnly {
-            prober: &mut *prober,
-            present: &present,
-        };
-        let mut part = measure::non_finite_part(format, &run_points, &mut only_present, territory);
-        part.mark_unevaluated_ends(present);
+        // The gaps of a recorded set hold only inputs it did not record (every recorded one
+        // in the range is measured): its runs end next to holes, and nothing is evaluated.
+        let territory = recorded::territory(config.shard, &plan.measured);
+        let mut only_present = recorded::PresentOnly::new(prober, &plan.measured, &setup.probes);
+        let mut part = measure::non_finite_part(
+            format,
+            &mut known,
+            &mut only_present,
+            territory,
+            config.listed_runs,
+            sink,
+        );
+        part.scanned = only_present.evaluated;
         part
     });
     crashes.scans = crashes_since(prober, &mut seen);
@@ -323,23 +358,33 @@ fn gather(
     (gathered, thresholds)
 }
 
-/// Streams the measured inputs through the accumulators, chunk by chunk in bit order; a
-/// sampled sweep also keeps its points (its runs' gaps are scanned later).
+/// Streams the measured inputs through the accumulators, chunk by chunk in bit order, the
+/// findings finished so far going to the sink after each chunk; a sampled sweep also keeps
+/// each point's input and classes (its runs' gaps are scanned later).
 fn stream_measured(
     prober: &mut Prober,
     mut stream: Stream,
     own: &Inputs,
     exhaustive: bool,
-) -> (Stream, Vec<Point>) {
-    let mut measured: Vec<Point> = Vec::new();
+    sink: &mut dyn measure::FindingSink,
+    leftmost: bool,
+) -> (Stream, Vec<measure::Known>) {
+    let mut measured: Vec<measure::Known> = Vec::new();
     let template = stream.fresh();
+    let l = stream.layout();
     let folding = Folding {
         fold: &|points: &[Point]| {
             let mut part = template.fresh();
             part.add_all(points);
-            (part, (!exhaustive).then(|| points.to_vec()))
+            let known = (!exhaustive).then(|| {
+                points
+                    .iter()
+                    .map(|p| (p.input, measure::classes(l, p)))
+                    .collect()
+            });
+            (part, known)
         },
-        join: &|(mut part, mut all): (Stream, Option<Vec<Point>>), (later, more)| {
+        join: &|(mut part, mut all): (Stream, Option<Vec<measure::Known>>), (later, more)| {
             part.merge(later);
             if let (Some(all), Some(more)) = (&mut all, more) {
                 all.extend(more);
@@ -349,6 +394,7 @@ fn stream_measured(
     };
     prober.probe_fold(own.iter(), &folding, &mut |(part, all)| {
         stream.merge(part);
+        stream.settle(sink, leftmost);
         measured.extend(all.into_iter().flatten());
     });
     (stream, measured)

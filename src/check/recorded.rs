@@ -4,9 +4,9 @@
 //! need calls and are not run (the report says so).
 
 use super::{assemble, gather, CheckConfig, CheckRole, KernelOutput, KernelUnderTest, Prober};
-use super::{HygieneEntry, Setup};
+use super::{HygieneEntry, Setup, Shard};
 use crate::format::{hex, Layout};
-use crate::measure::{Point, Probe};
+use crate::measure::{FindingSink, Point, Probe};
 use crate::recorded::{Recorded, RecordedState, ThresholdWalk};
 use crate::report::model::CheckReport;
 use crate::sweep::{Coverage, InputRange, Inputs};
@@ -70,27 +70,87 @@ impl KernelUnderTest for RecordedKernel {
 
 /// A [`Probe`] that evaluates only the inputs a recorded set holds and drops the others.
 pub(super) struct PresentOnly<'p, 'a> {
-    /// The check's prober.
-    pub prober: &'p mut Prober<'a>,
-    /// Whether an input was recorded.
-    pub present: &'p dyn Fn(u32) -> bool,
+    prober: &'p mut Prober<'a>,
+    measured: &'p Inputs,
+    probes: &'p [u32],
+    /// Inputs evaluated (the recorded ones among those asked).
+    pub evaluated: u64,
+}
+
+impl<'p, 'a> PresentOnly<'p, 'a> {
+    /// Probes through `prober` the inputs among `measured` and `probes` (sorted).
+    pub fn new(prober: &'p mut Prober<'a>, measured: &'p Inputs, probes: &'p [u32]) -> Self {
+        PresentOnly {
+            prober,
+            measured,
+            probes,
+            evaluated: 0,
+        }
+    }
+
+    /// The recorded inputs among `inputs`; a consecutive stretch (a gap scan's chunk) is
+    /// intersected run by run rather than input by input.
+    fn present(&self, inputs: &[u32]) -> Vec<u32> {
+        let (Some(&lo), Some(&hi)) = (inputs.first(), inputs.last()) else {
+            return Vec::new();
+        };
+        let stretch = hi >= lo && (hi - lo) as usize + 1 == inputs.len();
+        if !stretch {
+            return inputs
+                .iter()
+                .copied()
+                .filter(|&x| self.measured.contains(x) || self.probes.binary_search(&x).is_ok())
+                .collect();
+        }
+        let runs = self.measured.runs();
+        let mut kept: Vec<u32> = runs[runs.partition_point(|&(_, b)| b < lo)..]
+            .iter()
+            .take_while(|&&(a, _)| a <= hi)
+            .flat_map(|&(a, b)| a.max(lo)..=b.min(hi))
+            .collect();
+        let from = self.probes.partition_point(|&p| p < lo);
+        kept.extend(self.probes[from..].iter().take_while(|&&p| p <= hi));
+        kept.sort_unstable();
+        kept.dedup();
+        kept
+    }
 }
 
 impl Probe for PresentOnly<'_, '_> {
     fn probe(&mut self, inputs: &[u32]) -> Vec<Point> {
-        let kept: Vec<u32> = inputs
-            .iter()
-            .copied()
-            .filter(|&x| (self.present)(x))
-            .collect();
+        let kept = self.present(inputs);
+        self.evaluated += kept.len() as u64;
         self.prober.probe(&kept)
     }
 }
 
+/// The territory of a recorded part: its own inputs, from the first pattern for the first
+/// part (or an unsharded set) to the last pattern for the last one, so that the parts' runs
+/// join in `merge` as one pass over every recorded input would find them.
+pub(super) fn territory(shard: Option<Shard>, measured: &Inputs) -> std::ops::RangeInclusive<u32> {
+    let (index, count) = shard.map_or((1, 1), |s| (s.index, s.count));
+    let first = if index == 1 { Some(0) } else { measured.nth(0) };
+    let last = if index == count {
+        Some(u32::MAX)
+    } else {
+        measured.len().checked_sub(1).and_then(|i| measured.nth(i))
+    };
+    match (first, last) {
+        (Some(f), Some(l)) => f..=l,
+        // Deliberately empty: a part without inputs owns no patterns.
+        #[allow(clippy::reversed_empty_ranges)]
+        _ => 1..=0,
+    }
+}
+
 /// Checks a recorded set: the same measures and report as a check of a called kernel
-/// wherever they apply. With `--shard I/N` the set is part I of N (as `ulpgauge inputs --shard`
+/// wherever they apply; non-finite runs and listed points also go to `sink` as they are found. With `--shard I/N` the set is part I of N (as `ulpgauge inputs --shard`
 /// writes it), measured whole and labelled for `merge`.
-pub fn run_recorded(mut set: Recorded, config: &CheckConfig) -> Result<CheckReport, String> {
+pub fn run_recorded(
+    mut set: Recorded,
+    config: &CheckConfig,
+    sink: &mut dyn FindingSink,
+) -> Result<CheckReport, String> {
     let format = config.format;
     let mut setup = Setup::new(config)?;
     let measured = set.take_measured()?;
@@ -139,7 +199,7 @@ pub fn run_recorded(mut set: Recorded, config: &CheckConfig) -> Result<CheckRepo
     };
     let (mut gathered, _) = {
         let mut prober = Prober::new(&mut kernel, &setup.refs, config.progress);
-        gather(&mut prober, &setup, config, true)
+        gather(&mut prober, &setup, config, sink, true)
     };
     if let Some(e) = kernel.error {
         return Err(e);
@@ -150,5 +210,5 @@ pub fn run_recorded(mut set: Recorded, config: &CheckConfig) -> Result<CheckRepo
     let thresholds = state.walks.iter().map(|w| w.report(format)).collect();
     let hygiene = state.determinism(format).into_iter().collect();
     gathered.recorded = Some(state);
-    assemble::report(config, &setup, gathered, thresholds, hygiene, None)
+    assemble::report(config, &setup, gathered, thresholds, hygiene, None, sink)
 }

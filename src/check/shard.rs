@@ -5,7 +5,7 @@ use serde::{Deserialize, Serialize};
 /// The layout of the state a shard report carries for `merge` (`shard.state_version`): raised
 /// whenever a serialized accumulator changes shape, so that shards written by different
 /// builds are refused rather than misread.  Reports without it predate the field.
-pub const STATE_VERSION: u32 = 3;
+pub const STATE_VERSION: u32 = 4;
 
 /// One part of a sweep: `index` counts from 1 to `count`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]

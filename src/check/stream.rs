@@ -3,7 +3,7 @@
 
 use crate::format::{Class, Format, Layout};
 use crate::measure::{
-    Accuracy, AccuracyAcc, NonFiniteRun, NonFiniteStream, Point, Shape, ShapeAcc,
+    Accuracy, AccuracyAcc, FindingSink, NonFiniteStream, Point, RunSummary, Shape, ShapeAcc,
 };
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -100,17 +100,28 @@ pub struct Stream {
 }
 
 impl Stream {
-    /// Accumulators for a sweep; `exhaustive` also streams non-finite runs.
-    pub fn new(accuracy: AccuracyAcc, shape: Option<ShapeAcc>, exhaustive: bool) -> Stream {
+    /// Accumulators for a sweep; `exhaustive` also streams non-finite runs, listing the
+    /// `keep` longest.
+    pub fn new(
+        accuracy: AccuracyAcc,
+        shape: Option<ShapeAcc>,
+        exhaustive: bool,
+        keep: usize,
+    ) -> Stream {
         let format = accuracy.format();
         Stream {
             format,
             layout: format.layout(),
             accuracy,
             shape,
-            runs: exhaustive.then(|| NonFiniteStream::new(format)),
+            runs: exhaustive.then(|| NonFiniteStream::new(format, keep)),
             kept: Kept::default(),
         }
+    }
+
+    /// The format's bit arithmetic.
+    pub fn layout(&self) -> Layout {
+        self.layout
     }
 
     /// Empty accumulators with the same settings, for a later stretch to merge in.
@@ -120,10 +131,7 @@ impl Stream {
             layout: self.layout,
             accuracy: self.accuracy.fresh(),
             shape: self.shape.as_ref().map(|s| s.fresh()),
-            runs: self
-                .runs
-                .as_ref()
-                .map(|_| NonFiniteStream::new(self.format)),
+            runs: self.runs.as_ref().map(NonFiniteStream::fresh),
             kept: Kept::default(),
         }
     }
@@ -263,20 +271,27 @@ impl Stream {
         self.kept.merge(self.layout, other.kept);
     }
 
-    /// The figures: accuracy, shape, the streamed non-finite runs (exhaustive sweeps) and the
-    /// kept points.
+    /// Hands the findings finished so far (non-finite runs, points over the listing limit)
+    /// to the sink, so that memory does not grow with them; `leftmost`: no input before ours
+    /// belongs to the sweep.
+    pub fn settle(&mut self, sink: &mut dyn FindingSink, leftmost: bool) {
+        self.accuracy.settle_listed(sink);
+        if let Some(r) = &mut self.runs {
+            r.settle(sink, leftmost);
+        }
+    }
+
+    /// The figures: accuracy, shape, the summary of the streamed non-finite runs (exhaustive
+    /// sweeps) and the kept points; the findings still held go to the sink.
     pub fn finish(
         self,
-    ) -> (
-        Accuracy,
-        Option<Shape>,
-        Option<Vec<NonFiniteRun>>,
-        Vec<Point>,
-    ) {
+        sink: &mut dyn FindingSink,
+    ) -> (Accuracy, Option<Shape>, Option<RunSummary>, Vec<Point>) {
+        let accuracy = self.accuracy.finish(sink);
         (
-            self.accuracy.finish(),
+            accuracy,
             self.shape.map(|s| s.finish()),
-            self.runs.map(|r| r.finish()),
+            self.runs.map(|r| r.finish(sink)),
             self.kept.into_points(),
         )
     }
@@ -371,6 +386,7 @@ mod tests {
                     AccuracyAcc::new(&Binary32, abs_floor, list_over, span),
                     Some(ShapeAcc::new(&Binary32, true)),
                     true,
+                    10,
                 )
             };
             let (mut single, mut runs) = (new(), new());

@@ -9,14 +9,15 @@
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
 use crate::check::{
-    builtin, run_check, run_recorded, CheckConfig, CheckRole, KernelUnderTest, ReferencePath,
+    builtin, run_check_into, run_recorded, CheckConfig, CheckRole, KernelUnderTest, ReferencePath,
     RunnerKernel, Shard,
 };
 use crate::format::Format;
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
 use crate::recorded::{Recorded, RecordedPaths};
 use crate::report::{
-    check_writable, write_atomic, CheckReport, Csv, Json, ReportFormat, Svg, Terminal,
+    check_writable, write_atomic, CheckReport, Csv, FindingsWriter, Json, ReportFormat, Svg,
+    Terminal,
 };
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
@@ -64,9 +65,16 @@ pub struct Args {
     /// Write one CSV row per binade.
     #[arg(long, value_name = "FILE")]
     pub csv: Option<PathBuf>,
-    /// Also list in the CSV every point whose error exceeds U ulps.
+    /// Also list in the CSV every point whose error exceeds U ulps (streamed as found).
     #[arg(long, value_name = "U")]
     pub csv_points_over: Option<f64>,
+    /// Write every non-finite run (and every point over --csv-points-over) to this CSV file
+    /// as it is found; the report itself lists only the longest runs and counts them all.
+    #[arg(long, value_name = "FILE")]
+    pub findings: Option<PathBuf>,
+    /// Non-finite runs listed in the report: the N longest, ties to the lowest first input.
+    #[arg(long, value_name = "N", default_value_t = crate::measure::LISTED_RUNS)]
+    pub list_runs: usize,
     /// Write an SVG plot of max ulp error per input bucket.
     #[arg(long, value_name = "FILE.svg")]
     pub plot: Option<PathBuf>,
@@ -193,20 +201,38 @@ pub struct Outputs {
     pub plot: Option<PathBuf>,
     /// Print the terminal summary.
     pub terminal: bool,
+    /// --findings: every run and listed point, streamed.
+    pub findings: Option<PathBuf>,
+    /// The CSV report lists points (streamed to a spool, copied in at the end).
+    pub csv_points: bool,
 }
 
 impl Outputs {
     /// The outputs of the arguments, each file checked writable (exit 2 before any work).
     pub fn from_args(args: &Args) -> Result<Outputs, Failure> {
-        for path in [&args.json, &args.csv, &args.plot].into_iter().flatten() {
+        let paths = [&args.json, &args.csv, &args.plot, &args.findings];
+        for path in paths.into_iter().flatten() {
             check_writable(path).map_err(Failure::bad_input)?;
+        }
+        if args.findings.is_some() && args.shard.is_some() {
+            return Err(Failure::bad_input(
+                "--findings lists whole runs, which a shard cannot see: use it without --shard",
+            ));
         }
         Ok(Outputs {
             json: args.json.clone(),
             csv: args.csv.clone(),
             plot: args.plot.clone(),
             terminal: !args.quiet,
+            findings: args.findings.clone(),
+            csv_points: args.csv_points_over.is_some(),
         })
+    }
+
+    /// The writer of the findings streamed during the checks.
+    pub fn findings_writer(&self) -> Result<FindingsWriter, Failure> {
+        let csv = self.csv.as_deref().filter(|_| self.csv_points);
+        FindingsWriter::new(self.findings.as_deref(), csv).map_err(Failure::bad_input)
     }
 }
 
@@ -333,6 +359,7 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         abs_floor: positive(args.abs_floor, "--abs-floor", false)?,
         max_ulp: positive(args.max_ulp, "--max-ulp", true)?,
         list_over: positive(args.csv_points_over, "--csv-points-over", true)?,
+        listed_runs: args.list_runs,
         library: target.library.clone(),
         symbol: target.symbol.clone(),
         progress: !args.no_progress,
@@ -357,11 +384,25 @@ pub fn combine(codes: impl IntoIterator<Item = i32>) -> i32 {
 
 /// Writes every requested output of finished reports.
 pub fn emit(reports: &[CheckReport], manifest: bool, outputs: &Outputs) -> Result<(), Failure> {
-    let files: [(&Option<PathBuf>, &dyn ReportFormat); 3] = [
-        (&outputs.json, &Json),
-        (&outputs.csv, &Csv),
-        (&outputs.plot, &Svg),
-    ];
+    emit_with(reports, manifest, outputs, None)
+}
+
+/// [`emit`], with the findings streamed during the checks: the CSV report takes its point
+/// rows from them and the `--findings` file is put in place.
+pub fn emit_with(
+    reports: &[CheckReport],
+    manifest: bool,
+    outputs: &Outputs,
+    findings: Option<FindingsWriter>,
+) -> Result<(), Failure> {
+    // A CSV that lists points is written from the streamed rows.
+    let csv = if findings.is_some() && outputs.csv_points {
+        &None
+    } else {
+        &outputs.csv
+    };
+    let files: [(&Option<PathBuf>, &dyn ReportFormat); 3] =
+        [(&outputs.json, &Json), (csv, &Csv), (&outputs.plot, &Svg)];
     for (path, format) in files {
         if let Some(path) = path {
             let text = format.render(reports, manifest).map_err(|e| Failure {
@@ -370,6 +411,9 @@ pub fn emit(reports: &[CheckReport], manifest: bool, outputs: &Outputs) -> Resul
             })?;
             write_atomic(path, &text).map_err(Failure::bad_input)?;
         }
+    }
+    if let Some(findings) = findings {
+        findings.finish(reports).map_err(Failure::bad_input)?;
     }
     if outputs.terminal {
         say!(
@@ -388,22 +432,43 @@ pub fn run_with(
     config: &CheckConfig,
     outputs: &Outputs,
 ) -> Result<i32, Failure> {
-    let report = run_check(kernel, config).map_err(|message| Failure { code: 1, message })?;
+    let mut findings = outputs.findings_writer()?;
+    findings.begin(lead(config));
+    let report = run_check_into(kernel, config, &mut findings)
+        .map_err(|message| Failure { code: 1, message })?;
     let code = report.verdict.exit_code;
-    emit(std::slice::from_ref(&report), false, outputs)?;
+    emit_with(
+        std::slice::from_ref(&report),
+        false,
+        outputs,
+        Some(findings),
+    )?;
     Ok(code)
 }
 
 /// Checks several kernels (a manifest) and writes one report set `{"kernels": [...]}`.
 pub fn run_many(kernels: &mut [Configured], outputs: &Outputs) -> Result<i32, Failure> {
     let mut reports = Vec::new();
+    let mut findings = outputs.findings_writer()?;
     for (kernel, config) in kernels.iter_mut() {
+        findings.begin(lead(config));
         reports.push(
-            run_check(kernel.as_mut(), config).map_err(|message| Failure { code: 1, message })?,
+            run_check_into(kernel.as_mut(), config, &mut findings)
+                .map_err(|message| Failure { code: 1, message })?,
         );
     }
-    emit(&reports, true, outputs)?;
+    emit_with(&reports, true, outputs, Some(findings))?;
     Ok(combine(reports.iter().map(|r| r.verdict.exit_code)))
+}
+
+/// The first columns of a kernel's findings rows: function, format, role, symbol.
+fn lead(config: &CheckConfig) -> [String; 4] {
+    [
+        config.function.name().to_string(),
+        config.format.name().to_string(),
+        config.role.report_name().to_string(),
+        config.symbol.clone().unwrap_or_default(),
+    ]
 }
 
 fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
@@ -532,9 +597,16 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
     };
     let set =
         Recorded::open(&paths, config.format, &config.sweep.range).map_err(Failure::bad_input)?;
-    let report = run_recorded(set, &config).map_err(Failure::bad_input)?;
+    let mut findings = outputs.findings_writer()?;
+    findings.begin(lead(&config));
+    let report = run_recorded(set, &config, &mut findings).map_err(Failure::bad_input)?;
     let code = report.verdict.exit_code;
-    emit(std::slice::from_ref(&report), false, &outputs)?;
+    emit_with(
+        std::slice::from_ref(&report),
+        false,
+        &outputs,
+        Some(findings),
+    )?;
     Ok(code)
 }
 

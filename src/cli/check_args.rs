@@ -30,6 +30,8 @@ pub fn defaults() -> Args {
         json: None,
         csv: None,
         csv_points_over: None,
+        findings: None,
+        list_runs: crate::measure::LISTED_RUNS,
         plot: None,
         max_ulp: None,
         abs_floor: None,

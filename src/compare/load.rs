@@ -133,10 +133,23 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
             .ok_or_else(|| format!("{what}: key `{name}` is not a list"))
     };
     let runs = list("non_finite")?;
-    let non_finite_inputs = runs
-        .iter()
-        .map(|r| r.get("count").and_then(Value::as_u64).unwrap_or(0))
-        .sum();
+    let (non_finite_runs, non_finite_inputs) = match v.get("non_finite_total") {
+        Some(total) => {
+            let count = |key: &str| {
+                total
+                    .get(key)
+                    .and_then(Value::as_u64)
+                    .ok_or_else(|| format!("{what}: key `non_finite_total.{key}` is not a count"))
+            };
+            (count("runs")?, count("inputs")?)
+        }
+        None => (
+            runs.len() as u64,
+            runs.iter()
+                .map(|r| r.get("count").and_then(Value::as_u64).unwrap_or(0))
+                .sum(),
+        ),
+    };
     let hygiene = list("hygiene")?
         .iter()
         .map(|h| {
@@ -198,7 +211,7 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
         faithful: num(v, "accuracy.faithful", what)?,
         points: num(v, "accuracy.points", what)? as u64,
         non_finite_inputs,
-        non_finite_runs: runs.len() as u64,
+        non_finite_runs,
         hygiene,
         special,
         crash,
@@ -244,12 +257,15 @@ pub fn load(path: &Path, role: &str) -> Result<Loaded, String> {
     } else {
         (schema, v)
     };
-    if schema != SCHEMA {
+    // Version 1 listed every non-finite run; version 2 lists the longest and counts them all.
+    // Both carry the figures compared, so a baseline of either version compares.
+    if schema != SCHEMA && schema != "ulpgauge-check/1" {
         return Ok(Loaded {
             schema,
             kernels: Vec::new(),
         });
     }
+    let schema = SCHEMA.to_string();
     let kernels = match body.get("kernels") {
         Some(Value::Array(list)) => list
             .iter()

@@ -1,6 +1,6 @@
 //! ulp accuracy over the points where kernel output and reference are both finite.
 
-use super::{ExactSum, Point};
+use super::{ExactSum, FindingSink, Point};
 use crate::format::{ulp_error_in, Class, ExactValue, Format, Layout};
 use crate::reference::Reference;
 use crate::report::BitsValue;
@@ -107,9 +107,10 @@ pub struct Accuracy {
     /// Max error per bucket of input ordinals, for plots.
     #[serde(skip)]
     pub buckets: Vec<Bucket>,
-    /// Every point whose error exceeds the listing limit, in bit order.
-    #[serde(skip)]
-    pub over_limit: Vec<Worst>,
+    /// Points whose error exceeds the listing limit (`--csv-points-over`), all handed to
+    /// the finding sink in bit order; absent without a limit.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub points_over_limit: Option<u64>,
 }
 
 /// Largest error over a span of input ordinals.
@@ -382,7 +383,10 @@ pub struct AccuracyAcc {
     ftz: u64,
     excluded: u64,
     samples: Samples,
+    /// Points over the listing limit not yet handed to the sink, in bit order.
     over_limit: Vec<Worst>,
+    /// Points over the listing limit handed to the sink.
+    listed: u64,
     last_input: Option<u32>,
 }
 
@@ -453,6 +457,7 @@ impl AccuracyAcc {
             excluded: 0,
             samples,
             over_limit: Vec::new(),
+            listed: 0,
             last_input: None,
         }
     }
@@ -693,12 +698,22 @@ impl AccuracyAcc {
             _ => panic!("merging accumulators of different settings"),
         }
         self.over_limit.extend(other.over_limit);
+        self.listed += other.listed;
         self.last_input = other.last_input.or(self.last_input);
     }
 
-    /// The figures.
-    pub fn finish(mut self) -> Accuracy {
+    /// Hands the points over the listing limit met so far to the sink, in bit order.
+    pub fn settle_listed(&mut self, sink: &mut dyn FindingSink) {
+        for p in self.over_limit.drain(..) {
+            sink.point(&p);
+            self.listed += 1;
+        }
+    }
+
+    /// The figures; the points over the listing limit still held go to the sink.
+    pub fn finish(mut self, sink: &mut dyn FindingSink) -> Accuracy {
         self.settle();
+        self.settle_listed(sink);
         let format = self.format;
         let total = self.total;
         let fraction = |n: u64| {
@@ -794,19 +809,20 @@ impl AccuracyAcc {
             flush_to_zero_outputs: self.ftz,
             excluded_non_finite: self.excluded,
             buckets,
-            over_limit: self.over_limit,
+            points_over_limit: self.list_over.map(|_| self.listed),
         }
     }
 }
 
 /// Accuracy over `points` (the measured inputs, any order).
 ///
-/// `list_over`: points with a larger error are listed in `over_limit` (for CSV).
+/// `list_over`: points with a larger error go to the sink.
 pub fn accuracy(
     format: &'static dyn Format,
     points: &[Point],
     abs_floor: Option<f64>,
     list_over: Option<f64>,
+    sink: &mut dyn FindingSink,
 ) -> Accuracy {
     let mut order: Vec<&Point> = points.iter().collect();
     order.sort_by_key(|p| p.input);
@@ -814,5 +830,5 @@ pub fn accuracy(
     for p in order {
         acc.add(p);
     }
-    acc.finish()
+    acc.finish(sink)
 }

@@ -17,7 +17,10 @@ pub use accuracy::{
 };
 pub use exact_sum::ExactSum;
 pub use kinks::{kink_sides, KinkSide};
-pub use nonfinite::{non_finite_part, non_finite_runs, NonFiniteRun, NonFiniteStream, RunsPart};
+pub use nonfinite::{
+    classes, non_finite_part, non_finite_runs, Classes, Known, NonFiniteRun, NonFiniteStream,
+    RunCell, RunSummary, RunTotals, RunsPart, ValueClass, LISTED_RUNS, MAX_GAP_SCAN,
+};
 pub use shape::{shape, Jump, Shape, ShapeAcc, Violation};
 pub use special::{special_values, RuleContext, SpecialRule};
 pub use thresholds::{thresholds, ThresholdReport};
@@ -45,6 +48,23 @@ pub trait Probe {
     /// Evaluates inputs (any order); the result is in the same order, leaving out inputs whose
     /// reference could not be computed.
     fn probe(&mut self, inputs: &[u32]) -> Vec<Point>;
+}
+
+/// Where findings go as they are found, one by one, for people who want every one of them
+/// (the report itself keeps exact totals and bounded summaries).
+pub trait FindingSink {
+    /// A finished non-finite run.
+    fn run(&mut self, run: &NonFiniteRun);
+    /// A point whose error exceeds the listing limit (`--csv-points-over`).
+    fn point(&mut self, point: &Worst);
+}
+
+/// A sink that keeps nothing.
+pub struct NoSink;
+
+impl FindingSink for NoSink {
+    fn run(&mut self, _: &NonFiniteRun) {}
+    fn point(&mut self, _: &Worst) {}
 }
 
 /// The value classes that non-finite runs compare.

@@ -199,13 +199,15 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
     let Figures {
         accuracy,
         non_finite,
+        non_finite_total,
+        non_finite_summary,
         special_values,
         kinks,
         shape,
         reference_failures,
         crash,
         extra_inputs,
-    } = gathered.figures(format);
+    } = gathered.figures(format, &mut crate::measure::NoSink);
     let verdict = verdict(
         crash.is_some(),
         &hygiene,
@@ -253,6 +255,8 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
     let points = accuracy.points;
     map.insert("accuracy".into(), accuracy_value);
     map.insert("non_finite".into(), to_value(&non_finite)?);
+    map.insert("non_finite_total".into(), to_value(&non_finite_total)?);
+    map.insert("non_finite_summary".into(), to_value(&non_finite_summary)?);
     map.insert("special_values".into(), to_value(&special_values)?);
     map.insert("kinks".into(), to_value(&kinks)?);
     map.insert("shape".into(), to_value(&shape)?);

@@ -1,10 +1,10 @@
-//! JSON reports, schema `ulpgauge-check/1`.
+//! JSON reports, schema `ulpgauge-check/2`.
 //!
 //! A single-kernel run writes one object; a manifest run writes `{"kernels": [object, …]}`.
 //! Every input or output value is `{"bits": "0x…", "value": number | "nan" | "inf" | "-inf"}`
 //! (written V below). Top-level keys of an object:
 //!
-//! - `schema`: "ulpgauge-check/1"; `function`, `format`, `role` ("forward" | "derivative" |
+//! - `schema`: "ulpgauge-check/2"; `function`, `format`, `role` ("forward" | "derivative" |
 //!   "gradient"), `from_output`, `params` (name → exact value or constant name),
 //!   `param_rounding`.
 //! - `kernel`: {library, symbol, ns_per_element}.
@@ -16,10 +16,24 @@
 //!   histogram: [{up_to: number | null, count}], per_binade: [{binade, first, last: V, points,
 //!   max_ulp, mean_ulp, correctly_rounded, worst_input: V}], regions: [{region, points, max_ulp,
 //!   max_floored}], abs_floor: {floor, max, worst} | null, flush_to_zero_outputs,
-//!   excluded_non_finite, coverage}. In derivative and gradient roles the figures are the
+//!   excluded_non_finite, points_over_limit (with `--csv-points-over`: how many points were
+//!   listed), coverage}. In derivative and gradient roles the figures are the
 //!   derivative's; at a kink the nearer one-sided value is used.
-//! - `non_finite`: [{first, last: V, count, kernel, reference ("nan" | "+inf" | "-inf" |
-//!   "finite"), exact_ends, interior ("exhaustive" | "sampled")}], in bit order.
+//! - `non_finite`: the listed runs, at most `--list-runs` (default 100): [{first, last: V,
+//!   count, kernel, reference ("nan" | "+inf" | "-inf" | "finite"), exact_ends, interior
+//!   ("exhaustive" | "sampled")}], the longest first, ties to the lowest first bit pattern (a
+//!   total order, so sharded and unsharded runs list the same runs). A run is maximal: the
+//!   consecutive inputs (in bit order, one sign) where kernel and reference stay in the same
+//!   two different classes.
+//! - `non_finite_total`: {runs, inputs}: exact counts over every run of the sweep, whatever
+//!   is listed (a run that crosses a shard boundary counts once).
+//! - `non_finite_summary`: every run counted per sign × binade of the input × kind, in bit
+//!   order: [{binade ("+2^70", "-subnormal", "+inf/nan"), kernel, reference, runs (those that
+//!   start in the binade), inputs (the binade's inputs inside runs), first, last: V}].
+//!
+//! Version 2 (this one) replaced version 1's complete list of runs, which grew with the
+//! findings, by the bounded `non_finite` listing plus `non_finite_total` and
+//! `non_finite_summary`; `compare` reads both versions.
 //! - `special_values`: [{input, expected: V, output: V | null, passed, rule}].
 //! - `hygiene`: [{check, passed, detail}] from the kernel runner.
 //! - `crash`: null, or {signal, input: V, count}.

@@ -1,6 +1,7 @@
 //! Reports: the data model of a check and one file per output format behind [`ReportFormat`].
 
 mod csv;
+mod findings;
 pub mod json;
 pub mod model;
 pub mod provenance;
@@ -10,12 +11,13 @@ mod value;
 mod write;
 
 pub use self::csv::Csv;
+pub use findings::FindingsWriter;
 pub use json::Json;
 pub use model::CheckReport;
 pub use svg::Svg;
 pub use terminal::Terminal;
 pub use value::{display_value, BitsValue};
-pub use write::{check_writable, write_atomic};
+pub use write::{check_writable, write_atomic, write_atomic_with};
 
 /// An output format of `check` reports.
 pub trait ReportFormat {

@@ -1,14 +1,16 @@
 //! The report of one checked kernel; its JSON form is documented in [`super::json`].
 
 pub use super::provenance::Provenance;
-use crate::measure::{Accuracy, KinkSide, NonFiniteRun, Shape, SpecialRule, ThresholdReport};
+use crate::measure::{
+    Accuracy, KinkSide, NonFiniteRun, RunCell, RunTotals, Shape, SpecialRule, ThresholdReport,
+};
 use crate::report::BitsValue;
 use crate::sweep::{Coverage, SampleMode, SweepKind};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 
 /// Version tag of the JSON schema.
-pub const SCHEMA: &str = "ulpgauge-check/1";
+pub const SCHEMA: &str = "ulpgauge-check/2";
 
 /// The sweep as run.
 #[derive(Clone, Debug, Serialize)]
@@ -125,8 +127,13 @@ pub struct CheckReport {
     pub sweep: SweepInfo,
     /// Accuracy.
     pub accuracy: AccuracySection,
-    /// Non-finite runs.
+    /// The listed non-finite runs: the longest, ties to the lowest first input (at most
+    /// `--list-runs`; every run is counted in `non_finite_total`).
     pub non_finite: Vec<NonFiniteRun>,
+    /// Exact counts of runs and of inputs in them over the whole sweep.
+    pub non_finite_total: RunTotals,
+    /// Every run counted per sign × binade of the input × kind.
+    pub non_finite_summary: Vec<RunCell>,
     /// Special-value rules.
     pub special_values: Vec<SpecialRule>,
     /// Hygiene checks from the runner.

@@ -14,6 +14,104 @@ fn v(b: &super::BitsValue) -> String {
     format!("{value} ({})", b.bits)
 }
 
+/// Thousands separated by commas, so counts of millions read at a glance.
+fn count(n: u64) -> String {
+    let digits = n.to_string();
+    let mut text = String::new();
+    for (i, c) in digits.chars().enumerate() {
+        if i > 0 && (digits.len() - i) % 3 == 0 {
+            text.push(',');
+        }
+        text.push(c);
+    }
+    text
+}
+
+/// "1 input", "12,916 inputs".
+fn counted(n: u64, noun: &str) -> String {
+    format!("{} {noun}{}", count(n), if n == 1 { "" } else { "s" })
+}
+
+/// The non-finite findings in a few sentences: per kind, how many runs and inputs, in which
+/// binades of each sign, how dense, and the longest runs; never one line per run.
+fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
+    let total = r.non_finite_total;
+    if total.runs == 0 {
+        return writeln!(out, "  non-finite  none");
+    }
+    writeln!(
+        out,
+        "  non-finite  {} in {} where kernel and reference differ in class:",
+        counted(total.inputs, "input"),
+        counted(total.runs, "run")
+    )?;
+    let per_binade = crate::format::by_name(r.format).map(|f| 1u64 << (f.precision() - 1));
+    let mut kinds: Vec<(&str, &str)> = r
+        .non_finite_summary
+        .iter()
+        .map(|c| (c.kernel, c.reference))
+        .collect();
+    kinds.sort_unstable();
+    kinds.dedup();
+    for (kernel, reference) in kinds {
+        for sign in ['+', '-'] {
+            let cells: Vec<_> = r
+                .non_finite_summary
+                .iter()
+                .filter(|c| (c.kernel, c.reference) == (kernel, reference))
+                .filter(|c| c.binade.starts_with(sign))
+                .collect();
+            let (Some(first), Some(last)) = (cells.first(), cells.last()) else {
+                continue;
+            };
+            let inputs: u64 = cells.iter().map(|c| c.inputs).sum();
+            let runs: u64 = cells.iter().map(|c| c.runs).sum();
+            let density = per_binade.map_or(String::new(), |n| {
+                format!(
+                    ", {:.1}% of their inputs",
+                    100.0 * inputs as f64 / (n * cells.len() as u64) as f64
+                )
+            });
+            let binades = if cells.len() == 1 {
+                format!("binade {}", first.binade)
+            } else {
+                format!(
+                    "{} binades from {} to {}",
+                    cells.len(),
+                    first.binade,
+                    last.binade
+                )
+            };
+            writeln!(
+                out,
+                "              kernel {kernel} where the reference is {reference}: {} in {}, {binades}{density}; x from {} to {}",
+                counted(inputs, "input"),
+                counted(runs, "run"),
+                v(&first.first),
+                v(&last.last)
+            )?;
+        }
+    }
+    for run in r.non_finite.iter().take(3) {
+        writeln!(
+            out,
+            "              longest: {} .. {}: kernel {}, reference {} ({})",
+            v(&run.first),
+            v(&run.last),
+            run.kernel,
+            run.reference,
+            counted(run.count, "input")
+        )?;
+    }
+    if total.runs > 3 {
+        writeln!(
+            out,
+            "              every run is counted per binade in the JSON report (non_finite_summary); --findings FILE lists each one"
+        )?;
+    }
+    Ok(())
+}
+
 fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
     let acc = &r.accuracy.figures;
     let symbol = match &r.recorded {
@@ -94,25 +192,11 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
     if acc.flush_to_zero_outputs > 0 {
         writeln!(out, "  flush-to-zero: {} subnormal results returned as zero, as flush-to-zero does (not counted in ulp figures)", acc.flush_to_zero_outputs)?;
     }
-    if r.non_finite.is_empty() {
-        writeln!(out, "  non-finite  none")?;
-    }
-    for run in r.non_finite.iter().take(8) {
+    non_finite(out, r)?;
+    if let Some(n) = acc.points_over_limit {
         writeln!(
             out,
-            "  non-finite  {} .. {}: kernel {}, reference {} ({} inputs)",
-            v(&run.first),
-            v(&run.last),
-            run.kernel,
-            run.reference,
-            run.count
-        )?;
-    }
-    if r.non_finite.len() > 8 {
-        writeln!(
-            out,
-            "  non-finite  … {} runs in all (see the JSON report)",
-            r.non_finite.len()
+            "  listed      {n} points over the listing limit, in the CSV report (and --findings)"
         )?;
     }
     for t in &r.thresholds {

@@ -37,6 +37,7 @@ pub fn config(
         abs_floor: None,
         max_ulp: None,
         list_over: None,
+        listed_runs: ulpgauge::measure::LISTED_RUNS,
         library: None,
         shard: None,
         symbol: None,
