@@ -271,7 +271,7 @@ fn gather(
         config.listed_runs,
     );
     // A recorded part is measured whole but may follow other parts.
-    let leftmost = from == 0 && config.shard.is_none_or(|s| !recorded || s.index == 1);
+    let leftmost = from == 0 && config.shard.map_or(true, |s| !recorded || s.index == 1);
     let (stream, measured) = stream_measured(prober, stream, &own, exhaustive, sink, leftmost);
     let mut crashes = Crashes::default();
     let mut seen = 0;
