@@ -250,12 +250,19 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         )?;
     }
     let passed = r.special_values.iter().filter(|s| s.passed).count();
+    let hygiene = if r.recorded.is_some() && r.hygiene.is_empty() {
+        "hygiene not run (recorded outputs)".to_string()
+    } else {
+        format!(
+            "{}/{} hygiene checks passed",
+            r.hygiene.iter().filter(|h| h.passed).count(),
+            r.hygiene.len()
+        )
+    };
     writeln!(
         out,
-        "  checks      {passed}/{} special-value rules, {}/{} hygiene checks passed",
+        "  checks      {passed}/{} special-value rules, {hygiene}",
         r.special_values.len(),
-        r.hygiene.iter().filter(|h| h.passed).count(),
-        r.hygiene.len()
     )?;
     for f in r.verdict.failed.iter().take(10) {
         writeln!(out, "  FAILED      {f}")?;

@@ -127,6 +127,52 @@ def numpy_round_trip(ulpgauge, tmp):
     print(f"        pade tanh f32 [1,2): max {merged['accuracy']['max_ulp']:.4f} ulp at {merged['accuracy']['worst']['input']['bits']}")
 
 
+def gradients(ulpgauge, tmp):
+    """record_gradient and write_grads: dx = g*s(x)(1 - s(x)) in binary32, rounded once."""
+    x = os.path.join(tmp, "gx.npy")
+    run(ulpgauge, "inputs", "--format", "f16", "--sweep", "exhaustive", "--out", x, "--quiet", code=0)
+    g, g2, dx = (os.path.join(tmp, n) for n in ("g.npy", "g2.npy", "dx.npy"))
+    ulpgauge_record.write_grads(x, g, seed=5)
+    ulpgauge_record.write_grads(x, g2, seed=6)
+    gv = np.load(g).astype(np.float64)
+    # g = +-(1 + k/8)·2^e, e in {-1, 0}: in +-[1/2, 2), multiples of 1/16, exact in every format.
+    expect(((np.abs(gv) >= 0.5) & (np.abs(gv) < 2)).all() and (gv * 16 == np.round(gv * 16)).all(),
+           "write_grads writes g in +-[1/2, 2), exact in binary16")
+
+    def kernel(x, g):
+        with np.errstate(all="ignore"):
+            s = 1 / (1 + np.exp(-x.astype(np.float64)))
+            return (g.astype(np.float64) * s * (1 - s)).astype(np.float16)
+
+    ulpgauge_record.record_gradient(kernel, x, g, dx, function="sigmoid", quiet=True)
+    reports = []
+    for grads in (g, g2):
+        out = os.path.join(tmp, "grad.json")
+        run(ulpgauge, "check", "--inputs", x, "--outputs", dx, "--grads", grads, "--function", "sigmoid",
+            "--format", "f16", "--role", "gradient", "--json", out, "--quiet")
+        reports.append(json.load(open(out))["accuracy"])
+    # Computed in binary64 and rounded once: within half an ulp plus binary64's own error.
+    expect(reports[0]["max_ulp"] < 0.5001 and reports[0]["coverage"] == "exhaustive",
+           f"gradient with its recorded g: max {reports[0]['max_ulp']:.4f} ulp, exhaustive")
+    expect(reports[1]["correctly_rounded"] < 0.5,
+           "the same dx against other g is wrong: the check uses the recorded g")
+
+
+def jax_runtime(tmp):
+    try:
+        import jax
+    except ImportError:
+        print("skipped jax (not installed)")
+        return
+    x = os.path.join(tmp, "jx.npy")
+    np.save(x, np.arange(65536, dtype=np.uint16).view(np.float16))
+    y = os.path.join(tmp, "jy.npy")
+    ulpgauge_record.record(ulpgauge_record.jax_kernel(jax.nn.sigmoid), x, y, quiet=True)
+    direct = np.asarray(jax.jit(jax.nn.sigmoid)(np.load(x)))
+    expect((np.load(y).view(np.uint16) == direct.view(np.uint16)).all(),
+           "jax adapter: the recorded outputs are jax's own")
+
+
 def onnx_model(op, **attrs):
     from onnx import TensorProto, helper
 
@@ -255,6 +301,8 @@ def main():
     with tempfile.TemporaryDirectory(prefix="ulpgauge-recorder-") as tmp:
         numpy_round_trip(ulpgauge, tmp)
         files_and_errors(ulpgauge, tmp)
+        gradients(ulpgauge, tmp)
+        jax_runtime(tmp)
         onnxruntime_runtime(ulpgauge, tmp)
     if FAILURES:
         print(f"{len(FAILURES)} failure(s)")
