@@ -6,7 +6,7 @@ Pure Python on numpy; the framework adapters import their framework only when us
     from ulpgauge_record import record
     record(np.tanh, "x.npy", "y.npy", function="tanh")   # prints the ulpgauge check command
 
-`record` reads the inputs file in batches (memory-mapped, so a 16 GiB binary32 file is fine),
+`record` reads the inputs file in batches (never whole, so a 16 GiB binary32 file is fine),
 calls the kernel on each batch and writes the outputs file in the format's own dtype: float32
 for f32, float16 for f16, uint16 bit patterns for bf16 (numpy has no bfloat16 dtype). The
 kernel receives a numpy array in the format (ml_dtypes.bfloat16 for bf16) unless an adapter
@@ -104,20 +104,82 @@ def _output_bits(y, fmt, n, cast):
     return y.view(np.uint32 if fmt == "f32" else np.uint16)
 
 
+class _Reader:
+    """A 1-D .npy array read batch by batch (never mapped or loaded whole, so memory stays
+    one batch whatever the file's size)."""
+
+    def __init__(self, path):
+        self.path = path
+        self.file = open(path, "rb")
+        fmt = np.lib.format
+        version = fmt.read_magic(self.file)
+        if version == (1, 0):
+            shape, _, dtype = fmt.read_array_header_1_0(self.file)
+        elif version == (2, 0):
+            shape, _, dtype = fmt.read_array_header_2_0(self.file)
+        else:
+            raise ValueError(f"{path}: .npy version {version} is not supported")
+        if len(shape) != 1:
+            raise ValueError(f"{path}: expected a 1-D array, got shape {shape}")
+        if dtype.hasobject:
+            raise ValueError(f"{path}: holds Python objects, not numbers")
+        # One dimension: C and Fortran order lay the elements out alike.
+        self.dtype, self.len, self.offset = dtype, shape[0], self.file.tell()
+
+    def read(self, a, b):
+        self.file.seek(self.offset + a * self.dtype.itemsize)
+        out = np.fromfile(self.file, dtype=self.dtype, count=b - a)
+        if out.shape[0] != b - a:
+            raise ValueError(f"{self.path}: truncated")
+        return out
+
+    def close(self):
+        self.file.close()
+
+
+class _Writer:
+    """A 1-D .npy array written batch by batch to a temporary file, renamed when complete."""
+
+    def __init__(self, path, fmt, n):
+        self.path, self.n, self.written = path, n, 0
+        self.dtype = FORMATS[fmt][1]
+        folder, name = os.path.split(os.path.abspath(path))
+        self.tmp = os.path.join(folder, ".%s.%d.tmp" % (name, os.getpid()))
+        self.file = open(self.tmp, "wb")
+        header = {"descr": np.lib.format.dtype_to_descr(self.dtype), "fortran_order": False, "shape": (n,)}
+        np.lib.format.write_array_header_1_0(self.file, header)
+
+    def write(self, bits):
+        """Appends bit patterns of the format (written in the file's dtype)."""
+        np.ascontiguousarray(bits).astype(FORMATS_BITS_LE[self.dtype.itemsize]).tofile(self.file)
+        self.written += bits.shape[0]
+
+    def close(self):
+        self.file.close()
+        if self.written != self.n:
+            os.remove(self.tmp)
+            raise ValueError(f"{self.path}: {self.written} values written for {self.n} inputs")
+        os.replace(self.tmp, self.path)
+
+    def abort(self):
+        self.file.close()
+        if os.path.exists(self.tmp):
+            os.remove(self.tmp)
+
+
+FORMATS_BITS_LE = {2: np.dtype("<u2"), 4: np.dtype("<u4")}
+
+
 def read_inputs(path, fmt):
-    """The inputs file as bit patterns of the format, memory-mapped (not read whole)."""
+    """The whole inputs file as bit patterns of the format (for small files; `record` reads
+    in batches)."""
     if fmt not in FORMATS:
         raise ValueError(f"unknown format {fmt!r} (known: {', '.join(FORMATS)})")
-    array = np.load(path, mmap_mode="r", allow_pickle=False)
-    if array.ndim != 1:
-        raise ValueError(f"{path}: expected a 1-D array, got shape {array.shape}")
-    return array
-
-
-def _open_output(path, fmt, n):
-    tmp = os.path.join(os.path.dirname(os.path.abspath(path)), "." + os.path.basename(path) + ".%d.tmp" % os.getpid())
-    out = np.lib.format.open_memmap(tmp, mode="w+", dtype=FORMATS[fmt][1], shape=(n,))
-    return tmp, out
+    reader = _Reader(path)
+    try:
+        return _as_bits(reader.read(0, reader.len), fmt, path)
+    finally:
+        reader.close()
 
 
 def _batches(n, batch):
@@ -125,10 +187,31 @@ def _batches(n, batch):
         yield start, min(n, start + batch)
 
 
-def _finish(tmp, out, path):
-    out.flush()
-    del out
-    os.replace(tmp, path)
+def _evaluate(paths, outputs, fmt, batch, call):
+    """Reads the arrays of `paths` batch by batch and writes call(fmt, n, values...), bit
+    patterns of the format, to `outputs`; returns the format."""
+    readers = [_Reader(p) for p in paths]
+    try:
+        fmt = fmt or _guess(readers[0].dtype)
+        if fmt not in FORMATS:
+            raise ValueError(f"unknown format {fmt!r} (known: {', '.join(FORMATS)})")
+        n = readers[0].len
+        for r in readers[1:]:
+            if r.len != n:
+                raise ValueError(f"{r.path} holds {r.len} values for {n} inputs")
+        writer = _Writer(outputs, fmt, n)
+        try:
+            for a, b in _batches(n, batch):
+                values = [_values(_as_bits(r.read(a, b), fmt, r.path), fmt) for r in readers]
+                writer.write(call(fmt, b - a, *values))
+        except BaseException:
+            writer.abort()
+            raise
+        writer.close()
+        return fmt
+    finally:
+        for r in readers:
+            r.close()
 
 
 def check_command(inputs, outputs, function=None, fmt="f32", role="forward", grads=None, shard=None, extra=()):
@@ -151,22 +234,7 @@ def record(kernel, inputs, outputs, fmt=None, function=None, batch=BATCH, cast=F
     fmt: "f32", "f16" or "bf16"; taken from the inputs' dtype when None (uint16 bit patterns
     need it said). Returns the `ulpgauge check` command, also printed unless quiet.
     """
-    array = np.load(inputs, mmap_mode="r", allow_pickle=False)
-    fmt = fmt or _guess(array)
-    array = read_inputs(inputs, fmt)
-    n = array.shape[0]
-    tmp, out = _open_output(outputs, fmt, n)
-    try:
-        out_bits = out.view(FORMATS[fmt][0])
-        for a, b in _batches(n, batch):
-            x = _values(np.ascontiguousarray(_as_bits(array[a:b], fmt, inputs)), fmt)
-            out_bits[a:b] = _output_bits(kernel(x), fmt, b - a, cast)
-        _finish(tmp, out, outputs)
-    except BaseException:
-        del out
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
+    fmt = _evaluate([inputs], outputs, fmt, batch, lambda f, n, x: _output_bits(kernel(x), f, n, cast))
     command = check_command(inputs, outputs, function, fmt, shard=shard)
     if not quiet:
         print(command)
@@ -174,57 +242,30 @@ def record(kernel, inputs, outputs, fmt=None, function=None, batch=BATCH, cast=F
 
 
 def write_grads(inputs, grads, fmt=None, seed=1):
-    """Writes a g file for `inputs`: seeded values in +-[1/2, 2), exact in every format."""
-    array = np.load(inputs, mmap_mode="r", allow_pickle=False)
-    fmt = fmt or _guess(array)
-    n = array.shape[0]
+    """Writes a g file for `inputs`: seeded values +-(1 + k/8)*2^e, e in {-1, 0}: in
+    +-[1/2, 2) and exact in every format."""
     rng = np.random.default_rng(seed)
-    tmp, out = _open_output(grads, fmt, n)
-    try:
-        bits = out.view(FORMATS[fmt][0])
-        for a, b in _batches(n, BATCH):
-            # 1 + k/8 times 2^e, sign random: exact in binary16, bfloat16 and binary32.
-            g = (1 + rng.integers(0, 8, b - a) / 8) * np.where(rng.integers(0, 2, b - a) == 1, 0.5, 1.0)
-            g = g * np.where(rng.integers(0, 2, b - a) == 1, -1.0, 1.0)
-            bits[a:b] = _output_bits(g.astype(np.float32), fmt, b - a, True)
-        _finish(tmp, out, grads)
-    except BaseException:
-        del out
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
+
+    def make(f, n, x):
+        g = (1 + rng.integers(0, 8, n) / 8) * np.where(rng.integers(0, 2, n) == 1, 0.5, 1.0)
+        g = g * np.where(rng.integers(0, 2, n) == 1, -1.0, 1.0)
+        return _output_bits(g.astype(np.float32), f, n, True)
+
+    _evaluate([inputs], grads, fmt, BATCH, make)
 
 
 def record_gradient(kernel, inputs, grads, outputs, fmt=None, function=None, batch=BATCH, cast=False, quiet=False):
     """Calls `kernel(x, g)` (the gradient dx = g * f'(x)) over the inputs and g files."""
-    xs = np.load(inputs, mmap_mode="r", allow_pickle=False)
-    gs = np.load(grads, mmap_mode="r", allow_pickle=False)
-    fmt = fmt or _guess(xs)
-    if gs.shape != xs.shape:
-        raise ValueError(f"{grads} holds {gs.shape[0]} values for {xs.shape[0]} inputs")
-    n = xs.shape[0]
-    tmp, out = _open_output(outputs, fmt, n)
-    try:
-        out_bits = out.view(FORMATS[fmt][0])
-        for a, b in _batches(n, batch):
-            x = _values(np.ascontiguousarray(_as_bits(xs[a:b], fmt, inputs)), fmt)
-            g = _values(np.ascontiguousarray(_as_bits(gs[a:b], fmt, grads)), fmt)
-            out_bits[a:b] = _output_bits(kernel(x, g), fmt, b - a, cast)
-        _finish(tmp, out, outputs)
-    except BaseException:
-        del out
-        if os.path.exists(tmp):
-            os.remove(tmp)
-        raise
+    fmt = _evaluate([inputs, grads], outputs, fmt, batch,
+                    lambda f, n, x, g: _output_bits(kernel(x, g), f, n, cast))
     command = check_command(inputs, outputs, function, fmt, role="gradient", grads=grads)
     if not quiet:
         print(command)
     return command
 
 
-def _guess(array):
-    """The format of an inputs array; uint16 bit patterns could be either 16-bit format."""
-    dt = array.dtype
+def _guess(dt):
+    """The format of an inputs dtype; uint16 bit patterns could be either 16-bit format."""
     if dt.kind == "V" or dt.name == "bfloat16":
         return "bf16"
     if dt.itemsize == 4:
