@@ -296,10 +296,6 @@ def onnx_kernel(model, providers=None, input_name=None):
     return run
 
 
-def _torch_dtype(torch, x):
-    return {"float32": torch.float32, "float16": torch.float16, "bfloat16": torch.bfloat16}[x.dtype.name]
-
-
 def _to_torch(torch, x, device):
     if x.dtype.name == "bfloat16":
         t = torch.from_numpy(np.ascontiguousarray(x.view(np.uint16)).view(np.int16)).view(torch.bfloat16)
