@@ -5,6 +5,7 @@
 //! definitions, [`reference`] the correctly rounded MPFR engine.
 
 pub mod activation;
+pub mod api;
 pub mod certify;
 pub mod check;
 pub mod cli;
@@ -15,6 +16,7 @@ pub mod kernel;
 pub mod matrix;
 pub mod measure;
 pub mod merge;
+pub mod recorded;
 pub mod reference;
 pub mod report;
 pub mod sweep;

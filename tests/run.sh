@@ -1,9 +1,10 @@
 #!/usr/bin/env bash
 # The test command: installs what the build and the independent checks need, then runs every
-# test (Rust unit and integration tests, the mpmath cross-check, the golden tables).
+# test (Rust unit and integration tests, the mpmath cross-check, the golden tables, the recorder).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source tests/setup.sh
 cargo build --release --locked
 python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge
+python3 tests/recorder/test_recorder.py --ulpgauge target/release/ulpgauge
 cargo test --release --locked

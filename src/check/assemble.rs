@@ -25,6 +25,14 @@ pub(super) fn report(
     let spec = &config.sweep;
     let plan = &setup.plan;
     let own_inputs = gathered.inputs;
+    let recorded = gathered
+        .recorded
+        .as_ref()
+        .map(|r| r.section(format, plan.coverage == crate::sweep::Coverage::Sampled));
+    let planned_probes = gathered
+        .recorded
+        .as_ref()
+        .map_or(setup.probes.len() as u64, |r| r.probes.0);
     let shard = match config.shard {
         None => None,
         Some(s) => {
@@ -67,7 +75,7 @@ pub(super) fn report(
         range: spec.range.text.clone(),
         coverage: plan.coverage,
         inputs: own_inputs,
-        probes: setup.probes.len() as u64,
+        probes: planned_probes,
         extra_inputs,
         per_binade: spec.per_binade,
         neighbours: spec.neighbours,
@@ -144,5 +152,6 @@ pub(super) fn report(
         verdict,
         provenance,
         shard,
+        recorded,
     })
 }

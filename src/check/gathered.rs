@@ -9,6 +9,7 @@ use crate::measure::{
     self, Accuracy, FindingSink, KinkSide, NonFiniteRun, Point, RuleContext, RunCell, RunTotals,
     RunsPart, Shape, SpecialRule,
 };
+use crate::recorded::RecordedState;
 use crate::report::model::{CrashReport, ReferenceFailures, Verdict};
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
@@ -67,6 +68,9 @@ pub struct Gathered {
     pub tolerance: f64,
     /// Forward role (kinks are reported for the other roles).
     pub role_is_forward: bool,
+    /// Checks of recorded outputs: the set's counts and the kernel's threshold walks.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub recorded: Option<RecordedState>,
 }
 
 /// The report sections computed from a [`Gathered`].
@@ -97,6 +101,16 @@ impl Gathered {
     /// Joins the state of the next part of the same sweep (its inputs all above ours).
     pub fn merge(&mut self, other: Gathered) {
         self.stream.merge(other.stream);
+        // The probes are the same in every shard of a called kernel; parts of a recorded set
+        // each hold the ones they recorded.
+        self.probe_points.extend(other.probe_points);
+        self.probe_points.sort_by_key(|p| p.input);
+        self.probe_points.dedup_by_key(|p| p.input);
+        match (&mut self.recorded, other.recorded) {
+            (Some(mine), Some(theirs)) => mine.merge(theirs),
+            (None, theirs) => self.recorded = theirs,
+            _ => {}
+        }
         if let (Some(mine), Some(theirs)) = (&mut self.runs, other.runs) {
             mine.merge(theirs);
         }

@@ -21,6 +21,9 @@ pub struct KernelOutput {
     pub outputs: Vec<Option<u32>>,
     /// Every crash of the batch.
     pub crashes: Vec<KernelCrash>,
+    /// The second arguments the kernel actually used, when it brings its own (a recorded
+    /// set's g); `None`: the ones it was given.
+    pub seconds: Option<Vec<Option<u32>>>,
 }
 
 /// A kernel under test: calls on batches of bit patterns, hygiene, throughput.

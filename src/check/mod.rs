@@ -10,6 +10,7 @@ mod confirm;
 mod gathered;
 mod kernel;
 mod probe;
+mod recorded;
 mod runner_kernel;
 mod shard;
 mod stream;
@@ -22,6 +23,7 @@ pub use confirm::Confirmation;
 pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Folding, Prober, RoleReferences};
+pub use recorded::run_recorded;
 pub use runner_kernel::RunnerKernel;
 pub use shard::{Shard, STATE_VERSION};
 
@@ -190,6 +192,13 @@ fn probe_inputs(
     probes
 }
 
+/// The inputs a check of `config` evaluates before any search: its planned sweep and its
+/// probes (sorted, distinct); what `ulpgauge inputs` writes for recording elsewhere.
+pub fn planned_inputs(config: &CheckConfig) -> Result<(sweep::Plan, Vec<u32>), String> {
+    let setup = Setup::new(config)?;
+    Ok((setup.plan, setup.probes))
+}
+
 /// Runs a check of one kernel.
 pub fn run_check(
     kernel: &mut dyn KernelUnderTest,
@@ -207,7 +216,7 @@ pub fn run_check_into(
 ) -> Result<CheckReport, String> {
     let setup = Setup::new(config)?;
     let mut prober = Prober::new(kernel, &setup.refs, config.progress);
-    let (gathered, thresholds) = gather(&mut prober, &setup, config, sink);
+    let (gathered, thresholds) = gather(&mut prober, &setup, config, sink, false);
     let format = config.format;
     let hygiene_sample = spread(format, &setup.plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
@@ -228,11 +237,16 @@ pub fn run_check_into(
 
 /// Calls the kernel on the measured inputs (this shard's part), the probes, the inputs next to
 /// non-finite runs and the threshold searches, and gathers what it measured.
+///
+/// A `recorded` set is measured whole (a shard's files hold its part already), its gaps are
+/// scanned only at recorded inputs (the measured ones and the probes) and its thresholds are
+/// walked by the set itself, not searched here.
 fn gather(
     prober: &mut Prober,
     setup: &Setup,
     config: &CheckConfig,
     sink: &mut dyn measure::FindingSink,
+    recorded: bool,
 ) -> (Gathered, Vec<measure::ThresholdReport>) {
     let format = config.format;
     let function = config.function;
@@ -243,6 +257,7 @@ fn gather(
     // just outside it, whose gaps to ours decide non-finite runs in sampled sweeps.
     let (from, to) = config
         .shard
+        .filter(|_| !recorded)
         .map_or((0, plan.measured.len()), |s| s.bounds(plan.measured.len()));
     let own = plan.measured.slice(from, to);
     let before = from.checked_sub(1).and_then(|i| plan.measured.nth(i));
@@ -257,7 +272,8 @@ fn gather(
         exhaustive,
         config.listed_runs,
     );
-    let leftmost = from == 0;
+    // A recorded part is measured whole but may follow other parts.
+    let leftmost = from == 0 && config.shard.map_or(true, |s| !recorded || s.index == 1);
     let (stream, measured) = stream_measured(prober, stream, &own, exhaustive, sink, leftmost);
     let mut crashes = Crashes::default();
     let mut seen = 0;
@@ -286,26 +302,46 @@ fn gather(
                 .filter(|p| config.sweep.range.contains(format, p.input))
                 .map(|p| (p.input, measure::classes(l, p))),
         );
-        let territory = territory(plan, before, from, to);
-        measure::non_finite_part(
+        if !recorded {
+            let territory = territory(plan, before, from, to);
+            return measure::non_finite_part(
+                format,
+                &mut known,
+                prober,
+                territory,
+                config.listed_runs,
+                sink,
+            );
+        }
+        // The gaps of a recorded set hold only inputs it did not record (every recorded one
+        // in the range is measured): its runs end next to holes, and nothing is evaluated.
+        let territory = recorded::territory(config.shard, &plan.measured);
+        let mut only_present = recorded::PresentOnly::new(prober, &plan.measured, &setup.probes);
+        let mut part = measure::non_finite_part(
             format,
             &mut known,
-            prober,
+            &mut only_present,
             territory,
             config.listed_runs,
             sink,
-        )
+        );
+        part.scanned = only_present.evaluated;
+        part
     });
     crashes.scans = crashes_since(prober, &mut seen);
     let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
     let evaluated = prober.evaluated;
-    let thresholds = measure::thresholds(
-        format,
-        &setup.role_thresholds,
-        prober,
-        search_kernel,
-        config.sweep.neighbours,
-    );
+    let thresholds = if recorded {
+        Vec::new()
+    } else {
+        measure::thresholds(
+            format,
+            &setup.role_thresholds,
+            prober,
+            search_kernel,
+            config.sweep.neighbours,
+        )
+    };
     crashes.thresholds = crashes_since(prober, &mut seen);
     let threshold_inputs = prober.evaluated - evaluated;
     let gathered = Gathered {
@@ -319,6 +355,7 @@ fn gather(
         keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
         tolerance: config.max_ulp.unwrap_or(1.0).max(1.0),
         role_is_forward,
+        recorded: None,
     };
     (gathered, thresholds)
 }

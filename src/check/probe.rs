@@ -90,12 +90,23 @@ impl RoleReferences {
     /// Reference (and left-hand reference at a kink) for input x.
     #[inline(always)]
     pub fn reference(&self, x: u32) -> Result<(Reference, Option<Reference>), String> {
-        self.reference_via(x, true)
+        self.reference_via(x, true, None)
+    }
+
+    /// [`Self::reference`] for the second argument the kernel was called with: a gradient's
+    /// reference scales by that g (the seeded one unless the kernel brought its own).
+    #[inline(always)]
+    pub fn reference_with(
+        &self,
+        x: u32,
+        second: Option<u32>,
+    ) -> Result<(Reference, Option<Reference>), String> {
+        self.reference_via(x, true, second)
     }
 
     /// The reference at x from MPFR alone, whatever `--reference` says.
     pub fn mpfr_reference(&self, x: u32) -> Result<Reference, String> {
-        self.reference_via(x, false).map(|(r, _)| r)
+        self.reference_via(x, false, None).map(|(r, _)| r)
     }
 
     /// Whether references may come from the fast path.
@@ -110,6 +121,7 @@ impl RoleReferences {
         &self,
         x: u32,
         allow_fast: bool,
+        second: Option<u32>,
     ) -> Result<(Reference, Option<Reference>), String> {
         let format = self.format();
         let g = match self.role {
@@ -121,8 +133,14 @@ impl RoleReferences {
             }
             CheckRole::Derivative => None,
             CheckRole::Gradient { .. } => {
-                let g = gradient_factor(format, self.seed, x);
-                Some(Rational::from_f64(format.to_f64(g)).expect("finite g"))
+                let g = second.unwrap_or_else(|| gradient_factor(format, self.seed, x));
+                // A recorded g may be anything; a non-finite one has no exact product.
+                Some(Rational::from_f64(format.to_f64(g)).ok_or_else(|| {
+                    format!(
+                        "g = {} is not a finite number",
+                        crate::format::hex(format, g)
+                    )
+                })?)
             }
         };
         let fast = (g.is_none() && allow_fast)
@@ -259,7 +277,7 @@ impl RoleReferences {
                 let mut points = Vec::with_capacity(inputs.len());
                 let mut failures = Vec::new();
                 for (i, &x) in inputs.iter().enumerate() {
-                    match self.reference(x) {
+                    match self.reference_with(x, called.seconds[base + i]) {
                         Ok((reference, left)) => points.push(Point {
                             input: x,
                             second: called.seconds[base + i],
@@ -371,7 +389,7 @@ impl Prober<'_> {
                 }));
                 pending = Some(Called {
                     inputs: kept,
-                    seconds,
+                    seconds: out.seconds.unwrap_or(seconds),
                     outputs: out.outputs,
                 });
                 self.evaluated += len as u64;

@@ -11,6 +11,7 @@ impl KernelUnderTest for RunnerKernel {
         let outcome = self.0.run(first, second);
         KernelOutput {
             outputs: outcome.outputs,
+            seconds: None,
             crashes: outcome
                 .crashes
                 .into_iter()

@@ -9,10 +9,12 @@
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
 use crate::check::{
-    builtin, run_check_into, CheckConfig, CheckRole, KernelUnderTest, ReferencePath, RunnerKernel,
-    Shard,
+    builtin, run_check_into, run_recorded, CheckConfig, CheckRole, KernelUnderTest, ReferencePath,
+    RunnerKernel, Shard,
 };
+use crate::format::Format;
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
+use crate::recorded::{Recorded, RecordedPaths};
 use crate::report::{
     check_outputs, write_atomic, CheckReport, Csv, FindingsWriter, Json, ReportFormat, Svg,
     Terminal,
@@ -128,6 +130,16 @@ pub struct Args {
     /// flush-to-zero, blended-elu, crash-on-nan).
     #[arg(long, hide = true, value_name = "NAME")]
     pub builtin_kernel: Option<String>,
+    /// Measure recorded outputs instead of calling a kernel: the inputs, a 1-D .npy array
+    /// (float32, float16, uint16 bit patterns, ml_dtypes bfloat16), e.g. from `ulpgauge inputs`.
+    #[arg(long, value_name = "X.npy", requires = "outputs")]
+    pub inputs: Option<PathBuf>,
+    /// The recorded outputs, one per input, in the kernel's format.
+    #[arg(long, value_name = "Y.npy", requires = "inputs")]
+    pub outputs: Option<PathBuf>,
+    /// Gradient roles: the recorded upstream gradients g, one per input.
+    #[arg(long, value_name = "G.npy", requires = "inputs")]
+    pub grads: Option<PathBuf>,
 }
 
 /// Which inputs a check sweeps: shared by `check` and `matrix` (certify sets them from its
@@ -270,6 +282,77 @@ fn positive(value: Option<f64>, flag: &str, allow_zero: bool) -> Result<Option<f
     }
 }
 
+/// The sweep of `--sweep`, `--range`, `--points`, … for a format; every error is bad input.
+pub fn sweep_spec(
+    format: &'static dyn Format,
+    options: &SweepOptions,
+) -> Result<SweepSpec, Failure> {
+    let range = match &options.range {
+        Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
+        None => InputRange::all(format),
+    };
+    if options.points == Some(0) {
+        return Err(Failure::bad_input("--points must be at least 1"));
+    }
+    if options.per_binade < 2 {
+        return Err(Failure::bad_input("--per-binade must be at least 2"));
+    }
+    // A dense sweep of binary32 has up to 2^9 binades (both signs).
+    let max_sampled = crate::sweep::MAX_SAMPLED;
+    let too_many = |flag: &str, n: u64, max: u64| {
+        Failure::bad_input(format!(
+            "{flag} {n} is more than a sampled sweep lists (at most {max}); \
+             use --sweep exhaustive with --range for more"
+        ))
+    };
+    let points = options.points.unwrap_or(0);
+    if points > max_sampled {
+        return Err(too_many("--points", points, max_sampled));
+    }
+    let kinds = if options.sweep.is_empty() {
+        if format.width() <= 16 {
+            vec![SweepKind::Exhaustive]
+        } else {
+            vec![SweepKind::Dense, SweepKind::Edge]
+        }
+    } else {
+        options.sweep.clone()
+    };
+    if kinds.contains(&SweepKind::Exhaustive)
+        && range.pattern_count(format) > crate::sweep::MAX_EXHAUSTIVE
+    {
+        return Err(Failure::bad_input(format!(
+            "an exhaustive {} sweep of {} patterns is too large (at most {}); narrow it with --range",
+            format.name(),
+            range.pattern_count(format),
+            crate::sweep::MAX_EXHAUSTIVE
+        )));
+    }
+    let dense_points = kinds
+        .contains(&SweepKind::Dense)
+        .then_some(options.points)
+        .flatten();
+    let per_binade = dense_points
+        .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
+        .unwrap_or(options.per_binade);
+    if u64::from(per_binade) > max_sampled >> 9 {
+        return Err(too_many(
+            "significands per binade",
+            per_binade.into(),
+            max_sampled >> 9,
+        ));
+    }
+    Ok(SweepSpec {
+        kinds,
+        range,
+        per_binade,
+        random_points: options.points.unwrap_or(100_000),
+        neighbours: options.neighbours,
+        seed: options.seed,
+        mode: options.random_mode,
+    })
+}
+
 /// Validates a target with the sweep options into a [`CheckConfig`]; every error is bad input.
 pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, Failure> {
     if args.from_output && args.role != RoleArg::Gradient {
@@ -292,70 +375,7 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         ))
     })?;
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
-    let range = match &args.sweep_options.range {
-        Some(text) => InputRange::parse(format, text).map_err(Failure::bad_input)?,
-        None => InputRange::all(format),
-    };
-    if args.sweep_options.points == Some(0) {
-        return Err(Failure::bad_input("--points must be at least 1"));
-    }
-    if args.sweep_options.per_binade < 2 {
-        return Err(Failure::bad_input("--per-binade must be at least 2"));
-    }
-    // A dense sweep of binary32 has up to 2^9 binades (both signs).
-    let max_sampled = crate::sweep::MAX_SAMPLED;
-    let too_many = |flag: &str, n: u64, max: u64| {
-        Failure::bad_input(format!(
-            "{flag} {n} is more than a sampled sweep lists (at most {max}); \
-             use --sweep exhaustive with --range for more"
-        ))
-    };
-    let points = args.sweep_options.points.unwrap_or(0);
-    if points > max_sampled {
-        return Err(too_many("--points", points, max_sampled));
-    }
-    let kinds = if args.sweep_options.sweep.is_empty() {
-        if format.width() <= 16 {
-            vec![SweepKind::Exhaustive]
-        } else {
-            vec![SweepKind::Dense, SweepKind::Edge]
-        }
-    } else {
-        args.sweep_options.sweep.clone()
-    };
-    if kinds.contains(&SweepKind::Exhaustive)
-        && range.pattern_count(format) > crate::sweep::MAX_EXHAUSTIVE
-    {
-        return Err(Failure::bad_input(format!(
-            "an exhaustive {} sweep of {} patterns is too large (at most {}); narrow it with --range",
-            format.name(),
-            range.pattern_count(format),
-            crate::sweep::MAX_EXHAUSTIVE
-        )));
-    }
-    let dense_points = kinds
-        .contains(&SweepKind::Dense)
-        .then_some(args.sweep_options.points)
-        .flatten();
-    let per_binade = dense_points
-        .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
-        .unwrap_or(args.sweep_options.per_binade);
-    if u64::from(per_binade) > max_sampled >> 9 {
-        return Err(too_many(
-            "significands per binade",
-            per_binade.into(),
-            max_sampled >> 9,
-        ));
-    }
-    let sweep = SweepSpec {
-        kinds,
-        range,
-        per_binade,
-        random_points: args.sweep_options.points.unwrap_or(100_000),
-        neighbours: args.sweep_options.neighbours,
-        seed: args.sweep_options.seed,
-        mode: args.sweep_options.random_mode,
-    };
+    let sweep = sweep_spec(format, &args.sweep_options)?;
     Ok(CheckConfig {
         function,
         format,
@@ -572,8 +592,57 @@ fn manifest_kernels(path: &std::path::Path, args: &Args) -> Result<Vec<Configure
     Ok(kernels)
 }
 
+/// Checks recorded outputs (`--inputs/--outputs`); every problem with the files is bad input.
+fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
+    let called = [
+        (args.lib.is_some(), "--lib"),
+        (args.symbol.is_some(), "--symbol"),
+        (args.manifest.is_some(), "--manifest"),
+        (args.builtin_kernel.is_some(), "--builtin-kernel"),
+        (!args.sweep_options.sweep.is_empty(), "--sweep"),
+    ];
+    if let Some((_, flag)) = called.iter().find(|(given, _)| *given) {
+        return Err(Failure::bad_input(format!(
+            "{flag} does not apply to recorded outputs: the recorded inputs are the sweep (--range restricts them)"
+        )));
+    }
+    let gradient = args.role == RoleArg::Gradient;
+    if gradient != args.grads.is_some() {
+        return Err(Failure::bad_input(if gradient {
+            "--role gradient with recorded outputs needs --grads G.npy (the g of each input)"
+        } else {
+            "--grads applies to --role gradient only"
+        }));
+    }
+    let target = target_from_args(args)?;
+    let mut config = build_config(&target, args)?;
+    config.sweep.kinds = vec![SweepKind::Recorded];
+    let outputs = Outputs::from_args(args)?;
+    let paths = RecordedPaths {
+        inputs: args.inputs.as_deref().expect("checked by clap"),
+        outputs: args.outputs.as_deref().expect("checked by clap"),
+        grads: args.grads.as_deref(),
+    };
+    let set =
+        Recorded::open(&paths, config.format, &config.sweep.range).map_err(Failure::bad_input)?;
+    let mut findings = outputs.findings_writer()?;
+    findings.begin(lead(&config));
+    let report = run_recorded(set, &config, &mut findings).map_err(Failure::bad_input)?;
+    let code = report.verdict.exit_code;
+    emit_with(
+        std::slice::from_ref(&report),
+        false,
+        &outputs,
+        Some(findings),
+    )?;
+    Ok(code)
+}
+
 /// Runs `check`.
 pub fn run(args: Args) -> Result<i32, Failure> {
+    if args.inputs.is_some() {
+        return run_recorded_set(&args);
+    }
     if let Some(path) = &args.manifest {
         if args.lib.is_some()
             || args.symbol.is_some()

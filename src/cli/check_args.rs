@@ -49,5 +49,8 @@ pub fn defaults() -> Args {
         quiet: true,
         no_progress: true,
         builtin_kernel: None,
+        inputs: None,
+        outputs: None,
+        grads: None,
     }
 }

@@ -32,6 +32,7 @@ mod compare;
 mod eval;
 mod functions;
 mod golden;
+mod inputs;
 mod matrix;
 mod merge;
 mod slurm;
@@ -95,6 +96,8 @@ enum Command {
     Merge(merge::Args),
     /// Write (and optionally submit) a Slurm job array that runs a check in shards and merges them.
     Slurm(Box<slurm::Args>),
+    /// Write the inputs of a sweep as a .npy array, to record a kernel's outputs anywhere.
+    Inputs(inputs::Args),
 }
 
 /// Parses the command line, runs the command and returns the exit status.
@@ -122,6 +125,7 @@ pub fn run() -> i32 {
         Command::Matrix(args) => matrix::run(args),
         Command::Merge(args) => merge::run(args),
         Command::Slurm(args) => slurm::run(*args),
+        Command::Inputs(args) => inputs::run(args),
     };
     match result {
         Ok(code) => code,

@@ -68,6 +68,8 @@ fn frame(report: &Value) -> Value {
     if let Some(map) = sweep.as_object_mut() {
         map.remove("inputs");
         map.remove("extra_inputs");
+        // Parts of a recorded set may differ in completeness; the merge says sampled then.
+        map.remove("coverage");
     }
     let pick = |path: &[&str]| {
         path.iter()
@@ -182,7 +184,11 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
     for state in states {
         gathered.merge(state?);
     }
-    let hygiene = merged_hygiene(&ordered)?;
+    let recorded = gathered.recorded.clone();
+    let hygiene = match &recorded {
+        Some(r) => r.determinism(format).into_iter().collect(),
+        None => merged_hygiene(&ordered)?,
+    };
     // Each shard confirmed its own extremes; the merged ones are among them.
     let mut reference_check = Confirmation::default();
     for (path, report) in &ordered {
@@ -228,7 +234,27 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
     let mut report = first.clone();
     let map = report.as_object_mut().ok_or("a report is not an object")?;
     map.remove("shard");
-    let coverage = first["accuracy"]["coverage"].clone();
+    let sampled = Value::from("sampled");
+    let coverage = match &recorded {
+        Some(r) if !r.complete => sampled.clone(),
+        _ if ordered
+            .iter()
+            .any(|(_, r)| r["accuracy"]["coverage"] == sampled) =>
+        {
+            sampled.clone()
+        }
+        _ => first["accuracy"]["coverage"].clone(),
+    };
+    set(map, &["sweep", "coverage"], coverage.clone());
+    set(map, &["provenance", "sweep", "coverage"], coverage.clone());
+    if let Some(r) = &recorded {
+        let thresholds: Vec<_> = r.walks.iter().map(|w| w.report(format)).collect();
+        map.insert("thresholds".into(), to_value(&thresholds)?);
+        map.insert(
+            "recorded".into(),
+            to_value(&r.section(format, coverage == sampled))?,
+        );
+    }
     let mut accuracy_value = to_value(&accuracy)?;
     if let Some(a) = accuracy_value.as_object_mut() {
         a.insert("coverage".into(), coverage);

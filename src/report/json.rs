@@ -60,6 +60,13 @@
 //!   kept points, probe points, crashes by phase, non-finite runs of the part); its layout is
 //!   internal to one ulpgauge version. The other keys then describe the shard's part only
 //!   (`sweep.inputs` counts its measured inputs).
+//! - `recorded` (only for `check --inputs/--outputs`): {files: [{array ("inputs" | "outputs" |
+//!   "grads"), path, dtype}], entries, distinct_inputs, outside_range, repeated,
+//!   non_deterministic: {inputs, examples: [[input, measured output, other output: V]]},
+//!   not_run: [{measure, why}], limited_to_recorded: [{measure, why}]}. Then `sweep.kinds` is
+//!   ["recorded"], `hygiene` holds at most the `determinism` check the repeats allow,
+//!   `kernel.ns_per_element` is null, and the kernel's `thresholds` are walked over the
+//!   recorded inputs.
 
 use super::{CheckReport, ReportFormat};
 

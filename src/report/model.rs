@@ -157,6 +157,61 @@ pub struct CheckReport {
     /// A shard's part and the state `ulpgauge merge` joins; absent from unsharded reports.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub shard: Option<ShardSection>,
+    /// Checks of recorded outputs (`check --inputs/--outputs`): the files, what they hold, and
+    /// the measures that need a callable kernel; absent for called kernels.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub recorded: Option<RecordedSection>,
+}
+
+/// The `recorded` section: a check of outputs recorded elsewhere.
+#[derive(Clone, Debug, Serialize)]
+pub struct RecordedSection {
+    /// The arrays read, one per file (per part for merged shards).
+    pub files: Vec<RecordedFile>,
+    /// Elements per array (summed over parts).
+    pub entries: u64,
+    /// Distinct inputs inside the range: the measured inputs.
+    pub distinct_inputs: u64,
+    /// Elements whose input lies outside the range (not measured).
+    pub outside_range: u64,
+    /// Elements that repeat an input recorded before them.
+    pub repeated: u64,
+    /// Inputs recorded more than once with different outputs.
+    pub non_deterministic: NonDeterminism,
+    /// Measures that need a callable kernel and were not run, and why.
+    pub not_run: Vec<MeasureNote>,
+    /// Measures run over the recorded inputs only, and what that limits.
+    pub limited_to_recorded: Vec<MeasureNote>,
+}
+
+/// One recorded array.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RecordedFile {
+    /// "inputs", "outputs" or "grads".
+    pub array: String,
+    /// The path given.
+    pub path: String,
+    /// Its element type.
+    pub dtype: String,
+}
+
+/// Inputs whose repeats disagree: the kernel gave different outputs for the same input.
+#[derive(Clone, Debug, Serialize)]
+pub struct NonDeterminism {
+    /// How many inputs.
+    pub inputs: u64,
+    /// The first few in bit order: the input, the output measured (its first occurrence) and
+    /// another output recorded for it.
+    pub examples: Vec<[BitsValue; 3]>,
+}
+
+/// A measure and a sentence about it.
+#[derive(Clone, Debug, Serialize)]
+pub struct MeasureNote {
+    /// The measure.
+    pub measure: &'static str,
+    /// Why it was not run, or what limits it.
+    pub why: String,
 }
 
 /// The `shard` object of a shard's report.

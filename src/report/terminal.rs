@@ -114,7 +114,22 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
 
 fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
     let acc = &r.accuracy.figures;
-    let symbol = r.kernel.symbol.as_deref().unwrap_or("in-process kernel");
+    let symbol = match &r.recorded {
+        Some(rec) => {
+            let outputs: Vec<&str> = rec
+                .files
+                .iter()
+                .filter(|f| f.array == "outputs")
+                .map(|f| f.path.as_str())
+                .collect();
+            format!("recorded outputs {}", outputs.join(", "))
+        }
+        None => r
+            .kernel
+            .symbol
+            .clone()
+            .unwrap_or_else(|| "in-process kernel".into()),
+    };
     let coverage = match r.accuracy.coverage {
         crate::sweep::Coverage::Exhaustive => "exhaustive",
         crate::sweep::Coverage::Sampled => "sampled",
@@ -125,6 +140,23 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         "  coverage    {coverage}: {} measured points ({} inputs, range {})",
         acc.points, r.sweep.inputs, r.sweep.range
     )?;
+    if let Some(rec) = &r.recorded {
+        writeln!(
+            out,
+            "  recorded    {} elements: {} distinct inputs measured, {} repeats, {} outside the range, {} inputs with differing outputs",
+            rec.entries,
+            rec.distinct_inputs,
+            rec.repeated,
+            rec.outside_range,
+            rec.non_deterministic.inputs
+        )?;
+        let not_run: Vec<&str> = rec.not_run.iter().map(|n| n.measure).collect();
+        writeln!(
+            out,
+            "  not run     {} (they need a callable kernel or repeated inputs; see the JSON report)",
+            not_run.join(", ")
+        )?;
+    }
     if let Some(s) = &r.shard {
         writeln!(
             out,
@@ -218,12 +250,19 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         )?;
     }
     let passed = r.special_values.iter().filter(|s| s.passed).count();
+    let hygiene = if r.recorded.is_some() && r.hygiene.is_empty() {
+        "hygiene not run (recorded outputs)".to_string()
+    } else {
+        format!(
+            "{}/{} hygiene checks passed",
+            r.hygiene.iter().filter(|h| h.passed).count(),
+            r.hygiene.len()
+        )
+    };
     writeln!(
         out,
-        "  checks      {passed}/{} special-value rules, {}/{} hygiene checks passed",
+        "  checks      {passed}/{} special-value rules, {hygiene}",
         r.special_values.len(),
-        r.hygiene.iter().filter(|h| h.passed).count(),
-        r.hygiene.len()
     )?;
     for f in r.verdict.failed.iter().take(10) {
         writeln!(out, "  FAILED      {f}")?;

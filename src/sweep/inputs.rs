@@ -75,6 +75,22 @@ impl Inputs {
         self.runs.push((lo, hi));
     }
 
+    /// Appends a pattern at or above every input so far (a sorted stream; repeats join).
+    pub fn push_sorted(&mut self, bits: u32) {
+        self.push_run(bits, bits);
+    }
+
+    /// Number of runs of consecutive patterns (what the set costs in memory).
+    pub fn run_count(&self) -> usize {
+        self.runs.len()
+    }
+
+    /// Whether `bits` is one of the inputs.
+    pub fn contains(&self, bits: u32) -> bool {
+        let i = self.runs.partition_point(|&(_, hi)| hi < bits);
+        self.runs.get(i).is_some_and(|&(lo, _)| lo <= bits)
+    }
+
     /// The union with another set.
     pub fn union(&self, other: &Inputs) -> Inputs {
         let mut all: Vec<(u32, u32)> = self.runs.iter().chain(&other.runs).copied().collect();

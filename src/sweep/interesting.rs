@@ -7,7 +7,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 /// What kind of asymptote a threshold reaches.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, serde::Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum ThresholdKind {
     /// A finite asymptote (or zero).

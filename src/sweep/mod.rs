@@ -38,6 +38,9 @@ pub enum SweepKind {
     Edge,
     /// Seeded random samples.
     Random,
+    /// The inputs of a recorded set (`check --inputs`): planned by the set, not by the sweep.
+    #[value(skip)]
+    Recorded,
 }
 
 /// Everything that decides a sweep's inputs.
@@ -129,6 +132,7 @@ pub fn plan(
                 spec.seed,
                 spec.mode,
             )),
+            SweepKind::Recorded => {}
         }
     }
     let measured = whole.union(&Inputs::from_list(measured));
