@@ -174,6 +174,7 @@ impl Gathered {
 /// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule, the
 /// `--max-ulp` limit or an MPFR confirmation failed, 0 otherwise.
 pub fn verdict(
+    format: &dyn Format,
     crashed: bool,
     hygiene: &[HygieneEntry],
     special_values: &[SpecialRule],
@@ -182,21 +183,23 @@ pub fn verdict(
     disagreements: &[BitsValue],
 ) -> Verdict {
     let mut failed = Vec::new();
+    use crate::report::sentence;
     for x in disagreements {
-        failed.push(format!(
-            "fast reference disagrees with MPFR at {} (rerun with --reference mpfr)",
-            x.bits
-        ));
+        failed.push(sentence::disagreement(format, x));
     }
     for h in hygiene.iter().filter(|h| !h.passed) {
-        failed.push(format!("hygiene {}: {}", h.check, h.detail));
+        failed.push(if h.message.is_empty() {
+            format!("hygiene check {} failed: {}", h.check, h.detail)
+        } else {
+            h.message.clone()
+        });
     }
     for r in special_values.iter().filter(|r| !r.passed) {
-        failed.push(format!("{} at {}", r.rule, r.input.bits));
+        failed.push(r.message.clone());
     }
     if let Some(limit) = limit {
         if max_ulp > limit {
-            failed.push(format!("max_ulp {max_ulp} exceeds --max-ulp {limit}"));
+            failed.push(sentence::over_limit(max_ulp, limit));
         }
     }
     let exit_code = if crashed {

@@ -203,6 +203,7 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
         extra_inputs,
     } = gathered.figures(format, &mut crate::measure::NoSink);
     let verdict = verdict(
+        format,
         crash.is_some(),
         &hygiene,
         &special_values,

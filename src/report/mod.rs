@@ -2,6 +2,7 @@
 
 mod csv;
 mod findings;
+pub mod sentence;
 pub mod json;
 pub mod model;
 pub mod provenance;

@@ -168,17 +168,7 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         )?;
     }
     for t in &r.thresholds {
-        let show =
-            |b: &Option<super::BitsValue>| b.as_ref().map(v).unwrap_or_else(|| "never".into());
-        writeln!(
-            out,
-            "  threshold   {:?} ({}) to {}: reference {}, kernel {}",
-            t.kind,
-            t.side,
-            v(&t.asymptote),
-            show(&t.reference),
-            show(&t.kernel)
-        )?;
+        writeln!(out, "  threshold   {}", t.message)?;
     }
     for k in &r.kinks {
         writeln!(
