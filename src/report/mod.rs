@@ -2,6 +2,8 @@
 
 mod csv;
 mod findings;
+pub mod html;
+pub mod junit;
 pub mod sentence;
 pub mod json;
 pub mod model;
@@ -13,6 +15,8 @@ mod write;
 
 pub use self::csv::Csv;
 pub use findings::FindingsWriter;
+pub use html::Html;
+pub use junit::Junit;
 pub use json::Json;
 pub use model::CheckReport;
 pub use svg::Svg;

@@ -20,16 +20,21 @@ pub fn value(format: &dyn Format, bits: u32) -> String {
 /// The fewest significant digits whose decimal lies strictly between the midpoints to the
 /// value's neighbours, so that it reads back as this pattern in this format.
 fn shortest(format: &dyn Format, bits: u32, v: f64) -> String {
-    let up = format.to_f64(format.next_up(bits));
-    let down = format.to_f64(format.next_down(bits));
+    let mut up = format.to_f64(format.next_up(bits));
+    let mut down = format.to_f64(format.next_down(bits));
+    // Past the largest finite value, values round to infinity from half an ulp on.
+    if up.is_infinite() {
+        up = v + (v - down);
+    }
+    if down.is_infinite() {
+        down = v - (up - v);
+    }
     // Midpoints of two values of a narrower format are exact in binary64.
     let (lo, hi) = ((v + down) / 2.0, (v + up) / 2.0);
     for digits in 1..=17 {
         let text = format!("{:.*e}", digits - 1, v);
         let back: f64 = text.parse().unwrap_or(f64::NAN);
-        let inside = if up.is_finite() { back < hi } else { true }
-            && if down.is_finite() { back > lo } else { true };
-        if inside {
+        if back > lo && back < hi {
             return plain(back);
         }
     }
@@ -65,6 +70,14 @@ pub fn shown_of(format: &dyn Format, v: &BitsValue) -> String {
     match crate::format::parse_hex(format, &v.bits) {
         Ok(bits) => shown(format, bits),
         Err(_) => v.bits.clone(),
+    }
+}
+
+/// [`shown_of`] for a format named in a report ("f16").
+pub fn shown_of_name(format: &str, v: &BitsValue) -> String {
+    match crate::format::by_name(format) {
+        Some(f) => shown_of(f, v),
+        None => v.bits.clone(),
     }
 }
 
@@ -344,6 +357,8 @@ mod tests {
         // binary32 0.1f = 0x3dcccccd (common practice; numpy float32(0.1)).
         assert_eq!(value(&Binary32, 0x3dcccccd), "0.1");
         assert_eq!(value(&Binary32, 0x3f800001), "1.0000001");
+        // Largest binary32 3.4028235e38 (numpy: np.finfo(np.float32).max prints 3.4028235e+38).
+        assert_eq!(value(&Binary32, 0x7f7fffff), "3.4028235e38");
     }
 
     #[test]
