@@ -7,3 +7,4 @@ source tests/setup.sh
 cargo build --release --locked
 python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge
 cargo test --release --locked
+bash tests/reports/run.sh

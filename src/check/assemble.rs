@@ -173,8 +173,8 @@ pub(super) fn neighbourhood_centres(
         }
         if let Some(k) = kernel {
             // A kernel threshold within the reference's window is already shown there.
-            let near = reference
-                .is_some_and(|r| (format.ordinal(r) - format.ordinal(k)).abs() <= 8);
+            let near =
+                reference.is_some_and(|r| (format.ordinal(r) - format.ordinal(k)).abs() <= 8);
             if !near && format.to_f64(k).is_finite() {
                 centres.push((k, format!("{kind} of the kernel")));
             }

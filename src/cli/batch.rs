@@ -28,7 +28,8 @@ pub struct Args {
 /// Reads 0x-hex patterns (whitespace separated) from stdin; prints `0xIN 0xOUT` per input.
 pub fn run(args: Args) -> Result<i32, Failure> {
     let given: Vec<String> = args.positional.iter().cloned().collect();
-    let (function, rest) = super::function_and_inputs("batch", args.function.clone(), &given)?;
+    let (function, rest, note) =
+        super::function_and_inputs("batch", args.function.clone(), &given)?;
     if !rest.is_empty() {
         return Err(Failure::bad_input(
             "batch reads its inputs from stdin (usage: ulpgauge batch --function FUNC --format FMT)",
@@ -66,6 +67,9 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     for (x, y) in inputs.iter().zip(&outputs) {
         writeln!(out, "{} {}", hex(format, *x), hex(format, *y))
             .map_err(|e| Failure::bad_input(e.to_string()))?;
+    }
+    if let Some(note) = note {
+        eprintln!("{note}");
     }
     Ok(0)
 }

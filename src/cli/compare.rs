@@ -104,10 +104,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if let Some(path) = &args.html {
-        let text = crate::report::html::comparison_page(&comparison).map_err(|message| Failure {
-            code: 1,
-            message: format!("html report: {message}"),
-        })?;
+        let text =
+            crate::report::html::comparison_page(&comparison).map_err(|message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            })?;
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if let Some(path) = &args.junit {

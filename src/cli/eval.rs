@@ -132,18 +132,22 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     let given: Vec<String> = std::iter::once(args.x.clone())
         .chain(args.older_x.clone())
         .collect();
-    let (function, rest) = super::function_and_inputs("eval", args.function.clone(), &given)?;
-    let [x] = rest.as_slice() else {
+    let (function, rest, note) = super::function_and_inputs("eval", args.function.clone(), &given)?;
+    let code = evaluate(&args, &function, &rest)?;
+    if let Some(note) = note {
+        eprintln!("{note}");
+    }
+    Ok(code)
+}
+
+/// `eval` once its function and input are known.
+fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure> {
+    let [x] = rest else {
         return Err(Failure::bad_input(
             "eval takes one input X (usage: ulpgauge eval --function FUNC --format FMT X)",
         ));
     };
-    let target = resolve(
-        &function,
-        &args.format,
-        args.derivative,
-        &args.function_args,
-    )?;
+    let target = resolve(function, &args.format, args.derivative, &args.function_args)?;
     let evaluator = &target.evaluator;
     let format = evaluator.format();
     let input = parse_input(format, x)?;

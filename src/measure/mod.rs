@@ -14,7 +14,8 @@ mod special;
 mod thresholds;
 
 pub use accuracy::{
-    accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, BucketPoint, FloorView, HistogramBin, RegionRow, Worst,
+    accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, BucketPoint, FloorView, HistogramBin,
+    RegionRow, Worst,
 };
 pub use exact_sum::ExactSum;
 pub use kinks::{kink_sides, KinkSide};

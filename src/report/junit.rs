@@ -70,7 +70,9 @@ fn case(name: impl Into<String>, classname: &str, outcome: Outcome) -> Case {
 
 /// "2024-05-01T12:00:00" from a report date, or the current time.
 fn timestamp(date: Option<&str>) -> String {
-    let date = date.map(str::to_string).unwrap_or_else(super::provenance::utc_now);
+    let date = date
+        .map(str::to_string)
+        .unwrap_or_else(super::provenance::utc_now);
     let t: String = date.chars().take(19).collect();
     if t.len() == 19 {
         t
@@ -170,7 +172,11 @@ fn check_suite(r: &CheckReport) -> Suite {
         let outcome = if h.passed {
             Outcome::Passed
         } else {
-            Outcome::Failed(if h.message.is_empty() { h.detail.clone() } else { h.message.clone() })
+            Outcome::Failed(if h.message.is_empty() {
+                h.detail.clone()
+            } else {
+                h.message.clone()
+            })
         };
         cases.push(case(format!("hygiene: {}", h.check), &classname, outcome));
     }
@@ -198,12 +204,20 @@ fn check_suite(r: &CheckReport) -> Suite {
             .collect();
         Outcome::Failed(lines.join("; "))
     };
-    cases.push(case("reference: fast path confirmed with MPFR", &classname, confirm));
+    cases.push(case(
+        "reference: fast path confirmed with MPFR",
+        &classname,
+        confirm,
+    ));
     let crash = match &r.crash {
         None => Outcome::Passed,
         Some(c) => Outcome::Error(format!(
             "the kernel {} at x = {} ({} crash{} in all)",
-            if c.signal == "hang" { "hung".to_string() } else { format!("crashed ({})", c.signal) },
+            if c.signal == "hang" {
+                "hung".to_string()
+            } else {
+                format!("crashed ({})", c.signal)
+            },
             super::sentence::shown_of_name(r.format, &c.input),
             c.count,
             if c.count == 1 { "" } else { "es" }
@@ -252,7 +266,11 @@ pub fn certificate(c: &Certificate) -> String {
                     "{} is not met: measured {}{}",
                     r.requirement,
                     r.shown,
-                    if r.detail.is_empty() { String::new() } else { format!(" ({})", r.detail) }
+                    if r.detail.is_empty() {
+                        String::new()
+                    } else {
+                        format!(" ({})", r.detail)
+                    }
                 ))
             };
             case(format!("{}: {}", r.key, r.requirement), &classname, outcome)
@@ -264,7 +282,11 @@ pub fn certificate(c: &Certificate) -> String {
             &classname,
             Outcome::Error(format!(
                 "the kernel {} at x = {}",
-                if crash.signal == "hang" { "hung".to_string() } else { format!("crashed ({})", crash.signal) },
+                if crash.signal == "hang" {
+                    "hung".to_string()
+                } else {
+                    format!("crashed ({})", crash.signal)
+                },
                 super::sentence::shown_of_name(c.kernel.format, &crash.input)
             )),
         ));
@@ -295,7 +317,11 @@ pub fn comparison(c: &Comparison) -> String {
                             r.figure,
                             r.baseline,
                             r.candidate,
-                            if r.detail.is_empty() { String::new() } else { format!(" ({})", r.detail) }
+                            if r.detail.is_empty() {
+                                String::new()
+                            } else {
+                                format!(" ({})", r.detail)
+                            }
                         ))
                     } else {
                         Outcome::Passed
@@ -320,7 +346,9 @@ pub fn comparison(c: &Comparison) -> String {
                     case(
                         format!("present in the candidate: {m}"),
                         "ulpgauge.compare",
-                        Outcome::Failed(format!("{m} is in the baseline but missing from the candidate")),
+                        Outcome::Failed(format!(
+                            "{m} is in the baseline but missing from the candidate"
+                        )),
                     )
                 })
                 .collect(),
@@ -343,17 +371,27 @@ pub fn matrix(m: &Matrix) -> String {
                 .iter()
                 .map(|k| {
                     let outcome = match b.status {
-                        BuildStatus::Skipped => Outcome::Skipped(b.note.clone().unwrap_or_default()),
+                        BuildStatus::Skipped => {
+                            Outcome::Skipped(b.note.clone().unwrap_or_default())
+                        }
                         BuildStatus::Failed => Outcome::Error(format!(
                             "the build failed: {}",
                             b.note.clone().unwrap_or_default()
                         )),
-                        BuildStatus::Built => match m.cells.iter().find(|c| &c.kernel == k && c.build == b.build.label) {
+                        BuildStatus::Built => match m
+                            .cells
+                            .iter()
+                            .find(|c| &c.kernel == k && c.build == b.build.label)
+                        {
                             None => Outcome::Error("not checked".into()),
                             Some(c) => match (&c.error, &c.crash) {
                                 (Some(e), _) => Outcome::Error(format!("not checked: {e}")),
-                                (None, Some(crash)) => Outcome::Error(format!("the kernel crashed or hung: {crash}")),
-                                (None, None) if !c.failed.is_empty() => Outcome::Failed(c.failed.join("; ")),
+                                (None, Some(crash)) => {
+                                    Outcome::Error(format!("the kernel crashed or hung: {crash}"))
+                                }
+                                (None, None) if !c.failed.is_empty() => {
+                                    Outcome::Failed(c.failed.join("; "))
+                                }
                                 _ => Outcome::Passed,
                             },
                         },

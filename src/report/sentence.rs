@@ -12,7 +12,12 @@ pub fn value(format: &dyn Format, bits: u32) -> String {
     match format.classify(bits) {
         Class::Nan => "NaN".into(),
         Class::Infinite => if v < 0.0 { "-inf" } else { "+inf" }.into(),
-        Class::Zero => if format.is_sign_negative(bits) { "-0" } else { "+0" }.into(),
+        Class::Zero => if format.is_sign_negative(bits) {
+            "-0"
+        } else {
+            "+0"
+        }
+        .into(),
         _ => shortest(format, bits, v),
     }
 }
@@ -20,6 +25,10 @@ pub fn value(format: &dyn Format, bits: u32) -> String {
 /// The fewest significant digits whose decimal lies strictly between the midpoints to the
 /// value's neighbours, so that it reads back as this pattern in this format.
 fn shortest(format: &dyn Format, bits: u32, v: f64) -> String {
+    // Whole numbers are written out ("65504", not "65500"): exact and easy to recognise.
+    if v.fract() == 0.0 && v.abs() < 1e16 {
+        return format!("{v}");
+    }
     let mut up = format.to_f64(format.next_up(bits));
     let mut down = format.to_f64(format.next_down(bits));
     // Past the largest finite value, values round to infinity from half an ulp on.
@@ -54,7 +63,11 @@ fn plain(x: f64) -> String {
 
 /// "65504 (0x7bff)".
 pub fn shown(format: &dyn Format, bits: u32) -> String {
-    format!("{} ({})", value(format, bits), crate::format::hex(format, bits))
+    format!(
+        "{} ({})",
+        value(format, bits),
+        crate::format::hex(format, bits)
+    )
 }
 
 /// [`value`] of a report value.
@@ -104,17 +117,23 @@ pub fn special(
 ) -> String {
     let fx = call(format, input);
     let got = match output {
-        None => return format!(
-            "{fx} did not return (the kernel crashed or hung); {}",
-            expectation(format, expected, rule)
-        ),
+        None => {
+            return format!(
+                "{fx} did not return (the kernel crashed or hung); {}",
+                expectation(format, expected, rule)
+            )
+        }
         Some(o) => o,
     };
     let out = shown(format, got);
     let verdict = if passed { ": passed" } else { "" };
     let off = match ulp {
         Some(e) if !passed && e > 0.0 => {
-            format!(" ({} ulp away; at most {} accepted)", round3(e), round3(tolerance))
+            format!(
+                " ({} ulp away; at most {} accepted)",
+                round3(e),
+                round3(tolerance)
+            )
         }
         _ => String::new(),
     };
@@ -130,7 +149,10 @@ pub fn special(
             shown(format, expected)
         );
     }
-    format!("{fx} = {out}; {}{off}{verdict}", expectation(format, expected, rule))
+    format!(
+        "{fx} = {out}; {}{off}{verdict}",
+        expectation(format, expected, rule)
+    )
 }
 
 /// What a rule expects, in words.
@@ -246,25 +268,33 @@ pub fn threshold(
         "the kernel's threshold is not searched (its asymptote changes with g)".to_string()
     } else {
         match (kernel, steps) {
-            (None, _) => format!("the kernel never {}", if overflow { "overflows" } else { "stays there" }),
+            (None, _) => format!(
+                "the kernel never {}",
+                if overflow { "overflows" } else { "stays there" }
+            ),
             (Some(k), Some(0)) => format!("the kernel does so at the same input, {}", at(k)),
             (Some(k), Some(s)) => {
-                let class = kernel_class
-                    .filter(|c| *c != "finite")
-                    .map(|c| format!(" ({})", class_word(c)))
-                    .unwrap_or_default();
                 format!(
-                    "the kernel from {}{class}, {} step{} {}",
+                    "the kernel {}from {}, {} step{} {}",
+                    returns(kernel_class),
                     at(k),
                     count(s.unsigned_abs()),
                     if s.unsigned_abs() == 1 { "" } else { "s" },
                     if s > 0 { "later" } else { "earlier" }
                 )
             }
-            (Some(k), None) => format!("the kernel from {}", at(k)),
+            (Some(k), None) => format!("the kernel {}from {}", returns(kernel_class), at(k)),
         }
     };
     format!("{kind} for {side_words}: {reference_part}; {kernel_part}")
+}
+
+/// "returns NaN " for a kernel whose output at its threshold is not finite, else nothing.
+fn returns(class: Option<&str>) -> String {
+    match class {
+        Some(c) if c != "finite" => format!("returns {} ", class_word(c)),
+        _ => String::new(),
+    }
 }
 
 /// The words of a hygiene check's name.
@@ -300,7 +330,9 @@ pub fn hygiene(format: &dyn Format, check: &str, passed: bool, detail: &str) -> 
 /// Gives each bit pattern of the format named after "input", "gave", "but", "from", "to",
 /// "at" or "got" its value: "gave 0x3f000001" → "gave 0.50000006 (0x3f000001)".
 pub fn with_values(format: &dyn Format, text: &str) -> String {
-    const BEFORE: [&str; 8] = ["input", "gave", "but", "from", "to", "at", "got", "returned"];
+    const BEFORE: [&str; 8] = [
+        "input", "gave", "but", "from", "to", "at", "got", "returned",
+    ];
     let digits = (format.width() / 4) as usize;
     let mut out = String::with_capacity(text.len() + 32);
     let mut previous = "";
@@ -327,7 +359,11 @@ pub fn with_values(format: &dyn Format, text: &str) -> String {
 
 /// An accuracy limit exceeded.
 pub fn over_limit(max_ulp: f64, limit: f64) -> String {
-    format!("the largest error, {} ulp, exceeds the limit --max-ulp {}", round3(max_ulp), round3(limit))
+    format!(
+        "the largest error, {} ulp, exceeds the limit --max-ulp {}",
+        round3(max_ulp),
+        round3(limit)
+    )
 }
 
 /// A fast reference that MPFR contradicted.
@@ -365,15 +401,42 @@ mod tests {
     fn issue_examples() {
         let f = &Binary16;
         assert_eq!(
-            special(f, 0x7bff, Some(0x7e00), 0x7bff, false, "special value", None, 1.0),
+            special(
+                f,
+                0x7bff,
+                Some(0x7e00),
+                0x7bff,
+                false,
+                "special value",
+                None,
+                1.0
+            ),
             "f(65504) = NaN (0x7e00); the reference is 65504 (0x7bff)"
         );
         assert_eq!(
-            special(f, 0xfc00, Some(0x7e00), 0xbc00, false, "limit at -inf", None, 1.0),
+            special(
+                f,
+                0xfc00,
+                Some(0x7e00),
+                0xbc00,
+                false,
+                "limit at -inf",
+                None,
+                1.0
+            ),
             "f(-inf) = NaN (0x7e00); the limit is -1 (0xbc00)"
         );
         assert_eq!(
-            special(f, 0x8000, Some(0x0000), 0x8000, false, "signed zero: f(-0) = -0", None, 1.0),
+            special(
+                f,
+                0x8000,
+                Some(0x0000),
+                0x8000,
+                false,
+                "signed zero: f(-0) = -0",
+                None,
+                1.0
+            ),
             "f(-0) = +0 (0x0000); the function keeps the sign of zero, so f(-0) = -0 (0x8000)"
         );
         assert_eq!(

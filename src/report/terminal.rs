@@ -93,15 +93,7 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         }
     }
     for run in r.non_finite.iter().take(3) {
-        writeln!(
-            out,
-            "              longest: {} .. {}: kernel {}, reference {} ({})",
-            v(&run.first),
-            v(&run.last),
-            run.kernel,
-            run.reference,
-            counted(run.count, "input")
-        )?;
+        writeln!(out, "              longest: {}", run.message)?;
     }
     if total.runs > 3 {
         writeln!(

@@ -131,9 +131,9 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
         .iter()
         .filter(|b| b.points > 0)
         .map(|b| {
-            let w = b.worst.map_or(json!(null), |w| {
-                json!([w.input, w.output, w.reference])
-            });
+            let w = b
+                .worst
+                .map_or(json!(null), |w| json!([w.input, w.output, w.reference]));
             json!([b.lo, b.hi, b.points, short(b.max_ulp), w])
         })
         .collect();
@@ -143,14 +143,25 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
         .flatten()
         .filter_map(|c| {
             let (a, b) = (ord(&c["first"])?, ord(&c["last"])?);
-            Some(json!([a.min(b), a.max(b), c["kernel"], c["reference"], c["inputs"], c["binade"]]))
+            Some(json!([
+                a.min(b),
+                a.max(b),
+                c["kernel"],
+                c["reference"],
+                c["inputs"],
+                c["binade"]
+            ]))
         })
         .collect();
     let mut marks: Vec<Value> = Vec::new();
     for t in r["thresholds"].as_array().into_iter().flatten() {
         for who in ["reference", "kernel"] {
             if let Some(o) = ord(&t[who]) {
-                marks.push(json!([o, who, format!("{} {} ({})", who, text(&t["kind"]), text(&t["side"]))]));
+                marks.push(json!([
+                    o,
+                    who,
+                    format!("{} {} ({})", who, text(&t["kind"]), text(&t["side"]))
+                ]));
             }
         }
     }
@@ -163,7 +174,15 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
                 .as_array()
                 .into_iter()
                 .flatten()
-                .map(|p| json!([bits(&p["input"]), bits(&p["output"]), bits(&p["reference"]), bits(&p["left"]), p["ulp"]]))
+                .map(|p| {
+                    json!([
+                        bits(&p["input"]),
+                        bits(&p["output"]),
+                        bits(&p["reference"]),
+                        bits(&p["left"]),
+                        p["ulp"]
+                    ])
+                })
                 .collect();
             json!({"what": n["what"], "centre": bits(&n["centre"]), "points": points})
         })
@@ -274,7 +293,13 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
     writeln!(out, "</section>")
 }
 
-fn card(out: &mut String, r: &Value, _format: Option<&dyn Format>, word: &str, class: &str) -> FmtResult {
+fn card(
+    out: &mut String,
+    r: &Value,
+    _format: Option<&dyn Format>,
+    word: &str,
+    class: &str,
+) -> FmtResult {
     let a = &r["accuracy"];
     let s = &r["sweep"];
     let lib = &r["provenance"]["library"];
@@ -288,7 +313,11 @@ fn card(out: &mut String, r: &Value, _format: Option<&dyn Format>, word: &str, c
             "sampled: {} inputs of range {} ({} sweep, seed {}): evidence, not proof",
             sentence::count(s["inputs"].as_u64().unwrap_or(0)),
             esc(&text(&s["range"])),
-            esc(&s["kinds"].as_array().map_or(String::new(), |k| k.iter().map(text).collect::<Vec<_>>().join("+"))),
+            esc(&s["kinds"].as_array().map_or(String::new(), |k| k
+                .iter()
+                .map(text)
+                .collect::<Vec<_>>()
+                .join("+"))),
             text(&s["seed"])
         ),
     };
@@ -303,20 +332,45 @@ fn card(out: &mut String, r: &Value, _format: Option<&dyn Format>, word: &str, c
         ("function", esc(&text(&r["function"]))),
         ("role", esc(&text(&r["role"]))),
         ("format", esc(&text(&r["format"]))),
-        ("symbol", format!("<code>{}</code>", esc(&text(&r["kernel"]["symbol"])))),
-        ("library", format!("<code>{}</code>", esc(&text(&r["kernel"]["library"])))),
-        ("library sha256", format!(r#"<code class="hash">{}</code>"#, esc(&text(&lib["sha256"])))),
+        (
+            "symbol",
+            format!("<code>{}</code>", esc(&text(&r["kernel"]["symbol"]))),
+        ),
+        (
+            "library",
+            format!("<code>{}</code>", esc(&text(&r["kernel"]["library"]))),
+        ),
+        (
+            "library sha256",
+            format!(
+                r#"<code class="hash">{}</code>"#,
+                esc(&text(&lib["sha256"]))
+            ),
+        ),
         ("compiler", esc(&text(&lib["compiler"]))),
-        ("parameters", if params.is_empty() { "none".into() } else { esc(&params.join(", ")) }),
+        (
+            "parameters",
+            if params.is_empty() {
+                "none".into()
+            } else {
+                esc(&params.join(", "))
+            },
+        ),
         ("coverage", coverage),
-        ("measured points", format!(
-            "{} (finite input, output and reference)",
-            sentence::count(a["points"].as_u64().unwrap_or(0))
-        )),
-        ("verdict", format!(
-            r#"<span class="badge {class} verdict">{word}</span> exit status {}"#,
-            text(&r["verdict"]["exit_code"])
-        )),
+        (
+            "measured points",
+            format!(
+                "{} (finite input, output and reference)",
+                sentence::count(a["points"].as_u64().unwrap_or(0))
+            ),
+        ),
+        (
+            "verdict",
+            format!(
+                r#"<span class="badge {class} verdict">{word}</span> exit status {}"#,
+                text(&r["verdict"]["exit_code"])
+            ),
+        ),
     ];
     for (k, v) in rows {
         writeln!(out, "<dt>{k}</dt><dd>{v}</dd>")?;
@@ -328,13 +382,20 @@ fn card(out: &mut String, r: &Value, _format: Option<&dyn Format>, word: &str, c
 }
 
 fn failed(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult {
-    let list = r["verdict"]["failed"].as_array().cloned().unwrap_or_default();
+    let list = r["verdict"]["failed"]
+        .as_array()
+        .cloned()
+        .unwrap_or_default();
     let crash = &r["crash"];
     if list.is_empty() && crash.is_null() {
         return writeln!(
             out,
             r#"<p class="ok">✓ Every hygiene check and special-value rule passed{}.</p>"#,
-            if r["verdict"]["max_ulp_limit"].is_null() { "" } else { ", and the largest error is within --max-ulp" }
+            if r["verdict"]["max_ulp_limit"].is_null() {
+                ""
+            } else {
+                ", and the largest error is within --max-ulp"
+            }
         );
     }
     writeln!(out, r#"<h3>Findings</h3><ul class="failed">"#)?;
@@ -342,10 +403,18 @@ fn failed(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult
         writeln!(
             out,
             r#"<li class="crash">✗ The kernel {} at x = {} ({} crash{} in all); its outputs there are missing from the figures.</li>"#,
-            if crash["signal"] == "hang" { "hung".to_string() } else { format!("crashed ({})", esc(&text(&crash["signal"]))) },
+            if crash["signal"] == "hang" {
+                "hung".to_string()
+            } else {
+                format!("crashed ({})", esc(&text(&crash["signal"])))
+            },
             shown(format, &crash["input"]),
             text(&crash["count"]),
-            if crash["count"].as_u64() == Some(1) { "" } else { "es" }
+            if crash["count"].as_u64() == Some(1) {
+                ""
+            } else {
+                "es"
+            }
         )?;
     }
     for f in &list {
@@ -373,7 +442,10 @@ fn non_finite(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtRe
         writeln!(out, "<li>{}</li>", esc(&text(&run["message"])))?;
     }
     writeln!(out, "</ul>")?;
-    let cells = r["non_finite_summary"].as_array().cloned().unwrap_or_default();
+    let cells = r["non_finite_summary"]
+        .as_array()
+        .cloned()
+        .unwrap_or_default();
     const SHOWN: usize = 64;
     writeln!(
         out,
@@ -409,7 +481,10 @@ fn thresholds(out: &mut String, r: &Value) -> FmtResult {
     if list.is_empty() && near.is_empty() {
         return Ok(());
     }
-    writeln!(out, "<h3>Thresholds and kinks</h3><ul class=\"thresholds\">")?;
+    writeln!(
+        out,
+        "<h3>Thresholds and kinks</h3><ul class=\"thresholds\">"
+    )?;
     for t in &list {
         writeln!(out, "<li>{}</li>", esc(&text(&t["message"])))?;
     }
@@ -417,8 +492,10 @@ fn thresholds(out: &mut String, r: &Value) -> FmtResult {
     if !near.is_empty() {
         writeln!(
             out,
-            r#"<p class="hint">Kernel output (circles) against the correctly rounded reference (squares), {} steps on each side; these inputs are shown, not counted in the figures.</p><div class="near-grid"></div>"#,
-            near.first().and_then(|n| n["points"].as_array()).map_or(0, |p| p.len() / 2)
+            r#"<p class="hint">Kernel output (circles; triangles along the top: NaN or no output) against the correctly rounded reference (squares), {} steps on each side, in output steps from the reference at the centre; these inputs are shown, not counted in the figures.</p><div class="near-grid"></div>"#,
+            near.first()
+                .and_then(|n| n["points"].as_array())
+                .map_or(0, |p| p.len() / 2)
         )?;
     }
     Ok(())
@@ -438,7 +515,10 @@ fn rules(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult 
         hygiene.len() - failed_h,
         hygiene.len()
     )?;
-    writeln!(out, r#"<table><thead><tr><th></th><th>rule</th><th>x</th><th>f(x)</th><th>expected</th><th>in words</th></tr></thead><tbody>"#)?;
+    writeln!(
+        out,
+        r#"<table><thead><tr><th></th><th>rule</th><th>x</th><th>f(x)</th><th>expected</th><th>in words</th></tr></thead><tbody>"#
+    )?;
     for s in &specials {
         let ok = s["passed"] == true;
         writeln!(
@@ -448,13 +528,20 @@ fn rules(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult 
             if ok { "✓" } else { "✗" },
             esc(&text(&s["rule"])),
             shown(format, &s["input"]),
-            if s["output"].is_null() { "none (crashed or hung)".into() } else { shown(format, &s["output"]) },
+            if s["output"].is_null() {
+                "none (crashed or hung)".into()
+            } else {
+                shown(format, &s["output"])
+            },
             shown(format, &s["expected"]),
             esc(&text(&s["message"]))
         )?;
     }
     writeln!(out, "</tbody></table>")?;
-    writeln!(out, r#"<table><thead><tr><th></th><th>hygiene check</th><th>in words</th></tr></thead><tbody>"#)?;
+    writeln!(
+        out,
+        r#"<table><thead><tr><th></th><th>hygiene check</th><th>in words</th></tr></thead><tbody>"#
+    )?;
     for h in &hygiene {
         let ok = h["passed"] == true;
         let message = match h["message"].as_str() {
@@ -476,17 +563,26 @@ fn rules(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult 
 /// Binade rows written into the page; the script shows the rest from the plot data.
 const BINADES_SHOWN: usize = 12;
 
-/// Six significant digits: enough for a plot, a third of the digits of the shortest form.
+/// Eight significant digits: the figures' four decimals survive, at half the digits of the
+/// shortest form.
 fn short(x: f64) -> Value {
-    format!("{x:.5e}").parse::<f64>().map_or(json!(x), |v| json!(v))
+    format!("{x:.7e}")
+        .parse::<f64>()
+        .map_or(json!(x), |v| json!(v))
 }
 
 fn binades(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult {
-    let all = r["accuracy"]["per_binade"].as_array().cloned().unwrap_or_default();
+    let all = r["accuracy"]["per_binade"]
+        .as_array()
+        .cloned()
+        .unwrap_or_default();
     // The worst binades first (ties in increasing x): what a reader looks for.
     let mut rows: Vec<&Value> = all.iter().collect();
     rows.sort_by(|a, b| {
-        let (x, y) = (a["max_ulp"].as_f64().unwrap_or(0.0), b["max_ulp"].as_f64().unwrap_or(0.0));
+        let (x, y) = (
+            a["max_ulp"].as_f64().unwrap_or(0.0),
+            b["max_ulp"].as_f64().unwrap_or(0.0),
+        );
         y.total_cmp(&x)
     });
     rows.truncate(BINADES_SHOWN);
@@ -522,14 +618,34 @@ fn binades(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResul
         )?;
     }
     writeln!(out, "</tbody></table></details>")?;
-    let hist = r["accuracy"]["histogram"].as_array().cloned().unwrap_or_default();
-    let regions = r["accuracy"]["regions"].as_array().cloned().unwrap_or_default();
-    writeln!(out, r#"<details><summary>Error histogram and regions of x</summary><table><thead><tr><th>error up to (ulp)</th><th class="num">points</th></tr></thead><tbody>"#)?;
+    let hist = r["accuracy"]["histogram"]
+        .as_array()
+        .cloned()
+        .unwrap_or_default();
+    let regions = r["accuracy"]["regions"]
+        .as_array()
+        .cloned()
+        .unwrap_or_default();
+    writeln!(
+        out,
+        r#"<details><summary>Error histogram and regions of x</summary><table><thead><tr><th>error up to (ulp)</th><th class="num">points</th></tr></thead><tbody>"#
+    )?;
     for h in &hist {
-        let up = if h["up_to"].is_null() { "more".to_string() } else { text(&h["up_to"]) };
-        writeln!(out, r#"<tr><td>{up}</td><td class="num">{}</td></tr>"#, text(&h["count"]))?;
+        let up = if h["up_to"].is_null() {
+            "more".to_string()
+        } else {
+            text(&h["up_to"])
+        };
+        writeln!(
+            out,
+            r#"<tr><td>{up}</td><td class="num">{}</td></tr>"#,
+            text(&h["count"])
+        )?;
     }
-    writeln!(out, r#"</tbody></table><table><thead><tr><th>region</th><th class="num">points</th><th class="num">max ulp</th></tr></thead><tbody>"#)?;
+    writeln!(
+        out,
+        r#"</tbody></table><table><thead><tr><th>region</th><th class="num">points</th><th class="num">max ulp</th></tr></thead><tbody>"#
+    )?;
     for g in &regions {
         writeln!(
             out,
@@ -570,7 +686,11 @@ fn shape_and_kinks(out: &mut String, r: &Value, format: Option<&dyn Format>) -> 
             if v == 1 { "" } else { "s" },
             sentence::count(j),
             if j == 1 { "" } else { "s" },
-            if s["monotone_function"] == true { " (the function is monotone)" } else { "" }
+            if s["monotone_function"] == true {
+                " (the function is monotone)"
+            } else {
+                ""
+            }
         )?;
         let violations = s["violations"].as_array().cloned().unwrap_or_default();
         if !violations.is_empty() {
@@ -596,30 +716,72 @@ fn provenance(out: &mut String, r: &Value) -> FmtResult {
     let s = &r["sweep"];
     let check = &p["reference_check"];
     let disagreements = check["disagreements"].as_array().map_or(0, Vec::len);
-    writeln!(out, r#"<details><summary>Provenance and sweep</summary><dl class="card">"#)?;
+    writeln!(
+        out,
+        r#"<details><summary>Provenance and sweep</summary><dl class="card">"#
+    )?;
     let rows = [
         ("ulpgauge", text(&p["ulpgauge"])),
-        ("MPFR / GMP", format!("{} / {}", text(&p["mpfr"]), text(&p["gmp"]))),
-        ("CPU", format!("{} ({})", text(&p["cpu"]["model"]), p["cpu"]["features"].as_array().map_or(String::new(), |f| f.iter().map(text).collect::<Vec<_>>().join(" ")))),
+        (
+            "MPFR / GMP",
+            format!("{} / {}", text(&p["mpfr"]), text(&p["gmp"])),
+        ),
+        (
+            "CPU",
+            format!(
+                "{} ({})",
+                text(&p["cpu"]["model"]),
+                p["cpu"]["features"].as_array().map_or(String::new(), |f| f
+                    .iter()
+                    .map(text)
+                    .collect::<Vec<_>>()
+                    .join(" "))
+            ),
+        ),
         ("date", text(&p["date"])),
-        ("library", format!("{} (sha256 {})", text(&p["library"]["path"]), text(&p["library"]["sha256"]))),
-        ("sweep", format!(
-            "{}; range {}; {} per binade, {} neighbours, seed {}; {} probes, {} further inputs",
-            s["kinds"].as_array().map_or(String::new(), |k| k.iter().map(text).collect::<Vec<_>>().join("+")),
-            text(&s["range"]),
-            text(&s["per_binade"]),
-            text(&s["neighbours"]),
-            text(&s["seed"]),
-            text(&s["probes"]),
-            text(&s["extra_inputs"])
-        )),
-        ("reference check", format!(
-            "{} extremes recomputed with MPFR alone; {} disagreement{}",
-            check["confirmed_with_mpfr"].as_u64().map_or_else(|| text(&check["confirmed_with_mpfr"]), |n| n.to_string()),
-            disagreements,
-            if disagreements == 1 { "" } else { "s" }
-        )),
-        ("reference failures", format!("{} inputs left out (reference undecided)", text(&r["reference_failures"]["count"]))),
+        (
+            "library",
+            format!(
+                "{} (sha256 {})",
+                text(&p["library"]["path"]),
+                text(&p["library"]["sha256"])
+            ),
+        ),
+        (
+            "sweep",
+            format!(
+                "{}; range {}; {} per binade, {} neighbours, seed {}; {} probes, {} further inputs",
+                s["kinds"].as_array().map_or(String::new(), |k| k
+                    .iter()
+                    .map(text)
+                    .collect::<Vec<_>>()
+                    .join("+")),
+                text(&s["range"]),
+                text(&s["per_binade"]),
+                text(&s["neighbours"]),
+                text(&s["seed"]),
+                text(&s["probes"]),
+                text(&s["extra_inputs"])
+            ),
+        ),
+        (
+            "reference check",
+            format!(
+                "{} extremes recomputed with MPFR alone; {} disagreement{}",
+                check["confirmed_with_mpfr"]
+                    .as_u64()
+                    .map_or_else(|| text(&check["confirmed_with_mpfr"]), |n| n.to_string()),
+                disagreements,
+                if disagreements == 1 { "" } else { "s" }
+            ),
+        ),
+        (
+            "reference failures",
+            format!(
+                "{} inputs left out (reference undecided)",
+                text(&r["reference_failures"]["count"])
+            ),
+        ),
     ];
     for (k, v) in rows {
         writeln!(out, "<dt>{k}</dt><dd>{}</dd>", esc(&v))?;

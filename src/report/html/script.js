@@ -49,6 +49,8 @@
     if (v === Infinity) return "+inf";
     if (v === -Infinity) return "-inf";
     if (v === 0) return negative(fmt, bits) ? "-0" : "+0";
+    // Whole numbers are written out ("65504", not "65500"), as the sentences do.
+    if (Number.isInteger(v) && Math.abs(v) < 1e16) return String(v);
     const o = ordinal(fmt, bits);
     let up = decode(fmt, fromOrdinal(fmt, o + 1));
     let down = decode(fmt, fromOrdinal(fmt, o - 1));
@@ -344,8 +346,8 @@
         el("title", {}, r).textContent = tip;
       }
       if (p[1] === null || isNan(fmt, p[1])) {
-        const t = el("text", { x: xx, y: T + 10, "text-anchor": "middle", class: "nf" }, svg);
-        t.textContent = p[1] === null ? "×" : "NaN";
+        // A non-finite (or missing) output: a triangle along the top edge.
+        const t = el("path", { d: "M" + (xx - 4) + " " + (T + 2) + "h8l-4 7z", class: "nf" }, svg);
         el("title", {}, t).textContent = tip;
       } else {
         const k = el("circle", { cx: xx, cy: Y(ordinal(fmt, p[1]) - base), r: 5, class: "k" }, svg);

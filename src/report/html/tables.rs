@@ -14,7 +14,10 @@ fn badge(word: &str) -> String {
         "crashed" | "CRASHED" => "crash",
         _ => "fail",
     };
-    format!(r#"<span class="badge {class} verdict">{}</span>"#, esc(&word.to_uppercase()))
+    format!(
+        r#"<span class="badge {class} verdict">{}</span>"#,
+        esc(&word.to_uppercase())
+    )
 }
 
 /// The certificate: verdict, statement, requirements, then the check it rests on.
@@ -99,10 +102,20 @@ pub fn comparison_page(c: &Comparison) -> Result<String, String> {
     )
     .map_err(e)?;
     for m in &c.missing {
-        writeln!(b, r#"<p class="worse">✗ Missing from the candidate: {}</p>"#, esc(m)).map_err(e)?;
+        writeln!(
+            b,
+            r#"<p class="worse">✗ Missing from the candidate: {}</p>"#,
+            esc(m)
+        )
+        .map_err(e)?;
     }
     for a in &c.added {
-        writeln!(b, r#"<p>Only in the candidate (not judged): {}</p>"#, esc(a)).map_err(e)?;
+        writeln!(
+            b,
+            r#"<p>Only in the candidate (not judged): {}</p>"#,
+            esc(a)
+        )
+        .map_err(e)?;
     }
     writeln!(b, "</section>").map_err(e)?;
     for (i, k) in c.kernels.iter().enumerate() {
@@ -159,8 +172,14 @@ pub fn matrix_page(m: &Matrix) -> Result<String, String> {
     for r in &m.builds {
         let what = match r.status {
             BuildStatus::Built => esc(r.compiler.as_deref().unwrap_or("compiler unknown")),
-            BuildStatus::Skipped => format!("<strong>skipped</strong>: {}", esc(r.note.as_deref().unwrap_or(""))),
-            BuildStatus::Failed => format!("<strong>build failed</strong>: {}", esc(r.note.as_deref().unwrap_or(""))),
+            BuildStatus::Skipped => format!(
+                "<strong>skipped</strong>: {}",
+                esc(r.note.as_deref().unwrap_or(""))
+            ),
+            BuildStatus::Failed => format!(
+                "<strong>build failed</strong>: {}",
+                esc(r.note.as_deref().unwrap_or(""))
+            ),
         };
         writeln!(b, "<li><code>{}</code>: {what}</li>", esc(&r.build.label)).map_err(e)?;
     }
@@ -171,7 +190,11 @@ pub fn matrix_page(m: &Matrix) -> Result<String, String> {
         .filter(|r| r.status == BuildStatus::Built)
         .map(|r| r.build.label.as_str())
         .collect();
-    write!(b, r#"<table class="matrix-table"><thead><tr><th>kernel</th>"#).map_err(e)?;
+    write!(
+        b,
+        r#"<table class="matrix-table"><thead><tr><th>kernel</th>"#
+    )
+    .map_err(e)?;
     for label in &built {
         write!(b, "<th>{}</th>", esc(label)).map_err(e)?;
     }
@@ -179,7 +202,11 @@ pub fn matrix_page(m: &Matrix) -> Result<String, String> {
     for kernel in &m.kernels {
         let cells: Vec<_> = built
             .iter()
-            .map(|label| m.cells.iter().find(|c| &c.kernel == kernel && c.build == *label))
+            .map(|label| {
+                m.cells
+                    .iter()
+                    .find(|c| &c.kernel == kernel && c.build == *label)
+            })
             .collect();
         let first = cells.iter().flatten().find(|c| c.error.is_none());
         write!(b, "<tr><th scope=\"row\"><code>{}</code></th>", esc(kernel)).map_err(e)?;
@@ -206,7 +233,11 @@ pub fn matrix_page(m: &Matrix) -> Result<String, String> {
                 }
                 _ => ("same", ""),
             };
-            let title = if c.failed.is_empty() { String::new() } else { c.failed.join("\n") };
+            let title = if c.failed.is_empty() {
+                String::new()
+            } else {
+                c.failed.join("\n")
+            };
             write!(
                 b,
                 r#"<td class="{class}" title="{}">{mark}{} ulp | {:.2}% | {} failed{}</td>"#,
@@ -214,7 +245,9 @@ pub fn matrix_page(m: &Matrix) -> Result<String, String> {
                 c.max_ulp.map_or("-".into(), |x| format!("{x:.4}")),
                 100.0 * c.correctly_rounded.unwrap_or(0.0),
                 c.failed_checks.unwrap_or(0),
-                c.crash.as_ref().map_or(String::new(), |s| format!(" | {}", esc(s)))
+                c.crash
+                    .as_ref()
+                    .map_or(String::new(), |s| format!(" | {}", esc(s)))
             )
             .map_err(e)?;
         }
