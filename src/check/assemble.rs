@@ -11,6 +11,7 @@ use crate::sweep::SweepKind;
 
 /// The report of a check from its gathered state, thresholds and the kernel's hygiene and
 /// speed.
+#[allow(clippy::too_many_arguments)] // each is one section's source, handed over once
 pub(super) fn report(
     config: &CheckConfig,
     setup: &Setup,

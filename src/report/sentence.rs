@@ -54,11 +54,9 @@ fn shortest(format: &dyn Format, bits: u32, v: f64) -> String {
 fn plain(x: f64) -> String {
     let a = x.abs();
     if a != 0.0 && !(1e-5..1e16).contains(&a) {
-        let t = format!("{x:e}");
-        return t;
+        return format!("{x:e}");
     }
-    let t = format!("{x}");
-    t
+    format!("{x}")
 }
 
 /// "65504 (0x7bff)".
@@ -105,6 +103,7 @@ fn call(format: &dyn Format, input: u32) -> String {
 
 /// A special-value rule: the call, what came out, what the rule expects, and the error when
 /// both are finite numbers.
+#[allow(clippy::too_many_arguments)] // the fields of one rule, as measured
 pub fn special(
     format: &dyn Format,
     input: u32,
@@ -172,7 +171,7 @@ fn expectation(format: &dyn Format, expected: u32, rule: &str) -> String {
 
 /// Three decimals, trailing zeros dropped (whole numbers from 1000 on, with commas).
 fn round3(x: f64) -> String {
-    if x >= 1000.0 && x < 1e18 {
+    if (1000.0..1e18).contains(&x) {
         return count(x.round() as u64);
     }
     let t = format!("{x:.3}");
@@ -241,6 +240,7 @@ pub fn run(
 
 /// A threshold: where the reference reaches its asymptote (or overflows) for good and where
 /// the kernel does.
+#[allow(clippy::too_many_arguments)] // the fields of one threshold, as measured
 pub fn threshold(
     format: &dyn Format,
     overflow: bool,
