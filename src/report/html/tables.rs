@@ -242,7 +242,11 @@ pub fn matrix_page(m: &Matrix) -> Result<String, String> {
                 b,
                 r#"<td class="{class}" title="{}">{mark}{} ulp | {:.2}% | {} failed{}</td>"#,
                 esc(&title),
-                c.max_ulp.map_or("-".into(), |x| format!("{x:.4}")),
+                c.max_ulp.map_or("-".into(), |x| if x >= 1e6 {
+                    format!("{x:.4e}")
+                } else {
+                    format!("{x:.4}")
+                }),
                 100.0 * c.correctly_rounded.unwrap_or(0.0),
                 c.failed_checks.unwrap_or(0),
                 c.crash
