@@ -7,6 +7,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 source tests/setup.sh
+source kernels-under-test/compilers.sh
 cargo build --release --locked
 bash kernels-under-test/build.sh
 bin=target/release/ulpgauge
@@ -22,14 +23,15 @@ run() {
 }
 
 echo "== The shipped Lumen Edge kernels (kernels-under-test/lumen-edge.toml)"
-run check --manifest kernels-under-test/lumen-edge.toml \
-  --json reports/lumen-edge.json --csv reports/lumen-edge.csv --plot reports/lumen-edge.svg
+run check --manifest kernels-under-test/lumen-edge.toml --html reports/lumen-edge.html \
+  --json reports/lumen-edge.json --csv reports/lumen-edge.csv --plot reports/lumen-edge.svg \
+  --junit reports/lumen-edge.xml
 
 echo
 echo "== Where does the blended f16 ELU overflow?"
 run check --lib kernels-under-test/build/liblumen_edge.so --symbol lumen_elu_f16 \
   --function elu --format f16 \
-  --json reports/elu-f16.json --csv reports/elu-f16.csv --plot reports/elu-f16.svg
+  --json reports/elu-f16.json --csv reports/elu-f16.csv --plot reports/elu-f16.svg --html reports/elu-f16.html
 
 echo
 echo "== The hand-written SIMD sigmoid, exhaustively over every binary32 in [1, 2)"
@@ -40,24 +42,26 @@ run check --lib kernels-under-test/build/liblumen_edge.so --symbol lumen_sigmoid
 echo
 echo "== Kernels with one classic fault each (kernels-under-test/lumen-edge-faulty.toml)"
 run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 \
-  --json reports/lumen-edge-faulty.json --csv reports/lumen-edge-faulty.csv --plot reports/lumen-edge-faulty.svg
+  --json reports/lumen-edge-faulty.json --csv reports/lumen-edge-faulty.csv --plot reports/lumen-edge-faulty.svg \
+  --html reports/lumen-edge-faulty.html --junit reports/lumen-edge-faulty.xml
 echo
 echo "== Certificates (kernels-under-test/specs/)"
-run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json
+run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
+  --html reports/certificate-sigmoid-f16.html
 run certify --spec kernels-under-test/specs/sigmoid-f32-simd.toml --json reports/certificate-sigmoid-f32-simd.json
 
 echo
 echo "== This build against the committed baseline"
 run check --manifest kernels-under-test/lumen-edge.toml --sweep dense,edge --per-binade 8 \
   --quiet --json target/demo-candidate.json
-run compare reports/baseline-lumen-edge.json target/demo-candidate.json --changed-only
+run compare reports/baseline-lumen-edge.json target/demo-candidate.json --changed-only \
+  --html reports/compare-lumen-edge.html
 
 echo
-echo "== Compiler matrix"
-run matrix --manifest kernels-under-test/lumen-edge.toml \
-  --build "gcc -O2" --build "gcc -O3 -ffast-math" --build "clang -O2" \
-  --sweep dense,edge --per-binade 8 \
-  --csv reports/matrix-lumen-edge.csv --json reports/matrix-lumen-edge.json
+echo "== Compiler matrix: two versions of gcc and of clang, from the distribution (compilers.sh)"
+run matrix --manifest kernels-under-test/lumen-edge.toml "${MATRIX_BUILDS[@]}" \
+  --sweep dense,edge --per-binade 8 --csv reports/matrix-lumen-edge.csv \
+  --json reports/matrix-lumen-edge.json --html reports/matrix-lumen-edge.html
 
 echo
-echo "Reports written to reports/."
+echo "Reports written to reports/; open reports/lumen-edge.html in any browser (it works offline)."

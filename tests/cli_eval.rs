@@ -202,3 +202,46 @@ fn closed_standard_output_is_not_a_crash() {
         assert!(!err.contains("panicked"), "{args:?}: {err}");
     }
 }
+
+#[test]
+fn one_vocabulary_function_flag_and_older_form() {
+    // σ(1) in binary32 is 0x3f3b26a8 (numpy.float32(1/(1+exp(-1))) agrees), whichever form.
+    let new = eval_json(&["--function", "sigmoid", "--format", "f32", "1"]);
+    let old = eval_json(&["sigmoid", "1", "--format", "f32"]);
+    assert_eq!(new["rounded"]["bits"], "0x3f3b26a8");
+    assert_eq!(new, old);
+    let (code, _, err) = ulpgauge(&["eval", "sigmoid", "1", "--format", "f32"]);
+    assert_eq!(code, 0);
+    assert!(err.contains("--function sigmoid"), "{err}");
+    let (code, _, err) = ulpgauge(&["eval", "--function", "sigmoid", "-1", "--format", "f32"]);
+    assert_eq!(code, 0, "{err}");
+    assert!(err.is_empty(), "the new form prints no note: {err}");
+    // Bad input: exit 2, one line.
+    for args in [
+        &["eval", "--function", "sigmoid", "1", "2", "--format", "f32"][..],
+        &["eval", "--format", "f32"][..],
+        &["batch", "--format", "f32"][..],
+    ] {
+        let (code, _, err) = ulpgauge(args);
+        assert_eq!(code, 2, "{args:?}: {err}");
+    }
+    // batch takes --function too, and its older positional form.
+    let run = |args: &[&str]| {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+            .args(args)
+            .stdin(std::process::Stdio::piped())
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .unwrap();
+        use std::io::Write;
+        child.stdin.take().unwrap().write_all(b"0x3c00\n").unwrap();
+        let out = child.wait_with_output().unwrap();
+        assert!(out.status.success());
+        String::from_utf8_lossy(&out.stdout).into_owned()
+    };
+    let new = run(&["batch", "--function", "tanh", "--format", "f16"]);
+    assert_eq!(new, run(&["batch", "tanh", "--format", "f16"]));
+    // tanh(1) = 0.76159... rounds to binary16 0x3a18 (numpy.float16(numpy.tanh(1)) agrees).
+    assert_eq!(new.trim(), "0x3c00 0x3a18");
+}

@@ -8,3 +8,4 @@ cargo build --release --locked
 python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge
 python3 tests/recorder/test_recorder.py --ulpgauge target/release/ulpgauge
 cargo test --release --locked
+bash tests/reports/run.sh

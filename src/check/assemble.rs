@@ -11,18 +11,23 @@ use crate::sweep::SweepKind;
 
 /// The report of a check from its gathered state, thresholds and the kernel's hygiene and
 /// speed.
+#[allow(clippy::too_many_arguments)] // each is one section's source, handed over once
 pub(super) fn report(
     config: &CheckConfig,
     setup: &Setup,
     mut gathered: Gathered,
     thresholds: Vec<ThresholdReport>,
-    hygiene: Vec<HygieneEntry>,
+    mut hygiene: Vec<HygieneEntry>,
     ns_per_element: Option<f64>,
+    neighbourhoods: Vec<crate::measure::Neighbourhood>,
     sink: &mut dyn crate::measure::FindingSink,
 ) -> Result<CheckReport, String> {
     let format = config.format;
     let function = config.function;
     let spec = &config.sweep;
+    for h in &mut hygiene {
+        h.message = crate::report::sentence::hygiene(format, &h.check, h.passed, &h.detail);
+    }
     let plan = &setup.plan;
     let own_inputs = gathered.inputs;
     let recorded = gathered
@@ -61,6 +66,7 @@ pub(super) fn report(
     let extremes = confirm::extremes(format, &accuracy, &non_finite, &thresholds);
     let reference_check = confirm::confirm(&setup.refs, format, &extremes);
     let verdict = verdict(
+        format,
         crash.is_some(),
         &hygiene,
         &special_values,
@@ -148,10 +154,44 @@ pub(super) fn report(
         thresholds,
         kinks,
         shape,
+        neighbourhoods,
         reference_failures,
         verdict,
         provenance,
         shard,
         recorded,
     })
+}
+
+/// The centres of the report's neighbourhoods: the function's kinks, and each threshold of
+/// the reference and (when elsewhere) of the kernel.
+pub(super) fn neighbourhood_centres(
+    format: &dyn crate::format::Format,
+    interesting: &[crate::sweep::Interesting],
+    thresholds: &[ThresholdReport],
+) -> Vec<(u32, String)> {
+    let mut centres: Vec<(u32, String)> = interesting
+        .iter()
+        .filter(|i| i.what == "kink")
+        .map(|i| (i.input, "kink".to_string()))
+        .collect();
+    let bits = |v: &BitsValue| crate::format::parse_hex(format, &v.bits).ok();
+    for t in thresholds {
+        let kind = format!("{:?} threshold ({})", t.kind, t.side).to_lowercase();
+        let reference = t.reference.as_ref().and_then(bits);
+        let kernel = t.kernel.as_ref().and_then(bits);
+        if let Some(r) = reference {
+            centres.push((r, format!("{kind} of the reference")));
+        }
+        if let Some(k) = kernel {
+            // A kernel threshold within the reference's window is already shown there.
+            let near =
+                reference.is_some_and(|r| (format.ordinal(r) - format.ordinal(k)).abs() <= 8);
+            if !near && format.to_f64(k).is_finite() {
+                centres.push((k, format!("{kind} of the kernel")));
+            }
+        }
+    }
+    centres.retain(|(c, _)| format.to_f64(*c).is_finite());
+    centres
 }

@@ -190,6 +190,7 @@ impl Gathered {
 /// allowed), 0 otherwise.
 #[allow(clippy::too_many_arguments)]
 pub fn verdict(
+    format: &dyn Format,
     crashed: bool,
     hygiene: &[HygieneEntry],
     special_values: &[SpecialRule],
@@ -200,17 +201,19 @@ pub fn verdict(
     allow_non_finite: bool,
 ) -> Verdict {
     let mut failed = Vec::new();
+    use crate::report::sentence;
     for x in disagreements {
-        failed.push(format!(
-            "fast reference disagrees with MPFR at {} (rerun with --reference mpfr)",
-            x.bits
-        ));
+        failed.push(sentence::disagreement(format, x));
     }
     for h in hygiene.iter().filter(|h| !h.passed) {
-        failed.push(format!("hygiene {}: {}", h.check, h.detail));
+        failed.push(if h.message.is_empty() {
+            format!("hygiene check {} failed: {}", h.check, h.detail)
+        } else {
+            h.message.clone()
+        });
     }
     for r in special_values.iter().filter(|r| !r.passed) {
-        failed.push(format!("{} at {}", r.rule, r.input.bits));
+        failed.push(r.message.clone());
     }
     if non_finite.runs > 0 && !allow_non_finite {
         failed.push(format!(
@@ -221,7 +224,7 @@ pub fn verdict(
     }
     if let Some(limit) = limit {
         if max_ulp > limit {
-            failed.push(format!("max_ulp {max_ulp} exceeds --max-ulp {limit}"));
+            failed.push(sentence::over_limit(max_ulp, limit));
         }
     }
     let exit_code = if crashed {

@@ -91,6 +91,7 @@ impl<F: FnMut(u32, Option<u32>) -> Option<u32> + Send> KernelUnderTest for InPro
                     "{d_repeat} of {} outputs changed on a second call",
                     sample.len()
                 ),
+                message: String::new(),
             },
             HygieneEntry {
                 check: "batch-independent".into(),
@@ -99,6 +100,7 @@ impl<F: FnMut(u32, Option<u32>) -> Option<u32> + Send> KernelUnderTest for InPro
                     "{d_single} of {} outputs differ between batch and single calls",
                     sample.len()
                 ),
+                message: String::new(),
             },
         ]
     }

@@ -218,6 +218,9 @@ pub fn run_check_into(
     let mut prober = Prober::new(kernel, &setup.refs, config.progress);
     let (gathered, thresholds) = gather(&mut prober, &setup, config, sink, false);
     let format = config.format;
+    // Shown beside the figures, not measured: these inputs are not counted.
+    let centres = assemble::neighbourhood_centres(format, &setup.plan.interesting, &thresholds);
+    let neighbourhoods = measure::neighbourhoods(format, &centres, &mut prober, NEIGHBOURHOOD);
     let hygiene_sample = spread(format, &setup.plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
     let hygiene = prober.kernel().hygiene(&first, second.as_deref());
@@ -231,9 +234,13 @@ pub fn run_check_into(
         thresholds,
         hygiene,
         ns_per_element,
+        neighbourhoods,
         sink,
     )
 }
+
+/// Inputs on each side of a threshold or kink in the report's `neighbourhoods`.
+const NEIGHBOURHOOD: u32 = 8;
 
 /// Calls the kernel on the measured inputs (this shard's part), the probes, the inputs next to
 /// non-finite runs and the threshold searches, and gathers what it measured.

@@ -210,5 +210,14 @@ pub fn run_recorded(
     let thresholds = state.walks.iter().map(|w| w.report(format)).collect();
     let hygiene = state.determinism(format).into_iter().collect();
     gathered.recorded = Some(state);
-    assemble::report(config, &setup, gathered, thresholds, hygiene, None, sink)
+    assemble::report(
+        config,
+        &setup,
+        gathered,
+        thresholds,
+        hygiene,
+        None,
+        Vec::new(),
+        sink,
+    )
 }

@@ -30,6 +30,7 @@ impl KernelUnderTest for RunnerKernel {
                 check: h.check.to_string(),
                 passed: h.passed,
                 detail: h.detail,
+                message: String::new(),
             })
             .collect()
     }

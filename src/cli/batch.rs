@@ -9,8 +9,12 @@ use std::io::{Read, Write};
 /// Arguments of `batch`.
 #[derive(clap::Args, Debug)]
 pub struct Args {
-    /// Catalog function.
-    function: String,
+    /// Catalog function, as `check` and every command take it.
+    #[arg(long, value_name = "FUNC")]
+    function: Option<String>,
+    /// The older form `batch FUNC` (still read, with a note).
+    #[arg(value_name = "FUNC", hide = true)]
+    positional: Option<String>,
     /// Target format.
     #[arg(long, value_name = "f32|f16|bf16")]
     format: String,
@@ -23,8 +27,16 @@ pub struct Args {
 
 /// Reads 0x-hex patterns (whitespace separated) from stdin; prints `0xIN 0xOUT` per input.
 pub fn run(args: Args) -> Result<i32, Failure> {
+    let given: Vec<String> = args.positional.iter().cloned().collect();
+    let (function, rest, note) =
+        super::function_and_inputs("batch", args.function.clone(), &given)?;
+    if !rest.is_empty() {
+        return Err(Failure::bad_input(
+            "batch reads its inputs from stdin (usage: ulpgauge batch --function FUNC --format FMT)",
+        ));
+    }
     let target = resolve(
-        &args.function,
+        &function,
         &args.format,
         args.derivative,
         &args.function_args,
@@ -55,6 +67,9 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     for (x, y) in inputs.iter().zip(&outputs) {
         writeln!(out, "{} {}", hex(format, *x), hex(format, *y))
             .map_err(|e| Failure::bad_input(e.to_string()))?;
+    }
+    if let Some(note) = note {
+        eprintln!("{note}");
     }
     Ok(0)
 }

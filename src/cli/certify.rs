@@ -21,6 +21,12 @@ pub struct Args {
     /// Write the certificate (JSON).
     #[arg(long, value_name = "CERTIFICATE")]
     pub json: Option<PathBuf>,
+    /// Write the certificate as a self-contained HTML page.
+    #[arg(long, value_name = "FILE.html")]
+    pub html: Option<PathBuf>,
+    /// Write JUnit-style XML (a case per requirement) for CI.
+    #[arg(long, value_name = "FILE.xml")]
+    pub junit: Option<PathBuf>,
     /// Print no verdict table.
     #[arg(long)]
     pub quiet: bool,
@@ -100,7 +106,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             key_of(&f.message)
         ))
     })?;
-    if let Some(path) = &args.json {
+    for path in [&args.json, &args.html, &args.junit].into_iter().flatten() {
         check_writable(path).map_err(Failure::bad_input)?;
     }
     let kernel_spec = KernelSpec {
@@ -136,6 +142,17 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         })?;
         text.push('\n');
         write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.html {
+        let text = crate::report::html::certificate_page(&cert).map_err(|message| Failure {
+            code: 1,
+            message: format!("html report: {message}"),
+        })?;
+        write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.junit {
+        write_atomic(path, &crate::report::junit::certificate(&cert))
+            .map_err(Failure::bad_input)?;
     }
     if !args.quiet {
         say!("{}", certify::table(&cert));

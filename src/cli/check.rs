@@ -16,8 +16,8 @@ use crate::format::Format;
 use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
 use crate::recorded::{Recorded, RecordedPaths};
 use crate::report::{
-    check_outputs, write_atomic, CheckReport, Csv, FindingsWriter, Json, ReportFormat, Svg,
-    Terminal,
+    check_outputs, write_atomic, CheckReport, Csv, FindingsWriter, Html, Json, Junit, ReportFormat,
+    Svg, Terminal,
 };
 use crate::sweep::{InputRange, SampleMode, SweepKind, SweepSpec};
 use std::path::PathBuf;
@@ -77,6 +77,12 @@ pub struct Args {
     /// Write an SVG plot of max ulp error per input bucket.
     #[arg(long, value_name = "FILE.svg")]
     pub plot: Option<PathBuf>,
+    /// Write a self-contained HTML report (interactive plot, findings in sentences).
+    #[arg(long, value_name = "FILE.html")]
+    pub html: Option<PathBuf>,
+    /// Write JUnit-style XML (a suite per kernel, a case per rule and check) for CI.
+    #[arg(long, value_name = "FILE.xml")]
+    pub junit: Option<PathBuf>,
     /// Fail (exit 1) when max_ulp exceeds U.
     #[arg(long, value_name = "U")]
     pub max_ulp: Option<f64>,
@@ -209,6 +215,10 @@ pub struct Outputs {
     pub csv: Option<PathBuf>,
     /// --plot.
     pub plot: Option<PathBuf>,
+    /// --html.
+    pub html: Option<PathBuf>,
+    /// --junit.
+    pub junit: Option<PathBuf>,
     /// Print the terminal summary.
     pub terminal: bool,
     /// --findings: every run and listed point, streamed.
@@ -220,7 +230,15 @@ pub struct Outputs {
 impl Outputs {
     /// The outputs of the arguments, each file checked writable (exit 2 before any work).
     pub fn from_args(args: &Args) -> Result<Outputs, Failure> {
-        let files = [&args.json, &args.csv, &args.plot, &args.findings].map(|p| p.as_deref());
+        let files = [
+            &args.json,
+            &args.csv,
+            &args.plot,
+            &args.findings,
+            &args.html,
+            &args.junit,
+        ]
+        .map(|p| p.as_deref());
         let to_stdout = check_outputs(&files).map_err(Failure::bad_input)?;
         if args.findings.is_some() && args.shard.is_some() {
             return Err(Failure::bad_input(
@@ -231,6 +249,8 @@ impl Outputs {
             json: args.json.clone(),
             csv: args.csv.clone(),
             plot: args.plot.clone(),
+            html: args.html.clone(),
+            junit: args.junit.clone(),
             terminal: !args.quiet && !to_stdout,
             findings: args.findings.clone(),
             csv_points: args.csv_points_over.is_some(),
@@ -429,8 +449,13 @@ pub fn emit_with(
     } else {
         &outputs.csv
     };
-    let files: [(&Option<PathBuf>, &dyn ReportFormat); 3] =
-        [(&outputs.json, &Json), (csv, &Csv), (&outputs.plot, &Svg)];
+    let files: [(&Option<PathBuf>, &dyn ReportFormat); 5] = [
+        (&outputs.json, &Json),
+        (csv, &Csv),
+        (&outputs.plot, &Svg),
+        (&outputs.html, &Html),
+        (&outputs.junit, &Junit),
+    ];
     for (path, format) in files {
         if let Some(path) = path {
             let text = format.render(reports, manifest).map_err(|e| Failure {

@@ -33,6 +33,8 @@ pub fn defaults() -> Args {
         findings: None,
         list_runs: crate::measure::LISTED_RUNS,
         plot: None,
+        html: None,
+        junit: None,
         max_ulp: None,
         allow_non_finite: false,
         abs_floor: None,

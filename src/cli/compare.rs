@@ -27,6 +27,12 @@ pub struct Args {
     /// Also write the comparison as JSON.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
+    /// Write the comparison as a self-contained HTML page, changes highlighted.
+    #[arg(long, value_name = "FILE.html")]
+    pub html: Option<PathBuf>,
+    /// Write JUnit-style XML (a suite per kernel, a case per judged figure) for CI.
+    #[arg(long, value_name = "FILE.xml")]
+    pub junit: Option<PathBuf>,
     /// Print only the summary and the kernels that changed.
     #[arg(long)]
     pub changed_only: bool,
@@ -69,7 +75,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             )));
         }
     }
-    if let Some(path) = &args.json {
+    for path in [&args.json, &args.html, &args.junit].into_iter().flatten() {
         check_writable(path).map_err(Failure::bad_input)?;
     }
     let tol = Tolerance {
@@ -96,6 +102,18 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         })?;
         text.push('\n');
         write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.html {
+        let text =
+            crate::report::html::comparison_page(&comparison).map_err(|message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            })?;
+        write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.junit {
+        write_atomic(path, &crate::report::junit::comparison(&comparison))
+            .map_err(Failure::bad_input)?;
     }
     if !args.json.as_deref().is_some_and(is_stdout) {
         say!("{}", table::render(&comparison, args.changed_only));

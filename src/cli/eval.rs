@@ -11,12 +11,17 @@ use serde_json::json;
 /// Arguments of `eval`.
 #[derive(clap::Args, Debug)]
 pub struct Args {
-    /// Catalog function (see `ulpgauge functions`).
-    function: String,
+    /// Catalog function (see `ulpgauge functions`), as `check` and every command take it.
+    #[arg(long, value_name = "FUNC")]
+    function: Option<String>,
     /// Input: a decimal (rounded to nearest, ties to even, if the format cannot hold it), `inf`,
-    /// `-inf`, `nan`, or the format's bit pattern as 0x-hex.
-    #[arg(allow_hyphen_values = true)]
+    /// `-inf`, `nan`, or the format's bit pattern as 0x-hex. The older form `eval FUNC X` is
+    /// still read (with a note).
+    #[arg(allow_hyphen_values = true, value_name = "X")]
     x: String,
+    /// The input, in the older form `eval FUNC X`.
+    #[arg(allow_hyphen_values = true, hide = true)]
+    older_x: Option<String>,
     /// Target format.
     #[arg(long, value_name = "f32|f16|bf16")]
     format: String,
@@ -124,15 +129,28 @@ fn plain_decimal(text: &str) -> String {
 
 /// Runs `eval`.
 pub fn run(args: Args) -> Result<i32, Failure> {
-    let target = resolve(
-        &args.function,
-        &args.format,
-        args.derivative,
-        &args.function_args,
-    )?;
+    let given: Vec<String> = std::iter::once(args.x.clone())
+        .chain(args.older_x.clone())
+        .collect();
+    let (function, rest, note) = super::function_and_inputs("eval", args.function.clone(), &given)?;
+    let code = evaluate(&args, &function, &rest)?;
+    if let Some(note) = note {
+        eprintln!("{note}");
+    }
+    Ok(code)
+}
+
+/// `eval` once its function and input are known.
+fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure> {
+    let [x] = rest else {
+        return Err(Failure::bad_input(
+            "eval takes one input X (usage: ulpgauge eval --function FUNC --format FMT X)",
+        ));
+    };
+    let target = resolve(function, &args.format, args.derivative, &args.function_args)?;
     let evaluator = &target.evaluator;
     let format = evaluator.format();
-    let input = parse_input(format, &args.x)?;
+    let input = parse_input(format, x)?;
     let reference = evaluator.reference(input.bits).map_err(|e| Failure {
         code: 1,
         message: e.to_string(),

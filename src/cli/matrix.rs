@@ -42,6 +42,12 @@ pub struct Args {
     /// Write the matrix as JSON.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
+    /// Write the matrix as a self-contained HTML page, changes across builds highlighted.
+    #[arg(long, value_name = "FILE.html")]
+    pub html: Option<PathBuf>,
+    /// Write JUnit-style XML (a suite per build, a case per kernel) for CI.
+    #[arg(long, value_name = "FILE.xml")]
+    pub junit: Option<PathBuf>,
     /// Also write each build's check report (JSON, schema ulpgauge-check/1) into DIR, ready
     /// for `ulpgauge compare`.
     #[arg(long, value_name = "DIR")]
@@ -139,7 +145,10 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     std::fs::create_dir_all(&work)
         .map_err(|e| Failure::bad_input(format!("cannot create {}: {e}", work.display())))?;
     let builds = build::parse(&args.builds, &work).map_err(Failure::bad_input)?;
-    for path in [&args.csv, &args.json].into_iter().flatten() {
+    for path in [&args.csv, &args.json, &args.html, &args.junit]
+        .into_iter()
+        .flatten()
+    {
         check_writable(path).map_err(Failure::bad_input)?;
     }
     if let Some(dir) = &args.reports {
@@ -249,6 +258,14 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     if let Some(path) = &args.json {
         let text = table::json(&matrix).map_err(|message| Failure { code: 1, message })?;
         write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.html {
+        let text = crate::report::html::matrix_page(&matrix)
+            .map_err(|message| Failure { code: 1, message })?;
+        write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.junit {
+        write_atomic(path, &crate::report::junit::matrix(&matrix)).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
         say!("{}", table::render(&matrix));

@@ -7,7 +7,7 @@
 use super::check::combine;
 use super::Failure;
 use crate::merge;
-use crate::report::{check_writable, write_atomic};
+use crate::report::{check_writable, html, write_atomic};
 use serde_json::Value;
 use std::path::PathBuf;
 
@@ -20,6 +20,9 @@ pub struct Args {
     /// Write the merged report as JSON.
     #[arg(long, value_name = "FILE")]
     pub json: Option<PathBuf>,
+    /// Write the merged report as a self-contained HTML page.
+    #[arg(long, value_name = "FILE")]
+    pub html: Option<PathBuf>,
     /// Print no terminal summary.
     #[arg(long)]
     pub quiet: bool,
@@ -52,7 +55,7 @@ fn summary(report: &Value) -> String {
 
 /// Runs `merge`.
 pub fn run(args: Args) -> Result<i32, Failure> {
-    if let Some(path) = &args.json {
+    for path in [&args.json, &args.html].into_iter().flatten() {
         check_writable(path).map_err(Failure::bad_input)?;
     }
     let files = args
@@ -66,6 +69,22 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         let mut text = serde_json::to_string_pretty(&merged.value)
             .map_err(|e| Failure::bad_input(e.to_string()))?;
         text.push('\n');
+        write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.html {
+        let inputs: Vec<html::KernelInput> = merged
+            .kernels
+            .iter()
+            .zip(&merged.plots)
+            .map(|(report, buckets)| html::KernelInput {
+                report: report.clone(),
+                buckets: buckets.clone(),
+            })
+            .collect();
+        let text = html::check_page(&inputs, merged.manifest).map_err(|message| Failure {
+            code: 1,
+            message: format!("html report: {message}"),
+        })?;
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if !args.quiet {

@@ -147,6 +147,29 @@ pub struct FunctionArgs {
     pub param_rounding: crate::reference::ParamRounding,
 }
 
+/// The function of a command that takes `--function FUNC` like `check`, or, in the older form,
+/// as its first positional argument; returns it, the remaining positional arguments and, for
+/// the older form, the note to print once the command has succeeded (so that bad input stays
+/// one line).
+pub fn function_and_inputs(
+    command: &str,
+    flag: Option<String>,
+    positional: &[String],
+) -> Result<(String, Vec<String>, Option<String>), Failure> {
+    if let Some(function) = flag {
+        return Ok((function, positional.to_vec(), None));
+    }
+    let Some((function, rest)) = positional.split_first() else {
+        return Err(Failure::bad_input(format!(
+            "{command}: --function is required (see `ulpgauge functions`)"
+        )));
+    };
+    let note = format!(
+        "ulpgauge: note: `{command} {function} …` is the older form; write `{command} --function {function} …` (the same flag as check, certify specs and manifests)"
+    );
+    Ok((function.clone(), rest.to_vec(), Some(note)))
+}
+
 /// A resolved function, format and role, ready to evaluate.
 pub struct Target {
     /// The evaluator.

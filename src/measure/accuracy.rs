@@ -124,12 +124,49 @@ pub struct Bucket {
     pub points: u64,
     /// Their largest error.
     pub max_ulp: f64,
+    /// The point of that error, ties to the lowest input bit pattern (`None`: no points).
+    pub worst: Option<BucketPoint>,
+}
+
+/// A bucket's worst point as bit patterns: what the interactive plot shows on hover.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct BucketPoint {
+    /// Input x.
+    pub input: u32,
+    /// Kernel output.
+    pub output: u32,
+    /// RN(y), the correctly rounded reference.
+    pub reference: u32,
+}
+
+/// Whether (error, point) beats the bucket's current worst: a larger error, or an equal one
+/// at a lower input bit pattern, so the choice is independent of the order points and
+/// partial accumulators are joined in (shard merges stay exact).
+fn beats(error: f64, point: BucketPoint, max: f64, worst: Option<BucketPoint>) -> bool {
+    match worst {
+        None => true,
+        Some(w) => error > max || (error == max && point.input < w.input),
+    }
+}
+
+impl Bucket {
+    /// Counts `points` points whose largest error `max` is at `worst`.
+    fn take(&mut self, points: u64, max: f64, worst: BucketPoint) {
+        self.points += points;
+        if beats(max, worst, self.max_ulp, self.worst) {
+            self.max_ulp = max;
+            self.worst = Some(worst);
+        }
+    }
 }
 
 /// Number of plot buckets.
 const BUCKETS: i64 = 480;
 
-fn buckets(samples: &[(i64, f64)]) -> Vec<Bucket> {
+/// One plot sample: input ordinal, error, and the point.
+type Sample = (i64, f64, BucketPoint);
+
+fn buckets(samples: &[Sample]) -> Vec<Bucket> {
     let (Some(lo), Some(hi)) = (
         samples.iter().map(|s| s.0).min(),
         samples.iter().map(|s| s.0).max(),
@@ -138,10 +175,8 @@ fn buckets(samples: &[(i64, f64)]) -> Vec<Bucket> {
     };
     let width = ((hi - lo + 1) + BUCKETS - 1) / BUCKETS;
     let mut out = grid(lo, hi);
-    for &(o, e) in samples {
-        let b = &mut out[((o - lo) / width) as usize];
-        b.points += 1;
-        b.max_ulp = b.max_ulp.max(e);
+    for &(o, e, point) in samples {
+        out[((o - lo) / width) as usize].take(1, e, point);
     }
     out
 }
@@ -332,20 +367,29 @@ const DENSE_BUCKET_SPAN: i64 = 1 << 20;
 /// Where plot samples go.
 #[derive(Serialize, Deserialize)]
 enum Samples {
-    /// Every (ordinal, error): buckets span the samples exactly (small, in-memory sweeps).
-    All(Vec<(i64, f64)>),
-    /// Largest error per ordinal of a span known in advance (NaN: no point), then bucketed
+    /// Every (ordinal, error, point): buckets span the samples exactly (small, in-memory
+    /// sweeps).
+    All(Vec<Sample>),
+    /// Largest error per ordinal of a span known in advance (NaN: no point) and that
+    /// point's output and reference (an ordinal is one input, but for ±0), then bucketed
     /// over the samples' own span like `All`.
-    Dense { lo: i64, max: Vec<f64> },
+    Dense {
+        lo: i64,
+        max: Vec<f64>,
+        at: Vec<BucketPoint>,
+    },
     /// Buckets fixed in advance over the ordinals `lo..=hi` (wide streamed sweeps); only the
-    /// touched ones are kept, as (bucket index, points, largest error), an index possibly
-    /// more than once.
+    /// touched ones are kept, as (bucket index, points, largest error, its point), an index
+    /// possibly more than once.
     Grid {
         lo: i64,
         hi: i64,
-        touched: Vec<(usize, u64, f64)>,
+        touched: Vec<Touched>,
     },
 }
+
+/// A grid bucket's share of a stretch: index, points, largest error and its point.
+type Touched = (usize, u64, f64, BucketPoint);
 
 /// Consecutive points sharing the input's sign, binade (hence region) and plot bucket: their
 /// figures are gathered here and joined into the rows when the stretch ends, so that each
@@ -357,6 +401,8 @@ struct Stretch {
     /// Grid bucket (index, first and last ordinal), on a grid.
     bucket: Option<(usize, i64, i64)>,
     acc: Acc,
+    /// Output and reference of the stretch's worst point (`acc.worst`), for the plot.
+    worst_at: (u32, u32),
     /// Largest floored error (with --abs-floor).
     floored: f64,
 }
@@ -391,16 +437,19 @@ pub struct AccuracyAcc {
 }
 
 /// Joins the entries of each touched bucket into one, in bucket order.
-fn compact(touched: &mut Vec<(usize, u64, f64)>) {
+fn compact(touched: &mut Vec<Touched>) {
     touched.sort_by_key(|t| t.0);
-    let mut joined: Vec<(usize, u64, f64)> = Vec::with_capacity(touched.len());
-    for &(index, points, max) in touched.iter() {
+    let mut joined: Vec<Touched> = Vec::with_capacity(touched.len());
+    for &(index, points, max, point) in touched.iter() {
         match joined.last_mut() {
             Some(last) if last.0 == index => {
                 last.1 += points;
-                last.2 = last.2.max(max);
+                if beats(max, point, last.2, Some(last.3)) {
+                    last.2 = max;
+                    last.3 = point;
+                }
             }
-            _ => joined.push((index, points, max)),
+            _ => joined.push((index, points, max, point)),
         }
     }
     *touched = joined;
@@ -414,8 +463,19 @@ fn grid(lo: i64, hi: i64) -> Vec<Bucket> {
             hi: lo + (k + 1) * width - 1,
             points: 0,
             max_ulp: 0.0,
+            worst: None,
         })
         .filter(|b| b.lo <= hi)
+        .collect()
+}
+
+/// The filled slots of a dense span as samples.
+fn dense_list(lo: i64, max: &[f64], at: &[BucketPoint]) -> Vec<Sample> {
+    max.iter()
+        .zip(at)
+        .enumerate()
+        .filter(|(_, (e, _))| !e.is_nan())
+        .map(|(i, (&e, &point))| (lo + i as i64, e, point))
         .collect()
 }
 
@@ -430,10 +490,19 @@ impl AccuracyAcc {
     ) -> Self {
         let samples = match span {
             None => Samples::All(Vec::new()),
-            Some((lo, hi)) if hi - lo < DENSE_BUCKET_SPAN => Samples::Dense {
-                lo,
-                max: vec![f64::NAN; (hi - lo + 1).max(0) as usize],
-            },
+            Some((lo, hi)) if hi - lo < DENSE_BUCKET_SPAN => {
+                let span = (hi - lo + 1).max(0) as usize;
+                let none = BucketPoint {
+                    input: 0,
+                    output: 0,
+                    reference: 0,
+                };
+                Samples::Dense {
+                    lo,
+                    max: vec![f64::NAN; span],
+                    at: vec![none; span],
+                }
+            }
             Some((lo, hi)) => Samples::Grid {
                 lo,
                 hi,
@@ -501,10 +570,16 @@ impl AccuracyAcc {
         let first = stretch.acc.first;
         let region = region_of(l.to_f64(first));
         debug_assert_eq!(region, region_of(l.to_f64(stretch.acc.last)));
-        if let (Samples::Grid { touched, .. }, Some((index, _, _))) =
-            (&mut self.samples, stretch.bucket)
+        if let (Samples::Grid { touched, .. }, Some((index, _, _)), Some(input)) =
+            (&mut self.samples, stretch.bucket, stretch.acc.worst)
         {
-            touched.push((index, stretch.acc.points, stretch.acc.max));
+            let (output, reference) = stretch.worst_at;
+            let point = BucketPoint {
+                input,
+                output,
+                reference,
+            };
+            touched.push((index, stretch.acc.points, stretch.acc.max, point));
         }
         let row = &mut self.regions[region];
         row.0.merge(&stretch.acc);
@@ -521,14 +596,8 @@ impl AccuracyAcc {
     /// (JSON has none); the figures do not change.
     pub fn make_portable(&mut self) {
         self.settle();
-        if let Samples::Dense { lo, max } = &self.samples {
-            let list = max
-                .iter()
-                .enumerate()
-                .filter(|(_, e)| !e.is_nan())
-                .map(|(i, &e)| (lo + i as i64, e))
-                .collect();
-            self.samples = Samples::All(list);
+        if let Samples::Dense { lo, max, at } = &self.samples {
+            self.samples = Samples::All(dense_list(*lo, max, at));
         }
     }
 
@@ -599,15 +668,24 @@ impl AccuracyAcc {
                 key,
                 bucket: self.bucket_of(ordinal),
                 acc: Acc::default(),
+                worst_at: (0, 0),
                 floored: 0.0,
             });
         }
+        let point = BucketPoint {
+            input: p.input,
+            output: out,
+            reference: j.reference,
+        };
         match &mut self.samples {
-            Samples::All(v) => v.push((ordinal, j.error)),
-            Samples::Dense { lo, max } => {
-                let slot = &mut max[(ordinal - *lo) as usize];
-                // NaN marks an empty slot; f64::max ignores it.
-                *slot = slot.max(j.error);
+            Samples::All(v) => v.push((ordinal, j.error, point)),
+            Samples::Dense { lo, max, at } => {
+                let k = (ordinal - *lo) as usize;
+                // NaN marks an empty slot.
+                if max[k].is_nan() || beats(j.error, point, max[k], Some(at[k])) {
+                    max[k] = j.error;
+                    at[k] = point;
+                }
             }
             Samples::Grid { .. } => {}
         }
@@ -622,6 +700,10 @@ impl AccuracyAcc {
             .unwrap_or(BINS.len());
         self.histogram[bin] += n;
         let stretch = self.stretch.as_mut().expect("started above");
+        // Acc::add's own rule for a new worst point (inputs arrive in bit order).
+        if stretch.acc.worst.is_none() || j.error > stretch.acc.max {
+            stretch.worst_at = (out, j.reference);
+        }
         stretch.acc.add(p.input, last, j.error, j.correct, n);
         if let Some(a) = self.abs_floor {
             let ulp = j.exact.ulp(format);
@@ -673,15 +755,28 @@ impl AccuracyAcc {
         self.excluded += other.excluded;
         match (&mut self.samples, other.samples) {
             (Samples::All(mine), Samples::All(theirs)) => mine.extend(theirs),
-            (Samples::Dense { lo, max }, Samples::All(theirs)) => {
-                for (ordinal, e) in theirs {
-                    let slot = &mut max[(ordinal - *lo) as usize];
-                    *slot = slot.max(e);
+            (Samples::Dense { lo, max, at }, Samples::All(theirs)) => {
+                for (ordinal, e, point) in theirs {
+                    let k = (ordinal - *lo) as usize;
+                    if max[k].is_nan() || beats(e, point, max[k], Some(at[k])) {
+                        max[k] = e;
+                        at[k] = point;
+                    }
                 }
             }
-            (Samples::Dense { max: mine, .. }, Samples::Dense { max: theirs, .. }) => {
-                for (m, t) in mine.iter_mut().zip(theirs) {
-                    *m = m.max(t);
+            (
+                Samples::Dense { max, at, .. },
+                Samples::Dense {
+                    max: their_max,
+                    at: their_at,
+                    ..
+                },
+            ) => {
+                for (k, (e, point)) in their_max.into_iter().zip(their_at).enumerate() {
+                    if !e.is_nan() && (max[k].is_nan() || beats(e, point, max[k], Some(at[k]))) {
+                        max[k] = e;
+                        at[k] = point;
+                    }
                 }
             }
             (
@@ -771,21 +866,11 @@ impl AccuracyAcc {
         bounds.push(None);
         let buckets = match self.samples {
             Samples::All(v) => buckets(&v),
-            Samples::Dense { lo, max } => {
-                let v: Vec<(i64, f64)> = max
-                    .iter()
-                    .enumerate()
-                    .filter(|(_, e)| !e.is_nan())
-                    .map(|(i, &e)| (lo + i as i64, e))
-                    .collect();
-                buckets(&v)
-            }
+            Samples::Dense { lo, max, at } => buckets(&dense_list(lo, &max, &at)),
             Samples::Grid { lo, hi, touched } => {
                 let mut buckets = grid(lo, hi);
-                for (index, points, max) in touched {
-                    let b = &mut buckets[index];
-                    b.points += points;
-                    b.max_ulp = b.max_ulp.max(max);
+                for (index, points, max, point) in touched {
+                    buckets[index].take(points, max, point);
                 }
                 buckets
             }

@@ -7,16 +7,19 @@
 mod accuracy;
 mod exact_sum;
 mod kinks;
+mod neighbourhood;
 mod nonfinite;
 mod shape;
 mod special;
 mod thresholds;
 
 pub use accuracy::{
-    accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, FloorView, HistogramBin, RegionRow, Worst,
+    accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, BucketPoint, FloorView, HistogramBin,
+    RegionRow, Worst,
 };
 pub use exact_sum::ExactSum;
 pub use kinks::{kink_sides, KinkSide};
+pub use neighbourhood::{neighbourhoods, NearPoint, Neighbourhood};
 pub use nonfinite::{
     classes, non_finite_part, non_finite_runs, Classes, Known, NonFiniteRun, NonFiniteStream,
     RunCell, RunSummary, RunTotals, RunsPart, ValueClass, LISTED_RUNS, MAX_GAP_SCAN,

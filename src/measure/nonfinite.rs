@@ -40,6 +40,8 @@ pub struct NonFiniteRun {
     pub exact_ends: bool,
     /// "exhaustive" when every input of the run was evaluated, "sampled" otherwise.
     pub interior: &'static str,
+    /// Where, what the kernel gave and what the reference is there, in a sentence.
+    pub message: String,
 }
 
 /// Exact counts over every run of the sweep, whatever is listed.
@@ -132,7 +134,19 @@ impl Raw {
         u64::from(self.last - self.first) + 1
     }
     fn report(&self, format: &dyn Format) -> NonFiniteRun {
+        let exact_ends = self.exact_first && self.exact_last;
+        let sampled = self.known != self.count();
         NonFiniteRun {
+            message: crate::report::sentence::run(
+                format,
+                self.first,
+                self.last,
+                self.count(),
+                self.classes.0.name(),
+                self.classes.1.name(),
+                exact_ends,
+                sampled,
+            ),
             first: BitsValue::new(format, self.first),
             last: BitsValue::new(format, self.last),
             count: self.count(),

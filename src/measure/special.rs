@@ -20,6 +20,8 @@ pub struct SpecialRule {
     pub passed: bool,
     /// The rule, in words.
     pub rule: String,
+    /// What went in, what came out and what the rule expects, in a sentence.
+    pub message: String,
 }
 
 /// Context of the rules.
@@ -69,12 +71,33 @@ pub fn special_values(
     let sign = format.infinity(true) & !format.infinity(false);
     let mut rules = Vec::new();
     let mut push = |p: &Point, expected: u32, passed: bool, rule: String| {
+        // The error against the nearer reference (either side at a kink).
+        let ulp = p.output.filter(|&o| is_finite(format, o)).and_then(|o| {
+            let error = |r: &crate::reference::Reference| r.exact.map(|e| ulp_error(format, o, &e));
+            let right = error(&p.reference);
+            let left = p.left.as_ref().and_then(error);
+            match (right, left) {
+                (Some(r), Some(l)) => Some(r.min(l)),
+                (r, l) => r.or(l),
+            }
+        });
+        let message = crate::report::sentence::special(
+            format,
+            p.input,
+            p.output,
+            expected,
+            passed,
+            &rule,
+            ulp,
+            ctx.tolerance,
+        );
         rules.push(SpecialRule {
             input: BitsValue::new(format, p.input),
             expected: BitsValue::new(format, expected),
             output: p.output.map(|o| BitsValue::new(format, o)),
             passed,
             rule,
+            message,
         })
     };
     let mut sorted: Vec<&Point> = probes.iter().collect();

@@ -29,6 +29,8 @@ pub struct ThresholdReport {
     pub kernel_class: Option<&'static str>,
     /// Representable steps from the reference's threshold to the kernel's, signed outward.
     pub kernel_minus_reference_steps: Option<i64>,
+    /// Both thresholds in a sentence.
+    pub message: String,
 }
 
 /// Searches the kernel's thresholds next to the reference's; `search_kernel` is false for
@@ -72,16 +74,32 @@ pub fn thresholds(
                 }
                 _ => None,
             };
+            let side = if t.positive { "+" } else { "-" };
+            let asymptote = BitsValue::new(format, asymptote);
+            let reference = t.first.map(|b| BitsValue::new(format, b));
+            let kernel = kernel.map(|b| BitsValue::new(format, b));
+            let message = crate::report::sentence::threshold(
+                format,
+                t.kind == ThresholdKind::Overflow,
+                side,
+                &asymptote,
+                reference.as_ref(),
+                kernel.as_ref(),
+                kernel_class,
+                steps,
+                search_kernel,
+            );
             ThresholdReport {
-                side: if t.positive { "+" } else { "-" },
+                side,
                 kind: t.kind,
-                asymptote: BitsValue::new(format, asymptote),
-                reference: t.first.map(|b| BitsValue::new(format, b)),
+                asymptote,
+                reference,
                 reference_confirmed: t.confirmed,
-                kernel: kernel.map(|b| BitsValue::new(format, b)),
+                kernel,
                 kernel_confirmed,
                 kernel_class,
                 kernel_minus_reference_steps: steps,
+                message,
             }
         })
         .collect()

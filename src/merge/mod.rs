@@ -31,6 +31,8 @@ pub struct Merged {
     pub kernels: Vec<Value>,
     /// Whether the shards were manifest runs.
     pub manifest: bool,
+    /// Each kernel's plot buckets (not part of the JSON), for the HTML report.
+    pub plots: Vec<Vec<crate::measure::Bucket>>,
 }
 
 /// Reads a shard report.
@@ -107,7 +109,9 @@ fn first_difference(a: &Value, b: &Value) -> String {
 }
 
 /// Merges the shards of one kernel (in any order).
-fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
+fn merge_kernel(
+    shards: &[(&Path, &Value)],
+) -> Result<(Value, Vec<crate::measure::Bucket>), String> {
     let (first_path, first) = shards[0];
     let shard_of = |path: &Path, report: &Value| -> Result<(u64, u64), String> {
         let s = report.get("shard").ok_or_else(|| {
@@ -210,6 +214,7 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
         extra_inputs,
     } = gathered.figures(format, &mut crate::measure::NoSink);
     let verdict = verdict(
+        format,
         crash.is_some(),
         &hygiene,
         &special_values,
@@ -280,7 +285,7 @@ fn merge_kernel(shards: &[(&Path, &Value)]) -> Result<Value, String> {
         &["provenance", "reference_check"],
         to_value(&reference_check)?,
     );
-    Ok(report)
+    Ok((report, accuracy.buckets))
 }
 
 /// A report section as a JSON value.
@@ -344,10 +349,12 @@ pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
             per_kernel[k].push((file.path.as_path(), report));
         }
     }
-    let kernels = per_kernel
+    let (kernels, plots): (Vec<Value>, Vec<_>) = per_kernel
         .iter()
         .map(|shards| merge_kernel(shards))
-        .collect::<Result<Vec<Value>, String>>()?;
+        .collect::<Result<Vec<_>, String>>()?
+        .into_iter()
+        .unzip();
     let value = if manifest {
         serde_json::json!({ "schema": SCHEMA, "kernels": kernels })
     } else {
@@ -357,5 +364,6 @@ pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
         value,
         kernels,
         manifest,
+        plots,
     })
 }

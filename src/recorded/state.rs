@@ -120,16 +120,33 @@ impl ThresholdWalk {
             }
             _ => None,
         };
+        let side = if self.positive { "+" } else { "-" };
+        let asymptote = BitsValue::new(format, self.asymptote);
+        let reference = self.reference.map(|b| BitsValue::new(format, b));
+        let kernel_value = kernel.map(|(x, _)| BitsValue::new(format, x));
+        let kernel_class = kernel.map(|(_, y)| value_class(format, y));
+        let message = crate::report::sentence::threshold(
+            format,
+            self.kind == crate::sweep::ThresholdKind::Overflow,
+            side,
+            &asymptote,
+            reference.as_ref(),
+            kernel_value.as_ref(),
+            kernel_class,
+            steps,
+            true,
+        );
         ThresholdReport {
-            side: if self.positive { "+" } else { "-" },
+            side,
             kind: self.kind,
-            asymptote: BitsValue::new(format, self.asymptote),
-            reference: self.reference.map(|b| BitsValue::new(format, b)),
+            asymptote,
+            reference,
             reference_confirmed: self.reference_confirmed,
-            kernel: kernel.map(|(x, _)| BitsValue::new(format, x)),
+            kernel: kernel_value,
             kernel_confirmed,
-            kernel_class: kernel.map(|(_, y)| value_class(format, y)),
+            kernel_class,
             kernel_minus_reference_steps: steps,
+            message,
         }
     }
 }
@@ -200,6 +217,8 @@ impl RecordedState {
     /// The determinism check the repeats allow: `None` when no input was recorded twice.
     pub fn determinism(&self, format: &dyn Format) -> Option<crate::report::model::HygieneEntry> {
         (self.repeated > 0).then(|| crate::report::model::HygieneEntry {
+            // Filled in with the other hygiene sentences when the report is assembled.
+            message: String::new(),
             check: "determinism".into(),
             passed: self.disagreeing == 0,
             detail: match self.examples.first() {

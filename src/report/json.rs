@@ -21,7 +21,7 @@
 //!   derivative's; at a kink the nearer one-sided value is used.
 //! - `non_finite`: the listed runs, at most `--list-runs` (default 100): [{first, last: V,
 //!   count, kernel, reference ("nan" | "+inf" | "-inf" | "finite"), exact_ends, interior
-//!   ("exhaustive" | "sampled")}], the longest first, ties to the lowest first bit pattern (a
+//!   ("exhaustive" | "sampled"), message}], the longest first, ties to the lowest first bit pattern (a
 //!   total order, so sharded and unsharded runs list the same runs). A run is maximal: the
 //!   consecutive inputs (in bit order, one sign) where kernel and reference stay in the same
 //!   two different classes.
@@ -34,12 +34,19 @@
 //! Version 2 (this one) replaced version 1's complete list of runs, which grew with the
 //! findings, by the bounded `non_finite` listing plus `non_finite_total` and
 //! `non_finite_summary`; `compare` reads both versions.
-//! - `special_values`: [{input, expected: V, output: V | null, passed, rule}].
-//! - `hygiene`: [{check, passed, detail}] from the kernel runner.
+//! - `special_values`: [{input, expected: V, output: V | null, passed, rule, message}].
+//! - `hygiene`: [{check, passed, detail, message}] from the kernel runner.
+//! - Every `message` is the finding in a sentence: what went in, what came out and what was
+//!   expected ("f(65504) = NaN (0x7e00); the reference is 65504 (0x7bff)"); the verdict's
+//!   `failed` lines are these sentences.
 //! - `crash`: null, or {signal, input: V, count}.
 //! - `thresholds`: [{side ("+" | "-"), kind ("saturation" | "overflow"), asymptote: V,
 //!   reference: V | null, reference_confirmed, kernel: V | null, kernel_confirmed, kernel_class,
-//!   kernel_minus_reference_steps}].
+//!   kernel_minus_reference_steps, message}].
+//! - `neighbourhoods`: [{what, centre: V, points: [{input, output: V | null, reference: V,
+//!   left: V | null, ulp}]}]: 8 inputs on each side of every kink and threshold (the
+//!   reference's and, when elsewhere, the kernel's), shown beside the figures (the HTML
+//!   report's small plots), never counted in them.
 //! - `kinks`: derivative roles, [{input, left, right: V, output: V | null, uses ("left" |
 //!   "right" | "either" | "neither"), ulp}].
 //! - `shape`: forward role, {monotone_function, monotonicity_violations, violations: [{from, to,

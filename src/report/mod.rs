@@ -2,9 +2,12 @@
 
 mod csv;
 mod findings;
+pub mod html;
 pub mod json;
+pub mod junit;
 pub mod model;
 pub mod provenance;
+pub mod sentence;
 mod svg;
 mod terminal;
 mod value;
@@ -12,7 +15,9 @@ mod write;
 
 pub use self::csv::Csv;
 pub use findings::FindingsWriter;
+pub use html::Html;
 pub use json::Json;
+pub use junit::Junit;
 pub use model::CheckReport;
 pub use svg::Svg;
 pub use terminal::Terminal;

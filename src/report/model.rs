@@ -2,7 +2,8 @@
 
 pub use super::provenance::Provenance;
 use crate::measure::{
-    Accuracy, KinkSide, NonFiniteRun, RunCell, RunTotals, Shape, SpecialRule, ThresholdReport,
+    Accuracy, KinkSide, Neighbourhood, NonFiniteRun, RunCell, RunTotals, Shape, SpecialRule,
+    ThresholdReport,
 };
 use crate::report::BitsValue;
 use crate::sweep::{Coverage, SampleMode, SweepKind};
@@ -148,6 +149,9 @@ pub struct CheckReport {
     pub kinks: Vec<KinkSide>,
     /// Forward role: monotonicity and jumps (`null` for other roles).
     pub shape: Option<Shape>,
+    /// Kernel output beside the reference on each side of every threshold and kink (shown,
+    /// not measured: these inputs are in no figure).
+    pub neighbourhoods: Vec<Neighbourhood>,
     /// Inputs left out because the reference failed.
     pub reference_failures: ReferenceFailures,
     /// Outcome.
@@ -237,4 +241,8 @@ pub struct HygieneEntry {
     pub passed: bool,
     /// One line of detail.
     pub detail: String,
+    /// The check in a sentence: what it requires and, when it failed, what went in, what
+    /// came out and what was expected (filled in when the report is assembled).
+    #[serde(default)]
+    pub message: String,
 }

@@ -93,15 +93,7 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         }
     }
     for run in r.non_finite.iter().take(3) {
-        writeln!(
-            out,
-            "              longest: {} .. {}: kernel {}, reference {} ({})",
-            v(&run.first),
-            v(&run.last),
-            run.kernel,
-            run.reference,
-            counted(run.count, "input")
-        )?;
+        writeln!(out, "              longest: {}", run.message)?;
     }
     if total.runs > 3 {
         writeln!(
@@ -200,17 +192,7 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         )?;
     }
     for t in &r.thresholds {
-        let show =
-            |b: &Option<super::BitsValue>| b.as_ref().map(v).unwrap_or_else(|| "never".into());
-        writeln!(
-            out,
-            "  threshold   {:?} ({}) to {}: reference {}, kernel {}",
-            t.kind,
-            t.side,
-            v(&t.asymptote),
-            show(&t.reference),
-            show(&t.kernel)
-        )?;
+        writeln!(out, "  threshold   {}", t.message)?;
     }
     for k in &r.kinks {
         writeln!(

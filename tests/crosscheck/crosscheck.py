@@ -101,7 +101,7 @@ def mine(name, deriv, fmt, bits, P):
 
 
 def run_ulpgauge(exe, name, fmt, deriv, params, rounding):
-    cmd = [exe, "batch", name, "--format", fmt.name]
+    cmd = [exe, "batch", "--function", name, "--format", fmt.name]
     if deriv:
         cmd.append("--derivative")
     for k, v in sorted(params.items()):
