@@ -163,7 +163,7 @@ impl Stream {
                 }
             }
             if end - i > 1 {
-                self.add_run(p, &points[end - 1]);
+                self.add_run(&points[i..end]);
             } else {
                 self.add(p);
             }
@@ -239,13 +239,14 @@ impl Stream {
         consecutive && (equal() || both_exact())
     }
 
-    /// Adds the run from `first` to `last` (consecutive inputs, checked by [`Self::add_all`]):
-    /// either every point equals `first` but for the input, or every output is its reference
+    /// Adds a run of points (consecutive inputs, checked by [`Self::add_all`]): either every
+    /// point equals the first but for the input, or every output is its reference
     /// and equals the exact value (error 0), the references never stepping back.  Each
     /// accumulator takes the run at once, with the figures of adding the points one by one;
     /// none of them is a kept point.
-    fn add_run(&mut self, first: &Point, last: &Point) {
-        self.accuracy.add_run(first, last.input);
+    fn add_run(&mut self, run: &[Point]) {
+        let (first, last) = (&run[0], &run[run.len() - 1]);
+        self.accuracy.add_run(run);
         if let Some(s) = &mut self.shape {
             s.add_run(first, last);
         }

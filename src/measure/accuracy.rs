@@ -606,25 +606,27 @@ impl AccuracyAcc {
         self.add_points(p, p.input, 1);
     }
 
-    /// Adds the points of inputs `p.input..=last` (consecutive bit patterns of one sign and
-    /// one exponent field, finite and nonzero, no left-hand reference), each with p's error,
-    /// correctness and faithfulness — p's output and reference, or any exact output (error 0)
-    /// when p's is — and no subnormal reference: the figures of adding them one by one.
-    pub fn add_run(&mut self, p: &Point, last: u32) {
+    /// Adds a run of points (consecutive bit patterns of one sign and one exponent field,
+    /// finite and nonzero, no left-hand reference), each with the first one's error,
+    /// correctness and faithfulness — its output and reference, or any exact output (error 0)
+    /// when its is — and no subnormal reference: the figures of adding them one by one.
+    pub fn add_run(&mut self, run: &[Point]) {
+        let (Some(p), Some(last)) = (run.first(), run.last()) else {
+            return;
+        };
         let l = self.layout;
         let within = self
             .bucket_of(l.ordinal(p.input))
-            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last)));
-        // Listed points and points off a fixed grid are recorded one by one.  p's output and
-        // reference stand in for each point's: only the error, correctness and faithfulness
-        // (shared by the whole run) and the first point's details (p's own) are read.
+            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last.input)));
+        // Listed points and points off a fixed grid are recorded one by one, each with its own
+        // output and reference (a plot bucket shows its worst point's).
         if !within || self.list_over.is_some() {
-            for input in p.input..=last {
-                self.add(&Point { input, ..p.clone() });
+            for q in run {
+                self.add(q);
             }
             return;
         }
-        self.add_points(p, last, u64::from(last - p.input) + 1);
+        self.add_points(p, last.input, run.len() as u64);
     }
 
     /// [`Self::add`] for `n` equal points from p.input to `last` (n > 1 only on a grid and
