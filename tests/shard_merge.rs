@@ -311,6 +311,22 @@ fn incomplete_duplicate_or_mixed_shards_are_refused() {
         std::fs::write(&path, old.to_string()).unwrap();
         merge_fails(&dir, &[&a[0], &path, &a[2]], expected);
     }
+    // A state edited apart from its report, and a state whose accumulator is malformed.
+    let mut edited = read(&a[1]);
+    let points = edited["accuracy"]["points"].as_u64().unwrap();
+    edited["accuracy"]["points"] = (points + 1).into();
+    let path = dir.join("edited.json");
+    std::fs::write(&path, edited.to_string()).unwrap();
+    merge_fails(
+        &dir,
+        &[&a[0], &path, &a[2]],
+        "the shard state does not give the report's accuracy.points",
+    );
+    let mut corrupted = read(&a[1]);
+    corrupted["shard"]["state"]["stream"]["accuracy"]["histogram"] = "many".into();
+    let path = dir.join("corrupted.json");
+    std::fs::write(&path, corrupted.to_string()).unwrap();
+    merge_fails(&dir, &[&a[0], &path, &a[2]], "unreadable shard state");
     let garbage = dir.join("garbage.json");
     std::fs::write(&garbage, "{ not json").unwrap();
     merge_fails(&dir, &[&garbage], "not a JSON report");

@@ -181,8 +181,12 @@ fn merge_kernel(
             .and_then(|s| s.get("state"))
             .cloned()
             .ok_or_else(|| format!("{}: the shard has no state", path.display()))?;
-        serde_json::from_value::<Gathered>(state)
-            .map_err(|e| format!("{}: unreadable shard state: {e}", path.display()))
+        let read = || {
+            serde_json::from_value::<Gathered>(state.clone())
+                .map_err(|e| format!("{}: unreadable shard state: {e}", path.display()))
+        };
+        agrees_with_report(path, report, read()?, format)?;
+        read()
     });
     let mut gathered = states.next().expect("at least one shard")?;
     for state in states {
@@ -330,9 +334,76 @@ fn merged_hygiene(ordered: &[(&Path, &Value)]) -> Result<Vec<HygieneEntry>, Stri
     Ok(merged)
 }
 
+/// Whether a shard's state gives the figures its own report states: a state edited or
+/// corrupted apart from its report is refused before it can flow into merged figures.
+fn agrees_with_report(
+    path: &Path,
+    report: &Value,
+    state: Gathered,
+    format: &'static dyn Format,
+) -> Result<(), String> {
+    let figures = state.figures(format, &mut crate::measure::NoSink);
+    let checks: [(&str, Value, Option<&Value>); 4] = [
+        (
+            "accuracy.points",
+            Value::from(figures.accuracy.points),
+            report.pointer("/accuracy/points"),
+        ),
+        (
+            "accuracy.max_ulp",
+            Value::from(figures.accuracy.max_ulp),
+            report.pointer("/accuracy/max_ulp"),
+        ),
+        (
+            "non_finite_total.runs",
+            Value::from(figures.non_finite_total.runs),
+            report.pointer("/non_finite_total/runs"),
+        ),
+        (
+            "non_finite_total.inputs",
+            Value::from(figures.non_finite_total.inputs),
+            report.pointer("/non_finite_total/inputs"),
+        ),
+    ];
+    for (key, from_state, stated) in checks {
+        let same = match (stated.and_then(Value::as_f64), from_state.as_f64()) {
+            (Some(a), Some(b)) => a == b,
+            _ => false,
+        };
+        if !same {
+            return Err(format!(
+                "{}: the shard state does not give the report's {key} ({} in the report, {from_state} from the state)",
+                path.display(),
+                stated.map_or("nothing".to_string(), Value::to_string)
+            ));
+        }
+    }
+    Ok(())
+}
+
 /// Joins shard files: every file must hold the same kernels (one, or a manifest's list) and
-/// together they must hold each shard 1..=N of each kernel exactly once.
+/// together they must hold each shard 1..=N of each kernel exactly once. A corrupted state
+/// that slips past validation and trips an internal assertion is refused like any other bad
+/// input: one line, never a panic.
 pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
+    let hook = std::panic::take_hook();
+    std::panic::set_hook(Box::new(|_| {}));
+    let result = std::panic::catch_unwind(|| merge_checked(files));
+    std::panic::set_hook(hook);
+    result.unwrap_or_else(|panic| {
+        let why = panic
+            .downcast_ref::<String>()
+            .cloned()
+            .or_else(|| panic.downcast_ref::<&str>().map(|s| s.to_string()))
+            .unwrap_or_default();
+        Err(format!(
+            "the shard states are inconsistent and cannot be merged ({})",
+            why.lines().next().unwrap_or("internal check failed")
+        ))
+    })
+}
+
+fn merge_checked(files: &[ShardFile]) -> Result<Merged, String> {
     let first = files.first().ok_or("no shard reports given")?;
     let (first_kernels, manifest) = kernels(first)?;
     let mut per_kernel: Vec<Vec<(&Path, &Value)>> = vec![Vec::new(); first_kernels.len()];
