@@ -209,6 +209,21 @@ fn check_suite(r: &CheckReport) -> Suite {
         &classname,
         confirm,
     ));
+    // The verdict's own line, so that the failure reads exactly as the report says it.
+    let non_finite = match r
+        .verdict
+        .failed
+        .iter()
+        .find(|f| f.starts_with("non-finite:"))
+    {
+        Some(line) => Outcome::Failed(line.clone()),
+        None => Outcome::Passed,
+    };
+    cases.push(case(
+        "non-finite: no NaN or infinity where the reference is finite, nor the reverse",
+        &classname,
+        non_finite,
+    ));
     let crash = match &r.crash {
         None => Outcome::Passed,
         Some(c) => Outcome::Error(format!(

@@ -22,12 +22,14 @@ def expected_check(report):
     kernels = report["kernels"] if "kernels" in report else [report]
     tests = failures = errors = 0
     for k in kernels:
-        tests += len(k["special_values"]) + len(k["hygiene"]) + 3
+        tests += len(k["special_values"]) + len(k["hygiene"]) + 4
         failures += sum(not s["passed"] for s in k["special_values"])
         failures += sum(not h["passed"] for h in k["hygiene"])
         limit = k["verdict"]["max_ulp_limit"]
         failures += int(limit is not None and k["accuracy"]["max_ulp"] > limit)
         failures += int(bool(k["provenance"]["reference_check"]["disagreements"]))
+        # Non-finite runs fail unless the check allowed them (verdict.non_finite_allowed).
+        failures += int(k["non_finite_total"]["runs"] > 0 and not k["verdict"]["non_finite_allowed"])
         errors += int(k["crash"] is not None)
     return tests, failures, errors, len(kernels)
 
