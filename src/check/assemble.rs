@@ -1,7 +1,7 @@
 //! The last step of a check: from what was gathered to the report's sections, the verdict and
 //! the provenance.
 
-use super::{confirm, verdict, CheckConfig, CheckRole, Figures, Gathered, Setup, STATE_VERSION};
+use super::{confirm, Acceptance, CheckConfig, CheckRole, Figures, Gathered, Setup, STATE_VERSION};
 use crate::measure::ThresholdReport;
 use crate::reference::Real;
 use crate::report::model::*;
@@ -51,6 +51,18 @@ pub(super) fn report(
             })
         }
     };
+    let figures = gathered.figures(format, sink);
+    let extremes = confirm::extremes(format, &figures.accuracy, &figures.non_finite, &thresholds);
+    let reference_check = confirm::confirm(&setup.refs, format, &extremes);
+    let verdict = figures.verdict(
+        format,
+        &hygiene,
+        &reference_check.disagreements,
+        Acceptance {
+            max_ulp: config.max_ulp,
+            allow_non_finite: config.allow_non_finite,
+        },
+    );
     let Figures {
         accuracy,
         non_finite,
@@ -62,20 +74,7 @@ pub(super) fn report(
         reference_failures,
         crash,
         extra_inputs,
-    } = gathered.figures(format, sink);
-    let extremes = confirm::extremes(format, &accuracy, &non_finite, &thresholds);
-    let reference_check = confirm::confirm(&setup.refs, format, &extremes);
-    let verdict = verdict(
-        format,
-        crash.is_some(),
-        &hygiene,
-        &special_values,
-        accuracy.max_ulp,
-        config.max_ulp,
-        &reference_check.disagreements,
-        non_finite_total,
-        config.allow_non_finite,
-    );
+    } = figures;
     let sweep_info = SweepInfo {
         kinds: spec.kinds.clone(),
         range: spec.range.text.clone(),

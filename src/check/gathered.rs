@@ -185,11 +185,42 @@ impl Gathered {
     }
 }
 
-/// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule, the
-/// `--max-ulp` limit or an MPFR confirmation failed or a non-finite run was found (unless
-/// allowed), 0 otherwise.
-#[allow(clippy::too_many_arguments)]
-pub fn verdict(
+/// What the user accepts: `--max-ulp` and `--allow-non-finite`.
+#[derive(Clone, Copy, Debug, Default)]
+pub struct Acceptance {
+    /// Largest max_ulp that passes.
+    pub max_ulp: Option<f64>,
+    /// Non-finite runs are reported without failing.
+    pub allow_non_finite: bool,
+}
+
+impl Figures {
+    /// The verdict: exit 3 on a crash, 1 when a hygiene check, a special-value rule, the
+    /// `--max-ulp` limit or an MPFR confirmation failed or a non-finite run was found (unless
+    /// accepted), 0 otherwise.
+    pub fn verdict(
+        &self,
+        format: &dyn Format,
+        hygiene: &[HygieneEntry],
+        disagreements: &[BitsValue],
+        accept: Acceptance,
+    ) -> Verdict {
+        verdict(
+            format,
+            self.crash.is_some(),
+            hygiene,
+            &self.special_values,
+            self.accuracy.max_ulp,
+            accept.max_ulp,
+            disagreements,
+            self.non_finite_total,
+            accept.allow_non_finite,
+        )
+    }
+}
+
+#[allow(clippy::too_many_arguments)] // private: the fields of Figures and Acceptance, spelled out
+fn verdict(
     format: &dyn Format,
     crashed: bool,
     hygiene: &[HygieneEntry],

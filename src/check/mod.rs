@@ -20,7 +20,7 @@ pub use crate::report::provenance::{
 };
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
 pub use confirm::Confirmation;
-pub use gathered::{verdict, CrashAt, Crashes, Figures, Gathered};
+pub use gathered::{Acceptance, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};
 pub use probe::{gradient_factor, Folding, Prober, RoleReferences};
 pub use recorded::run_recorded;

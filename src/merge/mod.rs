@@ -9,7 +9,7 @@
 //! Every figure and verdict equals the unsharded run's; `kernel.ns_per_element` and
 //! `provenance` are shard 1's.
 
-use crate::check::{verdict, Confirmation, Figures, Gathered, HygieneEntry, STATE_VERSION};
+use crate::check::{Acceptance, Confirmation, Figures, Gathered, HygieneEntry, STATE_VERSION};
 use crate::format::{self, Format};
 use crate::report::model::SCHEMA;
 use serde_json::{Map, Value};
@@ -205,6 +205,19 @@ fn merge_kernel(
                 .map_err(|e| format!("{}: unreadable reference_check: {e}", path.display()))?;
         reference_check.merge(c);
     }
+    let figures = gathered.figures(format, &mut crate::measure::NoSink);
+    let stated = |key: &str| first.get("verdict").and_then(|v| v.get(key));
+    let verdict = figures.verdict(
+        format,
+        &hygiene,
+        &reference_check.disagreements,
+        Acceptance {
+            max_ulp: stated("max_ulp_limit").and_then(Value::as_f64),
+            allow_non_finite: stated("non_finite_allowed")
+                .and_then(Value::as_bool)
+                .unwrap_or(false),
+        },
+    );
     let Figures {
         accuracy,
         non_finite,
@@ -216,25 +229,7 @@ fn merge_kernel(
         reference_failures,
         crash,
         extra_inputs,
-    } = gathered.figures(format, &mut crate::measure::NoSink);
-    let verdict = verdict(
-        format,
-        crash.is_some(),
-        &hygiene,
-        &special_values,
-        accuracy.max_ulp,
-        first
-            .get("verdict")
-            .and_then(|v| v.get("max_ulp_limit"))
-            .and_then(Value::as_f64),
-        &reference_check.disagreements,
-        non_finite_total,
-        first
-            .get("verdict")
-            .and_then(|v| v.get("non_finite_allowed"))
-            .and_then(Value::as_bool)
-            .unwrap_or(false),
-    );
+    } = figures;
     let inputs = ordered
         .iter()
         .map(|(_, r)| r["sweep"]["inputs"].as_u64().unwrap_or(0))
