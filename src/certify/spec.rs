@@ -13,6 +13,7 @@
 //! in_place = false                     # default false
 //! thread_safe = true                   # default true
 //! timeout = 10.0                       # seconds per batch before the kernel counts as hung
+//! memory = "4G"                        # address space of the worker (check's --kernel-memory)
 //!
 //! [sweep]                              # optional; defaults are `check`'s
 //! kind = ["dense", "edge"]             # or one string: exhaustive | dense | edge | random
@@ -76,6 +77,7 @@ struct KernelTable {
     in_place: bool,
     thread_safe: Option<bool>,
     timeout: Option<f64>,
+    memory: Option<String>,
 }
 
 #[derive(Deserialize, Default)]
@@ -270,6 +272,8 @@ pub struct Spec {
     pub thread_safe: bool,
     /// Seconds per batch.
     pub timeout: f64,
+    /// Address space of the worker, in bytes.
+    pub kernel_memory: u64,
     /// The sweep.
     pub sweep: SweepOptions,
     /// The requirements.
@@ -434,6 +438,10 @@ pub fn load(path: &Path) -> Result<Spec, String> {
     };
     let timeout = k.timeout.unwrap_or(10.0);
     crate::kernel::batch_timeout(timeout, "key `kernel.timeout`")?;
+    let kernel_memory = match &k.memory {
+        Some(text) => crate::kernel::kernel_memory(text, "key `kernel.memory`")?,
+        None => crate::kernel::DEFAULT_KERNEL_MEMORY,
+    };
     let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
     let library = {
         let p = PathBuf::from(&k.library);
@@ -595,6 +603,7 @@ pub fn load(path: &Path) -> Result<Spec, String> {
         in_place: k.in_place,
         thread_safe: k.thread_safe.unwrap_or(true),
         timeout,
+        kernel_memory,
         sweep,
         require,
     })

@@ -122,6 +122,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     };
     let runner_options = RunnerOptions {
         batch_timeout: Duration::from_secs_f64(spec.timeout),
+        kernel_memory: spec.kernel_memory,
         ..RunnerOptions::default()
     };
     let runner = Runner::start(&kernel_spec, runner_options).map_err(|e| {

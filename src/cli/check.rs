@@ -118,6 +118,10 @@ pub struct Args {
     /// Seconds that failing calls may take in all before the kernel is given up on (exit 3).
     #[arg(long, value_name = "SECONDS", default_value_t = crate::kernel::DEFAULT_MAX_FAULT_TIME.as_secs_f64())]
     pub max_fault_time: f64,
+    /// Address space each worker process may use (4G, 1536M, …); an allocation beyond it is
+    /// reported as the kernel running out of memory (exit 3).
+    #[arg(long, value_name = "SIZE", default_value = "4G")]
+    pub kernel_memory: String,
     /// References: `auto` uses the proven fast path where it decides (identical results),
     /// `mpfr` forces MPFR for every point.
     #[arg(long, value_enum, default_value_t = ReferencePath::Auto)]
@@ -534,6 +538,8 @@ fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
         stop_on_crash: args.stop_on_crash,
         max_restarts: limits.0,
         max_fault_time: limits.1,
+        kernel_memory: crate::kernel::kernel_memory(&args.kernel_memory, "--kernel-memory")
+            .map_err(Failure::bad_input)?,
         ..RunnerOptions::default()
     })
 }

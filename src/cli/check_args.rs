@@ -46,6 +46,7 @@ pub fn defaults() -> Args {
         stop_on_crash: false,
         max_restarts: crate::kernel::DEFAULT_MAX_RESTARTS,
         max_fault_time: crate::kernel::DEFAULT_MAX_FAULT_TIME.as_secs_f64(),
+        kernel_memory: "4G".to_string(),
         reference: crate::check::ReferencePath::Auto,
         shard: None,
         quiet: true,

@@ -1,5 +1,12 @@
-//! Running many inputs through the kernel in batches, bisecting a failing batch down to the
+//! Running many inputs through the kernel in batches, splitting a failing batch down to the
 //! input that fails, and knowing when to stop.
+//!
+//! Batches are sized by the kernel's measured pace (a small first batch measures it), and each
+//! call's deadline follows from that pace ([`Runner::deadline`]), so a hang costs seconds, not a
+//! whole `--timeout` per step.  A failing batch is split in [`SPLIT`] parts, not two: each step
+//! that fails costs a deadline, and eight-way splits need a third of the steps.  The input a
+//! split ends on is called again alone in a fresh worker before it is named; if it returns
+//! there, the failure depends on what the worker did before, and the record names the batch.
 //!
 //! Every failed call (crash, hang, a reply the kernel forged) ends its worker, so bisection
 //! costs a worker start per failure.  Two limits bound that cost ([`RunnerOptions`]): the
@@ -20,6 +27,10 @@ const EVERY_CALL_STREAK: u32 = 8;
 const EVERY_CALL_HANGS: u32 = 2;
 /// Single inputs, spread over the batch, tried to answer it.
 const EVERY_CALL_SAMPLES: usize = 3;
+/// Parts a failing batch is split into.
+pub const SPLIT: usize = 8;
+/// Elements of the first batch while the kernel's pace is unknown.
+const CALIBRATION: usize = 256;
 
 /// Largest `--max-restarts`: the crash records a runner keeps grow with it.
 pub const MAX_RESTARTS_LIMIT: u64 = 1_000_000;
@@ -138,17 +149,25 @@ impl Runner {
         let mut stop = self.faults.stopped.is_some();
         let mut lo = 0;
         while lo < first.len() && !stop {
-            let hi = (lo + self.options.batch_size).min(first.len());
-            self.run_range(lo, hi, first, second, &mut outcome, &mut stop);
+            let size = match self.pace() {
+                None => CALIBRATION.min(self.options.batch_size),
+                Some(_) => self.elements_for(self.options.batch_size, 1),
+            };
+            let hi = (lo + size).min(first.len());
+            self.run_range(lo, hi, (lo, hi), first, second, &mut outcome, &mut stop);
             lo = hi;
         }
         outcome
     }
 
+    /// Calls the kernel on `lo..hi`, part of the batch `root` as first sent, splitting it when
+    /// the call fails.
+    #[allow(clippy::too_many_arguments)]
     fn run_range(
         &mut self,
         lo: usize,
         hi: usize,
+        root: (usize, usize),
         first: &[u32],
         second: Option<&[u32]>,
         outcome: &mut RunOutcome,
@@ -186,18 +205,68 @@ impl Runner {
                     });
                     *stop = true;
                 } else if hi - lo == 1 {
-                    outcome.crashes.push(CrashRecord {
-                        input: first[lo],
-                        index: lo,
-                        signal: e.label(),
-                    });
-                    *stop |= self.options.stop_on_crash;
+                    let record = self.name_alone(lo, root, first, second, &e, outcome);
+                    let label = record.signal.clone();
+                    outcome.crashes.push(record);
+                    if self.faults.stopped.is_none() && self.options.stop_on_crash {
+                        self.faults.stopped =
+                            Some(format!("{label}; stopped there (--stop-on-crash)"));
+                    }
+                    *stop |= self.faults.stopped.is_some();
                 } else {
-                    let mid = lo + (hi - lo) / 2;
-                    self.run_range(lo, mid, first, second, outcome, stop);
-                    self.run_range(mid, hi, first, second, outcome, stop);
+                    let parts = SPLIT.min(hi - lo);
+                    for k in 0..parts {
+                        let a = lo + (hi - lo) * k / parts;
+                        let b = lo + (hi - lo) * (k + 1) / parts;
+                        self.run_range(a, b, root, first, second, outcome, stop);
+                    }
                 }
             }
+        }
+    }
+
+    /// Names the failure `e` of the single input `i`, called again alone in a fresh worker
+    /// unless the failed call was its worker's first already: the same failure is pinned to
+    /// the input; a return means the failure depends on the worker's earlier calls, and the
+    /// record names the batch `root` instead (the output from the fresh worker is kept).
+    fn name_alone(
+        &mut self,
+        i: usize,
+        root: (usize, usize),
+        first: &[u32],
+        second: Option<&[u32]>,
+        e: &CallError,
+        outcome: &mut RunOutcome,
+    ) -> CrashRecord {
+        let pinned = |signal: String| CrashRecord {
+            input: first[i],
+            index: i,
+            signal,
+        };
+        if self.last_call_fresh {
+            return pinned(e.label());
+        }
+        match self.call_plain(&first[i..=i], second.map(|s| &s[i..=i])) {
+            Ok(y) => {
+                outcome.outputs[i] = y.first().copied();
+                let format = self.spec().format;
+                let hex = |b: u32| crate::format::hex(format, b);
+                CrashRecord {
+                    input: first[root.0],
+                    index: root.0,
+                    signal: format!(
+                        "{} depends on call history: it came in the batch of {} inputs from {} \
+                         to {} at input {}, which returned when called alone in a fresh worker",
+                        e.label(),
+                        root.1 - root.0,
+                        hex(first[root.0]),
+                        hex(first[root.1 - 1]),
+                        hex(first[i])
+                    ),
+                }
+            }
+            Err(CallError::Stopped(reason)) => pinned(reason),
+            Err(again) => pinned(again.label()),
         }
     }
 

@@ -116,9 +116,13 @@ impl Ctx<'_> {
 fn failed_to_run(e: &CallError, at: &str) -> String {
     match e {
         CallError::Crashed { signal, fault } => {
-            let addr = fault.map_or(String::new(), |f| format!(" at address 0x{:x}", f.addr));
+            // Only a real fault has an address; a raised signal has a sender instead.
+            let addr = fault
+                .filter(|f| f.faulted)
+                .map_or(String::new(), |f| format!(" at address 0x{:x}", f.addr));
             format!("not passed: the kernel crashed ({signal}{addr}) at {at}")
         }
+        CallError::OutOfMemory { .. } => format!("not passed: {} at {at}", e.label()),
         CallError::Hang => format!("not passed: the kernel hung at {at}"),
         CallError::Channel(_) => format!("not passed: {} at {at}", e.label()),
         CallError::Stopped(reason) => format!("could not run: {reason}"),
@@ -437,8 +441,18 @@ fn fp_environment(c: &mut Ctx) -> Verdict {
     )
 }
 
+/// Elements per call that keep a call of `reps` repetitions near a tenth of a second at the
+/// kernel's measured pace, between `least` and `most`: a slow kernel gets smaller calls, never
+/// a deadline it cannot meet.
+fn paced(c: &Ctx, most: usize, least: usize, reps: usize) -> usize {
+    match c.runner.pace() {
+        Some(p) if p > 0.0 => ((0.1 / (p * reps as f64)) as usize).clamp(least, most),
+        _ => most,
+    }
+}
+
 fn determinism(c: &mut Ctx, thread_safe: bool) -> Verdict {
-    let n = 1024;
+    let n = paced(c, 1024, 64, 4);
     let w = c.pool.window(7, n);
     let mut req = c.request(&w, Layout::Padded);
     req.reps = 4;
@@ -473,7 +487,8 @@ fn determinism(c: &mut Ctx, thread_safe: bool) -> Verdict {
     }
     // Each thread gets its own slice; the baseline is each slice called alone.
     let threads = 4;
-    let m = 4096;
+    let reps = 16;
+    let m = paced(c, 4096, 16, threads * reps);
     let w = c.pool.window(11, threads * m);
     let mut alone = Vec::with_capacity(threads * m);
     for k in 0..threads {
@@ -494,7 +509,6 @@ fn determinism(c: &mut Ctx, thread_safe: bool) -> Verdict {
     };
     // Races show only when threads really overlap, which a loaded machine makes rarer: keep
     // trying for a while (at least 3 rounds, at most 64 or about half a second).
-    let reps = 16;
     let (min_rounds, max_rounds) = (3, 64);
     let budget = std::time::Duration::from_millis(500);
     let started = std::time::Instant::now();
@@ -506,7 +520,7 @@ fn determinism(c: &mut Ctx, thread_safe: bool) -> Verdict {
         rounds = round + 1;
         let mut req = c.request(&w, Layout::Padded);
         req.threads = threads as u32;
-        req.reps = reps;
+        req.reps = reps as u32;
         let reply = match c.runner.call(&req) {
             Ok(r) => r,
             Err(e) => {

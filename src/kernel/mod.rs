@@ -6,8 +6,9 @@
 //! pipes; a crash or hang kills only the worker, and the runner bisects the batch down to the
 //! input that triggers it.  Loading a library runs its code, so the worker isolates crashes but
 //! is not a sandbox: what it guarantees is that the main process trusts nothing the worker
-//! sends (`protocol.rs`), bounds the workers it starts (`bisect.rs`), and leaves no process
-//! behind (each worker leads its own process group, killed with it; see `crate::guard`).
+//! sends (`protocol.rs`), bounds the workers it starts (`bisect.rs`) and their address space
+//! (`spawn.rs`), and leaves no process behind (each worker leads its own process group, killed
+//! with it; see `crate::guard`).
 
 pub mod abi;
 pub mod bisect;
@@ -25,7 +26,9 @@ pub use hygiene::HygieneCheck;
 pub use manifest::load_manifest;
 pub use runner::{
     CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME, DEFAULT_MAX_RESTARTS,
+    PACE_FACTOR, PACE_FLOOR,
 };
+pub use spawn::{kernel_memory, show_size, DEFAULT_KERNEL_MEMORY};
 
 use crate::format::Format;
 use std::path::PathBuf;

@@ -36,7 +36,7 @@ pub const MAX_THREADS: u32 = 256;
 pub const MAX_REPS: u32 = 1 << 16;
 /// Longest error message accepted.
 pub const MAX_MESSAGE: usize = 1 << 16;
-/// Size of a fault record after its tag: token, signal, in-guard flag, three addresses.
+/// Size of a fault record after its tag: token, signal, flags, three addresses.
 pub const FAULT_BODY: usize = 8 + 4 + 4 + 8 + 8 + 8;
 
 /// Where the worker puts the buffers of a call.
@@ -104,10 +104,16 @@ pub struct Fault {
     pub token: u64,
     /// Signal number.
     pub signo: i32,
-    /// Faulting address (si_addr).
+    /// Faulting address (si_addr); meaningful only when `faulted`.
     pub addr: u64,
     /// Whether the address lies in a guard page next to y.
     pub in_guard: bool,
+    /// Whether the kernel itself faulted (`si_code > 0`), so that `addr` is where; a signal
+    /// sent with kill, raise or abort carries a sender's pid there instead.
+    pub faulted: bool,
+    /// Whether the worker had run out of its address space (`--kernel-memory`): an allocation
+    /// in the call failed (ENOMEM) or the mappings had reached the limit.
+    pub out_of_memory: bool,
     /// Address of y[0] in the call, 0 when not inside a call.
     pub y_base: u64,
     /// n of the call.
@@ -351,11 +357,10 @@ pub fn decode_bench<R: Read>(r: &mut Reader<R>) -> io::Result<f64> {
 pub fn decode_fault<R: Read>(r: &mut Reader<R>) -> io::Result<Fault> {
     let token = r.u64()?;
     let signo = r.u32()? as i32;
-    let in_guard = match r.u32()? {
-        0 => false,
-        1 => true,
-        _ => return Err(bad("fault record flag")),
-    };
+    let flags = r.u32()?;
+    if flags & !(FLAG_IN_GUARD | FLAG_FAULTED | FLAG_OUT_OF_MEMORY) != 0 {
+        return Err(bad("fault record flag"));
+    }
     let addr = r.u64()?;
     let y_base = r.u64()?;
     let n = r.u64()?;
@@ -363,11 +368,20 @@ pub fn decode_fault<R: Read>(r: &mut Reader<R>) -> io::Result<Fault> {
         token,
         signo,
         addr,
-        in_guard,
+        in_guard: flags & FLAG_IN_GUARD != 0,
+        faulted: flags & FLAG_FAULTED != 0,
+        out_of_memory: flags & FLAG_OUT_OF_MEMORY != 0,
         y_base,
         n,
     })
 }
+
+/// Fault record flags (one word): the address is in a guard page.
+const FLAG_IN_GUARD: u32 = 1;
+/// The kernel really faulted: the address is meaningful.
+const FLAG_FAULTED: u32 = 2;
+/// The worker had run out of its address space.
+const FLAG_OUT_OF_MEMORY: u32 = 4;
 
 /// Fixed-size encoding of a fault record, built without allocating (it is written from a
 /// signal handler).
@@ -376,7 +390,10 @@ pub fn fault_bytes(f: &Fault) -> [u8; 4 + FAULT_BODY] {
     b[0..4].copy_from_slice(&TAG_FAULT.to_le_bytes());
     b[4..12].copy_from_slice(&f.token.to_le_bytes());
     b[12..16].copy_from_slice(&(f.signo as u32).to_le_bytes());
-    b[16..20].copy_from_slice(&(f.in_guard as u32).to_le_bytes());
+    let flags = (f.in_guard as u32) * FLAG_IN_GUARD
+        | (f.faulted as u32) * FLAG_FAULTED
+        | (f.out_of_memory as u32) * FLAG_OUT_OF_MEMORY;
+    b[16..20].copy_from_slice(&flags.to_le_bytes());
     b[20..28].copy_from_slice(&f.addr.to_le_bytes());
     b[28..36].copy_from_slice(&f.y_base.to_le_bytes());
     b[36..44].copy_from_slice(&f.n.to_le_bytes());
@@ -523,6 +540,8 @@ mod tests {
             signo: libc::SIGSEGV,
             addr: 0xdead,
             in_guard: true,
+            faulted: true,
+            out_of_memory: true,
             y_base: 0x1000,
             n: 9,
         };

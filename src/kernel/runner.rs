@@ -30,6 +30,8 @@ pub struct RunnerOptions {
     pub max_restarts: u64,
     /// Time that calls which failed may take in all before the runner stops calling the kernel.
     pub max_fault_time: Duration,
+    /// Address space each worker may use, in bytes (`RLIMIT_AS`).
+    pub kernel_memory: u64,
 }
 
 /// Default of [`RunnerOptions::max_restarts`]: a kernel that crashes on a few hundred inputs
@@ -46,6 +48,7 @@ impl Default for RunnerOptions {
             batch_size: 65_536,
             max_restarts: DEFAULT_MAX_RESTARTS,
             max_fault_time: DEFAULT_MAX_FAULT_TIME,
+            kernel_memory: super::spawn::DEFAULT_KERNEL_MEMORY,
         }
     }
 }
@@ -82,7 +85,15 @@ pub enum CallError {
         /// Fault address and context.
         fault: Option<Fault>,
     },
-    /// No reply within the batch timeout.
+    /// The worker ran out of its address space (`--kernel-memory`, in bytes) and died of
+    /// `signal`.
+    OutOfMemory {
+        /// "SIGSEGV", "SIGABRT", …
+        signal: String,
+        /// The limit.
+        limit: u64,
+    },
+    /// No reply within the call's deadline.
     Hang,
     /// The reply broke the protocol: the kernel wrote into the worker's channel.
     Channel(String),
@@ -97,6 +108,11 @@ impl CallError {
     pub fn label(&self) -> String {
         match self {
             CallError::Crashed { signal, .. } => signal.clone(),
+            CallError::OutOfMemory { signal, limit } => format!(
+                "out of memory: the kernel ran out of its {} address space \
+                 (--kernel-memory; {signal})",
+                super::spawn::show_size(*limit)
+            ),
             CallError::Hang => "hang".to_string(),
             CallError::Channel(m) => {
                 format!("channel: the kernel wrote into the worker's channel ({m})")
@@ -124,6 +140,14 @@ pub struct Runner {
     pub(crate) call_env_change: Option<(usize, u32, u32)>,
     /// Workers started so far.
     pub workers_started: usize,
+    /// Calls sent to the current worker.
+    calls_in_worker: u64,
+    /// Whether the last call sent was its worker's first (so a failure of it owes nothing to
+    /// earlier calls).
+    pub(super) last_call_fresh: bool,
+    /// The kernel's measured pace in seconds per element (a slowly decaying maximum over
+    /// calls that returned); `None` until one has.
+    pace: Option<f64>,
 }
 
 /// The executable to run as the worker: `$ULPGAUGE_WORKER_EXE`, else this executable when it is
@@ -204,6 +228,9 @@ impl Runner {
             load_env: None,
             call_env_change: None,
             workers_started: 0,
+            calls_in_worker: 0,
+            last_call_fresh: false,
+            pace: None,
         };
         runner.ensure_worker().map_err(|e| match e {
             CallError::Worker(m) => m,
@@ -249,9 +276,10 @@ impl Runner {
         for t in &self.abi.trailing {
             cmd.arg("--trailing").arg(format!("{:08x}", t.to_bits()));
         }
-        let worker = WorkerProcess::spawn(cmd)
+        let worker = WorkerProcess::spawn(cmd, self.options.kernel_memory)
             .map_err(|e| CallError::Worker(format!("cannot start {}: {e}", self.exe.display())))?;
         self.workers_started += 1;
+        self.calls_in_worker = 0;
         let w = self.worker.insert(worker);
         let deadline = Instant::now() + self.options.batch_timeout.max(Duration::from_secs(10));
         let hello = (|| -> io::Result<Result<(bool, u32, u32), String>> {
@@ -330,6 +358,12 @@ impl Runner {
             },
             None => "unknown".to_string(),
         };
+        if fault.is_some_and(|f| f.out_of_memory) {
+            return CallError::OutOfMemory {
+                signal,
+                limit: self.options.kernel_memory,
+            };
+        }
         CallError::Crashed { signal, fault }
     }
 
@@ -374,6 +408,8 @@ impl Runner {
         let Some(w) = self.worker.as_mut() else {
             return Err(CallError::Worker("no worker".into()));
         };
+        self.calls_in_worker += 1;
+        self.last_call_fresh = self.calls_in_worker == 1;
         if let Err(e) = encode_call(op, token, request).send(&mut w.to) {
             return Err(self.failure(e));
         }
@@ -408,13 +444,20 @@ impl Runner {
         }
     }
 
-    /// Sends one call request and waits for the reply.
+    /// Sends one call request and waits for the reply, until the deadline the kernel's pace
+    /// gives this much work ([`Runner::deadline`]).
     pub fn call(&mut self, request: &CallRequest) -> Result<CallReply, CallError> {
-        let timeout = self.options.batch_timeout;
-        let reply = self.guarded(|runner| {
+        let work = request.first.len().max(1) as f64 * request.reps.max(1) as f64;
+        let timeout = self.deadline(work);
+        let (reply, took) = self.guarded(|runner| {
             runner.ensure_worker()?;
-            runner.exchange(OP_CALL, request, timeout, |r| decode_reply(r, request))
+            // Time to start a worker is not the kernel's pace.
+            let started = Instant::now();
+            let reply = runner.exchange(OP_CALL, request, timeout, |r| decode_reply(r, request))?;
+            Ok((reply, started.elapsed().as_secs_f64()))
         })?;
+        let sample = (took - PACE_OVERHEAD.as_secs_f64()).max(0.0) / work;
+        self.pace = Some(self.pace.map_or(sample, |p| sample.max(p * PACE_DECAY)));
         if self.call_env_change.is_none()
             && super::fpenv::control_bits(reply.env.0) != super::fpenv::control_bits(reply.env.1)
         {
@@ -457,7 +500,17 @@ impl Runner {
             first: sample.to_vec(),
             second: second.map(|s| s.to_vec()),
         };
-        // Timing runs many calls; allow for that beyond the per-batch limit.
+        // Timing runs some nine calls of at least 2 ms: a slow kernel is timed on fewer inputs
+        // (a tenth of a second's worth each), and the timeout allows for all of them.
+        let n = match self.pace {
+            Some(p) if p > 0.0 => ((0.1 / p) as usize).clamp(16, sample.len()).min(sample.len()),
+            _ => sample.len(),
+        };
+        let req = CallRequest {
+            first: sample[..n].to_vec(),
+            second: second.map(|s| s[..n].to_vec()),
+            ..req
+        };
         let timeout = self.options.batch_timeout.saturating_mul(20);
         self.guarded(|runner| {
             runner.ensure_worker()?;
@@ -465,6 +518,37 @@ impl Runner {
             runner.exchange(OP_BENCH, &req, timeout, |r| decode_bench(r))
         })
         .ok()
+    }
+
+    /// The kernel's measured pace in seconds per element (of calls that returned), if known.
+    pub fn pace(&self) -> Option<f64> {
+        self.pace
+    }
+
+    /// How long a call of `work` elements (n × repetitions) may take before the kernel counts
+    /// as hung: [`PACE_FACTOR`] times what its pace predicts, at least [`PACE_FLOOR`], at most
+    /// the user's timeout (the whole timeout until a call has returned).
+    pub fn deadline(&self, work: f64) -> Duration {
+        let ceiling = self.options.batch_timeout;
+        match self.pace {
+            None => ceiling,
+            Some(p) => {
+                let want = PACE_FLOOR.as_secs_f64() + PACE_FACTOR * p * work;
+                Duration::from_secs_f64(want.min(ceiling.as_secs_f64()))
+            }
+        }
+    }
+
+    /// Elements a call should hold so that the pace predicts at most a quarter of the timeout
+    /// (between 1 and `most`); `most` until the pace is known.
+    pub fn elements_for(&self, most: usize, reps: usize) -> usize {
+        match self.pace {
+            Some(p) if p > 0.0 => {
+                let fit = self.options.batch_timeout.as_secs_f64() / 4.0 / (p * reps.max(1) as f64);
+                (fit as usize).clamp(1, most.max(1))
+            }
+            _ => most.max(1),
+        }
     }
 
     /// Element size in bytes.
@@ -486,6 +570,16 @@ impl Drop for Runner {
         }
     }
 }
+
+/// Shortest deadline of a call once the pace is known: room for a loaded machine's stalls.
+pub const PACE_FLOOR: Duration = Duration::from_secs(2);
+/// How many times its predicted time a call may take.
+pub const PACE_FACTOR: f64 = 20.0;
+/// A call's fixed cost (pipes, wake-ups) left out of the pace it shows.
+const PACE_OVERHEAD: Duration = Duration::from_millis(20);
+/// How much of the slowest pace seen is kept per call that returned: a stall is forgotten
+/// after some dozens of calls, a kernel's steady pace never.
+const PACE_DECAY: f64 = 0.95;
 
 fn forged(what: &str) -> io::Error {
     io::Error::new(io::ErrorKind::InvalidData, what.to_string())

@@ -1,5 +1,5 @@
-//! One worker process: started in a process group of its own, read with a deadline, and ended
-//! with everything the kernel forked.
+//! One worker process: started in a process group of its own under an address-space limit,
+//! read with a deadline, and ended with everything the kernel forked.
 
 use crate::guard::Group;
 use std::io::{self, Read};
@@ -27,8 +27,22 @@ pub(crate) struct WorkerProcess {
 
 impl WorkerProcess {
     /// Starts `cmd` (the worker command line) as the leader of a new process group, with the
-    /// runner's pid for the worker's parent watch.
-    pub(crate) fn spawn(mut cmd: Command) -> io::Result<WorkerProcess> {
+    /// runner's pid for the worker's parent watch and at most `memory` bytes of address space
+    /// (`RLIMIT_AS`, set in the child before exec, so the kernel can never grow past it).
+    pub(crate) fn spawn(mut cmd: Command, memory: u64) -> io::Result<WorkerProcess> {
+        // SAFETY: setrlimit is async-signal-safe and touches only the child being started.
+        unsafe {
+            cmd.pre_exec(move || {
+                let limit = libc::rlimit {
+                    rlim_cur: memory as libc::rlim_t,
+                    rlim_max: memory as libc::rlim_t,
+                };
+                if libc::setrlimit(libc::RLIMIT_AS, &limit) != 0 {
+                    return Err(io::Error::last_os_error());
+                }
+                Ok(())
+            });
+        }
         cmd.arg("--parent")
             .arg(std::process::id().to_string())
             .process_group(0)
@@ -93,6 +107,71 @@ impl WorkerProcess {
     }
 }
 
+/// Smallest `--kernel-memory`: the worker alone (runtime, library, buffers, the arenas of the
+/// hygiene checks' threads) peaks near 0.5 GiB of address space.
+pub const MIN_KERNEL_MEMORY: u64 = 1 << 30;
+/// Largest `--kernel-memory`: the user address space of x86-64 and AArch64 (47/48-bit).
+pub const MAX_KERNEL_MEMORY: u64 = 1 << 47;
+/// Default `--kernel-memory`.
+pub const DEFAULT_KERNEL_MEMORY: u64 = 4 << 30;
+
+/// Parses a size for `--kernel-memory` (`4G`, `4GiB`, `1536M`, `0.5T`, bytes without a unit;
+/// units are powers of 1024) and checks its bounds; `what` names the option in the error.
+pub fn kernel_memory(text: &str, what: &str) -> Result<u64, String> {
+    let t = text.trim();
+    let split = t
+        .find(|c: char| !(c.is_ascii_digit() || c == '.'))
+        .unwrap_or(t.len());
+    let (number, unit) = t.split_at(split);
+    let unit = unit.trim().to_ascii_lowercase();
+    let unit = unit
+        .strip_suffix("ib")
+        .or_else(|| unit.strip_suffix('b'))
+        .unwrap_or(&unit);
+    let scale: u64 = match unit {
+        "" => 1,
+        "k" => 1 << 10,
+        "m" => 1 << 20,
+        "g" => 1 << 30,
+        "t" => 1 << 40,
+        _ => {
+            return Err(format!(
+                "{what} must be a size such as 4G, 1536M or 0.5T, got '{text}'"
+            ))
+        }
+    };
+    let value = number
+        .parse::<f64>()
+        .ok()
+        .filter(|v| v.is_finite())
+        .map(|v| v * scale as f64)
+        .ok_or_else(|| format!("{what} must be a size such as 4G, 1536M or 0.5T, got '{text}'"))?;
+    if !(MIN_KERNEL_MEMORY as f64..=MAX_KERNEL_MEMORY as f64).contains(&value) {
+        return Err(format!(
+            "{what} must be between {} and {} (the worker itself needs about 0.5 GiB), got '{text}'",
+            show_size(MIN_KERNEL_MEMORY),
+            show_size(MAX_KERNEL_MEMORY)
+        ));
+    }
+    Ok(value as u64)
+}
+
+/// A size in the largest binary unit that keeps it readable: "4 GiB", "1.5 GiB", "512 MiB".
+pub fn show_size(bytes: u64) -> String {
+    let (unit, scale) = [("TiB", 1u64 << 40), ("GiB", 1 << 30), ("MiB", 1 << 20)]
+        .into_iter()
+        .find(|&(_, s)| bytes >= s)
+        .unwrap_or(("KiB", 1 << 10));
+    let v = bytes as f64 / scale as f64;
+    if v.fract() == 0.0 {
+        format!("{v} {unit}")
+    } else {
+        format!("{:.2} {unit}", v)
+            .replace(".00 ", " ")
+            .replace("0 ", " ")
+    }
+}
+
 /// Whether the child `pid` has exited, without reaping it.
 fn exited(pid: i32) -> bool {
     // SAFETY: waitid with WNOWAIT only inspects our own child.
@@ -152,5 +231,33 @@ impl Read for Deadline<'_> {
                 ));
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sizes_parse_in_binary_units_and_are_bounded() {
+        // Binary prefixes (IEC 80000-13: Ki = 2^10, Mi = 2^20, Gi = 2^30, Ti = 2^40).
+        for (text, bytes) in [
+            ("4G", 4u64 << 30),
+            ("4GiB", 4 << 30),
+            ("4 gb", 4 << 30),
+            ("1536M", 1536 << 20),
+            ("0.5T", 1 << 39),
+            ("1073741824", 1 << 30),
+            ("2097152K", 2 << 30),
+        ] {
+            assert_eq!(kernel_memory(text, "--kernel-memory"), Ok(bytes), "{text}");
+        }
+        for bad in ["", "G", "4X", "-4G", "512M", "4", "1e3G", "inf", "NaNG", "200T", "1.2.3G"] {
+            let e = kernel_memory(bad, "--kernel-memory").unwrap_err();
+            assert!(e.starts_with("--kernel-memory must be"), "{bad}: {e}");
+        }
+        assert_eq!(show_size(4 << 30), "4 GiB");
+        assert_eq!(show_size(1536 << 20), "1.5 GiB");
+        assert_eq!(show_size(1 << 47), "128 TiB");
     }
 }

@@ -42,6 +42,8 @@ static CALL_N: AtomicU64 = AtomicU64::new(0);
 static GUARD_LO: AtomicU64 = AtomicU64::new(0);
 static GUARD_HI: AtomicU64 = AtomicU64::new(0);
 static PAGE: AtomicU64 = AtomicU64::new(4096);
+/// The address-space limit the runner set (`RLIMIT_AS`), 0 when there is none.
+static AS_LIMIT: AtomicU64 = AtomicU64::new(0);
 
 const CANARY: u8 = 0xa5;
 /// Lowest descriptor the protocol pipes move to.
@@ -125,6 +127,7 @@ pub fn serve(config: WorkerConfig) -> i32 {
         Ordering::SeqCst,
     );
     install_handlers();
+    AS_LIMIT.store(address_space_limit(), Ordering::SeqCst);
 
     let before = fpenv::read();
     let loaded = loader::open(&config.library, &config.symbol);
@@ -228,7 +231,11 @@ impl Region {
                 0,
             )
         });
-        assert!(base != libc::MAP_FAILED, "mmap failed");
+        if base == libc::MAP_FAILED {
+            // Out of address space (the kernel holds the rest): abort with errno still ENOMEM,
+            // so that the fault handler names it.
+            std::process::abort();
+        }
         // A reused mapping looks exactly like a fresh one: canary bytes throughout.
         // SAFETY: the mapping is len bytes long and writable.
         unsafe { std::ptr::write_bytes(base as *mut u8, CANARY, len) };
@@ -430,6 +437,8 @@ impl Kernel {
             };
             Y_BASE.store(y.y as u64, Ordering::SeqCst);
             CALL_N.store(n as u64, Ordering::SeqCst);
+            // An ENOMEM the fault handler sees must come from this call.
+            set_errno(0);
             // SAFETY: buffers hold n elements of the declared type; the kernel's declared shape
             // is what the runner validated.
             unsafe {
@@ -520,6 +529,7 @@ impl Kernel {
         let gp = g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8);
         // SAFETY: as in call().
         let once = || unsafe { self.abi.call(self.symbol, x.ptr, gp, y.y, req.first.len()) };
+        set_errno(0);
         once();
         let mut calls = 1usize;
         loop {
@@ -588,12 +598,18 @@ extern "C" fn on_fatal(signo: i32, info: *mut libc::siginfo_t, _ctx: *mut c_void
     let addr = unsafe { (*info).si_addr() } as u64;
     let page = PAGE.load(Ordering::Relaxed);
     let in_page = |start: u64| start != 0 && addr >= start && addr < start + page;
+    // SAFETY: as above.  si_code > 0: the kernel generated the signal for a fault (SEGV_MAPERR,
+    // FPE_INTDIV, …); otherwise a process sent it and si_addr overlaps the sender's pid.
+    let faulted = unsafe { (*info).si_code } > 0;
     let fault = Fault {
         token: TOKEN.load(Ordering::Relaxed),
         signo,
-        addr,
-        in_guard: in_page(GUARD_LO.load(Ordering::Relaxed))
-            || in_page(GUARD_HI.load(Ordering::Relaxed)),
+        addr: if faulted { addr } else { 0 },
+        faulted,
+        out_of_memory: out_of_address_space(),
+        in_guard: faulted
+            && (in_page(GUARD_LO.load(Ordering::Relaxed))
+                || in_page(GUARD_HI.load(Ordering::Relaxed))),
         y_base: Y_BASE.load(Ordering::Relaxed),
         n: CALL_N.load(Ordering::Relaxed),
     };
@@ -607,4 +623,59 @@ extern "C" fn on_fatal(signo: i32, info: *mut libc::siginfo_t, _ctx: *mut c_void
         libc::signal(signo, libc::SIG_DFL);
         libc::raise(signo);
     }
+}
+
+/// The soft `RLIMIT_AS` of this process, 0 when unlimited.
+fn address_space_limit() -> u64 {
+    let mut r = libc::rlimit {
+        rlim_cur: 0,
+        rlim_max: 0,
+    };
+    // SAFETY: getrlimit writes into r.
+    if unsafe { libc::getrlimit(libc::RLIMIT_AS, &mut r) } != 0 || r.rlim_cur == libc::RLIM_INFINITY
+    {
+        return 0;
+    }
+    r.rlim_cur as u64
+}
+
+/// Sets this thread's errno.
+fn set_errno(value: i32) {
+    // SAFETY: errno is thread-local and always writable.
+    unsafe { *libc::__errno_location() = value };
+}
+
+/// Whether the worker has run out of its address-space limit, judged from a fault handler: the
+/// last failed call of this thread was refused memory (errno ENOMEM; errno is cleared before
+/// each kernel call), or the mappings (`/proc/self/statm`, first field, in pages) are within a
+/// sixteenth of the limit.  Only open, read and close: async-signal-safe.
+fn out_of_address_space() -> bool {
+    let limit = AS_LIMIT.load(Ordering::Relaxed);
+    if limit == 0 {
+        return false;
+    }
+    // SAFETY: errno is readable in any thread.
+    if unsafe { *libc::__errno_location() } == libc::ENOMEM {
+        return true;
+    }
+    let mut buf = [0u8; 32];
+    // SAFETY: a read-only open of a proc file into a stack buffer, then close.
+    let got = unsafe {
+        let fd = libc::open(c"/proc/self/statm".as_ptr(), libc::O_RDONLY | libc::O_CLOEXEC);
+        if fd < 0 {
+            return false;
+        }
+        let got = libc::read(fd, buf.as_mut_ptr() as *mut c_void, buf.len());
+        libc::close(fd);
+        got
+    };
+    let mut pages = 0u64;
+    for &b in buf.iter().take(got.max(0) as usize) {
+        if !b.is_ascii_digit() {
+            break;
+        }
+        pages = pages.saturating_mul(10).saturating_add((b - b'0') as u64);
+    }
+    let size = pages.saturating_mul(PAGE.load(Ordering::Relaxed));
+    size >= limit - limit / 16
 }
