@@ -68,6 +68,18 @@ pub fn batch_timeout(seconds: f64, what: &str) -> Result<Duration, String> {
     Ok(Duration::from_secs_f64(seconds))
 }
 
+/// Inputs pinned alone in a fresh worker that are remembered (and not called again).
+const PINNED_KEPT: usize = 1024;
+
+impl Runner {
+    /// Remembers an input that failed alone in a fresh worker, up to [`PINNED_KEPT`] of them.
+    fn remember(&mut self, first: u32, second: Option<u32>, label: String) {
+        if self.pinned.len() < PINNED_KEPT {
+            self.pinned.insert((first, second), label);
+        }
+    }
+}
+
 /// Calls that failed, the time they took, and whether the runner stopped.
 #[derive(Debug, Default)]
 pub(crate) struct Faults {
@@ -122,6 +134,11 @@ impl Faults {
         }
     }
 
+    /// Whether no call has returned yet and the every-call question was not asked.
+    fn nothing_returned(&self) -> bool {
+        !self.asked && self.ok == 0
+    }
+
     /// Whether the calls so far look like a kernel that fails on every call.
     fn every_call_suspected(&self) -> bool {
         !self.asked
@@ -149,11 +166,28 @@ impl Runner {
         let mut stop = self.faults.stopped.is_some();
         let mut lo = 0;
         while lo < first.len() && !stop {
+            let key = (first[lo], second.map(|s| s[lo]));
+            if let Some(label) = self.pinned.get(&key).cloned() {
+                // Pinned before, alone in a fresh worker: not called again.
+                let record = CrashRecord {
+                    input: first[lo],
+                    index: lo,
+                    signal: label,
+                };
+                self.record(record, &mut outcome, &mut stop);
+                lo += 1;
+                continue;
+            }
             let size = match self.pace() {
                 None => CALIBRATION.min(self.options.batch_size),
                 Some(_) => self.elements_for(self.options.batch_size, 1),
             };
-            let hi = (lo + size).min(first.len());
+            let mut hi = (lo + size).min(first.len());
+            if !self.pinned.is_empty() {
+                hi = (lo + 1..hi)
+                    .find(|&i| self.pinned.contains_key(&(first[i], second.map(|s| s[i]))))
+                    .unwrap_or(hi);
+            }
             self.run_range(lo, hi, (lo, hi), first, second, &mut outcome, &mut stop);
             lo = hi;
         }
@@ -194,7 +228,11 @@ impl Runner {
             // Recorded where the runner stopped.
             Err(CallError::Stopped(_)) => *stop = true,
             Err(e) => {
-                if self.faults.every_call_suspected() {
+                // A split reaches a single input in a few steps: with nothing returned yet,
+                // ask before pinning anything.
+                if self.faults.every_call_suspected()
+                    || (hi - lo == 1 && self.faults.nothing_returned())
+                {
                     self.ask_every_call(first, second, &e);
                 }
                 if let Some(reason) = &self.faults.stopped {
@@ -205,30 +243,66 @@ impl Runner {
                     });
                     *stop = true;
                 } else if hi - lo == 1 {
-                    let record = self.name_alone(lo, root, first, second, &e, outcome);
-                    let label = record.signal.clone();
-                    outcome.crashes.push(record);
-                    if self.faults.stopped.is_none() && self.options.stop_on_crash {
-                        self.faults.stopped =
-                            Some(format!("{label}; stopped there (--stop-on-crash)"));
+                    if let Some(record) = self.name_alone(lo, root, first, second, &e, outcome) {
+                        self.record(record, outcome, stop);
                     }
-                    *stop |= self.faults.stopped.is_some();
                 } else {
+                    let failed = self.faults.failed;
                     let parts = SPLIT.min(hi - lo);
                     for k in 0..parts {
                         let a = lo + (hi - lo) * k / parts;
                         let b = lo + (hi - lo) * (k + 1) / parts;
                         self.run_range(a, b, root, first, second, outcome, stop);
                     }
+                    // Every part returned: what failed was the call history, not an input.  A
+                    // hang is not named so: its deadline came from the pace, which a batch
+                    // slower than the ones before can overrun.
+                    if self.faults.failed == failed && !*stop && !matches!(e, CallError::Hang) {
+                        let record = self.history(&e, root, first);
+                        self.record(record, outcome, stop);
+                    }
                 }
             }
+        }
+    }
+
+    /// Keeps a crash record (a batch whose failures depend on call history once), and stops
+    /// there under `--stop-on-crash`.
+    fn record(&mut self, record: CrashRecord, outcome: &mut RunOutcome, stop: &mut bool) {
+        let label = record.signal.clone();
+        if outcome.crashes.last() != Some(&record) {
+            outcome.crashes.push(record);
+        }
+        if self.faults.stopped.is_none() && self.options.stop_on_crash {
+            self.faults.stopped = Some(format!("{label}; stopped there (--stop-on-crash)"));
+        }
+        *stop |= self.faults.stopped.is_some();
+    }
+
+    /// The record of a failure `e` that did not come back when the inputs of the batch `root`
+    /// were called again in a fresh worker: it names the batch.
+    fn history(&self, e: &CallError, root: (usize, usize), first: &[u32]) -> CrashRecord {
+        let format = self.spec().format;
+        let hex = |b: u32| crate::format::hex(format, b);
+        CrashRecord {
+            input: first[root.0],
+            index: root.0,
+            signal: format!(
+                "{} depends on call history: it came in the batch of {} inputs from {} to {}, \
+                 whose inputs returned when called again from a fresh worker",
+                e.label(),
+                root.1 - root.0,
+                hex(first[root.0]),
+                hex(first[root.1 - 1]),
+            ),
         }
     }
 
     /// Names the failure `e` of the single input `i`, called again alone in a fresh worker
     /// unless the failed call was its worker's first already: the same failure is pinned to
     /// the input; a return means the failure depends on the worker's earlier calls, and the
-    /// record names the batch `root` instead (the output from the fresh worker is kept).
+    /// record names the batch `root` instead (the output from the fresh worker is kept), and a
+    /// hang that does not come back is no record at all (its deadline was the pace's guess).
     fn name_alone(
         &mut self,
         i: usize,
@@ -237,36 +311,29 @@ impl Runner {
         second: Option<&[u32]>,
         e: &CallError,
         outcome: &mut RunOutcome,
-    ) -> CrashRecord {
+    ) -> Option<CrashRecord> {
         let pinned = |signal: String| CrashRecord {
             input: first[i],
             index: i,
             signal,
         };
         if self.last_call_fresh {
-            return pinned(e.label());
+            self.remember(first[i], second.map(|s| s[i]), e.label());
+            return Some(pinned(e.label()));
         }
         match self.call_plain(&first[i..=i], second.map(|s| &s[i..=i])) {
             Ok(y) => {
                 outcome.outputs[i] = y.first().copied();
-                let format = self.spec().format;
-                let hex = |b: u32| crate::format::hex(format, b);
-                CrashRecord {
-                    input: first[root.0],
-                    index: root.0,
-                    signal: format!(
-                        "{} depends on call history: it came in the batch of {} inputs from {} \
-                         to {} at input {}, which returned when called alone in a fresh worker",
-                        e.label(),
-                        root.1 - root.0,
-                        hex(first[root.0]),
-                        hex(first[root.1 - 1]),
-                        hex(first[i])
-                    ),
+                if matches!(e, CallError::Hang) {
+                    return None;
                 }
+                Some(self.history(e, root, first))
             }
-            Err(CallError::Stopped(reason)) => pinned(reason),
-            Err(again) => pinned(again.label()),
+            Err(CallError::Stopped(reason)) => Some(pinned(reason)),
+            Err(again) => {
+                self.remember(first[i], second.map(|s| s[i]), again.label());
+                Some(pinned(again.label()))
+            }
         }
     }
 

@@ -25,7 +25,7 @@ pub use bisect::{batch_timeout, fault_limits};
 pub use hygiene::HygieneCheck;
 pub use manifest::load_manifest;
 pub use runner::{
-    CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME, DEFAULT_MAX_RESTARTS,
+    CallError, CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME, DEFAULT_MAX_RESTARTS,
     PACE_FACTOR, PACE_FLOOR,
 };
 pub use spawn::{kernel_memory, show_size, DEFAULT_KERNEL_MEMORY};

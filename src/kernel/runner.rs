@@ -148,6 +148,9 @@ pub struct Runner {
     /// The kernel's measured pace in seconds per element (a slowly decaying maximum over
     /// calls that returned); `None` until one has.
     pace: Option<f64>,
+    /// Inputs (x, g) that failed alone in a fresh worker, with their failure: later runs
+    /// record them again without calling the kernel.
+    pub(super) pinned: std::collections::HashMap<(u32, Option<u32>), String>,
 }
 
 /// The executable to run as the worker: `$ULPGAUGE_WORKER_EXE`, else this executable when it is
@@ -231,6 +234,7 @@ impl Runner {
             calls_in_worker: 0,
             last_call_fresh: false,
             pace: None,
+            pinned: std::collections::HashMap::new(),
         };
         runner.ensure_worker().map_err(|e| match e {
             CallError::Worker(m) => m,
@@ -572,7 +576,7 @@ impl Drop for Runner {
 }
 
 /// Shortest deadline of a call once the pace is known: room for a loaded machine's stalls.
-pub const PACE_FLOOR: Duration = Duration::from_secs(2);
+pub const PACE_FLOOR: Duration = Duration::from_secs(1);
 /// How many times its predicted time a call may take.
 pub const PACE_FACTOR: f64 = 20.0;
 /// A call's fixed cost (pipes, wake-ups) left out of the pace it shows.

@@ -1,10 +1,13 @@
 /* Lumen Edge (Tidewater Robotics): field-returned firmware builds whose kernels misbehave in
  * ways no accuracy bug explains, kept as fixtures for ulpgauge's containment.  Not part of the
- * demo build: the tests compile this file themselves (tests/hostile_kernels.rs).  Each comment
- * says what ulpgauge must do about the kernel below it. */
+ * demo build: the tests compile this file themselves (tests/hostile_kernels.rs, with
+ * -I kernels-under-test/src), and benches/hostile_kernels.sh times each.  Each comment says
+ * what ulpgauge must do about the kernel below it. */
 #define _GNU_SOURCE
 #include <math.h>
 #include <signal.h>
+#include <stdio.h>
+#include <time.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -127,5 +130,89 @@ LUMEN_EXPORT void lumen_sigmoid_f32_stuck(const float *x, float *y, size_t n) {
     }
     while (!dma_done) {
     }
+    sigmoid_all(x, y, n);
+}
+
+/* Loads a 20 GiB model cache on its first call, 256 MiB at a time, never checking malloc (one
+ * float written per block, so only a page of each is ever touched).  Under the worker's
+ * address-space limit (--kernel-memory, 4 GiB by default) a block comes back NULL and is
+ * written through: ulpgauge must name it "out of memory", quickly, and the worker never
+ * grows past the limit. */
+#define CACHE_BLOCKS 80
+static float *model_cache[CACHE_BLOCKS];
+LUMEN_EXPORT void lumen_sigmoid_f32_model_cache(const float *x, float *y, size_t n) {
+    static int loaded = 0;
+    if (!loaded) {
+        for (int k = 0; k < CACHE_BLOCKS; k++) {
+            model_cache[k] = malloc((size_t)256 << 20);
+            ((volatile float *)model_cache[k])[0] = 1.0f;
+        }
+        loaded = 1;
+    }
+    sigmoid_all(x, y, n);
+}
+
+/* The same cache asked for in one piece (20 GiB at once): the allocation fails before any page
+ * is mapped, so only errno (ENOMEM) tells the cause. */
+LUMEN_EXPORT void lumen_sigmoid_f32_model_slab(const float *x, float *y, size_t n) {
+    static float *slab = 0;
+    if (!slab) {
+        slab = malloc((size_t)20 << 30);
+        ((volatile float *)slab)[0] = 1.0f;
+    }
+    sigmoid_all(x, y, n);
+}
+
+/* Correct but slow: a sensor-synchronised build that waits 1 ms per element.  Nothing is
+ * wrong with it: it must pass every hygiene check and never be called hung. */
+LUMEN_EXPORT void lumen_sigmoid_f32_paced(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        struct timespec ms = {0, 1000000};
+        while (nanosleep(&ms, &ms) != 0) {
+        }
+        y[i] = sigmoidf_ref(x[i]);
+    }
+}
+
+/* Stops on one input: a retry loop waiting for a coprocessor that never answers when x is
+ * exactly 1.  Pinned to x = 1 within seconds, not minutes, at the default --timeout. */
+LUMEN_EXPORT void lumen_sigmoid_f32_stall_at_one(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        if (x[i] == 1.0f)
+            while (!dma_done) {
+            }
+        y[i] = sigmoidf_ref(x[i]);
+    }
+}
+
+/* A watchdog that aborts on the third call a process makes, whatever the inputs.  No input is
+ * to blame: the crash depends on call history, and the report names the batch. */
+LUMEN_EXPORT void lumen_sigmoid_f32_third_call(const float *x, float *y, size_t n) {
+    static int calls = 0;
+    if (++calls == 3) abort();
+    sigmoid_all(x, y, n);
+}
+
+/* Signals itself with SIGSEGV at x = 2 (a "fault injection" hook left enabled): a signal was
+ * sent, no memory was touched, so no faulting address may be reported. */
+LUMEN_EXPORT void lumen_sigmoid_f32_self_signal(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        if (x[i] == 2.0f) raise(SIGSEGV);
+        y[i] = sigmoidf_ref(x[i]);
+    }
+}
+
+/* Reads a coefficient through a stale pointer (0xdead000) at x = 2: a real fault, whose address
+ * is reported. */
+LUMEN_EXPORT void lumen_sigmoid_f32_wild_pointer(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++)
+        y[i] = x[i] == 2.0f ? *(const volatile float *)(uintptr_t)0xdead000 : sigmoidf_ref(x[i]);
+}
+
+/* Closes its standard output and writes a flood to stderr on every call: the worker's pipes are
+ * elsewhere, so results are unaffected. */
+LUMEN_EXPORT void lumen_sigmoid_f32_chatty(const float *x, float *y, size_t n) {
+    for (int k = 0; k < 64; k++) fprintf(stderr, "lumen: calibrating channel %d\n", k);
+    fclose(stdout);
     sigmoid_all(x, y, n);
 }
