@@ -1,6 +1,6 @@
-//! Kernels that misbehave on purpose (kernels-under-test/src/lumen_hostile.c): every fault is
+//! Kernels that misbehave on purpose (tests/hostile/lumen_hostile.c): every fault is
 //! contained, named and bounded, no other kernel's result is lost, and no process outlives
-//! ulpgauge.
+//! ulpgauge.  Wall times of each case: benches/hostile_kernels.sh.
 
 mod kernel_support;
 
@@ -10,7 +10,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Stdio};
 use std::sync::OnceLock;
 use std::time::{Duration, Instant};
-use ulpgauge::kernel::{Runner, RunnerOptions};
+use ulpgauge::kernel::{CallError, Runner, RunnerOptions};
 
 /// Compiles lumen_hostile.c once per test binary; returns the library.
 fn hostile() -> &'static Path {
@@ -21,17 +21,15 @@ fn hostile() -> &'static Path {
             Path::new(env!("CARGO_TARGET_TMPDIR")).join(format!("hostile-{}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();
         let lib = dir.join("liblumen_hostile.so");
-        let src =
-            Path::new(env!("CARGO_MANIFEST_DIR")).join("kernels-under-test/src/lumen_hostile.c");
+        let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+        let src = root.join("tests/hostile/lumen_hostile.c");
         let ok = Command::new(std::env::var("CC").unwrap_or("cc".into()))
-            .args([
-                "-O1",
-                "-std=c11",
-                "-fPIC",
-                "-shared",
-                "-fvisibility=hidden",
-                "-o",
-            ])
+            .args(["-O1", "-std=c11", "-fPIC", "-shared", "-fvisibility=hidden"])
+            .arg(format!(
+                "-I{}",
+                root.join("kernels-under-test/src").display()
+            ))
+            .arg("-o")
             .arg(&lib)
             .arg(&src)
             .arg("-lm")
@@ -430,4 +428,236 @@ fn signalling_only_ulpgauge_ends_a_worker_stuck_in_the_kernel() {
         assert_eq!(status.signal(), Some(signal), "{name}");
         assert_eq!(left_behind(&lib), Vec::<i32>::new(), "{name}");
     }
+}
+
+/// Largest VmPeak (bytes) of the processes mentioning `marker`, sampled every few milliseconds
+/// until `done`.
+fn watch_peak(marker: PathBuf, done: std::sync::Arc<std::sync::atomic::AtomicBool>) -> u64 {
+    let mut peak = 0;
+    while !done.load(std::sync::atomic::Ordering::SeqCst) {
+        for pid in running_with(&marker) {
+            let status = std::fs::read_to_string(format!("/proc/{pid}/status")).unwrap_or_default();
+            // proc(5): "VmPeak: Peak virtual memory size", in kB.
+            if let Some(kb) = status
+                .lines()
+                .find_map(|l| l.strip_prefix("VmPeak:"))
+                .and_then(|v| v.trim().trim_end_matches("kB").trim().parse::<u64>().ok())
+            {
+                peak = peak.max(kb * 1024);
+            }
+        }
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    peak
+}
+
+#[test]
+fn a_kernel_that_wants_20_gib_is_named_out_of_memory_and_held_to_the_limit() {
+    for symbol in [
+        "lumen_sigmoid_f32_model_cache",
+        "lumen_sigmoid_f32_model_slab",
+    ] {
+        let lib = private_copy(symbol);
+        let done = std::sync::Arc::new(std::sync::atomic::AtomicBool::new(false));
+        let watcher = {
+            let (lib, done) = (lib.clone(), done.clone());
+            std::thread::spawn(move || watch_peak(lib, done))
+        };
+        let (code, stderr, report) = check(&lib, symbol, &["--kernel-memory", "2G"]);
+        done.store(true, std::sync::atomic::Ordering::SeqCst);
+        let peak = watcher.join().unwrap();
+        assert_eq!(code, 3, "{symbol}: {stderr}");
+        let report = report.expect("a report");
+        let signal = report["crash"]["signal"].as_str().unwrap();
+        assert!(
+            signal.starts_with(
+                "out of memory: the kernel ran out of its 2 GiB address space (--kernel-memory; SIGSEGV)"
+            ),
+            "{symbol}: {signal}"
+        );
+        assert!(signal.contains("on every call"), "{signal}");
+        assert!(peak <= 2 << 30, "{symbol}: a worker reached {peak} bytes");
+        assert!(left_behind(&lib).is_empty(), "{symbol}");
+    }
+    // The bound is checked before any work: one line, exit 2.
+    let lib = private_copy("memory-bounds");
+    for bad in ["512M", "lots", "1e300G", "0", "300T"] {
+        let (code, stderr, report) = check(
+            &lib,
+            "lumen_sigmoid_f32_model_cache",
+            &["--kernel-memory", bad],
+        );
+        assert_eq!(code, 2, "{bad}: {stderr}");
+        assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
+        assert!(stderr.contains("--kernel-memory must be"), "{stderr}");
+        assert!(report.is_none());
+    }
+    assert!(running_with(&lib).is_empty(), "no worker was started");
+}
+
+#[test]
+fn a_correct_kernel_at_1_ms_per_element_passes_every_hygiene_check() {
+    let mut r = hostile_runner("lumen_sigmoid_f32_paced", kernel_support::options());
+    let x = f32_sample(3000);
+    let out = r.run(&x, None);
+    assert!(out.crashes.is_empty(), "{:?}", out.crashes);
+    assert!(out.outputs.iter().all(|o| o.is_some()));
+    // nanosleep(2) sleeps at least 1 ms per element.
+    let pace = r.pace().expect("a measured pace");
+    assert!(pace >= 0.9e-3, "{pace}");
+    // The sample check uses (HYGIENE_SAMPLE in src/check/mod.rs).
+    let checks = ulpgauge::kernel::hygiene::run_checks(&mut r, &x[..1024], None);
+    assert_eq!(checks.len(), 6);
+    for c in &checks {
+        assert!(c.passed, "{}: {}", c.check, c.detail);
+    }
+    assert_eq!(r.workers_started, 1, "no call was taken for a hang");
+}
+
+#[test]
+fn a_kernel_that_stops_on_one_input_is_pinned_at_the_default_timeout() {
+    let lib = private_copy("stall");
+    let (code, stderr, report) = check(
+        &lib,
+        "lumen_sigmoid_f32_stall_at_one",
+        &["--sweep", "dense"],
+    );
+    assert_eq!(code, 3, "{stderr}");
+    let crash = &report.expect("a report")["crash"];
+    assert_eq!(crash["signal"], "hang");
+    assert_eq!(crash["input"]["bits"], "0x3f800000");
+    assert!(left_behind(&lib).is_empty());
+}
+
+#[test]
+fn a_crash_that_depends_on_call_history_names_the_batch() {
+    let x = f32_sample(2000);
+    let mut r = hostile_runner(
+        "lumen_sigmoid_f32_third_call",
+        RunnerOptions {
+            batch_size: 64,
+            ..kernel_support::options()
+        },
+    );
+    let out = r.run(&x, None);
+    assert!(!out.crashes.is_empty());
+    for c in &out.crashes {
+        assert!(
+            c.signal
+                .starts_with("SIGABRT depends on call history: it came in the batch of ")
+                || c.signal.contains("gave up"),
+            "{}",
+            c.signal
+        );
+        // The record names the batch by its first input.
+        assert_eq!(x[c.index], c.input);
+    }
+    // No input is to blame, so every output was had from a fresh worker.
+    assert!(out.outputs.iter().all(|o| o.is_some()));
+
+    let lib = private_copy("third-call");
+    let (code, stderr, report) = check(
+        &lib,
+        "lumen_sigmoid_f32_third_call",
+        &["--max-restarts", "50"],
+    );
+    assert_eq!(code, 3, "{stderr}");
+    let signal = report.expect("a report")["crash"]["signal"]
+        .as_str()
+        .unwrap()
+        .to_string();
+    assert!(
+        signal.contains("depends on call history") && signal.contains(" to 0x"),
+        "{signal}"
+    );
+    assert!(left_behind(&lib).is_empty());
+}
+
+#[test]
+fn a_faulting_address_is_reported_only_for_a_real_fault() {
+    let x: Vec<u32> = [1.0f32, 2.0].iter().map(|v| v.to_bits()).collect();
+    let request = ulpgauge::kernel::protocol::CallRequest {
+        layout: ulpgauge::kernel::protocol::Layout::Padded,
+        x_offset: 0,
+        y_offset: 0,
+        threads: 1,
+        reps: 1,
+        first: x.clone(),
+        second: None,
+    };
+    // raise(3) sends the signal (si_code SI_TKILL, signal(7)); a load from an unmapped page
+    // faults (SEGV_MAPERR) with si_addr the address loaded.
+    for (symbol, faulted, addr) in [
+        ("lumen_sigmoid_f32_self_signal", false, 0),
+        ("lumen_sigmoid_f32_wild_pointer", true, 0xdead000),
+    ] {
+        let mut r = hostile_runner(symbol, kernel_support::options());
+        match r.call(&request) {
+            Err(CallError::Crashed {
+                signal,
+                fault: Some(f),
+            }) => {
+                assert_eq!(signal, "SIGSEGV", "{symbol}");
+                assert_eq!((f.faulted, f.addr), (faulted, addr), "{symbol}");
+                assert!(!f.out_of_memory);
+            }
+            other => panic!("{symbol}: {other:?}"),
+        }
+        let out = r.run(&x, None);
+        assert_eq!(out.crashes.len(), 1);
+        assert_eq!(
+            (out.crashes[0].index, out.crashes[0].signal.as_str()),
+            (1, "SIGSEGV")
+        );
+    }
+}
+
+#[test]
+fn stop_on_crash_stops_every_later_phase() {
+    let lib = private_copy("stop-on-crash");
+    let (code, stderr, report) = check(
+        &lib,
+        "lumen_sigmoid_f32_wild_pointer",
+        &["--sweep", "dense", "--stop-on-crash"],
+    );
+    assert_eq!(code, 3, "{stderr}");
+    let report = report.expect("a report");
+    assert_eq!(report["crash"]["count"], 1);
+    assert_eq!(report["crash"]["input"]["bits"], "0x40000000");
+    for h in report["hygiene"].as_array().unwrap() {
+        let detail = h["detail"].as_str().unwrap();
+        assert!(
+            h["passed"] == false && detail.contains("(--stop-on-crash)"),
+            "{detail}"
+        );
+    }
+    // Without it, the pinned input is left out and everything else runs.
+    let (code, _, report) = check(
+        &lib,
+        "lumen_sigmoid_f32_wild_pointer",
+        &["--sweep", "dense"],
+    );
+    assert_eq!(code, 3);
+    let report = report.unwrap();
+    assert!(report["hygiene"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .all(|h| h["passed"] == true));
+    assert!(left_behind(&lib).is_empty());
+}
+
+#[test]
+fn a_kernel_that_closes_stdout_and_floods_stderr_changes_nothing() {
+    let lib = private_copy("chatty");
+    let (code, stderr, report) = check(&lib, "lumen_sigmoid_f32_chatty", &[]);
+    assert!(code == 0 || code == 1, "{stderr}");
+    let report = report.expect("a report");
+    assert_eq!(report["crash"], Value::Null);
+    assert!(report["hygiene"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .all(|h| h["passed"] == true));
+    assert!(left_behind(&lib).is_empty());
 }

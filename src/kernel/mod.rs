@@ -25,8 +25,8 @@ pub use bisect::{batch_timeout, fault_limits};
 pub use hygiene::HygieneCheck;
 pub use manifest::load_manifest;
 pub use runner::{
-    CallError, CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME, DEFAULT_MAX_RESTARTS,
-    PACE_FACTOR, PACE_FLOOR,
+    CallError, CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME,
+    DEFAULT_MAX_RESTARTS, PACE_FACTOR, PACE_FLOOR,
 };
 pub use spawn::{kernel_memory, show_size, DEFAULT_KERNEL_MEMORY};
 

@@ -507,7 +507,9 @@ impl Runner {
         // Timing runs some nine calls of at least 2 ms: a slow kernel is timed on fewer inputs
         // (a tenth of a second's worth each), and the timeout allows for all of them.
         let n = match self.pace {
-            Some(p) if p > 0.0 => ((0.1 / p) as usize).clamp(16, sample.len()).min(sample.len()),
+            Some(p) if p > 0.0 => ((0.1 / p) as usize)
+                .clamp(16, sample.len())
+                .min(sample.len()),
             _ => sample.len(),
         };
         let req = CallRequest {

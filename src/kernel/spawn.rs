@@ -252,7 +252,9 @@ mod tests {
         ] {
             assert_eq!(kernel_memory(text, "--kernel-memory"), Ok(bytes), "{text}");
         }
-        for bad in ["", "G", "4X", "-4G", "512M", "4", "1e3G", "inf", "NaNG", "200T", "1.2.3G"] {
+        for bad in [
+            "", "G", "4X", "-4G", "512M", "4", "1e3G", "inf", "NaNG", "200T", "1.2.3G",
+        ] {
             let e = kernel_memory(bad, "--kernel-memory").unwrap_err();
             assert!(e.starts_with("--kernel-memory must be"), "{bad}: {e}");
         }

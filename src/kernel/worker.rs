@@ -661,7 +661,10 @@ fn out_of_address_space() -> bool {
     let mut buf = [0u8; 32];
     // SAFETY: a read-only open of a proc file into a stack buffer, then close.
     let got = unsafe {
-        let fd = libc::open(c"/proc/self/statm".as_ptr(), libc::O_RDONLY | libc::O_CLOEXEC);
+        let fd = libc::open(
+            c"/proc/self/statm".as_ptr(),
+            libc::O_RDONLY | libc::O_CLOEXEC,
+        );
         if fd < 0 {
             return false;
         }
