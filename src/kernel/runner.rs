@@ -495,27 +495,20 @@ impl Runner {
         if sample.is_empty() {
             return None;
         }
+        // Timing runs some nine calls of at least 2 ms: a slow kernel is timed on fewer inputs
+        // (a tenth of a second's worth each), and the timeout allows for all of them.
+        let n = match self.pace {
+            Some(p) if p > 0.0 => ((0.1 / p) as usize).max(16).min(sample.len()),
+            _ => sample.len(),
+        };
         let req = CallRequest {
             layout: Layout::Padded,
             x_offset: 0,
             y_offset: 0,
             threads: 1,
             reps: 7,
-            first: sample.to_vec(),
-            second: second.map(|s| s.to_vec()),
-        };
-        // Timing runs some nine calls of at least 2 ms: a slow kernel is timed on fewer inputs
-        // (a tenth of a second's worth each), and the timeout allows for all of them.
-        let n = match self.pace {
-            Some(p) if p > 0.0 => ((0.1 / p) as usize)
-                .clamp(16, sample.len())
-                .min(sample.len()),
-            _ => sample.len(),
-        };
-        let req = CallRequest {
             first: sample[..n].to_vec(),
             second: second.map(|s| s[..n].to_vec()),
-            ..req
         };
         let timeout = self.options.batch_timeout.saturating_mul(20);
         self.guarded(|runner| {

@@ -39,7 +39,8 @@
 //! - Every `message` is the finding in a sentence: what went in, what came out and what was
 //!   expected ("f(65504) = NaN (0x7e00); the reference is 65504 (0x7bff)"); the verdict's
 //!   `failed` lines are these sentences.
-//! - `crash`: null, or {signal, input: V, count}.
+//! - `crash`: null, or {signal, input: V, count}; `signal` is a signal name ("SIGSEGV"), "hang",
+//!   "out of memory: …", "channel: …", or a failure that "depends on call history" (naming its batch).
 //! - `thresholds`: [{side ("+" | "-"), kind ("saturation" | "overflow"), asymptote: V,
 //!   reference: V | null, reference_confirmed, kernel: V | null, kernel_confirmed, kernel_class,
 //!   kernel_minus_reference_steps, message}].
