@@ -390,9 +390,10 @@ pub fn fault_bytes(f: &Fault) -> [u8; 4 + FAULT_BODY] {
     b[0..4].copy_from_slice(&TAG_FAULT.to_le_bytes());
     b[4..12].copy_from_slice(&f.token.to_le_bytes());
     b[12..16].copy_from_slice(&(f.signo as u32).to_le_bytes());
-    let flags = (f.in_guard as u32) * FLAG_IN_GUARD
-        | (f.faulted as u32) * FLAG_FAULTED
-        | (f.out_of_memory as u32) * FLAG_OUT_OF_MEMORY;
+    let flag = |on: bool, bit: u32| if on { bit } else { 0 };
+    let flags = flag(f.in_guard, FLAG_IN_GUARD)
+        | flag(f.faulted, FLAG_FAULTED)
+        | flag(f.out_of_memory, FLAG_OUT_OF_MEMORY);
     b[16..20].copy_from_slice(&flags.to_le_bytes());
     b[20..28].copy_from_slice(&f.addr.to_le_bytes());
     b[28..36].copy_from_slice(&f.y_base.to_le_bytes());
@@ -548,6 +549,11 @@ mod tests {
         let bytes = fault_bytes(&f);
         let mut cursor = io::Cursor::new(&bytes[4..]);
         assert_eq!(decode_fault(&mut Reader(&mut cursor)).unwrap(), f);
+        // A flag word with an unknown bit is forged.
+        let mut forged = bytes;
+        forged[16] |= 8;
+        let mut cursor = io::Cursor::new(&forged[4..]);
+        assert!(decode_fault(&mut Reader(&mut cursor)).is_err());
         for bad in [f64::NAN, -1.0, f64::INFINITY] {
             let b = bad.to_bits().to_le_bytes();
             let mut cursor = io::Cursor::new(&b[..]);

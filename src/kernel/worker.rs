@@ -636,7 +636,9 @@ fn address_space_limit() -> u64 {
     {
         return 0;
     }
-    r.rlim_cur as u64
+    #[allow(clippy::unnecessary_cast)] // rlim_t is not u64 everywhere
+    let limit = r.rlim_cur as u64;
+    limit
 }
 
 /// Sets this thread's errno.
