@@ -6,6 +6,7 @@
 
 mod assemble;
 mod builtin;
+mod compare_runs;
 mod confirm;
 mod gathered;
 mod kernel;
@@ -18,6 +19,7 @@ mod stream;
 pub use crate::report::provenance::{
     cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance,
 };
+pub use compare_runs::compare_runs;
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
 pub use confirm::Confirmation;
 pub use gathered::{Acceptance, CrashAt, Crashes, Figures, Gathered};

@@ -30,6 +30,12 @@ pub struct RunnerOptions {
     pub max_restarts: u64,
     /// Time that calls which failed may take in all before the runner stops calling the kernel.
     pub max_fault_time: Duration,
+    /// The caller's FP control word (`--caller-fpenv`), set in the worker before loading the
+    /// library and before every call; `None` leaves the default environment.
+    pub caller_fpenv: Option<u32>,
+    /// `GLIBC_TUNABLES` for the worker alone (`--cpu-mask`): what its loader and libm see of
+    /// the CPU.
+    pub glibc_tunables: Option<String>,
 }
 
 /// Default of [`RunnerOptions::max_restarts`]: a kernel that crashes on a few hundred inputs
@@ -46,6 +52,8 @@ impl Default for RunnerOptions {
             batch_size: 65_536,
             max_restarts: DEFAULT_MAX_RESTARTS,
             max_fault_time: DEFAULT_MAX_FAULT_TIME,
+            caller_fpenv: None,
+            glibc_tunables: None,
         }
     }
 }
@@ -248,6 +256,12 @@ impl Runner {
         }
         for t in &self.abi.trailing {
             cmd.arg("--trailing").arg(format!("{:08x}", t.to_bits()));
+        }
+        if let Some(word) = self.options.caller_fpenv {
+            cmd.arg("--fpenv").arg(format!("{word:x}"));
+        }
+        if let Some(tunables) = &self.options.glibc_tunables {
+            cmd.env("GLIBC_TUNABLES", tunables);
         }
         let worker = WorkerProcess::spawn(cmd)
             .map_err(|e| CallError::Worker(format!("cannot start {}: {e}", self.exe.display())))?;
