@@ -43,8 +43,8 @@ LUMEN_EXPORT void lumen_softsign_f32_rcp(const float *x, float *y, size_t n) {
     }
 }
 
-/* exp(t) for t in [-104, 88.7]: t = n ln2 + r, a degree-7 polynomial in r, scaled by 2^n in two
- * steps so that subnormal results come out right.  FUSED selects fmaf or a*b + c. */
+/* exp(t) = p * 2^e for t in [-110, 88.7]: t = e ln2 + r, a degree-7 polynomial in r.  MADD is
+ * fmaf or a*b + c. */
 #define LUMEN_EXP_BODY(MADD)                                                          \
     float k = nearbyintf(t * 0x1.715476p+0f);                                         \
     float r = MADD(-k, 0x1.62e4p-1f, t);                                              \
@@ -57,31 +57,34 @@ LUMEN_EXPORT void lumen_softsign_f32_rcp(const float *x, float *y, size_t n) {
     p = MADD(p, r, 0x1p-1f);                                                          \
     p = MADD(p, r, 1.0f);                                                             \
     p = MADD(p, r, 1.0f);                                                             \
-    int e = (int)k;                                                                   \
-    if (e < -100) {                                                                   \
-        p *= lumen_float((uint32_t)(e + 100 + 127) << 23);                            \
-        return p * 0x1p-100f;                                                         \
-    }                                                                                 \
-    if (e > 127) return p * 2.0f * lumen_float((uint32_t)(e - 1 + 127) << 23);        \
-    return p * lumen_float((uint32_t)(e + 127) << 23);
+    *e = (int)k;                                                                      \
+    return p;
 
 #define LUMEN_MUL_ADD(a, b, c) ((a) * (b) + (c))
 
 #if defined(__x86_64__)
-__attribute__((target("fma"))) static float exp_fma(float t) {
+__attribute__((target("fma"))) static float exp_fma(float t, int *e) {
     LUMEN_EXP_BODY(__builtin_fmaf)
 }
 #endif
-static float exp_plain(float t) {
+static float exp_plain(float t, int *e) {
     LUMEN_EXP_BODY(LUMEN_MUL_ADD)
 }
 
-static inline float silu_with(float v, float (*expf_)(float)) {
+static inline float pow2(int e) { return lumen_float((uint32_t)(e + 127) << 23); }
+
+static inline float silu_with(float v, float (*exp_)(float, int *)) {
+    int e;
     if (v != v) return v;
-    if (v > 88.0f) return v;     /* exp(-v) < 2^-126: v / (1 + tiny) rounds to v */
-    if (v < -104.0f) return v < -110.0f ? copysignf(0.0f, -1.0f) : v * expf_(v);
-    if (v < -80.0f) return v * expf_(v); /* 1 + exp(-v) overflows before v / ... */
-    return v / (1.0f + expf_(-v));
+    if (v > 88.0f) return v; /* exp(-v) < 2^-126: v / (1 + tiny) rounds to v */
+    if (v < -110.0f) return copysignf(0.0f, -1.0f);
+    if (v < -80.0f) { /* v * exp(v), rounded once into the subnormals */
+        float p = exp_(v, &e);
+        return (v * p * pow2(e + 100)) * 0x1p-100f;
+    }
+    float p = exp_(-v, &e);
+    float ex = e > 127 ? p * 2.0f * pow2(e - 1) : p * pow2(e);
+    return v / (1.0f + ex);
 }
 
 #if defined(__x86_64__)

@@ -196,8 +196,13 @@ fn verdict_word(code: i32) -> &'static str {
     }
 }
 
-/// "1,234 of 5,678 outputs differ (first at x = …: … → …)".
-fn differing(format: &dyn crate::format::Format, o: &OutputComparison, what: &str) -> String {
+/// "1,234 of 5,678 outputs differ, first at x = …: A gives …, B gives …".
+fn differing(
+    format: &dyn crate::format::Format,
+    o: &OutputComparison,
+    what: &str,
+    names: [&str; 2],
+) -> String {
     let mut text = format!(
         "{} of {} outputs differ{what}",
         count(o.differing),
@@ -209,9 +214,11 @@ fn differing(format: &dyn crate::format::Format, o: &OutputComparison, what: &st
                 .map_or("no output".to_string(), |v| shown_of(format, v))
         };
         text.push_str(&format!(
-            ", first at x = {}: {} against {}",
+            ", first at x = {}: {} gives {}, {} gives {}",
             shown_of(format, &d.input),
+            names[0],
             out(&d.first),
+            names[1],
             out(&d.second)
         ));
     }
@@ -231,7 +238,12 @@ fn env_section(
     let mut message = format!(
         "In the caller's FP environment ({}: {change}) {}",
         env.names.join(","),
-        differing(format, &outputs, " from the default environment's")
+        differing(
+            format,
+            &outputs,
+            " from the default environment's",
+            ["the default environment", "the caller's"]
+        )
     );
     message.push_str(&format!(
         "; {} of them at subnormal inputs; {} subnormal outputs were flushed to zero and {} \
@@ -320,7 +332,7 @@ fn variants_section(
                     "{} differs from {}: {}",
                     p.second,
                     p.first,
-                    differing(format, &p.outputs, "")
+                    differing(format, &p.outputs, "", [&p.first, &p.second])
                 )
             })
             .collect();
