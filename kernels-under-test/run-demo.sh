@@ -57,6 +57,7 @@ echo "== Certificates (kernels-under-test/specs/)"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
   --html reports/certificate-sigmoid-f16.html
 run certify --spec kernels-under-test/specs/sigmoid-f32-simd.toml --json reports/certificate-sigmoid-f32-simd.json
+run certify --spec kernels-under-test/specs/softsign-f32-rcp.toml --json reports/certificate-softsign-f32-rcp.json
 
 echo
 echo "== This build against the committed baseline"

@@ -310,3 +310,59 @@ fn a_library_built_with_and_without_fma_disagrees_as_variants() {
         .iter()
         .any(|f| f.as_str().unwrap().contains("pade_tanh_nofma differs from pade_tanh_fma")));
 }
+
+#[cfg(target_arch = "x86_64")]
+#[test]
+fn certify_requires_the_same_verdict_in_the_callers_environment() {
+    let lib = kernels().join("liblumen_env.so");
+    let spec = tmp("same-verdict.toml");
+    let cert = tmp("same-verdict.json");
+    let write = |symbol: &str| {
+        std::fs::write(
+            &spec,
+            format!(
+                "[kernel]\nlibrary = {:?}\nsymbol = \"{symbol}\"\nfunction = \"softsign\"\nformat = \"f32\"\n\
+                 [sweep]\nkind = [\"dense\", \"edge\"]\npoints = 16\n\
+                 [require]\nno_spurious_overflow = true\nsame_verdict_in = \"ftz,daz\"\n",
+                lib.to_str().unwrap()
+            ),
+        )
+        .unwrap()
+    };
+    let run = || {
+        ulpgauge(&[
+            "certify",
+            "--spec",
+            spec.to_str().unwrap(),
+            "--json",
+            cert.to_str().unwrap(),
+        ])
+    };
+    write("lumen_softsign_f32_rcp");
+    let (code, err) = run();
+    assert_eq!(code, 1, "{err}");
+    let c = json(&cert);
+    let same = c["requirements"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|r| r["key"] == "require.same_verdict_in")
+        .expect("the requirement")
+        .clone();
+    assert_eq!(same["passed"], false, "{same}");
+    assert!(same["detail"]
+        .as_str()
+        .unwrap()
+        .contains("require.no_spurious_overflow fails by default and passes in ftz,daz"));
+    // A bad environment names the key.
+    std::fs::write(
+        &spec,
+        std::fs::read_to_string(&spec)
+            .unwrap()
+            .replace("ftz,daz", "ftz,turbo"),
+    )
+    .unwrap();
+    let (code, err) = run();
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("same_verdict_in"), "{err}");
+}
