@@ -33,8 +33,11 @@ fn json(path: &Path) -> Value {
 }
 
 fn bits(v: &Value) -> u32 {
-    u32::from_str_radix(v["bits"].as_str().expect("bits").trim_start_matches("0x"), 16)
-        .expect("hex")
+    u32::from_str_radix(
+        v["bits"].as_str().expect("bits").trim_start_matches("0x"),
+        16,
+    )
+    .expect("hex")
 }
 
 /// The inputs a check compares (measured and probes) for a function over f32 and a range.
@@ -225,7 +228,10 @@ fn two_builds() -> Option<PathBuf> {
     if let Ok(out) = Command::new("objdump").arg("-d").args(&objects).output() {
         let text = String::from_utf8_lossy(&out.stdout);
         let (fma, nofma) = text.split_at(text.find("pade_tanh_nofma.o").unwrap_or(0));
-        assert!(fma.contains("vfmadd") || fma.contains("vfmsub"), "no FMA in the -mfma build");
+        assert!(
+            fma.contains("vfmadd") || fma.contains("vfmsub"),
+            "no FMA in the -mfma build"
+        );
         assert!(!nofma.contains("vfmadd"), "FMA in the -mno-fma build");
     }
     Some(lib)
@@ -293,7 +299,9 @@ fn a_library_built_with_and_without_fma_disagrees_as_variants() {
     let differ: Vec<u32> = xs
         .iter()
         .zip(a.iter().zip(&b))
-        .filter(|(_, (p, q))| p != q && !(f32::from_bits(**p).is_nan() && f32::from_bits(**q).is_nan()))
+        .filter(|(_, (p, q))| {
+            p != q && !(f32::from_bits(**p).is_nan() && f32::from_bits(**q).is_nan())
+        })
         .map(|(x, _)| *x)
         .collect();
     assert!(!differ.is_empty());
@@ -308,7 +316,10 @@ fn a_library_built_with_and_without_fma_disagrees_as_variants() {
         .as_array()
         .unwrap()
         .iter()
-        .any(|f| f.as_str().unwrap().contains("pade_tanh_nofma differs from pade_tanh_fma")));
+        .any(|f| f
+            .as_str()
+            .unwrap()
+            .contains("pade_tanh_nofma differs from pade_tanh_fma")));
 }
 
 #[cfg(target_arch = "x86_64")]

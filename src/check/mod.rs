@@ -19,8 +19,8 @@ mod stream;
 pub use crate::report::provenance::{
     cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance,
 };
-pub use compare_runs::compare_runs;
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
+pub use compare_runs::compare_runs;
 pub use confirm::Confirmation;
 pub use gathered::{Acceptance, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};

@@ -552,7 +552,10 @@ pub(super) fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
     })
 }
 
-pub(super) fn start(spec: &KernelSpec, options: &RunnerOptions) -> Result<Box<dyn KernelUnderTest>, Failure> {
+pub(super) fn start(
+    spec: &KernelSpec,
+    options: &RunnerOptions,
+) -> Result<Box<dyn KernelUnderTest>, Failure> {
     let runner = Runner::start(spec, options.clone()).map_err(Failure::bad_input)?;
     Ok(Box::new(RunnerKernel(runner)))
 }
@@ -639,6 +642,8 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
         (args.manifest.is_some(), "--manifest"),
         (args.builtin_kernel.is_some(), "--builtin-kernel"),
         (!args.sweep_options.sweep.is_empty(), "--sweep"),
+        (args.caller_fpenv.is_some(), "--caller-fpenv"),
+        (!args.cpu_mask.is_empty(), "--cpu-mask"),
     ];
     if let Some((_, flag)) = called.iter().find(|(given, _)| *given) {
         return Err(Failure::bad_input(format!(
@@ -703,6 +708,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     let config = build_config(&target, &args)?;
     let outputs = Outputs::from_args(&args)?;
     if let Some(name) = &args.builtin_kernel {
+        if needs_several_runs(&args) {
+            return Err(Failure::bad_input(
+                "--caller-fpenv and --cpu-mask apply to library kernels, which run in a worker",
+            ));
+        }
         let mut kernel = builtin(
             name,
             config.function,
@@ -806,7 +816,10 @@ fn run_manifest_variants(
             ))
         };
         let config = build_config(&target, args).map_err(in_entry)?;
-        let list = extras.caller_fpenv.as_deref().or(args.caller_fpenv.as_deref());
+        let list = extras
+            .caller_fpenv
+            .as_deref()
+            .or(args.caller_fpenv.as_deref());
         let env = caller_env(args, list).map_err(in_entry)?;
         let symbols = if extras.variants.is_empty() {
             vec![spec.symbol.clone()]

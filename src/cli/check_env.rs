@@ -103,7 +103,8 @@ pub fn variants(symbols: &[String], masks: &[String]) -> Vec<Variant> {
         .collect()
 }
 
-type Start<'a> = &'a dyn Fn(&KernelSpec, &RunnerOptions) -> Result<Box<dyn KernelUnderTest>, Failure>;
+type Start<'a> =
+    &'a dyn Fn(&KernelSpec, &RunnerOptions) -> Result<Box<dyn KernelUnderTest>, Failure>;
 type Lead<'a> = &'a dyn Fn(&CheckConfig) -> [String; 4];
 
 /// Checks every variant of one kernel (in the caller's environment too when `env` is set) and
@@ -151,8 +152,7 @@ pub fn check_variants(
         let default_report = run_check(default.as_mut(), &config_v).map_err(failed)?;
         findings.begin(lead(&config_v));
         let mut report = run_check_into(caller.as_mut(), &config_v, findings).map_err(failed)?;
-        let outputs =
-            compare_runs(default.as_mut(), caller.as_mut(), &config_v).map_err(failed)?;
+        let outputs = compare_runs(default.as_mut(), caller.as_mut(), &config_v).map_err(failed)?;
         report.caller_fpenv = Some(env_section(env, outputs, &default_report, &report));
         reports.push(report);
         kernels.push(caller);
@@ -320,7 +320,11 @@ fn variants_section(
         format!(
             "The {} variants ({}) agree bit for bit on all {} inputs compared.",
             variants.len(),
-            variants.iter().map(Variant::name).collect::<Vec<_>>().join(", "),
+            variants
+                .iter()
+                .map(Variant::name)
+                .collect::<Vec<_>>()
+                .join(", "),
             count(pairs.first().map_or(0, |p| p.outputs.compared))
         )
     } else {
@@ -336,10 +340,7 @@ fn variants_section(
                 )
             })
             .collect();
-        format!(
-            "Dispatch variants disagree: {}.",
-            parts.join("; ")
-        )
+        format!("Dispatch variants disagree: {}.", parts.join("; "))
     };
     VariantsSection {
         variants: figures,

@@ -245,17 +245,20 @@ pub fn load_manifest_entries(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras
             variants: k.variants.iter().map(|v| v.get_ref().clone()).collect(),
             caller_fpenv: k.caller_fpenv.as_ref().map(|e| e.get_ref().clone()),
         };
-        specs.push((KernelSpec {
-            library: resolve(library.get_ref()),
-            symbol: symbol.get_ref().clone(),
-            function: function.name().to_string(),
-            format,
-            role,
-            params,
-            param_passing,
-            in_place: k.in_place,
-            thread_safe: k.thread_safe,
-        }, extras));
+        specs.push((
+            KernelSpec {
+                library: resolve(library.get_ref()),
+                symbol: symbol.get_ref().clone(),
+                function: function.name().to_string(),
+                format,
+                role,
+                params,
+                param_passing,
+                in_place: k.in_place,
+                thread_safe: k.thread_safe,
+            },
+            extras,
+        ));
     }
     Ok(specs)
 }
