@@ -377,3 +377,51 @@ fn certify_requires_the_same_verdict_in_the_callers_environment() {
     assert_eq!(code, 2, "{err}");
     assert!(err.contains("same_verdict_in"), "{err}");
 }
+
+#[cfg(target_arch = "x86_64")]
+#[test]
+fn the_fp_environment_hygiene_check_compares_against_the_callers_word() {
+    // lumen_fastmath.c's constructor ORs FTZ|DAZ (0x8040) into MXCSR at load time.
+    let lib = kernels().join("liblumen_fastmath.so");
+    let fp_check = |env: &str| {
+        let out = tmp(&format!("fast-{env}.json"));
+        let (code, err) = ulpgauge(&[
+            "check",
+            "--lib",
+            lib.to_str().unwrap(),
+            "--symbol",
+            "lumen_sigmoid_f32_fast",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f32",
+            "--range=1,2",
+            "--caller-fpenv",
+            env,
+            "--json",
+            out.to_str().unwrap(),
+            "--quiet",
+            "--no-progress",
+        ]);
+        assert!(code == 0 || code == 1, "{err}");
+        json(&out)["hygiene"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|h| h["check"] == "fp-environment")
+            .expect("fp-environment check")
+            .clone()
+    };
+    // A caller already running with FTZ and DAZ sees no change at load.
+    let same = fp_check("ftz,daz");
+    assert_eq!(same["passed"], true, "{same}");
+    // A caller rounding upward (RC = 10b: 0x1f80 | 0x4000) sees FTZ and DAZ switched on.
+    let up = fp_check("up");
+    assert_eq!(up["passed"], false, "{up}");
+    let detail = up["detail"].as_str().unwrap();
+    assert!(detail.contains("0x5f80 -> 0xdfc0"), "{detail}");
+    assert!(
+        detail.contains("FTZ on") && detail.contains("DAZ on"),
+        "{detail}"
+    );
+}
