@@ -47,7 +47,7 @@ run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 \
 echo
 echo "== Where the kernels run: the caller's FP environment and dispatch variants (kernels-under-test/lumen-edge-env.toml)"
 run check --manifest kernels-under-test/lumen-edge-env.toml \
-  --json reports/lumen-edge-env.json --junit reports/lumen-edge-env.xml
+  --json reports/lumen-edge-env.json --junit reports/lumen-edge-env.xml --html reports/lumen-edge-env.html
 echo
 echo "== The dispatching SiLU with FMA hidden from glibc, then shown (--cpu-mask)"
 run check --lib kernels-under-test/build/liblumen_env.so --symbol lumen_silu_f32 --function silu \
