@@ -425,3 +425,42 @@ fn the_fp_environment_hygiene_check_compares_against_the_callers_word() {
         "{detail}"
     );
 }
+
+#[test]
+fn manifest_variants_and_environments_are_validated_before_any_work() {
+    let lib = kernels().join("liblumen_env.so");
+    let manifest = tmp("bad-entry.toml");
+    for (entry, key) in [
+        (
+            "symbol = \"lumen_silu_f32\"\nvariants = [\"lumen_silu_f32_sse2\"]",
+            "`variants`",
+        ),
+        ("function = \"silu\"", "neither `symbol` nor `variants`"),
+        (
+            "variants = [\"lumen_silu_f32_sse2\", \"lumen_silu_f32_avx9\"]",
+            "lumen_silu_f32_avx9",
+        ),
+        (
+            "symbol = \"lumen_silu_f32\"\ncaller-fpenv = \"ftz,warp\"",
+            "`caller-fpenv`",
+        ),
+    ] {
+        let function = if entry.contains("function") {
+            ""
+        } else {
+            "function = \"silu\"\n"
+        };
+        std::fs::write(
+            &manifest,
+            format!(
+                "library = {:?}\n[[kernel]]\n{entry}\n{function}format = \"f32\"\n",
+                lib.to_str().unwrap()
+            ),
+        )
+        .unwrap();
+        let (code, err) = ulpgauge(&["check", "--manifest", manifest.to_str().unwrap(), "--quiet"]);
+        assert_eq!(code, 2, "{entry}: {err}");
+        assert!(err.contains(key), "{entry}: {err}");
+        assert_eq!(err.trim().lines().count(), 1, "{err}");
+    }
+}
