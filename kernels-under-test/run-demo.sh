@@ -45,10 +45,19 @@ run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 \
   --json reports/lumen-edge-faulty.json --csv reports/lumen-edge-faulty.csv --plot reports/lumen-edge-faulty.svg \
   --html reports/lumen-edge-faulty.html --junit reports/lumen-edge-faulty.xml
 echo
+echo "== Where the kernels run: the caller's FP environment and dispatch variants (kernels-under-test/lumen-edge-env.toml)"
+run check --manifest kernels-under-test/lumen-edge-env.toml \
+  --json reports/lumen-edge-env.json --junit reports/lumen-edge-env.xml --html reports/lumen-edge-env.html
+echo
+echo "== The dispatching SiLU with FMA hidden from glibc, then shown (--cpu-mask)"
+run check --lib kernels-under-test/build/liblumen_env.so --symbol lumen_silu_f32 --function silu \
+  --format f32 --cpu-mask=-FMA --cpu-mask=+FMA --json reports/silu-f32-cpu-mask.json
+echo
 echo "== Certificates (kernels-under-test/specs/)"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
   --html reports/certificate-sigmoid-f16.html
 run certify --spec kernels-under-test/specs/sigmoid-f32-simd.toml --json reports/certificate-sigmoid-f32-simd.json
+run certify --spec kernels-under-test/specs/softsign-f32-rcp.toml --json reports/certificate-softsign-f32-rcp.json
 
 echo
 echo "== This build against the committed baseline"

@@ -299,3 +299,37 @@ pub fn judge(req: &Requirements, report: &CheckReport, ranges: &[CheckReport]) -
     }
     out
 }
+
+/// `require.same_verdict_in`: every requirement judged alike by default (`default`) and in the
+/// caller's FP environment `env` (`in_env`, judged from the same spec).
+pub fn same_verdict(env: &str, default: &[Judged], in_env: &[Judged]) -> Judged {
+    let differ: Vec<String> = default
+        .iter()
+        .zip(in_env)
+        .filter(|(d, c)| d.passed != c.passed)
+        .map(|(d, c)| {
+            let word = |p: bool| if p { "passes" } else { "fails" };
+            format!(
+                "{} {} by default and {} in {env} ({} against {})",
+                d.key,
+                word(d.passed),
+                word(c.passed),
+                d.shown,
+                c.shown
+            )
+        })
+        .collect();
+    Judged {
+        key: "require.same_verdict_in".to_string(),
+        requirement: format!("every requirement judged the same in {env} as by default"),
+        limit: json!(env),
+        measured: json!({ "differing": differ.len(), "judged": default.len() }),
+        shown: format!("{}/{} alike", default.len() - differ.len(), default.len()),
+        passed: differ.is_empty(),
+        detail: if differ.is_empty() {
+            format!("{} requirements judged alike", default.len())
+        } else {
+            differ.join("; ")
+        },
+    }
+}

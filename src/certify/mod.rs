@@ -20,6 +20,15 @@ pub fn certify(
     kernel: &mut dyn KernelUnderTest,
     config: &CheckConfig,
 ) -> Result<Certificate, String> {
+    certify_in_env(spec, kernel, None, config)
+}
+
+/// The main check and one check per `require.range`, on one kernel.
+fn checks(
+    spec: &Spec,
+    kernel: &mut dyn KernelUnderTest,
+    config: &CheckConfig,
+) -> Result<(crate::report::CheckReport, Vec<crate::report::CheckReport>), String> {
     let report = run_check(kernel, config)?;
     let mut range_reports = Vec::new();
     for limit in &spec.require.ranges {
@@ -29,7 +38,25 @@ pub fn certify(
         sub.progress = false;
         range_reports.push(run_check(kernel, &sub)?);
     }
-    let judged = judge(&spec.require, &report, &range_reports);
+    Ok((report, range_reports))
+}
+
+/// [`certify`], with `caller` the same kernel started in the caller's FP environment of
+/// `require.same_verdict_in`: every requirement is judged in both, and the requirement
+/// `same_verdict_in` passes when each is judged alike.
+pub fn certify_in_env(
+    spec: &Spec,
+    kernel: &mut dyn KernelUnderTest,
+    caller: Option<&mut dyn KernelUnderTest>,
+    config: &CheckConfig,
+) -> Result<Certificate, String> {
+    let (report, range_reports) = checks(spec, kernel, config)?;
+    let mut judged = judge(&spec.require, &report, &range_reports);
+    if let (Some(caller), Some(env)) = (caller, &spec.require.same_verdict_in) {
+        let (c_report, c_ranges) = checks(spec, caller, config)?;
+        let in_env = judge(&spec.require, &c_report, &c_ranges);
+        judged.push(judge::same_verdict(env, &judged, &in_env));
+    }
     Ok(certificate::certificate(
         spec,
         report,

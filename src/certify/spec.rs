@@ -35,6 +35,8 @@
 //! monotone = true                      # forward kernels of monotone functions
 //! hygiene = true                       # all six checks, or a list: ["tail", "bounds"]
 //! kinks = "either"                     # derivative/gradient kernels: left | right | either
+//! same_verdict_in = "ftz,daz"          # every requirement judged the same in this caller FP
+//!                                      # environment (as `check --caller-fpenv`) as by default
 //! [[require.range]]                    # per-range limits, each measured by its own sweep
 //! range = "-1,1"
 //! max_ulp = 0.5
@@ -106,6 +108,7 @@ struct RequireTable {
     monotone: Option<bool>,
     hygiene: Option<HygieneValue>,
     kinks: Option<String>,
+    same_verdict_in: Option<String>,
     #[serde(default)]
     range: Vec<RangeTable>,
 }
@@ -222,6 +225,9 @@ pub struct Requirements {
     pub kinks: Option<KinkSide>,
     /// Per-range limits.
     pub ranges: Vec<RangeLimit>,
+    /// A caller's FP environment ("ftz,daz") in which every other requirement must be judged
+    /// as it is in the default environment.
+    pub same_verdict_in: Option<String>,
 }
 
 /// The sweep a spec asks for, as `check` options.
@@ -585,6 +591,14 @@ pub fn load(path: &Path) -> Result<Spec, String> {
         hygiene,
         kinks,
         ranges,
+        same_verdict_in: match &r.same_verdict_in {
+            Some(list) => {
+                crate::kernel::fpenv::caller_word(0, list)
+                    .map_err(|e| format!("key `require.same_verdict_in`: {e}"))?;
+                Some(list.clone())
+            }
+            None => None,
+        },
     };
     if require.is_empty() {
         return Err("key `require`: lists no requirement (e.g. max_ulp = 1.0)".into());
@@ -624,5 +638,6 @@ impl Requirements {
             && self.hygiene.is_empty()
             && self.kinks.is_none()
             && self.ranges.is_empty()
+            && self.same_verdict_in.is_none()
     }
 }

@@ -159,6 +159,8 @@ pub(super) fn report(
         provenance,
         shard,
         recorded,
+        caller_fpenv: None,
+        variants: None,
     })
 }
 

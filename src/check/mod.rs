@@ -6,6 +6,7 @@
 
 mod assemble;
 mod builtin;
+mod compare_runs;
 mod confirm;
 mod gathered;
 mod kernel;
@@ -19,6 +20,7 @@ pub use crate::report::provenance::{
     cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance,
 };
 pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
+pub use compare_runs::compare_runs;
 pub use confirm::Confirmation;
 pub use gathered::{Acceptance, CrashAt, Crashes, Figures, Gathered};
 pub use kernel::{HygieneEntry, InProcessKernel, KernelCrash, KernelOutput, KernelUnderTest};

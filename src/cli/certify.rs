@@ -134,8 +134,32 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         Failure::bad_input(format!("spec {shown}: key `{key}`: {e}"))
     })?;
     let mut kernel = RunnerKernel(runner);
-    let cert = certify::certify(&spec, &mut kernel, &config)
-        .map_err(|message| Failure { code: 1, message })?;
+    let mut caller = match &spec.require.same_verdict_in {
+        Some(list) => {
+            let env = super::check_env::CallerEnv::parse(list).map_err(|e| {
+                Failure::bad_input(format!("spec {shown}: key `require.same_verdict_in`: {e}"))
+            })?;
+            let options = RunnerOptions {
+                batch_timeout: Duration::from_secs_f64(spec.timeout),
+                caller_fpenv: Some(env.word),
+                kernel_memory: spec.kernel_memory,
+                ..RunnerOptions::default()
+            };
+            let runner = Runner::start(&kernel_spec, options)
+                .map_err(|e| Failure::bad_input(format!("spec {shown}: {e}")))?;
+            Some(RunnerKernel(runner))
+        }
+        None => None,
+    };
+    let cert = certify::certify_in_env(
+        &spec,
+        &mut kernel,
+        caller
+            .as_mut()
+            .map(|k| k as &mut dyn crate::check::KernelUnderTest),
+        &config,
+    )
+    .map_err(|message| Failure { code: 1, message })?;
     if let Some(path) = &args.json {
         let mut text = serde_json::to_string_pretty(&cert).map_err(|e| Failure {
             code: 1,

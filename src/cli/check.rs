@@ -6,6 +6,7 @@
 //! runner, adapt it to [`KernelUnderTest`] and call [`run_with`] (or [`run_many`] for a
 //! manifest). Everything that can be bad input is checked before any kernel is called.
 
+use super::check_env::{self, CallerEnv};
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
 use crate::check::{
@@ -13,7 +14,9 @@ use crate::check::{
     RunnerKernel, Shard,
 };
 use crate::format::Format;
-use crate::kernel::{load_manifest, KernelSpec, ParamPassing, Runner, RunnerOptions};
+use crate::kernel::{
+    load_manifest, load_manifest_entries, KernelSpec, ParamPassing, Runner, RunnerOptions,
+};
 use crate::recorded::{Recorded, RecordedPaths};
 use crate::report::{
     check_outputs, write_atomic, CheckReport, Csv, FindingsWriter, Html, Json, Junit, ReportFormat,
@@ -150,6 +153,17 @@ pub struct Args {
     /// Gradient roles: the recorded upstream gradients g, one per input.
     #[arg(long, value_name = "G.npy", requires = "inputs")]
     pub grads: Option<PathBuf>,
+    /// Also run the kernel in the caller's FP environment, as a framework would, and report
+    /// what changed against the default one: comma-separated from `ftz` (subnormal results
+    /// flushed to zero), `daz` (subnormal inputs read as zero) and one rounding mode
+    /// (`nearest`, `down`, `up`, `toward-zero`). The verdict is the caller's environment's.
+    #[arg(long, value_name = "LIST")]
+    pub caller_fpenv: Option<String>,
+    /// What the worker's dynamic loader and libm see of the CPU: glibc's `glibc.cpu.hwcaps`
+    /// list (e.g. -AVX2,-FMA), set in the worker's GLIBC_TUNABLES only. Given more than once,
+    /// each mask is a variant of the kernel, measured and compared bit for bit.
+    #[arg(long, value_name = "MASK", allow_hyphen_values = true)]
+    pub cpu_mask: Vec<String>,
 }
 
 /// Which inputs a check sweeps: shared by `check` and `matrix` (certify sets them from its
@@ -519,7 +533,7 @@ pub fn run_many(kernels: &mut [Configured], outputs: &Outputs) -> Result<i32, Fa
 }
 
 /// The first columns of a kernel's findings rows: function, format, role, symbol.
-fn lead(config: &CheckConfig) -> [String; 4] {
+pub(super) fn lead(config: &CheckConfig) -> [String; 4] {
     [
         config.function.name().to_string(),
         config.format.name().to_string(),
@@ -528,7 +542,7 @@ fn lead(config: &CheckConfig) -> [String; 4] {
     ]
 }
 
-fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
+pub(super) fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
     let batch_timeout =
         crate::kernel::batch_timeout(args.timeout, "--timeout").map_err(Failure::bad_input)?;
     let limits = crate::kernel::fault_limits(args.max_restarts, args.max_fault_time)
@@ -544,7 +558,10 @@ fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
     })
 }
 
-fn start(spec: &KernelSpec, options: &RunnerOptions) -> Result<Box<dyn KernelUnderTest>, Failure> {
+pub(super) fn start(
+    spec: &KernelSpec,
+    options: &RunnerOptions,
+) -> Result<Box<dyn KernelUnderTest>, Failure> {
     let runner = Runner::start(spec, options.clone()).map_err(Failure::bad_input)?;
     Ok(Box::new(RunnerKernel(runner)))
 }
@@ -631,6 +648,8 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
         (args.manifest.is_some(), "--manifest"),
         (args.builtin_kernel.is_some(), "--builtin-kernel"),
         (!args.sweep_options.sweep.is_empty(), "--sweep"),
+        (args.caller_fpenv.is_some(), "--caller-fpenv"),
+        (!args.cpu_mask.is_empty(), "--cpu-mask"),
     ];
     if let Some((_, flag)) = called.iter().find(|(given, _)| *given) {
         return Err(Failure::bad_input(format!(
@@ -685,6 +704,9 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             ));
         }
         let outputs = Outputs::from_args(&args)?;
+        if needs_several_runs(&args) || manifest_has_extras(path)? {
+            return run_manifest_variants(path, &args, &outputs);
+        }
         let mut kernels = manifest_kernels(path, &args)?;
         return run_many(&mut kernels, &outputs);
     }
@@ -692,6 +714,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     let config = build_config(&target, &args)?;
     let outputs = Outputs::from_args(&args)?;
     if let Some(name) = &args.builtin_kernel {
+        if needs_several_runs(&args) {
+            return Err(Failure::bad_input(
+                "--caller-fpenv and --cpu-mask apply to library kernels, which run in a worker",
+            ));
+        }
         let mut kernel = builtin(
             name,
             config.function,
@@ -704,6 +731,127 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         return run_with(kernel.as_mut(), &config, &outputs);
     }
     let spec = spec_from_args(&target, &config, &args)?;
+    if needs_several_runs(&args) {
+        let env = caller_env(&args, args.caller_fpenv.as_deref())?;
+        let variants = check_env::variants(std::slice::from_ref(&spec.symbol), &args.cpu_mask);
+        let options = runner_options(&args)?;
+        let mut findings = outputs.findings_writer()?;
+        let reports = check_env::check_variants(
+            &spec,
+            &config,
+            &variants,
+            env.as_ref(),
+            &options,
+            &mut findings,
+            &start,
+            &lead,
+        )?;
+        let many = reports.len() > 1;
+        emit_with(&reports, many, &outputs, Some(findings))?;
+        return Ok(combine(reports.iter().map(|r| r.verdict.exit_code)));
+    }
     let mut kernel = start(&spec, &runner_options(&args)?)?;
     run_with(kernel.as_mut(), &config, &outputs)
+}
+
+/// Whether the options ask for more than one run of each kernel (or for a CPU mask).
+fn needs_several_runs(args: &Args) -> bool {
+    args.caller_fpenv.is_some() || !args.cpu_mask.is_empty()
+}
+
+/// The caller's environment of `--caller-fpenv` (or of a manifest entry), checked; a shard
+/// cannot hold the comparison.
+fn caller_env(args: &Args, list: Option<&str>) -> Result<Option<CallerEnv>, Failure> {
+    for mask in &args.cpu_mask {
+        check_env::check_cpu_mask(mask).map_err(Failure::bad_input)?;
+    }
+    let Some(list) = list else {
+        return Ok(None);
+    };
+    if args.shard.is_some() {
+        return Err(Failure::bad_input(
+            "--caller-fpenv compares two whole runs: use it without --shard",
+        ));
+    }
+    CallerEnv::parse(list).map(Some).map_err(Failure::bad_input)
+}
+
+/// Whether any manifest entry lists variants or a caller environment.
+fn manifest_has_extras(path: &std::path::Path) -> Result<bool, Failure> {
+    let entries = load_manifest_entries(path).map_err(Failure::bad_input)?;
+    Ok(entries
+        .iter()
+        .any(|(_, e)| !e.variants.is_empty() || e.caller_fpenv.is_some()))
+}
+
+/// A manifest whose entries have variants or environments (or run under `--caller-fpenv` /
+/// `--cpu-mask`): every entry configured and its symbols validated first, then checked entry
+/// by entry.
+fn run_manifest_variants(
+    path: &std::path::Path,
+    args: &Args,
+    outputs: &Outputs,
+) -> Result<i32, Failure> {
+    if args.shard.is_some() {
+        return Err(Failure::bad_input(
+            "variants and caller environments compare whole runs: use them without --shard",
+        ));
+    }
+    let entries = load_manifest_entries(path).map_err(Failure::bad_input)?;
+    let options = runner_options(args)?;
+    let mut planned = Vec::new();
+    for (spec, extras) in &entries {
+        let target = KernelTarget {
+            library: Some(spec.library.clone()),
+            symbol: Some(spec.symbol.clone()),
+            function: spec.function.clone(),
+            format: spec.format.name().to_string(),
+            role: spec.role,
+            params: spec
+                .params
+                .iter()
+                .map(|(n, v)| format!("{n}={v}"))
+                .collect(),
+        };
+        let in_entry = |f: Failure| {
+            Failure::bad_input(format!(
+                "{}: kernel {}: {}",
+                path.display(),
+                spec.symbol,
+                f.message
+            ))
+        };
+        let config = build_config(&target, args).map_err(in_entry)?;
+        let list = extras
+            .caller_fpenv
+            .as_deref()
+            .or(args.caller_fpenv.as_deref());
+        let env = caller_env(args, list).map_err(in_entry)?;
+        let symbols = if extras.variants.is_empty() {
+            vec![spec.symbol.clone()]
+        } else {
+            extras.variants.clone()
+        };
+        for symbol in &symbols {
+            crate::kernel::loader::validate(&spec.library, symbol).map_err(Failure::bad_input)?;
+        }
+        let variants = check_env::variants(&symbols, &args.cpu_mask);
+        planned.push((spec, config, variants, env));
+    }
+    let mut findings = outputs.findings_writer()?;
+    let mut reports = Vec::new();
+    for (spec, config, variants, env) in planned {
+        reports.extend(check_env::check_variants(
+            spec,
+            &config,
+            &variants,
+            env.as_ref(),
+            &options,
+            &mut findings,
+            &start,
+            &lead,
+        )?);
+    }
+    emit_with(&reports, true, outputs, Some(findings))?;
+    Ok(combine(reports.iter().map(|r| r.verdict.exit_code)))
 }

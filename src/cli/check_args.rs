@@ -55,5 +55,7 @@ pub fn defaults() -> Args {
         inputs: None,
         outputs: None,
         grads: None,
+        caller_fpenv: None,
+        cpu_mask: Vec::new(),
     }
 }

@@ -28,6 +28,7 @@ mod batch;
 mod certify;
 pub mod check;
 pub mod check_args;
+pub mod check_env;
 mod compare;
 mod eval;
 mod functions;

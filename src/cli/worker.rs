@@ -27,6 +27,9 @@ pub struct Args {
     /// The runner's pid: the worker ends its process group when this parent is gone.
     #[arg(long)]
     parent: Option<i32>,
+    /// The caller's FP control word in hex, set before loading and before every call.
+    #[arg(long)]
+    fpenv: Option<String>,
 }
 
 /// Serves the runner until it closes the pipe.
@@ -40,6 +43,12 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         .map(|t| u32::from_str_radix(t, 16).map(f32::from_bits))
         .collect::<Result<Vec<f32>, _>>()
         .map_err(|_| Failure::bad_input("--trailing takes the hex bits of a float"))?;
+    let fpenv = args
+        .fpenv
+        .as_deref()
+        .map(|w| u32::from_str_radix(w, 16))
+        .transpose()
+        .map_err(|_| Failure::bad_input("--fpenv takes the hex of a control word"))?;
     Ok(serve(WorkerConfig {
         library: args.library,
         symbol: args.symbol,
@@ -49,5 +58,6 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             trailing,
         },
         parent: args.parent,
+        fpenv,
     }))
 }

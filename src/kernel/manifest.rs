@@ -12,6 +12,9 @@
 //! param-passing = "trailing"           # baked (default) | trailing
 //! in-place = false                     # default false
 //! thread-safe = true                   # default true
+//! caller-fpenv = "ftz,daz"             # run also in the caller's FP environment (see check)
+//! variants = ["lumen_elu_f32_avx2", "lumen_elu_f32_sse2"]   # instead of `symbol`: dispatch
+//!                                      # variants of one kernel, each measured and compared
 //! ```
 //!
 //! Every error is one line naming the file and the line (and the key, when there is one).
@@ -36,7 +39,10 @@ struct File {
 #[derive(Deserialize)]
 #[serde(deny_unknown_fields, rename_all = "kebab-case")]
 struct Entry {
-    symbol: Spanned<String>,
+    symbol: Option<Spanned<String>>,
+    #[serde(default)]
+    variants: Vec<Spanned<String>>,
+    caller_fpenv: Option<Spanned<String>>,
     function: Spanned<String>,
     format: Spanned<String>,
     #[serde(default)]
@@ -92,8 +98,25 @@ impl Number {
     }
 }
 
+/// What a manifest entry asks beyond one [`KernelSpec`].
+#[derive(Clone, Debug, Default)]
+pub struct EntryExtras {
+    /// `variants`: the symbols measured and compared (the spec's symbol is the first).
+    pub variants: Vec<String>,
+    /// `caller-fpenv`: the caller's FP environment, as `check --caller-fpenv` takes it.
+    pub caller_fpenv: Option<String>,
+}
+
 /// Reads a manifest; library paths are resolved relative to the manifest's directory.
 pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
+    Ok(load_manifest_entries(path)?
+        .into_iter()
+        .map(|(spec, _)| spec)
+        .collect())
+}
+
+/// [`load_manifest`] with each entry's variants and caller environment.
+pub fn load_manifest_entries(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, String> {
     let shown = path.display().to_string();
     let text = std::fs::read_to_string(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => format!("manifest {shown}: no such file"),
@@ -125,6 +148,31 @@ pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
     let mut specs = Vec::new();
     for entry in &file.kernel {
         let k = entry.get_ref();
+        let symbol = match (&k.symbol, k.variants.first()) {
+            (Some(s), None) => s,
+            (None, Some(first)) => first,
+            (Some(s), Some(_)) => {
+                return Err(format!(
+                    "{}: key `variants`: give either `symbol` or `variants`, not both",
+                    at(s.span())
+                ))
+            }
+            (None, None) => {
+                return Err(format!(
+                    "{}: kernel entry has neither `symbol` nor `variants`",
+                    at(entry.span())
+                ))
+            }
+        };
+        for v in &k.variants {
+            if v.get_ref().trim().is_empty() {
+                return Err(format!("{}: key `variants`: empty symbol", at(v.span())));
+            }
+        }
+        if let Some(env) = &k.caller_fpenv {
+            crate::kernel::fpenv::caller_word(0, env.get_ref())
+                .map_err(|e| format!("{}: key `caller-fpenv`: {e}", at(env.span())))?;
+        }
         let library = k
             .library
             .as_ref()
@@ -133,7 +181,7 @@ pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
                 format!(
                     "{}: kernel '{}' has no library (set `library` at the top or in the entry)",
                     at(entry.span()),
-                    k.symbol.get_ref()
+                    symbol.get_ref()
                 )
             })?;
         let function = crate::activation::lookup(k.function.get_ref()).ok_or_else(|| {
@@ -155,8 +203,8 @@ pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
                 k.format.get_ref()
             )
         })?;
-        if k.symbol.get_ref().trim().is_empty() {
-            return Err(format!("{}: key `symbol`: empty", at(k.symbol.span())));
+        if symbol.get_ref().trim().is_empty() {
+            return Err(format!("{}: key `symbol`: empty", at(symbol.span())));
         }
         let role = match k.role.as_ref().map(|r| *r.get_ref()) {
             None | Some(Role::Forward) => KernelRole::Forward,
@@ -193,17 +241,24 @@ pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
             }
             _ => ParamPassing::Baked,
         };
-        specs.push(KernelSpec {
-            library: resolve(library.get_ref()),
-            symbol: k.symbol.get_ref().clone(),
-            function: function.name().to_string(),
-            format,
-            role,
-            params,
-            param_passing,
-            in_place: k.in_place,
-            thread_safe: k.thread_safe,
-        });
+        let extras = EntryExtras {
+            variants: k.variants.iter().map(|v| v.get_ref().clone()).collect(),
+            caller_fpenv: k.caller_fpenv.as_ref().map(|e| e.get_ref().clone()),
+        };
+        specs.push((
+            KernelSpec {
+                library: resolve(library.get_ref()),
+                symbol: symbol.get_ref().clone(),
+                function: function.name().to_string(),
+                format,
+                role,
+                params,
+                param_passing,
+                in_place: k.in_place,
+                thread_safe: k.thread_safe,
+            },
+            extras,
+        ));
     }
     Ok(specs)
 }

@@ -32,6 +32,12 @@ pub struct RunnerOptions {
     pub max_fault_time: Duration,
     /// Address space each worker may use, in bytes (`RLIMIT_AS`).
     pub kernel_memory: u64,
+    /// The caller's FP control word (`--caller-fpenv`), set in the worker before loading the
+    /// library and before every call; `None` leaves the default environment.
+    pub caller_fpenv: Option<u32>,
+    /// `GLIBC_TUNABLES` for the worker alone (`--cpu-mask`): what its loader and libm see of
+    /// the CPU.
+    pub glibc_tunables: Option<String>,
 }
 
 /// Default of [`RunnerOptions::max_restarts`]: a kernel that crashes on a few hundred inputs
@@ -49,6 +55,8 @@ impl Default for RunnerOptions {
             max_restarts: DEFAULT_MAX_RESTARTS,
             max_fault_time: DEFAULT_MAX_FAULT_TIME,
             kernel_memory: super::spawn::DEFAULT_KERNEL_MEMORY,
+            caller_fpenv: None,
+            glibc_tunables: None,
         }
     }
 }
@@ -279,6 +287,12 @@ impl Runner {
         }
         for t in &self.abi.trailing {
             cmd.arg("--trailing").arg(format!("{:08x}", t.to_bits()));
+        }
+        if let Some(word) = self.options.caller_fpenv {
+            cmd.arg("--fpenv").arg(format!("{word:x}"));
+        }
+        if let Some(tunables) = &self.options.glibc_tunables {
+            cmd.env("GLIBC_TUNABLES", tunables);
         }
         let worker = WorkerProcess::spawn(cmd, self.options.kernel_memory)
             .map_err(|e| CallError::Worker(format!("cannot start {}: {e}", self.exe.display())))?;

@@ -33,6 +33,21 @@ pub struct WorkerConfig {
     pub abi: Abi,
     /// The runner's pid: when it is no longer our parent, the worker ends its process group.
     pub parent: Option<i32>,
+    /// The caller's FP control word (`check --caller-fpenv`), set before loading the library
+    /// and before every kernel call; `None` leaves the process default alone.
+    pub fpenv: Option<u32>,
+}
+
+/// The caller's control word, or `u64::MAX` for none.
+static CALLER_ENV: AtomicU64 = AtomicU64::new(u64::MAX);
+
+/// Puts the caller's FP environment in place on this thread, as a framework would before
+/// calling the kernel (the register is per thread, and a kernel may have changed it).
+fn enter_caller_env() {
+    let word = CALLER_ENV.load(Ordering::Relaxed);
+    if word != u64::MAX {
+        fpenv::write(word as u32);
+    }
 }
 
 static PROTO_FD: AtomicI32 = AtomicI32::new(-1);
@@ -128,6 +143,10 @@ pub fn serve(config: WorkerConfig) -> i32 {
     );
     install_handlers();
     AS_LIMIT.store(address_space_limit(), Ordering::SeqCst);
+    if let Some(word) = config.fpenv {
+        CALLER_ENV.store(word.into(), Ordering::SeqCst);
+    }
+    enter_caller_env();
 
     let before = fpenv::read();
     let loaded = loader::open(&config.library, &config.symbol);
@@ -416,6 +435,7 @@ impl Kernel {
             .map(|s| Input::new(s, eb, req.x_offset as usize));
         let y = Output::new(req.layout, n_bytes, req.y_offset as usize);
         let mut outputs = Vec::new();
+        enter_caller_env();
         let before = fpenv::read().unwrap_or(0);
         let mut after = before;
         let mut input_changed = None;
@@ -527,6 +547,7 @@ impl Kernel {
         let g = req.second.as_ref().map(|s| Input::new(s, eb, 0));
         let y = Output::new(Layout::Padded, n * eb, 0);
         let gp = g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8);
+        enter_caller_env();
         // SAFETY: as in call().
         let once = || unsafe { self.abi.call(self.symbol, x.ptr, gp, y.y, req.first.len()) };
         set_errno(0);

@@ -75,6 +75,21 @@
 //!   ["recorded"], `hygiene` holds at most the `determinism` check the repeats allow,
 //!   `kernel.ns_per_element` is null, and the kernel's `thresholds` are walked over the
 //!   recorded inputs.
+//! - `caller_fpenv` (only with `check --caller-fpenv` or a manifest entry's `caller-fpenv`):
+//!   {environment: [names], register ("MXCSR" | "FPCR"), default_word, caller_word ("0x…"),
+//!   outputs: C, default_verdict: {exit_code, failed, max_ulp, non_finite_runs},
+//!   verdict_changed, message}. The report's other keys are the caller's environment's run;
+//!   C compares the default run (`first`) with the caller's (`second`).
+//! - `variants` (only in the first variant's report of a manifest entry with `variants`, or of
+//!   `--cpu-mask` given more than once): {variants: [{name, symbol, cpu_mask, max_ulp,
+//!   mean_ulp, correctly_rounded, non_finite_runs, ns_per_element, exit_code}], agree, pairs:
+//!   [{first, second (variant names), outputs: C}], message}; disagreement fails the verdict.
+//! - C, two runs compared over the measured inputs and edge probes: {compared, differing,
+//!   first_differences: [{input, first, second: V | null}] (at most 8, in bit order),
+//!   at_subnormal_inputs, outputs_flushed (subnormal in the first run, zero in the second),
+//!   inputs_read_as_zero (subnormal inputs whose second-run output is that of the zero of their
+//!   sign, while the first run's was not; forward and derivative roles)}. NaNs compare equal
+//!   whatever their payload; counts are exact.
 
 use super::{CheckReport, ReportFormat};
 

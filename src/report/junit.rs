@@ -239,6 +239,27 @@ fn check_suite(r: &CheckReport) -> Suite {
         )),
     };
     cases.push(case("runs without crashing or hanging", &classname, crash));
+    if let Some(v) = &r.variants {
+        let outcome = if v.agree {
+            Outcome::Passed
+        } else {
+            Outcome::Failed(v.message.clone())
+        };
+        cases.push(case("variants: agree bit for bit", &classname, outcome));
+    }
+    if let Some(env) = &r.caller_fpenv {
+        // Informational: the caller's environment is the verdict's; the case records the change.
+        let outcome = if env.verdict_changed {
+            Outcome::Failed(env.message.clone())
+        } else {
+            Outcome::Passed
+        };
+        let name = format!(
+            "caller FP environment ({}): same verdict as the default",
+            env.environment.join(",")
+        );
+        cases.push(case(name, &classname, outcome));
+    }
     let worst = a.worst.as_ref().map_or(String::new(), |w| {
         format!(
             "; worst x = {} ({})",

@@ -1,6 +1,7 @@
 //! Reports: the data model of a check and one file per output format behind [`ReportFormat`].
 
 mod csv;
+pub mod environment;
 mod findings;
 pub mod html;
 pub mod json;

@@ -165,6 +165,13 @@ pub struct CheckReport {
     /// the measures that need a callable kernel; absent for called kernels.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub recorded: Option<RecordedSection>,
+    /// `check --caller-fpenv`: what changed against the default FP environment; absent
+    /// otherwise.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub caller_fpenv: Option<super::environment::CallerEnvSection>,
+    /// Dispatch variants of the kernel compared bit for bit; absent for a single variant.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub variants: Option<super::environment::VariantsSection>,
 }
 
 /// The `recorded` section: a check of outputs recorded elsewhere.

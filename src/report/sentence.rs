@@ -170,7 +170,8 @@ fn expectation(format: &dyn Format, expected: u32, rule: &str) -> String {
 }
 
 /// Three decimals, trailing zeros dropped (whole numbers from 1000 on, with commas).
-fn round3(x: f64) -> String {
+/// A figure with at most three decimals (thousands separated above 1000).
+pub fn round3(x: f64) -> String {
     if (1000.0..1e18).contains(&x) {
         return count(x.round() as u64);
     }

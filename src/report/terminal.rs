@@ -246,6 +246,12 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         "  checks      {passed}/{} special-value rules, {hygiene}",
         r.special_values.len(),
     )?;
+    if let Some(env) = &r.caller_fpenv {
+        writeln!(out, "  fp env      {}", env.message)?;
+    }
+    if let Some(variants) = &r.variants {
+        writeln!(out, "  variants    {}", variants.message)?;
+    }
     for f in r.verdict.failed.iter().take(10) {
         writeln!(out, "  FAILED      {f}")?;
     }

@@ -269,6 +269,7 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
         )?;
     }
     failed(out, r, format)?;
+    environment(out, r)?;
     if let Some(f) = format {
         let data = plot_data(f, k);
         writeln!(
@@ -421,6 +422,49 @@ fn failed(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult
         writeln!(out, "<li>✗ {}</li>", esc(&text(f)))?;
     }
     writeln!(out, "</ul>")
+}
+
+/// The caller's FP environment and the dispatch variants, when the report has them.
+fn environment(out: &mut String, r: &Value) -> FmtResult {
+    let env = &r["caller_fpenv"];
+    let variants = &r["variants"];
+    if env.is_null() && variants.is_null() {
+        return Ok(());
+    }
+    writeln!(out, "<h3>Where it runs</h3>")?;
+    if !env.is_null() {
+        writeln!(
+            out,
+            r#"<p class="fpenv">{}</p>"#,
+            esc(&text(&env["message"]))
+        )?;
+    }
+    if !variants.is_null() {
+        writeln!(
+            out,
+            r#"<p class="variants">{}</p>"#,
+            esc(&text(&variants["message"]))
+        )?;
+        writeln!(
+            out,
+            "<table><thead><tr><th>variant</th><th>max ulp</th><th>mean ulp</th><th>non-finite runs</th><th>ns/element</th></tr></thead><tbody>"
+        )?;
+        for v in variants["variants"].as_array().into_iter().flatten() {
+            writeln!(
+                out,
+                "<tr><td>{}</td><td>{}</td><td>{:.4}</td><td>{}</td><td>{}</td></tr>",
+                esc(&text(&v["name"])),
+                ulp(v["max_ulp"].as_f64().unwrap_or(0.0)),
+                v["mean_ulp"].as_f64().unwrap_or(0.0),
+                text(&v["non_finite_runs"]),
+                v["ns_per_element"]
+                    .as_f64()
+                    .map_or("-".to_string(), |n| format!("{n:.2}"))
+            )?;
+        }
+        writeln!(out, "</tbody></table>")?;
+    }
+    Ok(())
 }
 
 fn non_finite(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult {
