@@ -16,7 +16,7 @@ pub struct Args {
     #[arg(value_name = "FUNC", hide = true)]
     positional: Option<String>,
     /// Target format.
-    #[arg(long, value_name = "f32|f16|bf16")]
+    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
     format: String,
     /// Evaluate f′ instead of f.
     #[arg(long)]

@@ -23,7 +23,7 @@ pub struct Args {
     #[arg(allow_hyphen_values = true, hide = true)]
     older_x: Option<String>,
     /// Target format.
-    #[arg(long, value_name = "f32|f16|bf16")]
+    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
     format: String,
     /// Evaluate f′ instead of f.
     #[arg(long)]
@@ -56,13 +56,21 @@ fn parse_input(format: &dyn Format, text: &str) -> Result<Input, Failure> {
     }
     match text.to_ascii_lowercase().as_str() {
         "nan" => return exact(format.quiet_nan()),
+        "inf" | "+inf" | "infinity" | "-inf" | "-infinity"
+            if format.layout().is_finite_only() =>
+        {
+            return Err(Failure::bad_input(format!(
+                "input {text}: {} has no infinities",
+                format.name()
+            )))
+        }
         "inf" | "+inf" | "infinity" => return exact(format.infinity(false)),
         "-inf" | "-infinity" => return exact(format.infinity(true)),
         _ => {}
     }
     let q = parse_decimal(text).map_err(|e| Failure::bad_input(format!("input {e}")))?;
     let bits = round_rational(&q, text.trim_start().starts_with('-'), format);
-    let representable = format.classify(bits) != Class::Infinite
+    let representable = format.layout().is_finite(bits)
         && rug::Rational::from_f64(format.to_f64(bits)).is_some_and(|r| r == q);
     Ok(Input {
         bits,

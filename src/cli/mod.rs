@@ -145,6 +145,10 @@ pub struct FunctionArgs {
     /// How parameters and built-in constants enter the reference.
     #[arg(long, value_enum, default_value_t = crate::reference::ParamRounding::Exact)]
     pub param_rounding: crate::reference::ParamRounding,
+    /// OCP FP8 formats: what the conversion does beyond ±max (the OFP8 specification's two
+    /// modes; default nan: NaN in e4m3, ±∞ in e5m2).
+    #[arg(long, value_enum, value_name = "nan|saturate")]
+    pub fp8_overflow: Option<crate::format::Fp8Overflow>,
 }
 
 /// The function of a command that takes `--function FUNC` like `check`, or, in the older form,
@@ -191,9 +195,7 @@ pub fn resolve(
             names.join(", ")
         ))
     })?;
-    let fmt = crate::format::by_name(format).ok_or_else(|| {
-        Failure::bad_input(format!("unknown format '{format}' (known: f32, f16, bf16)"))
-    })?;
+    let fmt = crate::format::resolve(format, args.fp8_overflow).map_err(Failure::bad_input)?;
     let user = Constants::parse_params(f, &args.params).map_err(Failure::bad_input)?;
     let constants = Constants::resolve(f, &user, args.param_rounding, fmt);
     let role = if derivative {
