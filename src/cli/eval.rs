@@ -56,9 +56,7 @@ fn parse_input(format: &dyn Format, text: &str) -> Result<Input, Failure> {
     }
     match text.to_ascii_lowercase().as_str() {
         "nan" => return exact(format.quiet_nan()),
-        "inf" | "+inf" | "infinity" | "-inf" | "-infinity"
-            if format.layout().is_finite_only() =>
-        {
+        "inf" | "+inf" | "infinity" | "-inf" | "-infinity" if format.layout().is_finite_only() => {
             return Err(Failure::bad_input(format!(
                 "input {text}: {} has no infinities",
                 format.name()

@@ -244,9 +244,7 @@ impl Layout {
         let field = quantum_exp - min_quantum + 1;
         let top = (1 << self.exp_bits) - 1;
         let mant = k as u32 & self.mant_mask();
-        if field > top
-            || (field == top && (!self.finite_only || mant == self.mant_mask()))
-        {
+        if field > top || (field == top && (!self.finite_only || mant == self.mant_mask())) {
             return self.overflow(negative);
         }
         sign | ((field as u32) << self.mant_bits) | mant
