@@ -45,6 +45,10 @@ run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 \
   --json reports/lumen-edge-faulty.json --csv reports/lumen-edge-faulty.csv --plot reports/lumen-edge-faulty.svg \
   --html reports/lumen-edge-faulty.html --junit reports/lumen-edge-faulty.xml
 echo
+echo "== The 8-bit path: OCP FP8 kernels, exhaustively, and a bfloat16 cast that truncates"
+run check --manifest kernels-under-test/lumen-edge-8bit.toml \
+  --json reports/lumen-edge-8bit.json --html reports/lumen-edge-8bit.html
+echo
 echo "== Certificates (kernels-under-test/specs/)"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
   --html reports/certificate-sigmoid-f16.html

@@ -207,6 +207,7 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
         "format": format.name(),
         "exp": l.width() - l.precision(),
         "mant": l.precision() - 1,
+        "finite_only": l.is_finite_only(),
         "top": format.ordinal(format.max_finite(false)),
         "buckets": buckets,
         "runs": runs,
