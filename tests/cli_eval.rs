@@ -316,3 +316,37 @@ fn fp8_eval_and_batch_follow_the_ofp8_specification() {
     assert_eq!(code, 2);
     assert!(err.contains("applies to e4m3 and e5m2 only"), "{err}");
 }
+
+#[test]
+fn mixed_formats_read_the_input_in_one_format_and_round_into_the_other() {
+    // SiLU(1.5) = 1.5/(1 + e^-1.5) = 1.2263617142904654…; in binary32 0x3f9cf96c (mpmath at
+    // 200 bits, then numpy.float32); the input 1.5 given as bfloat16 0x3fc0.
+    let v = eval_json(&[
+        "--function",
+        "silu",
+        "--input-format",
+        "bf16",
+        "--output-format",
+        "f32",
+        "0x3fc0",
+    ]);
+    assert_eq!(v["input_format"], "bf16");
+    assert_eq!(v["format"], "f32");
+    assert_eq!(v["rounded"]["bits"], "0x3f9cf96c");
+    // tanh of the binary32 nearest 0.3 (0x3e99999a), rounded into bfloat16: 0x3e95 (mpmath,
+    // then ml_dtypes.bfloat16 of the float32 value, one rounding here).
+    let v = eval_json(&[
+        "--function",
+        "tanh",
+        "--input-format",
+        "f32",
+        "--output-format",
+        "bf16",
+        "0.3",
+    ]);
+    assert_eq!(v["input"]["bits"], "0x3e99999a");
+    assert_eq!(v["rounded"]["bits"], "0x3e95");
+    let (code, _, err) = ulpgauge(&["eval", "--function", "tanh", "--input-format", "f32", "1"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("--output-format"), "{err}");
+}

@@ -180,6 +180,40 @@ pub struct Target {
     pub evaluator: crate::reference::Evaluator<'static>,
 }
 
+/// The input and output format names of `--format F` or `--input-format F --output-format G`
+/// (either one defaulting to `--format`).
+pub fn format_pair(
+    format: Option<&str>,
+    input: Option<&str>,
+    output: Option<&str>,
+) -> Result<(String, String), Failure> {
+    match (input.or(format), output.or(format)) {
+        (Some(i), Some(o)) => Ok((i.to_string(), o.to_string())),
+        _ => Err(Failure::bad_input(
+            "--format F, or both --input-format F and --output-format G, is required",
+        )),
+    }
+}
+
+/// [`resolve`] with the input patterns read in `input` and the result rounded into `format`;
+/// `--fp8-overflow` applies to the output side (an 8-bit input is a pattern, not a rounding).
+pub fn resolve_mixed(
+    function: &str,
+    input: &str,
+    format: &str,
+    derivative: bool,
+    args: &FunctionArgs,
+) -> Result<Target, Failure> {
+    let mut target = resolve(function, format, derivative, args)?;
+    if input != format {
+        let base = input.strip_suffix("-sat").unwrap_or(input);
+        let input = crate::format::resolve(base, None).map_err(Failure::bad_input)?;
+        let e = target.evaluator;
+        target.evaluator = e.with_input(input);
+    }
+    Ok(target)
+}
+
 /// Resolves names and parameters into an evaluator, or a bad-input failure.
 pub fn resolve(
     function: &str,

@@ -43,6 +43,8 @@ pub struct Evaluator<'a> {
     role: Role,
     constants: Constants,
     format: &'static dyn Format,
+    /// The format of the input patterns (mixed formats: `--input-format`); `format` otherwise.
+    input: &'static dyn Format,
     /// Multiplies the value before rounding (a gradient's upstream g), exact.
     scale: Option<Rational>,
 }
@@ -60,8 +62,18 @@ impl<'a> Evaluator<'a> {
             role,
             constants,
             format,
+            input: format,
             scale: None,
         }
+    }
+    /// The same evaluator reading its input patterns in another format (the result is still
+    /// rounded into [`Evaluator::format`]).
+    pub fn with_input(self, input: &'static dyn Format) -> Self {
+        Evaluator { input, ..self }
+    }
+    /// The format of the input patterns.
+    pub fn input_format(&self) -> &'static dyn Format {
+        self.input
     }
     /// The same evaluator computing g·value (for gradient kernels); g must be finite.
     pub fn with_scale(&self, g: Option<Rational>) -> Evaluator<'a> {
@@ -70,6 +82,7 @@ impl<'a> Evaluator<'a> {
             role: self.role,
             constants: self.constants.clone(),
             format: self.format,
+            input: self.input,
             scale: g,
         }
     }
@@ -108,13 +121,13 @@ impl<'a> Evaluator<'a> {
 
     /// The reference before a saturating format's clamp of the exact value.
     fn rounded(&self, x_bits: u32, scale: Option<&Rational>) -> Result<Reference, ReferenceError> {
-        let format = self.format;
+        let format = self.input;
         let negative_input = format.is_sign_negative(x_bits);
         let negative_zero_input = negative_input && format.classify(x_bits) == Class::Zero;
         match format.classify(x_bits) {
             Class::Nan => {
                 return Ok(Reference {
-                    bits: format.quiet_nan(),
+                    bits: self.format.quiet_nan(),
                     exact: None,
                     precision: 0,
                 })
