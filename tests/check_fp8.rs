@@ -74,6 +74,23 @@ fn fp8_kernels_are_checked_exhaustively() {
         // A float computation rounded once into 3 or 4 bits of precision stays faithful.
         assert_eq!(r["accuracy"]["faithful"], 1.0, "{symbol}");
     }
+    // The derivative and gradient roles, every pattern too (g: a seeded E5M2 value).
+    for (symbol, role) in [
+        ("lumen_sigmoid_deriv_e5m2", "derivative"),
+        ("lumen_sigmoid_grad_e5m2", "gradient"),
+    ] {
+        let r = check(
+            symbol,
+            "sigmoid",
+            "e5m2",
+            &["--role", role],
+            &format!("{symbol}.json"),
+        );
+        assert_eq!(r["role"], role);
+        assert_eq!(r["sweep"]["coverage"], "exhaustive", "{symbol}");
+        assert_eq!(r["accuracy"]["points"], 248, "{symbol}");
+        assert_eq!(r["verdict"]["exit_code"], 0, "{symbol}");
+    }
 }
 
 #[test]

@@ -68,3 +68,19 @@ LUMEN_EXPORT void lumen_tanh_bf16_trunc(const uint16_t *x, uint16_t *y, size_t n
         y[i] = (uint16_t)(lumen_bits(v) >> 16);
     }
 }
+
+/* Training in E5M2: the derivative s(x)(1 - s(x)) and the gradient g s(x)(1 - s(x)). */
+LUMEN_EXPORT void lumen_sigmoid_deriv_e5m2(const uint8_t *x, uint8_t *y, size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        float s = 1.0f / (1.0f + expf(-fp8_decode(x[i], 2, 15, 0)));
+        y[i] = fp8_encode(s * (1.0f - s), 2, 15, 0);
+    }
+}
+
+LUMEN_EXPORT void lumen_sigmoid_grad_e5m2(const uint8_t *x, const uint8_t *g, uint8_t *dx,
+                                          size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        float s = 1.0f / (1.0f + expf(-fp8_decode(x[i], 2, 15, 0)));
+        dx[i] = fp8_encode(fp8_decode(g[i], 2, 15, 0) * s * (1.0f - s), 2, 15, 0);
+    }
+}
