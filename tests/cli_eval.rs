@@ -245,3 +245,108 @@ fn one_vocabulary_function_flag_and_older_form() {
     // tanh(1) = 0.76159... rounds to binary16 0x3a18 (numpy.float16(numpy.tanh(1)) agrees).
     assert_eq!(new.trim(), "0x3c00 0x3a18");
 }
+
+#[test]
+fn fp8_eval_and_batch_follow_the_ofp8_specification() {
+    // OFP8 v1.0: E4M3 max normal 448 (0x7e), its NaN S.1111.111 (0x7f), no infinities; 464 is
+    // the midpoint of 448 and 480 and ties to even (448); above it the non-saturating mode
+    // gives NaN and the saturating one 448.
+    let v = eval_json(&["--function", "relu", "--format", "e4m3", "464"]);
+    assert_eq!(v["input"]["bits"], "0x7e");
+    let v = eval_json(&["--function", "relu", "--format", "e4m3", "465"]);
+    assert_eq!(v["input"]["bits"], "0x7f");
+    assert_eq!(v["rounded"]["value"], "nan");
+    let v = eval_json(&[
+        "--function",
+        "relu",
+        "--format",
+        "e4m3",
+        "--fp8-overflow",
+        "saturate",
+        "465",
+    ]);
+    assert_eq!(v["format"], "e4m3-sat");
+    assert_eq!(v["rounded"]["bits"], "0x7e");
+    // σ(1) = 0.7310585786…: in E5M2 (p = 3) the neighbours are 0.625 and 0.75, so 0.75 (0x3a);
+    // in E4M3 (p = 4) 0.6875 and 0.75, so 0.75 (0x34) (values written out from the formats).
+    let v = eval_json(&["--function", "sigmoid", "--format", "e5m2", "1"]);
+    assert_eq!(v["rounded"]["bits"], "0x3a");
+    let v = eval_json(&["--function", "sigmoid", "--format", "e4m3", "1"]);
+    assert_eq!(v["rounded"]["bits"], "0x34");
+    // E5M2 has infinities; in the saturating mode relu(+inf) is clamped to 57344 (0x7b).
+    use std::io::Write;
+    let mut child = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+        .args([
+            "batch",
+            "--function",
+            "relu",
+            "--format",
+            "e5m2",
+            "--fp8-overflow",
+            "saturate",
+        ])
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .unwrap();
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(b"0x7c 0xfc 0x7b 0x7d")
+        .unwrap();
+    let out = child.wait_with_output().unwrap();
+    assert_eq!(
+        String::from_utf8_lossy(&out.stdout),
+        "0x7c 0x7b\n0xfc 0x00\n0x7b 0x7b\n0x7d 0x7e\n"
+    );
+    let (code, _, err) = ulpgauge(&["eval", "--function", "relu", "--format", "e4m3", "inf"]);
+    assert_eq!(code, 2);
+    assert_eq!(err.trim(), "ulpgauge: input inf: e4m3 has no infinities");
+    let (code, _, err) = ulpgauge(&[
+        "eval",
+        "--function",
+        "relu",
+        "--format",
+        "f16",
+        "--fp8-overflow",
+        "nan",
+        "1",
+    ]);
+    assert_eq!(code, 2);
+    assert!(err.contains("applies to e4m3 and e5m2 only"), "{err}");
+}
+
+#[test]
+fn mixed_formats_read_the_input_in_one_format_and_round_into_the_other() {
+    // SiLU(1.5) = 1.5/(1 + e^-1.5) = 1.2263617142904654…; in binary32 0x3f9cf96c (mpmath at
+    // 200 bits, then numpy.float32); the input 1.5 given as bfloat16 0x3fc0.
+    let v = eval_json(&[
+        "--function",
+        "silu",
+        "--input-format",
+        "bf16",
+        "--output-format",
+        "f32",
+        "0x3fc0",
+    ]);
+    assert_eq!(v["input_format"], "bf16");
+    assert_eq!(v["format"], "f32");
+    assert_eq!(v["rounded"]["bits"], "0x3f9cf96c");
+    // tanh of the binary32 nearest 0.3 (0x3e99999a), rounded into bfloat16: 0x3e95 (mpmath,
+    // then ml_dtypes.bfloat16 of the float32 value, one rounding here).
+    let v = eval_json(&[
+        "--function",
+        "tanh",
+        "--input-format",
+        "f32",
+        "--output-format",
+        "bf16",
+        "0.3",
+    ]);
+    assert_eq!(v["input"]["bits"], "0x3e99999a");
+    assert_eq!(v["rounded"]["bits"], "0x3e95");
+    let (code, _, err) = ulpgauge(&["eval", "--function", "tanh", "--input-format", "f32", "1"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("--output-format"), "{err}");
+}

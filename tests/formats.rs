@@ -1,7 +1,8 @@
 //! Number formats against IEEE 754-2019 limits and the `half` crate's conversions.
 
 use ulpgauge::format::{
-    by_name, step_distance, ulp_error, Bfloat16, Binary16, Binary32, Class, ExactValue, Format,
+    by_name, step_distance, ulp_error, Bfloat16, Binary16, Binary32, Class, E4m3, E5m2, ExactValue,
+    Format,
 };
 use ulpgauge::reference::{round_float, round_rational};
 
@@ -245,4 +246,134 @@ fn ordering_and_steps() {
     }
     // From −∞ to +∞ every non-NaN value once with ±0 merged: 0x7c00 steps on each side.
     assert_eq!(count, 2 * 0x7c00);
+}
+
+// OCP 8-bit floating point, from the OFP8 specification v1.0 (Open Compute Project): its table
+// of E4M3 and E5M2 encodings (exponent bias 7 / 15, max normal, min normal, min subnormal,
+// infinities and NaNs) and its two conversion modes for out-of-range results.
+
+const E4M3: E4m3 = E4m3 { saturating: false };
+const E5M2: E5m2 = E5m2 { saturating: false };
+const E4M3_SAT: E4m3 = E4m3 { saturating: true };
+const E5M2_SAT: E5m2 = E5m2 { saturating: true };
+
+#[test]
+fn e4m3_limits_match_the_ofp8_specification() {
+    // OFP8 v1.0: E4M3 bias 7, 3 mantissa bits; max normal S.1111.110 = 448, min normal
+    // S.0001.000 = 2^-6, max subnormal S.0000.111 = 0.875·2^-6, min subnormal 2^-9; no
+    // infinities; NaN only S.1111.111.
+    let f = &E4M3;
+    assert_eq!(
+        (f.width(), f.precision(), f.emin(), f.emax()),
+        (8, 4, -6, 8)
+    );
+    assert_eq!(f.max_finite(false), 0x7e);
+    assert_eq!(value(f, 0x7e), 448.0);
+    assert_eq!(value(f, 0xfe), -448.0);
+    assert_eq!(value(f, 0x08), 2f64.powi(-6));
+    assert_eq!(value(f, 0x07), 0.875 * 2f64.powi(-6));
+    assert_eq!(value(f, 0x01), 2f64.powi(-9));
+    assert_eq!(
+        f.classify(0x78),
+        Class::Normal,
+        "S.1111.000 is 256, not infinity"
+    );
+    assert_eq!(value(f, 0x78), 256.0);
+    for nan in [0x7f, 0xff] {
+        assert_eq!(f.classify(nan), Class::Nan);
+        assert!(value(f, nan).is_nan());
+    }
+    let classes: Vec<Class> = (0..256).map(|b| f.classify(b)).collect();
+    assert!(!classes.contains(&Class::Infinite));
+    assert_eq!(classes.iter().filter(|c| **c == Class::Nan).count(), 2);
+    assert_eq!(f.quiet_nan(), 0x7f);
+    assert_eq!(f.from_f64_exact(f64::INFINITY), None);
+    assert_eq!(f.from_f64_exact(480.0), None);
+}
+
+#[test]
+fn e5m2_limits_match_the_ofp8_specification() {
+    // OFP8 v1.0: E5M2 bias 15, 2 mantissa bits; max normal S.11110.11 = 57344, min normal
+    // S.00001.00 = 2^-14, max subnormal S.00000.11 = 0.75·2^-14, min subnormal 2^-16;
+    // infinities S.11111.00, NaNs S.11111.{01, 10, 11}.
+    let f = &E5M2;
+    assert_eq!(
+        (f.width(), f.precision(), f.emin(), f.emax()),
+        (8, 3, -14, 15)
+    );
+    assert_eq!(value(f, f.max_finite(false)), 57344.0);
+    assert_eq!(value(f, 0x04), 2f64.powi(-14));
+    assert_eq!(value(f, 0x03), 0.75 * 2f64.powi(-14));
+    assert_eq!(value(f, 0x01), 2f64.powi(-16));
+    assert_eq!(f.classify(0x7c), Class::Infinite);
+    assert_eq!(f.classify(0xfc), Class::Infinite);
+    for nan in [0x7d, 0x7e, 0x7f, 0xfd, 0xfe, 0xff] {
+        assert_eq!(f.classify(nan), Class::Nan);
+    }
+}
+
+#[test]
+fn every_eight_bit_pattern_round_trips() {
+    for format in [&E4M3 as &dyn Format, &E5M2, &E4M3_SAT, &E5M2_SAT] {
+        for bits in 0u32..256 {
+            if format.classify(bits) == Class::Nan {
+                continue;
+            }
+            assert_eq!(
+                format.from_f64_exact(format.to_f64(bits)),
+                Some(bits),
+                "{} {bits:#04x}",
+                format.name()
+            );
+            assert_eq!(
+                format.layout().normal_bits(format.to_f64(bits)).is_some(),
+                format.classify(bits) == Class::Normal,
+                "{} {bits:#04x}",
+                format.name()
+            );
+        }
+    }
+}
+
+#[test]
+fn fp8_overflow_follows_the_conversion_mode() {
+    // OFP8 v1.0 conversions: round to nearest even first; out of range then gives NaN (E4M3)
+    // or ±∞ (E5M2) in the non-saturating mode, ±max in the saturating one; infinities too.
+    let q = |v: f64| rug::Rational::from_f64(v).unwrap();
+    // E4M3: 464 is the midpoint of 448 and 480 (not representable): ties to even, to 448.
+    assert_eq!(round_rational(&q(464.0), false, &E4M3), 0x7e);
+    assert_eq!(round_rational(&q(464.0625), false, &E4M3), 0x7f);
+    assert_eq!(round_rational(&q(-1e6), false, &E4M3), 0xff);
+    assert_eq!(round_rational(&q(464.0625), false, &E4M3_SAT), 0x7e);
+    assert_eq!(round_rational(&q(-1e6), false, &E4M3_SAT), 0xfe);
+    // E5M2: max + ulp(max)/2 = 61440 ties to even (infinity's side), so it overflows.
+    assert_eq!(round_rational(&q(61439.0), false, &E5M2), 0x7b);
+    assert_eq!(round_rational(&q(61440.0), false, &E5M2), 0x7c);
+    assert_eq!(round_rational(&q(-61440.0), false, &E5M2), 0xfc);
+    assert_eq!(round_rational(&q(61440.0), false, &E5M2_SAT), 0x7b);
+    let inf = rug::Float::with_val(53, f64::INFINITY);
+    assert_eq!(round_float(&inf, &E5M2), 0x7c);
+    assert_eq!(round_float(&inf, &E5M2_SAT), 0x7b);
+    assert_eq!(round_float(&-inf.clone(), &E4M3), 0xff);
+    assert_eq!(round_float(&inf, &E4M3_SAT), 0x7e);
+    // Subnormals round at their own precision: half the smallest (2^-10) ties to zero.
+    assert_eq!(round_rational(&q(2f64.powi(-10)), false, &E4M3), 0x00);
+    assert_eq!(round_rational(&q(3.0 * 2f64.powi(-10)), false, &E4M3), 0x02);
+}
+
+#[test]
+fn fp8_names_and_the_overflow_option() {
+    use ulpgauge::format::{resolve, Fp8Overflow};
+    assert_eq!(by_name("e4m3").unwrap().name(), "e4m3");
+    assert_eq!(
+        resolve("e4m3", Some(Fp8Overflow::Saturate)).unwrap().name(),
+        "e4m3-sat"
+    );
+    assert_eq!(
+        resolve("e5m2", Some(Fp8Overflow::Nan)).unwrap().name(),
+        "e5m2"
+    );
+    assert!(resolve("f32", Some(Fp8Overflow::Saturate)).is_err());
+    assert!(resolve("e4m3-sat", Some(Fp8Overflow::Nan)).is_err());
+    assert!(resolve("e3m4", None).unwrap_err().contains("e4m3, e5m2"));
 }

@@ -380,8 +380,9 @@ pub fn load(path: &Path) -> Result<Spec, String> {
     })?;
     let format = crate::format::by_name(&k.format).ok_or_else(|| {
         format!(
-            "key `kernel.format`: unknown format '{}' (known: f32, f16, bf16)",
-            k.format
+            "key `kernel.format`: unknown format '{}' (known: {})",
+            k.format,
+            crate::format::KNOWN
         )
     })?;
     if k.symbol.trim().is_empty() {

@@ -1,7 +1,7 @@
 //! `ulpgauge batch`: references for many bit patterns at once (used by the independent
 //! cross-check script and by scripts of users).
 
-use super::{resolve, Failure, FunctionArgs};
+use super::{format_pair, resolve_mixed, Failure, FunctionArgs};
 use crate::format::{hex, parse_hex};
 use rayon::prelude::*;
 use std::io::{Read, Write};
@@ -15,9 +15,15 @@ pub struct Args {
     /// The older form `batch FUNC` (still read, with a note).
     #[arg(value_name = "FUNC", hide = true)]
     positional: Option<String>,
-    /// Target format.
-    #[arg(long, value_name = "f32|f16|bf16")]
-    format: String,
+    /// Format of the inputs and of the results.
+    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
+    format: Option<String>,
+    /// Format of the inputs, when it differs from the results' (default: --format).
+    #[arg(long, value_name = "FORMAT")]
+    input_format: Option<String>,
+    /// Format the results are rounded into (default: --format).
+    #[arg(long, value_name = "FORMAT")]
+    output_format: Option<String>,
     /// Evaluate f′ instead of f.
     #[arg(long)]
     derivative: bool,
@@ -35,14 +41,21 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             "batch reads its inputs from stdin (usage: ulpgauge batch --function FUNC --format FMT)",
         ));
     }
-    let target = resolve(
+    let (input_name, output_name) = format_pair(
+        args.format.as_deref(),
+        args.input_format.as_deref(),
+        args.output_format.as_deref(),
+    )?;
+    let target = resolve_mixed(
         &function,
-        &args.format,
+        &input_name,
+        &output_name,
         args.derivative,
         &args.function_args,
     )?;
     let evaluator = &target.evaluator;
     let format = evaluator.format();
+    let in_format = evaluator.input_format();
     let mut text = String::new();
     std::io::stdin()
         .read_to_string(&mut text)
@@ -51,7 +64,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         .split_whitespace()
         .enumerate()
         .map(|(i, token)| {
-            parse_hex(format, token)
+            parse_hex(in_format, token)
                 .map_err(|e| Failure::bad_input(format!("stdin item {}: {e}", i + 1)))
         })
         .collect::<Result<Vec<u32>, Failure>>()?;
@@ -65,7 +78,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         })?;
     let mut out = std::io::BufWriter::new(std::io::stdout().lock());
     for (x, y) in inputs.iter().zip(&outputs) {
-        writeln!(out, "{} {}", hex(format, *x), hex(format, *y))
+        writeln!(out, "{} {}", hex(in_format, *x), hex(format, *y))
             .map_err(|e| Failure::bad_input(e.to_string()))?;
     }
     if let Some(note) = note {

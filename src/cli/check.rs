@@ -49,7 +49,7 @@ pub struct Args {
     #[arg(long, value_name = "FUNC")]
     pub function: Option<String>,
     /// Format of the kernel's inputs and outputs.
-    #[arg(long, value_name = "f32|f16|bf16")]
+    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
     pub format: Option<String>,
     #[command(flatten)]
     pub function_args: FunctionArgs,
@@ -406,12 +406,8 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
             names.join(", ")
         ))
     })?;
-    let format = crate::format::by_name(&target.format).ok_or_else(|| {
-        Failure::bad_input(format!(
-            "unknown format '{}' (known: f32, f16, bf16)",
-            target.format
-        ))
-    })?;
+    let format = crate::format::resolve(&target.format, args.function_args.fp8_overflow)
+        .map_err(Failure::bad_input)?;
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
     let sweep = sweep_spec(format, &args.sweep_options)?;
     Ok(CheckConfig {

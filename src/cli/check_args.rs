@@ -15,6 +15,7 @@ pub fn defaults() -> Args {
         function_args: FunctionArgs {
             params: Vec::new(),
             param_rounding: ParamRounding::Exact,
+            fp8_overflow: None,
         },
         role: RoleArg::Forward,
         from_output: false,

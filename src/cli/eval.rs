@@ -1,6 +1,6 @@
 //! `ulpgauge eval`: the correctly rounded value of one function at one input.
 
-use super::{resolve, Failure, FunctionArgs};
+use super::{format_pair, resolve_mixed, Failure, FunctionArgs};
 use crate::activation::{Ctx, Role, Value};
 use crate::format::{hex, parse_hex, Class, Format};
 use crate::reference::{parse_decimal, round_rational, Evaluator};
@@ -22,9 +22,15 @@ pub struct Args {
     /// The input, in the older form `eval FUNC X`.
     #[arg(allow_hyphen_values = true, hide = true)]
     older_x: Option<String>,
-    /// Target format.
-    #[arg(long, value_name = "f32|f16|bf16")]
-    format: String,
+    /// Format of the input and of the result.
+    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
+    format: Option<String>,
+    /// Format of the input, when it differs from the result's (default: --format).
+    #[arg(long, value_name = "FORMAT")]
+    input_format: Option<String>,
+    /// Format the result is rounded into (default: --format).
+    #[arg(long, value_name = "FORMAT")]
+    output_format: Option<String>,
     /// Evaluate f′ instead of f.
     #[arg(long)]
     derivative: bool,
@@ -56,13 +62,19 @@ fn parse_input(format: &dyn Format, text: &str) -> Result<Input, Failure> {
     }
     match text.to_ascii_lowercase().as_str() {
         "nan" => return exact(format.quiet_nan()),
+        "inf" | "+inf" | "infinity" | "-inf" | "-infinity" if format.layout().is_finite_only() => {
+            return Err(Failure::bad_input(format!(
+                "input {text}: {} has no infinities",
+                format.name()
+            )))
+        }
         "inf" | "+inf" | "infinity" => return exact(format.infinity(false)),
         "-inf" | "-infinity" => return exact(format.infinity(true)),
         _ => {}
     }
     let q = parse_decimal(text).map_err(|e| Failure::bad_input(format!("input {e}")))?;
     let bits = round_rational(&q, text.trim_start().starts_with('-'), format);
-    let representable = format.classify(bits) != Class::Infinite
+    let representable = format.layout().is_finite(bits)
         && rug::Rational::from_f64(format.to_f64(bits)).is_some_and(|r| r == q);
     Ok(Input {
         bits,
@@ -147,10 +159,22 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
             "eval takes one input X (usage: ulpgauge eval --function FUNC --format FMT X)",
         ));
     };
-    let target = resolve(function, &args.format, args.derivative, &args.function_args)?;
+    let (input_name, output_name) = format_pair(
+        args.format.as_deref(),
+        args.input_format.as_deref(),
+        args.output_format.as_deref(),
+    )?;
+    let target = resolve_mixed(
+        function,
+        &input_name,
+        &output_name,
+        args.derivative,
+        &args.function_args,
+    )?;
     let evaluator = &target.evaluator;
     let format = evaluator.format();
-    let input = parse_input(format, x)?;
+    let in_format = evaluator.input_format();
+    let input = parse_input(in_format, x)?;
     let reference = evaluator.reference(input.bits).map_err(|e| Failure {
         code: 1,
         message: e.to_string(),
@@ -166,7 +190,7 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
         .map(|e| crate::format::ulp_error(format, out, &e));
     let kink = (evaluator.role() == Role::Derivative)
         .then(|| {
-            let x = format.to_f64(input.bits);
+            let x = in_format.to_f64(input.bits);
             evaluator
                 .function()
                 .kinks(evaluator.constants())
@@ -174,7 +198,7 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
                 .find(|k| k.at as f64 == x)
         })
         .flatten();
-    let exact = exact_digits(evaluator, format, input.bits);
+    let exact = exact_digits(evaluator, in_format, input.bits);
     let params: serde_json::Map<String, serde_json::Value> = evaluator
         .constants()
         .entries()
@@ -200,9 +224,10 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
             "function": evaluator.function().name(),
             "role": role,
             "format": format.name(),
+            "input_format": in_format.name(),
             "params": params,
             "param_rounding": args.function_args.param_rounding,
-            "input": BitsValue::new(format, input.bits),
+            "input": BitsValue::new(in_format, input.bits),
             "input_rounded_from": input.rounded_from,
             "exact": exact,
             "rounded": BitsValue::new(format, out),
@@ -218,12 +243,29 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
         return Ok(0);
     }
     let show = |bits: u32| format!("{} = {}", hex(format, bits), display_value(format, bits));
-    sayln!(
-        "{} {} in {}",
-        evaluator.function().name(),
-        role,
-        format.name()
-    );
+    let show_in = |bits: u32| {
+        format!(
+            "{} = {}",
+            hex(in_format, bits),
+            display_value(in_format, bits)
+        )
+    };
+    if in_format.name() == format.name() {
+        sayln!(
+            "{} {} in {}",
+            evaluator.function().name(),
+            role,
+            format.name()
+        );
+    } else {
+        sayln!(
+            "{} {} from {} into {}",
+            evaluator.function().name(),
+            role,
+            in_format.name(),
+            format.name()
+        );
+    }
     if !params.is_empty() {
         let list: Vec<_> = params
             .iter()
@@ -236,8 +278,11 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
         );
     }
     match &input.rounded_from {
-        Some(text) => sayln!("  input      {}  (rounded from {text})", show(input.bits)),
-        None => sayln!("  input      {}", show(input.bits)),
+        Some(text) => sayln!(
+            "  input      {}  (rounded from {text})",
+            show_in(input.bits)
+        ),
+        None => sayln!("  input      {}", show_in(input.bits)),
     }
     if let Some(digits) = &exact {
         sayln!("  exact      {digits}");

@@ -1,10 +1,11 @@
-//! `ulpgauge golden`: golden tables of every 16-bit reference (all 65,536 inputs × every
-//! function × forward and derivative × f16 and bf16, default parameters, exact constants),
-//! gzip-compressed little-endian u16 outputs in input order.
+//! `ulpgauge golden`: golden tables of every 16-bit and 8-bit reference (every input × every
+//! function × forward and derivative × f16, bf16, and e4m3 and e5m2 in both OFP8 overflow
+//! modes; default parameters, exact constants), gzip-compressed little-endian outputs in input
+//! order (`.u16.gz`, `.u8.gz`).
 
 use super::Failure;
 use crate::activation::{catalog, Constants, Role};
-use crate::format::{Bfloat16, Binary16, Format};
+use crate::format::{Bfloat16, Binary16, E4m3, E5m2, Format};
 use crate::reference::{Evaluator, ParamRounding};
 use flate2::{read::GzDecoder, write::GzEncoder, Compression};
 use rayon::prelude::*;
@@ -28,47 +29,58 @@ pub fn table_path(dir: &Path, format: &dyn Format, function: &str, role: Role) -
         Role::Forward => "forward",
         Role::Derivative => "derivative",
     };
-    dir.join(format!("{}-{function}-{role}.u16.gz", format.name()))
+    dir.join(format!(
+        "{}-{function}-{role}.u{}.gz",
+        format.name(),
+        format.width()
+    ))
 }
 
-/// Computes one table.
-pub fn compute_table(evaluator: &Evaluator) -> Result<Vec<u16>, String> {
-    (0u32..65536)
+/// Computes one table: the reference at every pattern of the evaluator's format.
+pub fn compute_table(evaluator: &Evaluator) -> Result<Vec<u32>, String> {
+    let count = evaluator.format().pattern_count() as u32;
+    (0u32..count)
         .into_par_iter()
         .map(|x| {
             evaluator
                 .reference(x)
-                .map(|r| r.bits as u16)
+                .map(|r| r.bits)
                 .map_err(|e| e.to_string())
         })
         .collect()
 }
 
-/// Reads one table.
-pub fn read_table(path: &Path) -> Result<Vec<u16>, String> {
+/// Reads one table of a 16-bit or 8-bit format.
+pub fn read_table(path: &Path, format: &dyn Format) -> Result<Vec<u32>, String> {
     let file = std::fs::File::open(path).map_err(|e| format!("{}: {e}", path.display()))?;
     let mut bytes = Vec::new();
     GzDecoder::new(file)
         .read_to_end(&mut bytes)
         .map_err(|e| format!("{}: {e}", path.display()))?;
-    if bytes.len() != 131072 {
+    let width = format.width() as usize / 8;
+    let expected = format.pattern_count() as usize * width;
+    if bytes.len() != expected {
         return Err(format!(
-            "{}: {} bytes, expected 131072",
+            "{}: {} bytes, expected {expected}",
             path.display(),
             bytes.len()
         ));
     }
     Ok(bytes
-        .chunks_exact(2)
-        .map(|c| u16::from_le_bytes([c[0], c[1]]))
+        .chunks_exact(width)
+        .map(|c| c.iter().rev().fold(0u32, |v, &b| v << 8 | b as u32))
         .collect())
 }
 
-fn write_table(path: &Path, table: &[u16]) -> Result<(), String> {
+fn write_table(path: &Path, table: &[u32], format: &dyn Format) -> Result<(), String> {
     let tmp = path.with_extension("tmp");
     let file = std::fs::File::create(&tmp).map_err(|e| format!("{}: {e}", tmp.display()))?;
     let mut encoder = GzEncoder::new(file, Compression::best());
-    let bytes: Vec<u8> = table.iter().flat_map(|v| v.to_le_bytes()).collect();
+    let width = format.width() as usize / 8;
+    let bytes: Vec<u8> = table
+        .iter()
+        .flat_map(|v| v.to_le_bytes().into_iter().take(width))
+        .collect();
     encoder
         .write_all(&bytes)
         .and_then(|_| encoder.finish().map(|_| ()))
@@ -82,7 +94,14 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         std::fs::create_dir_all(&args.dir)
             .map_err(|e| Failure::bad_input(format!("{}: {e}", args.dir.display())))?;
     }
-    let formats: [&'static dyn Format; 2] = [&Binary16, &Bfloat16];
+    let formats: [&'static dyn Format; 6] = [
+        &Binary16,
+        &Bfloat16,
+        &E4m3 { saturating: false },
+        &E5m2 { saturating: false },
+        &E4m3 { saturating: true },
+        &E5m2 { saturating: true },
+    ];
     let mut differences = 0usize;
     for format in formats {
         for function in catalog() {
@@ -95,7 +114,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
                 })?;
                 let path = table_path(&args.dir, format, function.name(), role);
                 if args.check {
-                    let golden = read_table(&path).map_err(Failure::bad_input)?;
+                    let golden = read_table(&path, format).map_err(Failure::bad_input)?;
                     let diff = golden.iter().zip(&table).filter(|(a, b)| a != b).count();
                     if diff > 0 {
                         let first = golden
@@ -104,13 +123,14 @@ pub fn run(args: Args) -> Result<i32, Failure> {
                             .position(|(a, b)| a != b)
                             .unwrap_or(0);
                         eprintln!(
-                            "{}: {diff} differences, first at input 0x{first:04x}",
-                            path.display()
+                            "{}: {diff} differences, first at input {}",
+                            path.display(),
+                            crate::format::hex(format, first as u32)
                         );
                     }
                     differences += diff;
                 } else {
-                    write_table(&path, &table).map_err(Failure::bad_input)?;
+                    write_table(&path, &table, format).map_err(Failure::bad_input)?;
                 }
             }
         }

@@ -146,6 +146,10 @@ pub struct FunctionArgs {
     /// How parameters and built-in constants enter the reference.
     #[arg(long, value_enum, default_value_t = crate::reference::ParamRounding::Exact)]
     pub param_rounding: crate::reference::ParamRounding,
+    /// OCP FP8 formats: what the conversion does beyond ±max (the OFP8 specification's two
+    /// modes; default nan: NaN in e4m3, ±∞ in e5m2).
+    #[arg(long, value_enum, value_name = "nan|saturate")]
+    pub fp8_overflow: Option<crate::format::Fp8Overflow>,
 }
 
 /// The function of a command that takes `--function FUNC` like `check`, or, in the older form,
@@ -177,6 +181,40 @@ pub struct Target {
     pub evaluator: crate::reference::Evaluator<'static>,
 }
 
+/// The input and output format names of `--format F` or `--input-format F --output-format G`
+/// (either one defaulting to `--format`).
+pub fn format_pair(
+    format: Option<&str>,
+    input: Option<&str>,
+    output: Option<&str>,
+) -> Result<(String, String), Failure> {
+    match (input.or(format), output.or(format)) {
+        (Some(i), Some(o)) => Ok((i.to_string(), o.to_string())),
+        _ => Err(Failure::bad_input(
+            "--format F, or both --input-format F and --output-format G, is required",
+        )),
+    }
+}
+
+/// [`resolve`] with the input patterns read in `input` and the result rounded into `format`;
+/// `--fp8-overflow` applies to the output side (an 8-bit input is a pattern, not a rounding).
+pub fn resolve_mixed(
+    function: &str,
+    input: &str,
+    format: &str,
+    derivative: bool,
+    args: &FunctionArgs,
+) -> Result<Target, Failure> {
+    let mut target = resolve(function, format, derivative, args)?;
+    if input != format {
+        let base = input.strip_suffix("-sat").unwrap_or(input);
+        let input = crate::format::resolve(base, None).map_err(Failure::bad_input)?;
+        let e = target.evaluator;
+        target.evaluator = e.with_input(input);
+    }
+    Ok(target)
+}
+
 /// Resolves names and parameters into an evaluator, or a bad-input failure.
 pub fn resolve(
     function: &str,
@@ -192,9 +230,7 @@ pub fn resolve(
             names.join(", ")
         ))
     })?;
-    let fmt = crate::format::by_name(format).ok_or_else(|| {
-        Failure::bad_input(format!("unknown format '{format}' (known: f32, f16, bf16)"))
-    })?;
+    let fmt = crate::format::resolve(format, args.fp8_overflow).map_err(Failure::bad_input)?;
     let user = Constants::parse_params(f, &args.params).map_err(Failure::bad_input)?;
     let constants = Constants::resolve(f, &user, args.param_rounding, fmt);
     let role = if derivative {

@@ -15,7 +15,7 @@ pub struct Args {
     /// The kernel symbol.
     #[arg(long)]
     symbol: String,
-    /// Bytes per element (4 or 2).
+    /// Bytes per element (4, 2 or 1).
     #[arg(long)]
     elem_bytes: usize,
     /// The kernel takes (x, g, dx, n).
@@ -34,8 +34,8 @@ pub struct Args {
 
 /// Serves the runner until it closes the pipe.
 pub fn run(args: Args) -> Result<i32, Failure> {
-    if args.elem_bytes != 2 && args.elem_bytes != 4 {
-        return Err(Failure::bad_input("--elem-bytes must be 2 or 4"));
+    if ![1, 2, 4].contains(&args.elem_bytes) {
+        return Err(Failure::bad_input("--elem-bytes must be 1, 2 or 4"));
     }
     let trailing = args
         .trailing

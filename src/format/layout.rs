@@ -4,11 +4,18 @@ use super::Class;
 
 /// Field widths of an IEEE 754-style binary format: one sign bit, `exp_bits` biased exponent
 /// bits and `mant_bits` trailing significand bits, with subnormals, infinities and NaNs encoded
-/// as in IEEE 754-2019 §3.4.
+/// as in IEEE 754-2019 §3.4 — or, with `finite_only`, the OCP OFP8 E4M3 convention: no
+/// infinities, the all-ones pattern of each sign the only NaN, the rest of the top exponent
+/// field normal numbers (so emax = bias + 1). `saturating` selects the OFP8 conversion mode
+/// that clamps out-of-range results to ±max instead of giving ±∞ (or NaN without infinities).
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 pub struct Layout {
     exp_bits: u32,
     mant_bits: u32,
+    #[serde(default)]
+    finite_only: bool,
+    #[serde(default)]
+    saturating: bool,
 }
 
 impl Layout {
@@ -19,7 +26,40 @@ impl Layout {
         Layout {
             exp_bits,
             mant_bits,
+            finite_only: false,
+            saturating: false,
         }
+    }
+    /// The same fields in the OFP8 E4M3 convention: no infinities, one NaN pattern per sign.
+    #[inline]
+    pub const fn finite_only(self) -> Self {
+        Layout {
+            finite_only: true,
+            ..self
+        }
+    }
+    /// The same format under the saturating conversion: overflow gives ±max.
+    #[inline]
+    pub const fn saturating(self) -> Self {
+        Layout {
+            saturating: true,
+            ..self
+        }
+    }
+    /// Whether the format has no infinities (OFP8 E4M3).
+    #[inline]
+    pub const fn is_finite_only(self) -> bool {
+        self.finite_only
+    }
+    /// Whether out-of-range results saturate to ±max.
+    #[inline]
+    pub const fn is_saturating(self) -> bool {
+        self.saturating
+    }
+    /// Exponent field width in bits.
+    #[inline]
+    pub const fn exp_bits(self) -> u32 {
+        self.exp_bits
     }
     /// Storage width in bits.
     #[inline]
@@ -36,15 +76,15 @@ impl Layout {
     pub const fn bias(self) -> i32 {
         (1 << (self.exp_bits - 1)) - 1
     }
-    /// emax = bias.
+    /// emax = bias, or bias + 1 when the top exponent field holds numbers (E4M3).
     #[inline]
     pub const fn emax(self) -> i32 {
-        self.bias()
+        self.bias() + self.finite_only as i32
     }
-    /// emin = 1 − emax.
+    /// emin = 1 − bias.
     #[inline]
     pub const fn emin(self) -> i32 {
-        1 - self.emax()
+        1 - self.bias()
     }
     #[inline]
     fn sign_bit(self) -> u32 {
@@ -75,6 +115,13 @@ impl Layout {
         match (exp, mant) {
             (0, 0) => Class::Zero,
             (0, _) => Class::Subnormal,
+            (e, m) if self.finite_only && e == self.exp_mask() => {
+                if m == self.mant_mask() {
+                    Class::Nan
+                } else {
+                    Class::Normal
+                }
+            }
             (e, 0) if e == self.exp_mask() => Class::Infinite,
             (e, _) if e == self.exp_mask() => Class::Nan,
             _ => Class::Normal,
@@ -91,7 +138,9 @@ impl Layout {
             let magnitude = mant as f64 * pow2(self.emin() - self.mant_bits as i32);
             return f64::from_bits(magnitude.to_bits() | sign);
         }
-        if field == self.exp_mask() >> self.mant_bits {
+        if field == self.exp_mask() >> self.mant_bits
+            && (!self.finite_only || mant == self.mant_mask() as u64)
+        {
             // Infinity, or a NaN keeping its sign and payload and made quiet, as hardware
             // widening does.
             let quiet = if mant == 0 { 0 } else { 1 << 51 };
@@ -123,12 +172,18 @@ impl Layout {
         if mant & ((1u64 << dropped) - 1) != 0 {
             return None;
         }
+        if self.finite_only && e == self.emax() && (mant >> dropped) as u32 == self.mant_mask() {
+            return None;
+        }
         let sign = ((b >> 63) as u32) << (self.exp_bits + self.mant_bits);
         Some(sign | ((e + self.bias()) as u32) << self.mant_bits | (mant >> dropped) as u32)
     }
     /// Whether a pattern is a finite number (not an infinity or NaN).
     #[inline]
     pub fn is_finite(self, bits: u32) -> bool {
+        if self.finite_only {
+            return bits & self.magnitude_mask() != self.magnitude_mask();
+        }
         bits & self.exp_mask() != self.exp_mask()
     }
     /// 1/ulp of the binade `binade`: 2^(p − 1 − binade). Multiplying by it gives the same
@@ -146,7 +201,7 @@ impl Layout {
         }
         let negative = value.is_sign_negative();
         if value.is_infinite() {
-            return Some(self.infinity(negative));
+            return (!self.finite_only).then(|| self.infinity(negative));
         }
         if value == 0.0 {
             return Some(if negative { self.sign_bit() } else { 0 });
@@ -158,7 +213,8 @@ impl Layout {
             return None;
         }
         let bits = self.encode(negative, k, e);
-        (self.classify(bits) != Class::Infinite).then_some(bits)
+        // Overflow (to ±∞, NaN or a saturated ±max) changes the value.
+        (self.is_finite(bits) && self.to_f64(bits) == value).then_some(bits)
     }
     /// Pattern of `±k·2^quantum_exp` where k ≤ 2^p is an already rounded integer significand.
     #[inline(always)]
@@ -186,20 +242,41 @@ impl Layout {
             return sign | k as u32;
         }
         let field = quantum_exp - min_quantum + 1;
-        if field >= (1 << self.exp_bits) - 1 {
-            return self.infinity(negative);
+        let top = (1 << self.exp_bits) - 1;
+        let mant = k as u32 & self.mant_mask();
+        if field > top || (field == top && (!self.finite_only || mant == self.mant_mask())) {
+            return self.overflow(negative);
         }
-        sign | ((field as u32) << self.mant_bits) | (k as u32 & self.mant_mask())
+        sign | ((field as u32) << self.mant_bits) | mant
     }
-    /// The canonical quiet NaN (positive, top significand bit set).
+    /// What a value beyond the finite range (an exact infinity included) rounds to: ±max when
+    /// saturating, else ±∞, or the NaN of that sign in a format without infinities (the OFP8
+    /// specification's two conversion modes).
+    #[inline]
+    pub fn overflow(self, negative: bool) -> u32 {
+        if self.saturating {
+            self.max_finite(negative)
+        } else {
+            self.infinity(negative)
+        }
+    }
+    /// The canonical quiet NaN (positive, top significand bit set; E4M3's only NaN, S.1111.111).
     #[inline]
     pub fn quiet_nan(self) -> u32 {
+        if self.finite_only {
+            return self.magnitude_mask();
+        }
         self.exp_mask() | (1 << (self.mant_bits - 1))
     }
-    /// Infinity of a sign.
+    /// Infinity of a sign; in a format without infinities, the pattern right above the largest
+    /// finite magnitude (its NaN), so that ordinals, ranges and sign masks work alike.
     #[inline]
     pub fn infinity(self, negative: bool) -> u32 {
-        self.exp_mask() | if negative { self.sign_bit() } else { 0 }
+        let sign = if negative { self.sign_bit() } else { 0 };
+        if self.finite_only {
+            return self.magnitude_mask() | sign;
+        }
+        self.exp_mask() | sign
     }
     /// Largest finite magnitude of a sign.
     #[inline]

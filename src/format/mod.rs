@@ -1,19 +1,22 @@
 //! Binary floating-point formats: bit patterns, values, ordering and ulp.
 //!
 //! Every format is described by a [`Format`] implementation.  The three IEEE-style formats share
-//! [`Layout`], which derives everything from the exponent and significand widths; a format with
-//! unusual special values (an 8-bit E4M3 without infinities, say) overrides the few methods that
-//! differ and stays one file.
+//! [`Layout`], which derives everything from the exponent and significand widths; the OCP FP8
+//! formats set its flags for E4M3's special values and for the saturating conversion mode.
 
 mod bfloat16;
 mod binary16;
 mod binary32;
+mod e4m3;
+mod e5m2;
 mod error;
 mod layout;
 
 pub use bfloat16::Bfloat16;
 pub use binary16::Binary16;
 pub use binary32::Binary32;
+pub use e4m3::E4m3;
+pub use e5m2::E5m2;
 pub use error::{step_distance, ulp_error, ulp_error_in, ExactValue};
 pub use layout::Layout;
 
@@ -121,12 +124,60 @@ pub trait Format: Send + Sync + std::fmt::Debug + 'static {
     }
 }
 
-/// Every supported format.
-pub const ALL: [&'static dyn Format; 3] = [&Binary32, &Binary16, &Bfloat16];
+/// Every supported format (the FP8 ones in both OFP8 conversion modes).
+pub const ALL: [&'static dyn Format; 7] = [
+    &Binary32,
+    &Binary16,
+    &Bfloat16,
+    &E4m3 { saturating: false },
+    &E5m2 { saturating: false },
+    &E4m3 { saturating: true },
+    &E5m2 { saturating: true },
+];
+
+/// The names `--format` accepts, for error messages.
+pub const KNOWN: &str = "f32, f16, bf16, e4m3, e5m2";
 
 /// Looks a format up by its short name.
 pub fn by_name(name: &str) -> Option<&'static dyn Format> {
     ALL.iter().copied().find(|f| f.name() == name)
+}
+
+/// What an OFP8 conversion does with results beyond the largest finite value
+/// (`--fp8-overflow`).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, clap::ValueEnum)]
+pub enum Fp8Overflow {
+    /// The specification's non-saturating mode: ±∞ in E5M2, NaN in E4M3.
+    #[default]
+    Nan,
+    /// Clamp to ±max (448 in E4M3, 57344 in E5M2), infinities included.
+    Saturate,
+}
+
+/// The format named `name` under an OFP8 overflow mode; an error names what is wrong (an
+/// unknown name, or a mode given for a format that is not FP8).
+pub fn resolve(name: &str, overflow: Option<Fp8Overflow>) -> Result<&'static dyn Format, String> {
+    let format =
+        by_name(name).ok_or_else(|| format!("unknown format '{name}' (known: {KNOWN})"))?;
+    let Some(mode) = overflow else {
+        return Ok(format);
+    };
+    let base = name.strip_suffix("-sat").unwrap_or(name);
+    if base != "e4m3" && base != "e5m2" {
+        return Err(format!(
+            "--fp8-overflow applies to e4m3 and e5m2 only, not to '{name}'"
+        ));
+    }
+    let wanted = match mode {
+        Fp8Overflow::Nan => base.to_string(),
+        Fp8Overflow::Saturate => format!("{base}-sat"),
+    };
+    if name.ends_with("-sat") && mode == Fp8Overflow::Nan {
+        return Err(format!(
+            "format '{name}' saturates, but --fp8-overflow asks for nan"
+        ));
+    }
+    Ok(by_name(&wanted).expect("both modes are listed"))
 }
 
 /// Formats a bit pattern as `0x…` padded to the format's width.

@@ -198,9 +198,10 @@ pub fn load_manifest_entries(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras
         })?;
         let format = crate::format::by_name(k.format.get_ref()).ok_or_else(|| {
             format!(
-                "{}: key `format`: unknown format '{}' (known: f32, f16, bf16)",
+                "{}: key `format`: unknown format '{}' (known: {}, e4m3-sat, e5m2-sat)",
                 at(k.format.span()),
-                k.format.get_ref()
+                k.format.get_ref(),
+                crate::format::KNOWN
             )
         })?;
         if symbol.get_ref().trim().is_empty() {

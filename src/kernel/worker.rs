@@ -300,7 +300,9 @@ struct Input {
 fn encode(values: &[u32], eb: usize) -> Vec<u8> {
     let mut bytes = Vec::with_capacity(values.len() * eb);
     for &v in values {
-        if eb == 2 {
+        if eb == 1 {
+            bytes.push(v as u8);
+        } else if eb == 2 {
             bytes.extend_from_slice(&(v as u16).to_le_bytes());
         } else {
             bytes.extend_from_slice(&v.to_le_bytes());
@@ -313,7 +315,9 @@ fn decode(bytes: &[u8], eb: usize) -> Vec<u32> {
     bytes
         .chunks_exact(eb)
         .map(|c| {
-            if eb == 2 {
+            if eb == 1 {
+                c[0] as u32
+            } else if eb == 2 {
                 u16::from_le_bytes([c[0], c[1]]) as u32
             } else {
                 u32::from_le_bytes([c[0], c[1], c[2], c[3]])

@@ -1,5 +1,6 @@
 //! ulp accuracy over the points where kernel output and reference are both finite.
 
+use super::rounding::{RoundingCounts, RoundingDiagnosis};
 use super::{ExactSum, FindingSink, Point};
 use crate::format::{ulp_error_in, Class, ExactValue, Format, Layout};
 use crate::reference::Reference;
@@ -104,6 +105,8 @@ pub struct Accuracy {
     pub flush_to_zero_outputs: u64,
     /// Points where output or reference is non-finite (see non_finite).
     pub excluded_non_finite: u64,
+    /// Which rounding rule explains the outputs one step off RN(y) (see `measure::rounding`).
+    pub rounding: RoundingDiagnosis,
     /// Max error per bucket of input ordinals, for plots.
     #[serde(skip)]
     pub buckets: Vec<Bucket>,
@@ -428,6 +431,9 @@ pub struct AccuracyAcc {
     floor_max: (f64, Option<RawWorst>),
     ftz: u64,
     excluded: u64,
+    /// The off-by-one points by rounding rule (absent in states of older versions).
+    #[serde(default)]
+    rounding: RoundingCounts,
     samples: Samples,
     /// Points over the listing limit not yet handed to the sink, in bit order.
     over_limit: Vec<Worst>,
@@ -524,6 +530,7 @@ impl AccuracyAcc {
             floor_max: (0.0, None),
             ftz: 0,
             excluded: 0,
+            rounding: RoundingCounts::default(),
             samples,
             over_limit: Vec::new(),
             listed: 0,
@@ -696,6 +703,16 @@ impl AccuracyAcc {
                 .push(RawWorst::of(p, &j, j.error).report(format));
         }
         self.faithful += j.faithful as u64 * n;
+        if j.faithful && !j.correct {
+            self.rounding.add(
+                l.ordinal(out),
+                l.ordinal(j.reference),
+                l.to_f64(out),
+                l.to_f64(j.reference),
+                j.exact.approx,
+                n,
+            );
+        }
         let bin = BINS
             .iter()
             .position(|&b| j.error <= b)
@@ -755,6 +772,7 @@ impl AccuracyAcc {
         }
         self.ftz += other.ftz;
         self.excluded += other.excluded;
+        self.rounding.merge(&other.rounding);
         match (&mut self.samples, other.samples) {
             (Samples::All(mine), Samples::All(theirs)) => mine.extend(theirs),
             (Samples::Dense { lo, max, at }, Samples::All(theirs)) => {
@@ -895,6 +913,7 @@ impl AccuracyAcc {
             abs_floor,
             flush_to_zero_outputs: self.ftz,
             excluded_non_finite: self.excluded,
+            rounding: self.rounding.diagnose(total.points),
             buckets,
             points_over_limit: self.list_over.map(|_| self.listed),
         }

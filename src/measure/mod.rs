@@ -9,6 +9,7 @@ mod exact_sum;
 mod kinks;
 mod neighbourhood;
 mod nonfinite;
+mod rounding;
 mod shape;
 mod special;
 mod thresholds;
@@ -24,6 +25,7 @@ pub use nonfinite::{
     classes, non_finite_part, non_finite_runs, Classes, Known, NonFiniteRun, NonFiniteStream,
     RunCell, RunSummary, RunTotals, RunsPart, ValueClass, LISTED_RUNS, MAX_GAP_SCAN,
 };
+pub use rounding::{RoundingCounts, RoundingDiagnosis, DIAGNOSIS_MIN_POINTS, DIAGNOSIS_SHARE};
 pub use shape::{shape, Jump, Shape, ShapeAcc, Violation};
 pub use special::{special_values, RuleContext, SpecialRule};
 pub use thresholds::{thresholds, ThresholdReport};

@@ -79,6 +79,12 @@ impl Element {
         let want = match format.name() {
             "f32" => "float32 (or uint32 bit patterns)",
             "f16" => "float16 (or uint16 bit patterns)",
+            _ if format.width() == 8 => {
+                return Err(format!(
+                    "--format {}: recorded sets of 8-bit formats are not supported; check the kernel through the C ABI",
+                    format.name()
+                ))
+            }
             _ => "uint16 bit patterns (or ml_dtypes bfloat16); numpy has no bfloat16 dtype",
         };
         Err(format!(

@@ -43,6 +43,8 @@ pub struct Evaluator<'a> {
     role: Role,
     constants: Constants,
     format: &'static dyn Format,
+    /// The format of the input patterns (mixed formats: `--input-format`); `format` otherwise.
+    input: &'static dyn Format,
     /// Multiplies the value before rounding (a gradient's upstream g), exact.
     scale: Option<Rational>,
 }
@@ -60,8 +62,18 @@ impl<'a> Evaluator<'a> {
             role,
             constants,
             format,
+            input: format,
             scale: None,
         }
+    }
+    /// The same evaluator reading its input patterns in another format (the result is still
+    /// rounded into [`Evaluator::format`]).
+    pub fn with_input(self, input: &'static dyn Format) -> Self {
+        Evaluator { input, ..self }
+    }
+    /// The format of the input patterns.
+    pub fn input_format(&self) -> &'static dyn Format {
+        self.input
     }
     /// The same evaluator computing g·value (for gradient kernels); g must be finite.
     pub fn with_scale(&self, g: Option<Rational>) -> Evaluator<'a> {
@@ -70,6 +82,7 @@ impl<'a> Evaluator<'a> {
             role: self.role,
             constants: self.constants.clone(),
             format: self.format,
+            input: self.input,
             scale: g,
         }
     }
@@ -102,13 +115,19 @@ impl<'a> Evaluator<'a> {
         x_bits: u32,
         scale: Option<&Rational>,
     ) -> Result<Reference, ReferenceError> {
-        let format = self.format;
+        let r = self.rounded(x_bits, scale)?;
+        Ok(saturated(self.format, r))
+    }
+
+    /// The reference before a saturating format's clamp of the exact value.
+    fn rounded(&self, x_bits: u32, scale: Option<&Rational>) -> Result<Reference, ReferenceError> {
+        let format = self.input;
         let negative_input = format.is_sign_negative(x_bits);
         let negative_zero_input = negative_input && format.classify(x_bits) == Class::Zero;
         match format.classify(x_bits) {
             Class::Nan => {
                 return Ok(Reference {
-                    bits: format.quiet_nan(),
+                    bits: self.format.quiet_nan(),
                     exact: None,
                     precision: 0,
                 })
@@ -201,11 +220,19 @@ impl<'a> Evaluator<'a> {
         if lo != hi {
             return None;
         }
+        // A saturating conversion clamps y to ±max first: every end beyond falls in emax's binade.
+        let top = if self.format.layout().is_saturating() {
+            self.format.emax()
+        } else {
+            i32::MAX
+        };
         let binade = |v: &Float| {
-            if v.is_zero() || v.is_infinite() {
+            if v.is_zero() {
                 None
+            } else if v.is_infinite() {
+                (top < i32::MAX).then_some(top)
             } else {
-                Some(floor_log2(v).max(self.format.emin()))
+                Some(floor_log2(v).clamp(self.format.emin(), top))
             }
         };
         let emin = self.format.emin();
@@ -219,7 +246,8 @@ impl<'a> Evaluator<'a> {
                 emin
             }
             // Both ends beyond the overflow threshold: the binade no longer matters.
-            _ if self.format.classify(lo) == Class::Infinite => self.format.emax() + 1,
+            // (E4M3 overflows to NaN.)
+            _ if !self.format.layout().is_finite(lo) => self.format.emax() + 1,
             _ => return None,
         };
         let approx = nearest_f64_of(iv, prec)?;
@@ -298,12 +326,31 @@ impl<'a> Evaluator<'a> {
                 precision: 0,
             },
             Limit::Infinite { negative } => Reference {
-                bits: self.format.infinity(negative),
+                bits: self.format.layout().overflow(negative),
                 exact: None,
                 precision: 0,
             },
         }
     }
+}
+
+/// Under a saturating OFP8 conversion the reference is RN(clamp(y, −max, max)), so the
+/// measures see the clamped value: an exact value beyond ±max (an infinite limit included)
+/// becomes ±max in emax's binade.
+fn saturated(format: &dyn Format, mut r: Reference) -> Reference {
+    let l = format.layout();
+    if !l.is_saturating() || !l.is_finite(r.bits) {
+        return r;
+    }
+    let max = l.to_f64(l.max_finite(false));
+    let beyond = r.exact.map_or(true, |e| e.approx.abs() > max);
+    if beyond {
+        r.exact = Some(ExactValue {
+            approx: l.to_f64(r.bits),
+            binade: format.emax(),
+        });
+    }
+    r
 }
 
 /// g·value, exactly for rationals and outward for enclosures.

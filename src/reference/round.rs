@@ -1,6 +1,7 @@
 //! Rounding an exact value once, directly into a target format: round-to-nearest, ties to
 //! even, subnormals rounded at their own (reduced) precision, overflow to ±∞ from
-//! max + ulp(max)/2 on (IEEE 754-2019 §4.3.1 and §7.4).
+//! max + ulp(max)/2 on (IEEE 754-2019 §4.3.1 and §7.4) — or to what the format's OFP8
+//! conversion mode gives instead (NaN in E4M3, ±max when saturating; `Layout::overflow`).
 
 use crate::format::Format;
 use rug::float::Round;
@@ -42,14 +43,14 @@ pub fn round_float(v: &Float, format: &dyn Format) -> u32 {
     }
     let negative = v.is_sign_negative();
     if v.is_infinite() {
-        return format.infinity(negative);
+        return format.layout().overflow(negative);
     }
     if v.is_zero() {
         return format.encode(negative, 0, 0);
     }
     let binade = floor_log2(v);
     if binade > format.emax() {
-        return format.infinity(negative);
+        return format.layout().overflow(negative);
     }
     let q = quantum_exp(format, binade);
     // v·2^−q is exact: only the exponent changes.
@@ -66,7 +67,7 @@ pub fn round_rational(value: &Rational, negative_zero: bool, format: &dyn Format
     };
     let binade = floor_log2_rational(value);
     if binade > format.emax() {
-        return format.infinity(negative);
+        return format.layout().overflow(negative);
     }
     let q = quantum_exp(format, binade);
     let scaled = Rational::from(value.abs_ref()) >> q;

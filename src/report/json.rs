@@ -17,8 +17,15 @@
 //!   max_ulp, mean_ulp, correctly_rounded, worst_input: V}], regions: [{region, points, max_ulp,
 //!   max_floored}], abs_floor: {floor, max, worst} | null, flush_to_zero_outputs,
 //!   excluded_non_finite, points_over_limit (with `--csv-points-over`: how many points were
-//!   listed), coverage}. In derivative and gradient roles the figures are the
-//!   derivative's; at a kink the nearer one-sided value is used.
+//!   listed), coverage, rounding: {other_neighbour, toward_zero, away_from_zero, up, down,
+//!   nearest_ties_away, rule, message}}. In derivative and gradient roles the figures are the
+//!   derivative's; at a kink the nearer one-sided value is used. `rounding` (added within
+//!   version 2: readers must not require it) counts the points whose output is the other
+//!   neighbour of y (one step off RN(y), on y's far side) by each rule that gives it (a point
+//!   counts under two or three); `rule` ("toward-zero" | "nearest-ties-away" | "down" | "up" |
+//!   "away-from-zero" | null) names the one that explains ≥ 95% of them when there are at
+//!   least 10, and `message` says it in a sentence ("the outputs look truncated: 49.8% of the
+//!   points were rounded toward zero …", the percentage over `points`).
 //! - `non_finite`: the listed runs, at most `--list-runs` (default 100): [{first, last: V,
 //!   count, kernel, reference ("nan" | "+inf" | "-inf" | "finite"), exact_ends, interior
 //!   ("exhaustive" | "sampled"), message}], the longest first, ties to the lowest first bit pattern (a

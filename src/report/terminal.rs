@@ -165,6 +165,9 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         100.0 * acc.correctly_rounded,
         100.0 * acc.faithful
     )?;
+    if let Some(m) = &acc.rounding.message {
+        writeln!(out, "  rounding    {m}")?;
+    }
     if let Some(w) = &acc.worst {
         writeln!(
             out,

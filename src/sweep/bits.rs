@@ -18,14 +18,15 @@ pub struct FormatBits {
 impl FormatBits {
     /// The masks of `format`.
     pub fn of(format: &dyn Format) -> Self {
-        let exponent = format.infinity(false);
-        let sign = format.infinity(true) & !exponent;
         let significand = (1u32 << (format.precision() - 1)) - 1;
+        let sign = 1u32 << (format.width() - 1);
+        // From the widths, not from +∞'s pattern: E4M3 has no infinity.
+        let exponent = (sign - 1) & !significand;
         FormatBits {
             sign,
             exponent,
             significand,
-            quiet: format.quiet_nan() & !exponent,
+            quiet: 1 << (format.precision() - 2),
         }
     }
 }

@@ -48,8 +48,11 @@ impl Inputs {
             let inf = format.infinity(false);
             let nans = range.pattern_count(format) - Self::count(&runs);
             let per_sign = (nans / 2) as u32;
-            runs.push((inf + 1, inf + per_sign));
-            runs.push((sign | (inf + 1), sign | (inf + per_sign)));
+            // E4M3's only NaNs sit at "infinity's" place and are in the ordinal runs already.
+            if per_sign > 0 {
+                runs.push((inf + 1, inf + per_sign));
+                runs.push((sign | (inf + 1), sign | (inf + per_sign)));
+            }
         }
         runs.sort_unstable();
         let mut out = Inputs::default();

@@ -1,7 +1,8 @@
 #!/usr/bin/env python3
 """Independent cross-check of ulpgauge's correctly rounded references.
 
-For every catalog function, format (f32, f16, bf16) and role (forward, derivative) this script
+For every catalog function, format (f32, f16, bf16; and the OCP FP8 formats e4m3, e5m2 in both
+OFP8 overflow modes, e4m3-sat and e5m2-sat, all 256 patterns each, see ofp8.py) and role (forward, derivative) this script
 samples input patterns, computes the correctly rounded value itself -- definitions written from
 the published formulas (functions.py), mpmath at >= 300 bits with Ziv re-evaluation at 600,
 1200 and 2400 bits near rounding boundaries, fractions.Fraction for the piecewise-rational
@@ -35,7 +36,11 @@ from mpmath import mp  # noqa: E402
 import functions  # noqa: E402
 import sampling  # noqa: E402
 import validate  # noqa: E402
+import validate_fp8  # noqa: E402
 from ieee import F32, FORMATS, mpf_round  # noqa: E402
+from ofp8 import FP8  # noqa: E402
+
+FORMATS = dict(FORMATS, **FP8)
 
 # Working precisions of the Ziv loop; at each, the approximation is trusted to 2^-(prec - 100)
 # relative (mpmath's functions are accurate to about the working precision; the slack of 100
@@ -88,7 +93,7 @@ def mine(name, deriv, fmt, bits, P):
         if r[0] == "zero":
             return (fmt.sign_bit if r[1] else 0), ("-0" if r[1] else "+0") + " (limit)"
         if r[0] == "inf":
-            return fmt.inf | (fmt.sign_bit if r[1] else 0), ("-inf" if r[1] else "+inf")
+            return fmt.overflow(r[1]), ("-inf" if r[1] else "+inf")
         return fmt.round_fraction(r[1], r[2]), describe_exact(r[1], r[2]) + " (limit)"
     x, negative_zero = d[1], d[2] and d[1] == 0
     r = functions.evaluate(name, deriv, x, P)
@@ -102,6 +107,10 @@ def mine(name, deriv, fmt, bits, P):
 
 def run_ulpgauge(exe, name, fmt, deriv, params, rounding):
     cmd = [exe, "batch", "--function", name, "--format", fmt.name]
+    if fmt.name.endswith("-sat"):
+        # The option's spelling of the saturating mode (the same format as `e4m3-sat`).
+        cmd[-1] = fmt.name[: -len("-sat")]
+        cmd += ["--fp8-overflow", "saturate"]
     if deriv:
         cmd.append("--derivative")
     for k, v in sorted(params.items()):
@@ -114,15 +123,16 @@ def run_ulpgauge(exe, name, fmt, deriv, params, rounding):
 
 
 def golden_table(golden_dir, fmt, name, deriv):
-    path = os.path.join(golden_dir, "%s-%s-%s.u16.gz" % (
-        fmt.name, name, "derivative" if deriv else "forward"))
+    path = os.path.join(golden_dir, "%s-%s-%s.u%d.gz" % (
+        fmt.name, name, "derivative" if deriv else "forward", fmt.width))
     if not os.path.exists(path):
         return None, path
     with gzip.open(path, "rb") as fh:
         raw = fh.read()
-    if len(raw) != 131072:
+    count = 1 << fmt.width
+    if len(raw) != count * fmt.width // 8:
         return "bad", path
-    return struct.unpack("<65536H", raw), path
+    return struct.unpack("<%d%s" % (count, "H" if fmt.width == 16 else "B"), raw), path
 
 
 def kinds_of(fmt, x_bits, y_bits, value, kinds):
@@ -130,8 +140,8 @@ def kinds_of(fmt, x_bits, y_bits, value, kinds):
     if fmt.decode(x_bits)[0] != "num":
         return
     y = fmt.decode(y_bits)
-    if y[0] == "inf":
-        kinds["overflow"] += 1
+    if y[0] == "inf" or (y[0] == "nan" and fmt.width == 8):
+        kinds["overflow"] += 1  # (E4M3's non-saturating overflow is NaN)
     elif y[0] == "num" and y[1] == 0 and value not in ("0",):
         kinds["underflow"] += 1  # a nonzero exact value rounded to a signed zero
     elif y[0] == "num" and abs(y[1]) < Fraction(2) ** fmt.emin:
@@ -145,7 +155,9 @@ def task(job):
     role = "derivative" if deriv else "forward"
     started = time.time()
     rng = sampling.rng_for(opts["seed"], name, fmt_name, role, sorted(params.items()), rounding)
-    if opts["exhaustive16"] and fmt.width == 16:
+    if fmt.width == 8:
+        points = list(range(256))  # always exhaustive
+    elif opts["exhaustive16"] and fmt.width == 16:
         points = list(range(1 << 16))
     else:
         points = sampling.sample(fmt, n, rng)
@@ -178,15 +190,15 @@ def task(job):
         if line.strip():
             a, b = line.split()
             theirs.setdefault(int(a, 16), int(b, 16))
-    # Golden tables: 16-bit formats, default parameters, exact constants only.
+    # Golden tables: 16-bit and 8-bit formats, default parameters, exact constants only.
     table, golden_note = None, None
-    if fmt.width == 16 and not params and rounding == "exact":
+    if fmt.width <= 16 and not params and rounding == "exact":
         table, path = golden_table(opts["golden_dir"], fmt, name, deriv)
         if table is None:
             golden_note = "missing " + path
         elif table == "bad":
             # Every point of this combination then fails its golden comparison.
-            lines.append("FAIL golden %s: not 131072 bytes" % path)
+            lines.append("FAIL golden %s: wrong size" % path)
             golden_note = "bad " + path
     passed = failed = golden_checked = 0
     kinds = {"subnormal": 0, "overflow": 0, "underflow": 0}
@@ -250,7 +262,8 @@ def main():
                     help="points per non-default parameter run (0 to skip)")
     ap.add_argument("--seed", default="1")
     ap.add_argument("--only", default="", help="comma-separated function names")
-    ap.add_argument("--formats", default="f32,f16,bf16")
+    ap.add_argument("--formats", default="f32,f16,bf16",
+                    help="comma-separated; also e4m3, e5m2, e4m3-sat, e5m2-sat")
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--exhaustive-16", action="store_true",
                     help="check all 65,536 inputs of f16 and bf16 instead of a sample")
@@ -273,6 +286,14 @@ def main():
         print("FAIL format self-check: %s" % p)
     print("format self-checks (IEEE 754-2019 limits, numpy float16/float32, ml_dtypes bfloat16): "
           + ("ok" if not problems else "%d problem(s)" % len(problems)))
+    if any(f in FP8 for f in args.formats.split(",")):
+        fp8_problems, compared = validate_fp8.run_all(args.ulpgauge)
+        for p in fp8_problems:
+            print("FAIL OFP8 check: %s" % p)
+        print("OFP8 checks (specification limits, ml_dtypes float8_e4m3fn/float8_e5m2 for "
+              "every pattern, ulpgauge's reading and rounding at %d values): %s" % (
+                  compared, "ok" if not fp8_problems else "%d problem(s)" % len(fp8_problems)))
+        problems += fp8_problems
 
     passed = failed = golden_checked = 0
     golden_missing = []
@@ -296,7 +317,8 @@ def main():
         print("golden tables: %d of the 16-bit tables absent or unreadable (e.g. %s); "
               "not compared" % (len(golden_missing), golden_missing[0].split(" ", 1)[1]))
     print("golden tables: compared at %d of the points" % golden_checked)
-    print("hard outcomes among the points: %d subnormal results, %d overflows to infinity, "
+    print("hard outcomes among the points: %d subnormal results, %d overflows (to infinity, "
+          "or NaN in e4m3), "
           "%d nonzero values rounded to a signed zero" % (
               kinds["subnormal"], kinds["overflow"], kinds["underflow"]))
     print("combinations: %d; time %.1f s" % (len(todo), time.time() - started))

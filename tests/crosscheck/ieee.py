@@ -35,6 +35,10 @@ class Fmt:
         self.max_bits = self.exp_mask - 1
         self.hexdigits = width // 4
 
+    def overflow(self, neg):
+        """What a value beyond the finite range (or an infinite one) rounds to: +-inf."""
+        return self.inf | (self.sign_bit if neg else 0)
+
     def hex(self, bits):
         return "0x%0*x" % (self.hexdigits, bits)
 

@@ -6,7 +6,7 @@
 //! its two ends suffices.
 
 use super::dd::{ilogb, is_pow2, next_down, next_up, pow2, two_sum, Dd, Ev, SLACK};
-use crate::format::{Class, ExactValue, Layout};
+use crate::format::{ExactValue, Layout};
 use crate::reference::Reference;
 
 /// Precision recorded for references decided by the fast path (double-word significands).
@@ -243,7 +243,7 @@ fn decide_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
             let side = if up { 1.0 } else { -1.0 };
             let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
             let (bits, binade) = round_dd(format, ph, pl, 0)?;
-            if format.classify(bits) == Class::Infinite {
+            if !format.is_finite(bits) {
                 return None;
             }
             (bits, binade)
@@ -354,7 +354,7 @@ fn decide_leading(format: Layout, s: Dd, c: f64, e: f64) -> Option<(u32, i32, f6
             s.lo
         };
         let (bits, binade) = round_dd(format, s.hi, l, 0)?;
-        if format.classify(bits) == Class::Infinite {
+        if !format.is_finite(bits) {
             return None;
         }
         return Some((bits, binade, nearest_nudged(s, up)));
@@ -391,7 +391,7 @@ fn round_within(
     } else {
         (bits, binade)
     };
-    (format.classify(decided.0) != Class::Infinite).then_some(decided)
+    format.is_finite(decided.0).then_some(decided)
 }
 
 /// The lowest set bit of a normal nonzero f64, as a power of two (v is a multiple of it); 0

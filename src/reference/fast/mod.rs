@@ -76,7 +76,12 @@ impl FastEvaluator {
             _ => return None,
         };
         let format = evaluator.format();
-        if format.precision() > 24 || format.emin() < -300 {
+        if evaluator.input_format().name() != format.name() {
+            return None; // one layout decodes the input and rounds the output
+        }
+        // A saturating format clamps the exact value itself (the engine's `saturated`); its
+        // 256 patterns do not need this path.
+        if format.precision() > 24 || format.emin() < -300 || format.layout().is_saturating() {
             return None;
         }
         let fast = FastEvaluator {

@@ -207,6 +207,7 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
         "format": format.name(),
         "exp": l.width() - l.precision(),
         "mant": l.precision() - 1,
+        "finite_only": l.is_finite_only(),
         "top": format.ordinal(format.max_finite(false)),
         "buckets": buckets,
         "runs": runs,
@@ -266,6 +267,24 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
             shown(format, &worst["reference"]),
             text(&worst["exact"]),
             ulp(worst["ulp"].as_f64().unwrap_or(0.0))
+        )?;
+    }
+    let rounding = &a["rounding"];
+    if let Some(m) = rounding["message"].as_str() {
+        writeln!(
+            out,
+            r#"<p class="rounding">Rounding diagnosis: {}.</p>"#,
+            super::esc(m)
+        )?;
+    } else if rounding["other_neighbour"].as_u64().unwrap_or(0) > 0 {
+        writeln!(
+            out,
+            r#"<p class="rounding">Rounding diagnosis: of the {} points one step off the correctly rounded value, {} were rounded toward zero, {} up, {} down, {} were ties rounded away from zero; no rule explains almost all of them.</p>"#,
+            rounding["other_neighbour"],
+            rounding["toward_zero"],
+            rounding["up"],
+            rounding["down"],
+            rounding["nearest_ties_away"]
         )?;
     }
     failed(out, r, format)?;

@@ -37,7 +37,10 @@
     const field = Math.floor(m / pow2(fmt.mant));
     const bias = pow2(fmt.exp - 1) - 1;
     let v;
-    if (field === pow2(fmt.exp) - 1) v = mant ? NaN : Infinity;
+    // E4M3 (finiteOnly): the top field holds numbers but for S.1111.111, its NaN.
+    if (field === pow2(fmt.exp) - 1 && (!fmt.finiteOnly || mant === pow2(fmt.mant) - 1)) {
+      v = mant || fmt.finiteOnly ? NaN : Infinity;
+    }
     else if (field === 0) v = mant * pow2(1 - bias - fmt.mant);
     else v = (1 + mant / pow2(fmt.mant)) * pow2(field - bias);
     return negative(fmt, bits) ? -v : v;
@@ -96,7 +99,7 @@
   function Plot(figure, data) {
     this.figure = figure;
     this.data = data;
-    this.fmt = { exp: data.exp, mant: data.mant, top: data.top };
+    this.fmt = { exp: data.exp, mant: data.mant, top: data.top, finiteOnly: !!data.finite_only };
     this.area = figure.querySelector(".plot-area");
     this.pick = figure.querySelector(".pick");
     this.tip = html("div", "tooltip");
@@ -190,7 +193,7 @@
     el("text", { x: 14, y: g.T + plotH / 2, transform: "rotate(-90 14 " + (g.T + plotH / 2) + ")", "text-anchor": "middle" }, svg).textContent = "max ulp error";
     const ticks = [[0, "0"]];
     const bias = pow2(fmt.exp - 1) - 1;
-    for (let k = 1 - bias; k <= bias; k++) {
+    for (let k = 1 - bias; k <= bias + (fmt.finiteOnly ? 1 : 0); k++) {
       const o = (k + bias) * pow2(fmt.mant);
       ticks.push([o, "2^" + k], [-o, "-2^" + k]);
     }
