@@ -401,7 +401,8 @@ fn stream_measured(
             (part, all)
         },
     };
-    prober.probe_fold(own.iter(), &folding, &mut |(part, all)| {
+    let batches = probe::run_batches(own.runs());
+    prober.probe_fold(batches, own.len(), &folding, &mut |(part, all)| {
         stream.merge(part);
         stream.settle(sink, leftmost);
         measured.extend(all.into_iter().flatten());

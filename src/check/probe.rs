@@ -242,17 +242,26 @@ impl<'a> Prober<'a> {
 
 /// Inputs per task of the parallel fold (references and accumulation).
 const FOLD_TASK: usize = 2048;
+/// Called batches the kernel thread may run ahead of the folds.
+const AHEAD: usize = 2;
+/// Fold tasks handed out and not yet joined, at most (memory stays bounded: a few batches).
+const IN_FLIGHT: u64 = 3 * (CHUNK / FOLD_TASK) as u64;
+/// Sweeps of at most this many inputs are evaluated on the caller's thread (probes, threshold
+/// searches): starting threads would cost more than the work.
+const INLINE: u64 = 2 * FOLD_TASK as u64;
 
-/// One batch whose kernel outputs are known: inputs, second arguments, outputs.
+/// One batch whose kernel outputs are known: inputs, second arguments, outputs, and the
+/// inputs whose kernel arguments could not be computed.
 struct Called {
     inputs: Vec<u32>,
     seconds: Vec<Option<u32>>,
     outputs: Vec<Option<u32>>,
+    failures: Vec<(u32, String)>,
 }
 
 /// How the points of a streamed sweep are folded: `fold` turns a task's points (in input
-/// order) into a partial result and `join` appends a later partial to an earlier one; both run
-/// on the rayon pool, and `join` must be associative.
+/// order) into a partial result and `join` appends a later partial to an earlier one; `fold`
+/// runs on several threads at once, and `join` must be associative.
 pub struct Folding<'f, S> {
     /// Points of one task → partial result.
     pub fold: &'f (dyn Fn(&[Point]) -> S + Sync),
@@ -261,39 +270,29 @@ pub struct Folding<'f, S> {
 }
 
 impl RoleReferences {
-    /// References of one called batch, folded task by task and joined in input order on the
-    /// rayon pool; also the inputs whose reference failed.
-    fn fold_batch<S: Send>(
+    /// The points of `range` of a called batch, into `points` (cleared first); inputs whose
+    /// reference fails go to `failures`.
+    fn points_of(
         &self,
         called: &Called,
-        folding: &Folding<'_, S>,
-    ) -> Option<(S, Vec<(u32, String)>)> {
-        called
-            .inputs
-            .par_chunks(FOLD_TASK)
-            .enumerate()
-            .map(|(t, inputs)| {
-                let base = t * FOLD_TASK;
-                let mut points = Vec::with_capacity(inputs.len());
-                let mut failures = Vec::new();
-                for (i, &x) in inputs.iter().enumerate() {
-                    match self.reference_with(x, called.seconds[base + i]) {
-                        Ok((reference, left)) => points.push(Point {
-                            input: x,
-                            second: called.seconds[base + i],
-                            output: called.outputs.get(base + i).copied().flatten(),
-                            reference,
-                            left,
-                        }),
-                        Err(e) => failures.push((x, e)),
-                    }
-                }
-                ((folding.fold)(&points), failures)
-            })
-            .reduce_with(|(a, mut fa), (b, fb)| {
-                fa.extend(fb);
-                ((folding.join)(a, b), fa)
-            })
+        range: std::ops::Range<usize>,
+        points: &mut Vec<Point>,
+        failures: &mut Vec<(u32, String)>,
+    ) {
+        points.clear();
+        for i in range {
+            let x = called.inputs[i];
+            match self.reference_with(x, called.seconds[i]) {
+                Ok((reference, left)) => points.push(Point {
+                    input: x,
+                    second: called.seconds[i],
+                    output: called.outputs.get(i).copied().flatten(),
+                    reference,
+                    left,
+                }),
+                Err(e) => failures.push((x, e)),
+            }
+        }
     }
 
     /// Kernel arguments of a batch: the inputs kept, first and second arguments; inputs whose
@@ -320,93 +319,264 @@ impl RoleReferences {
         }
         (kept, firsts, seconds)
     }
+
+    /// Calls the kernel on one batch of inputs: the called batch, and the batch's crashes
+    /// (with their inputs).
+    fn call(&self, kernel: &mut dyn KernelUnderTest, batch: Vec<u32>) -> (Called, Vec<KernelCrash>) {
+        let mut failures = Vec::new();
+        let (kept, firsts, seconds) = self.batch_arguments(batch, &mut failures);
+        let second: Option<Vec<u32>> = seconds.iter().copied().collect();
+        let out = if firsts.is_empty() {
+            KernelOutput::default()
+        } else {
+            kernel.run(&firsts, second.as_deref())
+        };
+        let crashes = out
+            .crashes
+            .into_iter()
+            .map(|crash| KernelCrash {
+                input: kept[crash.index],
+                ..crash
+            })
+            .collect();
+        let called = Called {
+            inputs: kept,
+            seconds: out.seconds.unwrap_or(seconds),
+            outputs: out.outputs,
+            failures,
+        };
+        (called, crashes)
+    }
 }
 
 /// Inputs kept, first arguments, second arguments.
 type Arguments = (Vec<u32>, Vec<u32>, Vec<Option<u32>>);
 
+/// A fold task: its place in the sweep, its batch and its part of the batch.
+type Task = (u64, std::sync::Arc<Called>, std::ops::Range<usize>);
+
+/// Kernel batches of a sweep given as sorted runs `lo..=hi` of consecutive bit patterns.
+pub fn run_batches(runs: &[(u32, u32)]) -> impl Iterator<Item = Vec<u32>> + Send + '_ {
+    let mut runs = runs.iter().copied();
+    let mut current: Option<(u32, u32)> = None;
+    std::iter::from_fn(move || {
+        let mut batch = Vec::with_capacity(CHUNK);
+        while batch.len() < CHUNK {
+            let Some((lo, hi)) = current.take().or_else(|| runs.next()) else {
+                break;
+            };
+            let room = (CHUNK - batch.len()) as u64;
+            let n = (hi - lo) as u64 + 1;
+            let take = n.min(room) as u32;
+            // lo + take − 1 ≤ hi: no overflow.
+            batch.extend(lo..=lo + (take - 1));
+            if (take as u64) < n {
+                current = Some((lo + take, hi));
+            }
+        }
+        (!batch.is_empty()).then_some(batch)
+    })
+}
+
 impl Prober<'_> {
-    /// Evaluates inputs (in the order given) batch by batch and folds their points; `sink`
-    /// receives one partial result per batch, in input order. Inputs whose reference fails are
-    /// left out and recorded in `failures`.
+    /// Evaluates inputs (in the order given, `total` of them, in batches of at most [`CHUNK`])
+    /// and folds their points; `sink` receives one partial result per batch, in input order.
+    /// Inputs whose reference fails are left out and recorded in `failures`.
     ///
-    /// The kernel runs batch k + 1 on its own thread while the rayon pool computes the
-    /// references of batch k, folds them and joins the partials, so neither waits for the
-    /// other and the caller's thread only hands batches over.
+    /// A kernel thread calls the kernel batch after batch, up to [`AHEAD`] batches ahead;
+    /// fold threads (one per rayon thread) take tasks of [`FOLD_TASK`] inputs as they come,
+    /// compute their references and fold them; the caller's thread joins the partial results
+    /// in input order. Nothing waits for a whole batch to finish before the next one starts.
     pub fn probe_fold<S: Send>(
         &mut self,
-        inputs: impl Iterator<Item = u32>,
+        batches: impl Iterator<Item = Vec<u32>> + Send,
+        total: u64,
         folding: &Folding<'_, S>,
         sink: &mut dyn FnMut(S),
     ) {
         let (bar, started, own) = match &self.shared {
             Some((bar, started)) => (Some(bar.clone()), *started, false),
-            None => {
-                let (lo, hi) = inputs.size_hint();
-                (
-                    self.progress.then(|| new_bar(hi.unwrap_or(lo) as u64)),
-                    std::time::Instant::now(),
-                    true,
-                )
+            None => (
+                self.progress.then(|| new_bar(total)),
+                std::time::Instant::now(),
+                true,
+            ),
+        };
+        let advance = |len: usize, evaluated: &mut u64| {
+            *evaluated += len as u64;
+            if let Some(bar) = &bar {
+                bar.inc(len as u64);
+                if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
+                    bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+                }
             }
         };
         let refs = self.refs;
         let mut failures = Vec::new();
         let mut crashes = Vec::new();
-        let mut kernel: &mut dyn KernelUnderTest = &mut *self.kernel;
-        let mut inputs = inputs.peekable();
-        std::thread::scope(|scope| {
-            let mut pending: Option<Called> = None;
-            loop {
-                let call = inputs.peek().is_some().then(|| {
-                    let batch: Vec<u32> = inputs.by_ref().take(CHUNK).collect();
-                    let len = batch.len();
-                    let (kept, firsts, seconds) = refs.batch_arguments(batch, &mut failures);
-                    let k = kernel;
-                    let handle = scope.spawn(move || {
-                        let second: Option<Vec<u32>> = seconds.iter().copied().collect();
-                        let out = if firsts.is_empty() {
-                            KernelOutput::default()
-                        } else {
-                            k.run(&firsts, second.as_deref())
-                        };
-                        (k, kept, seconds, out)
+        if total <= INLINE {
+            // Small sweeps: everything on this thread.
+            let mut points = Vec::new();
+            for batch in batches {
+                let len = batch.len();
+                let (called, crashed) = refs.call(&mut *self.kernel, batch);
+                crashes.extend(crashed);
+                failures.extend(called.failures.iter().cloned());
+                let mut joined = None;
+                for start in (0..called.inputs.len()).step_by(FOLD_TASK) {
+                    let end = (start + FOLD_TASK).min(called.inputs.len());
+                    refs.points_of(&called, start..end, &mut points, &mut failures);
+                    let part = (folding.fold)(&points);
+                    joined = Some(match joined {
+                        None => part,
+                        Some(j) => (folding.join)(j, part),
                     });
-                    (len, handle)
-                });
-                if let Some(called) = pending.take() {
-                    if let Some((folded, failed)) = refs.fold_batch(&called, folding) {
-                        sink(folded);
-                        failures.extend(failed);
-                    }
                 }
-                let Some((len, handle)) = call else { break };
-                let (k, kept, seconds, out) = handle.join().expect("kernel thread");
-                kernel = k;
-                crashes.extend(out.crashes.into_iter().map(|crash| KernelCrash {
-                    input: kept[crash.index],
-                    ..crash
-                }));
-                pending = Some(Called {
-                    inputs: kept,
-                    seconds: out.seconds.unwrap_or(seconds),
-                    outputs: out.outputs,
-                });
-                self.evaluated += len as u64;
-                if let Some(bar) = &bar {
-                    bar.inc(len as u64);
-                    if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
-                        bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
-                    }
+                if let Some(j) = joined {
+                    sink(j);
                 }
+                advance(len, &mut self.evaluated);
             }
-        });
+        } else {
+            let kernel: &mut dyn KernelUnderTest = &mut *self.kernel;
+            let evaluated = &mut self.evaluated;
+            std::thread::scope(|scope| {
+                pipeline(
+                    scope,
+                    refs,
+                    kernel,
+                    batches,
+                    folding,
+                    sink,
+                    &mut |len| advance(len, evaluated),
+                    &mut failures,
+                    &mut crashes,
+                )
+            });
+        }
         self.failures.extend(failures);
         self.crashes.extend(crashes);
         if let Some(bar) = bar.filter(|_| own) {
             bar.finish_and_clear();
         }
     }
+}
+
+/// The threads of [`Prober::probe_fold`]: a kernel thread, fold threads, and the caller's
+/// thread joining partials in order.
+#[allow(clippy::too_many_arguments)]
+fn pipeline<'scope, 'env, S: Send>(
+    scope: &'scope std::thread::Scope<'scope, 'env>,
+    refs: &'env RoleReferences,
+    kernel: &'env mut dyn KernelUnderTest,
+    batches: impl Iterator<Item = Vec<u32>> + Send + 'scope,
+    folding: &'env Folding<'_, S>,
+    sink: &mut dyn FnMut(S),
+    advance: &mut dyn FnMut(usize),
+    failures: &mut Vec<(u32, String)>,
+    crashes: &mut Vec<KernelCrash>,
+) {
+    use std::sync::{mpsc, Arc, Mutex};
+    let (called_tx, called_rx) = mpsc::sync_channel::<(Called, usize)>(AHEAD);
+    let feeder = scope.spawn(move || {
+        let mut crashes = Vec::new();
+        for batch in batches {
+            let len = batch.len();
+            let (called, crashed) = refs.call(kernel, batch);
+            crashes.extend(crashed);
+            if called_tx.send((called, len)).is_err() {
+                break;
+            }
+        }
+        crashes
+    });
+    let (task_tx, task_rx) = mpsc::channel::<Task>();
+    let task_rx = Arc::new(Mutex::new(task_rx));
+    let (done_tx, done_rx) = mpsc::channel::<(u64, S, Vec<(u32, String)>)>();
+    let workers: Vec<_> = (0..rayon::current_num_threads().max(1))
+        .map(|_| {
+            let (task_rx, done_tx) = (Arc::clone(&task_rx), done_tx.clone());
+            scope.spawn(move || {
+                let mut points = Vec::with_capacity(FOLD_TASK);
+                loop {
+                    let task = task_rx.lock().map_err(|_| ()).and_then(|rx| rx.recv().map_err(|_| ()));
+                    let Ok((seq, called, range)) = task else { break };
+                    let mut failed = Vec::new();
+                    refs.points_of(&called, range, &mut points, &mut failed);
+                    let part = (folding.fold)(&points);
+                    drop(called);
+                    if done_tx.send((seq, part, failed)).is_err() {
+                        break;
+                    }
+                }
+            })
+        })
+        .collect();
+    drop(done_tx);
+    // Tasks handed out (`sent`), tasks joined (`joined`), and where each batch ends.
+    let (mut sent, mut joined) = (0u64, 0u64);
+    let mut ends: std::collections::VecDeque<u64> = std::collections::VecDeque::new();
+    let mut waiting: std::collections::BTreeMap<u64, (S, Vec<(u32, String)>)> =
+        std::collections::BTreeMap::new();
+    let mut current: Option<S> = None;
+    let mut fed = false;
+    loop {
+        while !fed && sent - joined < IN_FLIGHT {
+            match called_rx.recv() {
+                Ok((called, len)) => {
+                    advance(len);
+                    failures.extend(called.failures.iter().cloned());
+                    let n = called.inputs.len();
+                    let called = Arc::new(called);
+                    for start in (0..n).step_by(FOLD_TASK) {
+                        let range = start..(start + FOLD_TASK).min(n);
+                        if task_tx.send((sent, Arc::clone(&called), range)).is_err() {
+                            break;
+                        }
+                        sent += 1;
+                    }
+                    ends.push_back(sent);
+                }
+                Err(_) => fed = true,
+            }
+        }
+        // Batches whose tasks are all joined (empty ones too) go to the sink.
+        while ends.front().is_some_and(|&end| end <= joined) {
+            ends.pop_front();
+            if let Some(part) = current.take() {
+                sink(part);
+            }
+        }
+        if fed && joined == sent {
+            break;
+        }
+        let got = match done_rx.recv_timeout(std::time::Duration::from_millis(200)) {
+            Ok(got) => got,
+            Err(mpsc::RecvTimeoutError::Timeout) if !workers.iter().any(|w| w.is_finished()) => {
+                continue
+            }
+            // A fold thread died (its panic surfaces when the scope joins it).
+            Err(_) => break,
+        };
+        waiting.insert(got.0, (got.1, got.2));
+        while let Some((part, failed)) = waiting.remove(&joined) {
+            failures.extend(failed);
+            current = Some(match current.take() {
+                None => part,
+                Some(c) => (folding.join)(c, part),
+            });
+            joined += 1;
+            while ends.front().is_some_and(|&end| end <= joined) {
+                ends.pop_front();
+                if let Some(part) = current.take() {
+                    sink(part);
+                }
+            }
+        }
+    }
+    drop(task_tx);
+    drop(called_rx);
+    crashes.extend(feeder.join().expect("kernel thread"));
 }
 
 impl Probe for Prober<'_> {
@@ -420,7 +590,8 @@ impl Probe for Prober<'_> {
                 a
             },
         };
-        self.probe_fold(inputs.iter().copied(), &folding, &mut |part| {
+        let batches = inputs.chunks(CHUNK).map(|c| c.to_vec());
+        self.probe_fold(batches, inputs.len() as u64, &folding, &mut |part| {
             all.extend(part)
         });
         all
