@@ -227,6 +227,9 @@ pub fn run_check_into(
     let speed_sample = spread(format, &setup.plan.measured, SPEED_SAMPLE);
     let (first, second) = prober.arguments(&speed_sample);
     let ns_per_element = prober.kernel().ns_per_element(&first, second.as_deref());
+    if std::env::var_os("ULPGAUGE_PIPELINE_STATS").is_some() {
+        eprint!("{}", probe::stats::report());
+    }
     assemble::report(
         config,
         &setup,

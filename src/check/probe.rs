@@ -243,9 +243,7 @@ impl<'a> Prober<'a> {
 /// Inputs per task of the parallel fold (references and accumulation).
 const FOLD_TASK: usize = 2048;
 /// Called batches the kernel thread may run ahead of the folds.
-const AHEAD: usize = 2;
-/// Fold tasks handed out and not yet joined, at most (memory stays bounded: a few batches).
-const IN_FLIGHT: u64 = 3 * (CHUNK / FOLD_TASK) as u64;
+const AHEAD: usize = 4;
 /// Sweeps of at most this many inputs are evaluated on the caller's thread (probes, threshold
 /// searches): starting threads would cost more than the work.
 const INLINE: u64 = 2 * FOLD_TASK as u64;
@@ -322,7 +320,11 @@ impl RoleReferences {
 
     /// Calls the kernel on one batch of inputs: the called batch, and the batch's crashes
     /// (with their inputs).
-    fn call(&self, kernel: &mut dyn KernelUnderTest, batch: Vec<u32>) -> (Called, Vec<KernelCrash>) {
+    fn call(
+        &self,
+        kernel: &mut dyn KernelUnderTest,
+        batch: Vec<u32>,
+    ) -> (Called, Vec<KernelCrash>) {
         let mut failures = Vec::new();
         let (kept, firsts, seconds) = self.batch_arguments(batch, &mut failures);
         let second: Option<Vec<u32>> = seconds.iter().copied().collect();
@@ -351,9 +353,6 @@ impl RoleReferences {
 
 /// Inputs kept, first arguments, second arguments.
 type Arguments = (Vec<u32>, Vec<u32>, Vec<Option<u32>>);
-
-/// A fold task: its place in the sweep, its batch and its part of the batch.
-type Task = (u64, std::sync::Arc<Called>, std::ops::Range<usize>);
 
 /// Kernel batches of a sweep given as sorted runs `lo..=hi` of consecutive bit patterns.
 pub fn run_batches(runs: &[(u32, u32)]) -> impl Iterator<Item = Vec<u32>> + Send + '_ {
@@ -438,21 +437,17 @@ impl Prober<'_> {
                 advance(len, &mut self.evaluated);
             }
         } else {
-            let kernel: &mut dyn KernelUnderTest = &mut *self.kernel;
             let evaluated = &mut self.evaluated;
-            std::thread::scope(|scope| {
-                pipeline(
-                    scope,
-                    refs,
-                    kernel,
-                    batches,
-                    folding,
-                    sink,
-                    &mut |len| advance(len, evaluated),
-                    &mut failures,
-                    &mut crashes,
-                )
-            });
+            pipeline(
+                refs,
+                &mut *self.kernel,
+                batches,
+                folding,
+                sink,
+                &mut |len| advance(len, evaluated),
+                &mut failures,
+                &mut crashes,
+            );
         }
         self.failures.extend(failures);
         self.crashes.extend(crashes);
@@ -462,121 +457,280 @@ impl Prober<'_> {
     }
 }
 
-/// The threads of [`Prober::probe_fold`]: a kernel thread, fold threads, and the caller's
-/// thread joining partials in order.
+/// Where the fold threads take their next task: the batch being handed out, the next input
+/// of it and the next task number, and the kernel thread's batches.
+struct Dispatch {
+    called: Option<std::sync::Arc<Called>>,
+    next: usize,
+    seq: u64,
+    batches: std::sync::mpsc::Receiver<(Called, usize)>,
+}
+
+/// One batch all of whose partials are joined: its joined partial (`None` when it had no
+/// points), its reference failures (argument failures first) and its number of inputs.
+type Finished<S> = (Option<S>, Vec<(u32, String)>, usize);
+
+/// Partials waiting for their turn, and the batch being joined.
+struct Joining<S> {
+    /// The next task to join.
+    next: u64,
+    waiting: std::collections::BTreeMap<u64, (S, Vec<(u32, String)>)>,
+    current: Option<S>,
+    failures: Vec<(u32, String)>,
+    /// Where each batch handed out ends (one past its last task), its argument failures and
+    /// its number of inputs.
+    ends: std::collections::VecDeque<(u64, Vec<(u32, String)>, usize)>,
+}
+
+impl<S> Joining<S> {
+    /// Hands every batch whose tasks are all joined to the caller's thread.
+    fn finish_batches(&mut self, out: &std::sync::mpsc::SyncSender<Finished<S>>) -> bool {
+        while self.ends.front().is_some_and(|e| e.0 <= self.next) {
+            let (_, mut failures, len) = self.ends.pop_front().expect("checked");
+            failures.append(&mut self.failures);
+            if out.send((self.current.take(), failures, len)).is_err() {
+                return false;
+            }
+        }
+        true
+    }
+}
+
+/// Set when a fold thread panics, so that the others stop instead of waiting for its task.
+struct PanicFlag<'a>(&'a std::sync::atomic::AtomicBool);
+
+impl Drop for PanicFlag<'_> {
+    fn drop(&mut self) {
+        if std::thread::panicking() {
+            self.0.store(true, std::sync::atomic::Ordering::SeqCst);
+        }
+    }
+}
+
+/// Where the threads of the pipeline spend their time, printed to stderr at exit when
+/// `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see DEVELOPERS.md).
+pub mod stats {
+    use std::sync::atomic::{AtomicU64, Ordering};
+    use std::time::Instant;
+
+    /// Nanoseconds spent per activity, summed over threads.
+    #[derive(Default)]
+    pub struct Stats {
+        /// Kernel thread: taking the next batch of inputs.
+        pub inputs: AtomicU64,
+        /// Kernel thread: kernel arguments and the call through the worker.
+        pub kernel: AtomicU64,
+        /// Kernel thread: waiting for room (the folds are behind).
+        pub kernel_blocked: AtomicU64,
+        /// Fold threads: waiting for a task (the kernel is behind).
+        pub fold_idle: AtomicU64,
+        /// Fold threads: references and points.
+        pub references: AtomicU64,
+        /// Fold threads: accumulating a task's points.
+        pub accumulation: AtomicU64,
+        /// Fold threads: joining partials in order (lock included).
+        pub join: AtomicU64,
+        /// Caller's thread: waiting for a joined batch.
+        pub main_idle: AtomicU64,
+        /// Caller's thread: the sink (merge into the sweep's accumulators, findings).
+        pub main_merge: AtomicU64,
+    }
+
+    /// The process's figures.
+    pub static STATS: Stats = Stats {
+        inputs: AtomicU64::new(0),
+        kernel: AtomicU64::new(0),
+        kernel_blocked: AtomicU64::new(0),
+        fold_idle: AtomicU64::new(0),
+        references: AtomicU64::new(0),
+        accumulation: AtomicU64::new(0),
+        join: AtomicU64::new(0),
+        main_idle: AtomicU64::new(0),
+        main_merge: AtomicU64::new(0),
+    };
+
+    /// A stopwatch whose laps add to one of the figures.
+    pub struct Clock(Instant);
+
+    impl Clock {
+        /// Starts now.
+        pub fn start() -> Clock {
+            Clock(Instant::now())
+        }
+        /// Adds the time since the last lap to `to`.
+        #[inline]
+        pub fn lap(&mut self, to: &AtomicU64) {
+            let now = Instant::now();
+            to.fetch_add((now - self.0).as_nanos() as u64, Ordering::Relaxed);
+            self.0 = now;
+        }
+    }
+
+    /// The figures as one line per activity, in seconds.
+    pub fn report() -> String {
+        let s = &STATS;
+        [
+            ("kernel thread: inputs", &s.inputs),
+            ("kernel thread: arguments + kernel call", &s.kernel),
+            ("kernel thread: blocked (folds behind)", &s.kernel_blocked),
+            ("fold threads: idle (kernel behind)", &s.fold_idle),
+            ("fold threads: references + points", &s.references),
+            ("fold threads: accumulation", &s.accumulation),
+            ("fold threads: join in order", &s.join),
+            ("main thread: idle", &s.main_idle),
+            ("main thread: merge + findings", &s.main_merge),
+        ]
+        .iter()
+        .map(|(what, v)| {
+            format!(
+                "{what:42} {:9.3} s\n",
+                v.load(Ordering::Relaxed) as f64 * 1e-9
+            )
+        })
+        .collect()
+    }
+}
+
+/// The threads of [`Prober::probe_fold`]: a kernel thread calling the kernel batch after
+/// batch; fold threads taking tasks in input order, folding them and joining the partials in
+/// order (under a lock, so that no thread waits for the caller); the caller's thread, woken
+/// once per batch, handing the joined batches to the sink.
 #[allow(clippy::too_many_arguments)]
-fn pipeline<'scope, 'env, S: Send>(
-    scope: &'scope std::thread::Scope<'scope, 'env>,
-    refs: &'env RoleReferences,
-    kernel: &'env mut dyn KernelUnderTest,
-    batches: impl Iterator<Item = Vec<u32>> + Send + 'scope,
-    folding: &'env Folding<'_, S>,
+fn pipeline<S: Send>(
+    refs: &RoleReferences,
+    kernel: &mut dyn KernelUnderTest,
+    batches: impl Iterator<Item = Vec<u32>> + Send,
+    folding: &Folding<'_, S>,
     sink: &mut dyn FnMut(S),
     advance: &mut dyn FnMut(usize),
     failures: &mut Vec<(u32, String)>,
     crashes: &mut Vec<KernelCrash>,
 ) {
+    use std::sync::atomic::{AtomicBool, Ordering};
     use std::sync::{mpsc, Arc, Mutex};
-    let (called_tx, called_rx) = mpsc::sync_channel::<(Called, usize)>(AHEAD);
-    let feeder = scope.spawn(move || {
-        let mut crashes = Vec::new();
-        for batch in batches {
-            let len = batch.len();
-            let (called, crashed) = refs.call(kernel, batch);
-            crashes.extend(crashed);
-            if called_tx.send((called, len)).is_err() {
-                break;
-            }
-        }
-        crashes
+    let joining = Mutex::new(Joining {
+        next: 0,
+        waiting: std::collections::BTreeMap::new(),
+        current: None,
+        failures: Vec::new(),
+        ends: std::collections::VecDeque::new(),
     });
-    let (task_tx, task_rx) = mpsc::channel::<Task>();
-    let task_rx = Arc::new(Mutex::new(task_rx));
-    let (done_tx, done_rx) = mpsc::channel::<(u64, S, Vec<(u32, String)>)>();
-    let workers: Vec<_> = (0..rayon::current_num_threads().max(1))
-        .map(|_| {
-            let (task_rx, done_tx) = (Arc::clone(&task_rx), done_tx.clone());
+    let panicked = AtomicBool::new(false);
+    let (joining, panicked) = (&joining, &panicked);
+    std::thread::scope(|scope| {
+        let (called_tx, called_rx) = mpsc::sync_channel::<(Called, usize)>(AHEAD);
+        let feeder = scope.spawn(move || {
+            let mut crashes = Vec::new();
+            let mut clock = stats::Clock::start();
+            for batch in batches {
+                let len = batch.len();
+                clock.lap(&stats::STATS.inputs);
+                let (called, crashed) = refs.call(kernel, batch);
+                crashes.extend(crashed);
+                clock.lap(&stats::STATS.kernel);
+                let sent = called_tx.send((called, len));
+                clock.lap(&stats::STATS.kernel_blocked);
+                if sent.is_err() {
+                    break;
+                }
+            }
+            crashes
+        });
+        // Only the fold threads hold the dispatch: when the last one ends, the kernel thread's
+        // sends fail and it stops too.
+        let dispatch = Arc::new(Mutex::new(Dispatch {
+            called: None,
+            next: 0,
+            seq: 0,
+            batches: called_rx,
+        }));
+        let (done_tx, done_rx) = mpsc::sync_channel::<Finished<S>>(AHEAD + 2);
+        for _ in 0..rayon::current_num_threads().max(1) {
+            let (dispatch, done_tx) = (Arc::clone(&dispatch), done_tx.clone());
             scope.spawn(move || {
+                let _flag = PanicFlag(panicked);
                 let mut points = Vec::with_capacity(FOLD_TASK);
-                loop {
-                    let task = task_rx.lock().map_err(|_| ()).and_then(|rx| rx.recv().map_err(|_| ()));
-                    let Ok((seq, called, range)) = task else { break };
+                let mut clock = stats::Clock::start();
+                while !panicked.load(Ordering::SeqCst) {
+                    let task = {
+                        let mut d = dispatch.lock().expect("dispatch");
+                        loop {
+                            if let Some(called) = d.called.clone() {
+                                let n = called.inputs.len();
+                                let range = d.next..(d.next + FOLD_TASK).min(n);
+                                d.next = range.end;
+                                let seq = d.seq;
+                                d.seq += 1;
+                                if d.next == n {
+                                    d.called = None;
+                                }
+                                break Some((seq, called, range));
+                            }
+                            let Ok((called, len)) = d.batches.recv() else {
+                                break None;
+                            };
+                            let n = called.inputs.len() as u64;
+                            let tasks = n.div_ceil(FOLD_TASK as u64);
+                            let mut j = joining.lock().expect("joining");
+                            j.ends
+                                .push_back((d.seq + tasks, called.failures.clone(), len));
+                            if tasks == 0 {
+                                // An empty batch: done at once, in its turn.
+                                if !j.finish_batches(&done_tx) {
+                                    break None;
+                                }
+                            } else {
+                                d.called = Some(Arc::new(called));
+                                d.next = 0;
+                            }
+                        }
+                    };
+                    clock.lap(&stats::STATS.fold_idle);
+                    let Some((seq, called, range)) = task else {
+                        break;
+                    };
                     let mut failed = Vec::new();
                     refs.points_of(&called, range, &mut points, &mut failed);
-                    let part = (folding.fold)(&points);
                     drop(called);
-                    if done_tx.send((seq, part, failed)).is_err() {
+                    clock.lap(&stats::STATS.references);
+                    let part = (folding.fold)(&points);
+                    clock.lap(&stats::STATS.accumulation);
+                    let mut j = joining.lock().expect("joining");
+                    j.waiting.insert(seq, (part, failed));
+                    while let Some((part, mut failed)) = {
+                        let next = j.next;
+                        j.waiting.remove(&next)
+                    } {
+                        j.failures.append(&mut failed);
+                        j.current = Some(match j.current.take() {
+                            None => part,
+                            Some(c) => (folding.join)(c, part),
+                        });
+                        j.next += 1;
+                    }
+                    let finished = j.finish_batches(&done_tx);
+                    drop(j);
+                    clock.lap(&stats::STATS.join);
+                    if !finished {
                         break;
                     }
                 }
-            })
-        })
-        .collect();
-    drop(done_tx);
-    // Tasks handed out (`sent`), tasks joined (`joined`), and where each batch ends.
-    let (mut sent, mut joined) = (0u64, 0u64);
-    let mut ends: std::collections::VecDeque<u64> = std::collections::VecDeque::new();
-    let mut waiting: std::collections::BTreeMap<u64, (S, Vec<(u32, String)>)> =
-        std::collections::BTreeMap::new();
-    let mut current: Option<S> = None;
-    let mut fed = false;
-    loop {
-        while !fed && sent - joined < IN_FLIGHT {
-            match called_rx.recv() {
-                Ok((called, len)) => {
-                    advance(len);
-                    failures.extend(called.failures.iter().cloned());
-                    let n = called.inputs.len();
-                    let called = Arc::new(called);
-                    for start in (0..n).step_by(FOLD_TASK) {
-                        let range = start..(start + FOLD_TASK).min(n);
-                        if task_tx.send((sent, Arc::clone(&called), range)).is_err() {
-                            break;
-                        }
-                        sent += 1;
-                    }
-                    ends.push_back(sent);
-                }
-                Err(_) => fed = true,
-            }
+            });
         }
-        // Batches whose tasks are all joined (empty ones too) go to the sink.
-        while ends.front().is_some_and(|&end| end <= joined) {
-            ends.pop_front();
-            if let Some(part) = current.take() {
+        drop(dispatch);
+        drop(done_tx);
+        let mut clock = stats::Clock::start();
+        for (part, failed, len) in done_rx {
+            clock.lap(&stats::STATS.main_idle);
+            advance(len);
+            failures.extend(failed);
+            if let Some(part) = part {
                 sink(part);
             }
+            clock.lap(&stats::STATS.main_merge);
         }
-        if fed && joined == sent {
-            break;
-        }
-        let got = match done_rx.recv_timeout(std::time::Duration::from_millis(200)) {
-            Ok(got) => got,
-            Err(mpsc::RecvTimeoutError::Timeout) if !workers.iter().any(|w| w.is_finished()) => {
-                continue
-            }
-            // A fold thread died (its panic surfaces when the scope joins it).
-            Err(_) => break,
-        };
-        waiting.insert(got.0, (got.1, got.2));
-        while let Some((part, failed)) = waiting.remove(&joined) {
-            failures.extend(failed);
-            current = Some(match current.take() {
-                None => part,
-                Some(c) => (folding.join)(c, part),
-            });
-            joined += 1;
-            while ends.front().is_some_and(|&end| end <= joined) {
-                ends.pop_front();
-                if let Some(part) = current.take() {
-                    sink(part);
-                }
-            }
-        }
-    }
-    drop(task_tx);
-    drop(called_rx);
-    crashes.extend(feeder.join().expect("kernel thread"));
+        crashes.extend(feeder.join().expect("kernel thread"));
+    });
 }
 
 impl Probe for Prober<'_> {
