@@ -751,3 +751,80 @@ impl Probe for Prober<'_> {
         all
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::activation::{catalog, Constants, Role};
+    use crate::check::InProcessKernel;
+    use crate::format::Binary32;
+    use crate::reference::ParamRounding;
+
+    fn sigmoid_references() -> RoleReferences {
+        let function = catalog::lookup("sigmoid").expect("in the catalog");
+        let constants = Constants::resolve(function, &[], ParamRounding::Exact, &Binary32);
+        let forward = Evaluator::new(function, Role::Forward, constants.clone(), &Binary32);
+        let derivative = Evaluator::new(function, Role::Derivative, constants, &Binary32);
+        let fast = Some((
+            FastEvaluator::new(&forward),
+            FastEvaluator::new(&derivative),
+        ));
+        RoleReferences {
+            forward,
+            derivative,
+            role: CheckRole::Forward,
+            seed: 1,
+            kinks: Vec::new(),
+            fast,
+        }
+    }
+
+    /// The threaded pipeline hands every point to the sink in input order, one partial per
+    /// batch, attributes crashes to their inputs, and agrees point for point with the
+    /// caller's-thread path that small sweeps take (inputs: two runs of patterns, more than
+    /// four batches, a short last batch; the kernel "crashes" on every 10,007th pattern).
+    #[test]
+    fn pipeline_keeps_input_order_and_crashes() {
+        let refs = sigmoid_references();
+        let runs = [
+            (0x3f80_0000u32, 0x3f80_0000 + 150_000),
+            (0xbf00_0000, 0xbf00_0000 + 130_000),
+        ];
+        let all: Vec<u32> = runs.iter().flat_map(|&(a, b)| a..=b).collect();
+        let kernel = |x: u32, _: Option<u32>| (x % 10_007 != 0).then_some(x ^ 1);
+        let folding = Folding {
+            fold: &|points: &[Point]| points.to_vec(),
+            join: &|mut a: Vec<Point>, b: Vec<Point>| {
+                a.extend(b);
+                a
+            },
+        };
+        let mut k = InProcessKernel::new(kernel);
+        let mut prober = Prober::new(&mut k, &refs, false);
+        let mut parts = Vec::new();
+        prober.probe_fold(run_batches(&runs), all.len() as u64, &folding, &mut |p| {
+            parts.push(p)
+        });
+        assert_eq!(parts.len(), all.len().div_ceil(CHUNK));
+        let points: Vec<Point> = parts.into_iter().flatten().collect();
+        let inputs: Vec<u32> = points.iter().map(|p| p.input).collect();
+        assert_eq!(inputs, all);
+        assert_eq!(prober.evaluated, all.len() as u64);
+        let crashed: Vec<u32> = all.iter().copied().filter(|x| x % 10_007 == 0).collect();
+        let seen: Vec<u32> = prober.crashes.iter().map(|c| c.input).collect();
+        assert_eq!(seen, crashed);
+        // The same inputs a small piece at a time, each on the caller's thread.
+        let mut k = InProcessKernel::new(kernel);
+        let mut small = Prober::new(&mut k, &refs, false);
+        for (i, piece) in all.chunks(INLINE as usize).enumerate().step_by(7) {
+            let got = small.probe(piece);
+            let want = &points[i * INLINE as usize..][..piece.len()];
+            for (g, w) in got.iter().zip(want) {
+                assert_eq!(
+                    (g.input, g.output, g.reference.bits),
+                    (w.input, w.output, w.reference.bits)
+                );
+            }
+        }
+    }
+}
