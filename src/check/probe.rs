@@ -755,13 +755,13 @@ impl Probe for Prober<'_> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::activation::{catalog, Constants, Role};
+    use crate::activation::{lookup, Constants, Role};
     use crate::check::InProcessKernel;
     use crate::format::Binary32;
     use crate::reference::ParamRounding;
 
     fn sigmoid_references() -> RoleReferences {
-        let function = catalog::lookup("sigmoid").expect("in the catalog");
+        let function = lookup("sigmoid").expect("in the catalog");
         let constants = Constants::resolve(function, &[], ParamRounding::Exact, &Binary32);
         let forward = Evaluator::new(function, Role::Forward, constants.clone(), &Binary32);
         let derivative = Evaluator::new(function, Role::Derivative, constants, &Binary32);
