@@ -470,6 +470,10 @@ struct Dispatch {
 /// points), its reference failures (argument failures first) and its number of inputs.
 type Finished<S> = (Option<S>, Vec<(u32, String)>, usize);
 
+/// Where a batch handed out ends (one past its last task), its argument failures and its
+/// number of inputs.
+type BatchEnd = (u64, Vec<(u32, String)>, usize);
+
 /// Partials waiting for their turn, and the batch being joined.
 struct Joining<S> {
     /// The next task to join.
@@ -477,9 +481,8 @@ struct Joining<S> {
     waiting: std::collections::BTreeMap<u64, (S, Vec<(u32, String)>)>,
     current: Option<S>,
     failures: Vec<(u32, String)>,
-    /// Where each batch handed out ends (one past its last task), its argument failures and
-    /// its number of inputs.
-    ends: std::collections::VecDeque<(u64, Vec<(u32, String)>, usize)>,
+    /// Where each batch handed out ends.
+    ends: std::collections::VecDeque<BatchEnd>,
 }
 
 impl<S> Joining<S> {
