@@ -229,6 +229,9 @@ pub fn run_check_into(
     let speed_sample = spread(format, &setup.plan.measured, SPEED_SAMPLE);
     let (first, second) = prober.arguments(&speed_sample);
     let ns_per_element = prober.kernel().ns_per_element(&first, second.as_deref());
+    if std::env::var_os("ULPGAUGE_PIPELINE_STATS").is_some() {
+        eprint!("{}", probe::stats::report());
+    }
     assemble::report(
         config,
         &setup,
@@ -403,7 +406,8 @@ fn stream_measured(
             (part, all)
         },
     };
-    prober.probe_fold(own.iter(), &folding, &mut |(part, all)| {
+    let batches = probe::run_batches(own.runs());
+    prober.probe_fold(batches, own.len(), &folding, &mut |(part, all)| {
         stream.merge(part);
         stream.settle(sink, leftmost);
         measured.extend(all.into_iter().flatten());

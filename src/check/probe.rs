@@ -242,17 +242,24 @@ impl<'a> Prober<'a> {
 
 /// Inputs per task of the parallel fold (references and accumulation).
 const FOLD_TASK: usize = 2048;
+/// Called batches the kernel thread may run ahead of the folds.
+const AHEAD: usize = 4;
+/// Sweeps of at most this many inputs are evaluated on the caller's thread (probes, threshold
+/// searches): starting threads would cost more than the work.
+const INLINE: u64 = 2 * FOLD_TASK as u64;
 
-/// One batch whose kernel outputs are known: inputs, second arguments, outputs.
+/// One batch whose kernel outputs are known: inputs, second arguments, outputs, and the
+/// inputs whose kernel arguments could not be computed.
 struct Called {
     inputs: Vec<u32>,
     seconds: Vec<Option<u32>>,
     outputs: Vec<Option<u32>>,
+    failures: Vec<(u32, String)>,
 }
 
 /// How the points of a streamed sweep are folded: `fold` turns a task's points (in input
-/// order) into a partial result and `join` appends a later partial to an earlier one; both run
-/// on the rayon pool, and `join` must be associative.
+/// order) into a partial result and `join` appends a later partial to an earlier one; `fold`
+/// runs on several threads at once, and `join` must be associative.
 pub struct Folding<'f, S> {
     /// Points of one task → partial result.
     pub fold: &'f (dyn Fn(&[Point]) -> S + Sync),
@@ -261,39 +268,29 @@ pub struct Folding<'f, S> {
 }
 
 impl RoleReferences {
-    /// References of one called batch, folded task by task and joined in input order on the
-    /// rayon pool; also the inputs whose reference failed.
-    fn fold_batch<S: Send>(
+    /// The points of `range` of a called batch, into `points` (cleared first); inputs whose
+    /// reference fails go to `failures`.
+    fn points_of(
         &self,
         called: &Called,
-        folding: &Folding<'_, S>,
-    ) -> Option<(S, Vec<(u32, String)>)> {
-        called
-            .inputs
-            .par_chunks(FOLD_TASK)
-            .enumerate()
-            .map(|(t, inputs)| {
-                let base = t * FOLD_TASK;
-                let mut points = Vec::with_capacity(inputs.len());
-                let mut failures = Vec::new();
-                for (i, &x) in inputs.iter().enumerate() {
-                    match self.reference_with(x, called.seconds[base + i]) {
-                        Ok((reference, left)) => points.push(Point {
-                            input: x,
-                            second: called.seconds[base + i],
-                            output: called.outputs.get(base + i).copied().flatten(),
-                            reference,
-                            left,
-                        }),
-                        Err(e) => failures.push((x, e)),
-                    }
-                }
-                ((folding.fold)(&points), failures)
-            })
-            .reduce_with(|(a, mut fa), (b, fb)| {
-                fa.extend(fb);
-                ((folding.join)(a, b), fa)
-            })
+        range: std::ops::Range<usize>,
+        points: &mut Vec<Point>,
+        failures: &mut Vec<(u32, String)>,
+    ) {
+        points.clear();
+        for i in range {
+            let x = called.inputs[i];
+            match self.reference_with(x, called.seconds[i]) {
+                Ok((reference, left)) => points.push(Point {
+                    input: x,
+                    second: called.seconds[i],
+                    output: called.outputs.get(i).copied().flatten(),
+                    reference,
+                    left,
+                }),
+                Err(e) => failures.push((x, e)),
+            }
+        }
     }
 
     /// Kernel arguments of a batch: the inputs kept, first and second arguments; inputs whose
@@ -320,93 +317,423 @@ impl RoleReferences {
         }
         (kept, firsts, seconds)
     }
+
+    /// Calls the kernel on one batch of inputs: the called batch, and the batch's crashes
+    /// (with their inputs).
+    fn call(
+        &self,
+        kernel: &mut dyn KernelUnderTest,
+        batch: Vec<u32>,
+    ) -> (Called, Vec<KernelCrash>) {
+        let mut failures = Vec::new();
+        let (kept, firsts, seconds) = self.batch_arguments(batch, &mut failures);
+        let second: Option<Vec<u32>> = seconds.iter().copied().collect();
+        let out = if firsts.is_empty() {
+            KernelOutput::default()
+        } else {
+            kernel.run(&firsts, second.as_deref())
+        };
+        let crashes = out
+            .crashes
+            .into_iter()
+            .map(|crash| KernelCrash {
+                input: kept[crash.index],
+                ..crash
+            })
+            .collect();
+        let called = Called {
+            inputs: kept,
+            seconds: out.seconds.unwrap_or(seconds),
+            outputs: out.outputs,
+            failures,
+        };
+        (called, crashes)
+    }
 }
 
 /// Inputs kept, first arguments, second arguments.
 type Arguments = (Vec<u32>, Vec<u32>, Vec<Option<u32>>);
 
+/// Kernel batches of a sweep given as sorted runs `lo..=hi` of consecutive bit patterns.
+pub fn run_batches(runs: &[(u32, u32)]) -> impl Iterator<Item = Vec<u32>> + Send + '_ {
+    let mut runs = runs.iter().copied();
+    let mut current: Option<(u32, u32)> = None;
+    std::iter::from_fn(move || {
+        let mut batch = Vec::with_capacity(CHUNK);
+        while batch.len() < CHUNK {
+            let Some((lo, hi)) = current.take().or_else(|| runs.next()) else {
+                break;
+            };
+            let room = (CHUNK - batch.len()) as u64;
+            let n = (hi - lo) as u64 + 1;
+            let take = n.min(room) as u32;
+            // lo + take − 1 ≤ hi: no overflow.
+            batch.extend(lo..=lo + (take - 1));
+            if (take as u64) < n {
+                current = Some((lo + take, hi));
+            }
+        }
+        (!batch.is_empty()).then_some(batch)
+    })
+}
+
 impl Prober<'_> {
-    /// Evaluates inputs (in the order given) batch by batch and folds their points; `sink`
-    /// receives one partial result per batch, in input order. Inputs whose reference fails are
-    /// left out and recorded in `failures`.
+    /// Evaluates inputs (in the order given, `total` of them, in batches of at most [`CHUNK`])
+    /// and folds their points; `sink` receives one partial result per batch, in input order.
+    /// Inputs whose reference fails are left out and recorded in `failures`.
     ///
-    /// The kernel runs batch k + 1 on its own thread while the rayon pool computes the
-    /// references of batch k, folds them and joins the partials, so neither waits for the
-    /// other and the caller's thread only hands batches over.
+    /// A kernel thread calls the kernel batch after batch, up to [`AHEAD`] batches ahead;
+    /// fold threads (one per rayon thread) take tasks of [`FOLD_TASK`] inputs as they come,
+    /// compute their references and fold them; the caller's thread joins the partial results
+    /// in input order. Nothing waits for a whole batch to finish before the next one starts.
     pub fn probe_fold<S: Send>(
         &mut self,
-        inputs: impl Iterator<Item = u32>,
+        batches: impl Iterator<Item = Vec<u32>> + Send,
+        total: u64,
         folding: &Folding<'_, S>,
         sink: &mut dyn FnMut(S),
     ) {
         let (bar, started, own) = match &self.shared {
             Some((bar, started)) => (Some(bar.clone()), *started, false),
-            None => {
-                let (lo, hi) = inputs.size_hint();
-                (
-                    self.progress.then(|| new_bar(hi.unwrap_or(lo) as u64)),
-                    std::time::Instant::now(),
-                    true,
-                )
+            None => (
+                self.progress.then(|| new_bar(total)),
+                std::time::Instant::now(),
+                true,
+            ),
+        };
+        let advance = |len: usize, evaluated: &mut u64| {
+            *evaluated += len as u64;
+            if let Some(bar) = &bar {
+                bar.inc(len as u64);
+                if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
+                    bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
+                }
             }
         };
         let refs = self.refs;
         let mut failures = Vec::new();
         let mut crashes = Vec::new();
-        let mut kernel: &mut dyn KernelUnderTest = &mut *self.kernel;
-        let mut inputs = inputs.peekable();
-        std::thread::scope(|scope| {
-            let mut pending: Option<Called> = None;
-            loop {
-                let call = inputs.peek().is_some().then(|| {
-                    let batch: Vec<u32> = inputs.by_ref().take(CHUNK).collect();
-                    let len = batch.len();
-                    let (kept, firsts, seconds) = refs.batch_arguments(batch, &mut failures);
-                    let k = kernel;
-                    let handle = scope.spawn(move || {
-                        let second: Option<Vec<u32>> = seconds.iter().copied().collect();
-                        let out = if firsts.is_empty() {
-                            KernelOutput::default()
-                        } else {
-                            k.run(&firsts, second.as_deref())
-                        };
-                        (k, kept, seconds, out)
+        if total <= INLINE {
+            // Small sweeps: everything on this thread.
+            let mut points = Vec::new();
+            for batch in batches {
+                let len = batch.len();
+                let (called, crashed) = refs.call(&mut *self.kernel, batch);
+                crashes.extend(crashed);
+                failures.extend(called.failures.iter().cloned());
+                let mut joined = None;
+                for start in (0..called.inputs.len()).step_by(FOLD_TASK) {
+                    let end = (start + FOLD_TASK).min(called.inputs.len());
+                    refs.points_of(&called, start..end, &mut points, &mut failures);
+                    let part = (folding.fold)(&points);
+                    joined = Some(match joined {
+                        None => part,
+                        Some(j) => (folding.join)(j, part),
                     });
-                    (len, handle)
-                });
-                if let Some(called) = pending.take() {
-                    if let Some((folded, failed)) = refs.fold_batch(&called, folding) {
-                        sink(folded);
-                        failures.extend(failed);
-                    }
                 }
-                let Some((len, handle)) = call else { break };
-                let (k, kept, seconds, out) = handle.join().expect("kernel thread");
-                kernel = k;
-                crashes.extend(out.crashes.into_iter().map(|crash| KernelCrash {
-                    input: kept[crash.index],
-                    ..crash
-                }));
-                pending = Some(Called {
-                    inputs: kept,
-                    seconds: out.seconds.unwrap_or(seconds),
-                    outputs: out.outputs,
-                });
-                self.evaluated += len as u64;
-                if let Some(bar) = &bar {
-                    bar.inc(len as u64);
-                    if bar.is_hidden() && started.elapsed() > PROGRESS_AFTER {
-                        bar.set_draw_target(indicatif::ProgressDrawTarget::stderr());
-                    }
+                if let Some(j) = joined {
+                    sink(j);
                 }
+                advance(len, &mut self.evaluated);
             }
-        });
+        } else {
+            let evaluated = &mut self.evaluated;
+            pipeline(
+                refs,
+                &mut *self.kernel,
+                batches,
+                folding,
+                sink,
+                &mut |len| advance(len, evaluated),
+                &mut failures,
+                &mut crashes,
+            );
+        }
         self.failures.extend(failures);
         self.crashes.extend(crashes);
         if let Some(bar) = bar.filter(|_| own) {
             bar.finish_and_clear();
         }
     }
+}
+
+/// Where the fold threads take their next task: the batch being handed out, the next input
+/// of it and the next task number, and the kernel thread's batches.
+struct Dispatch {
+    called: Option<std::sync::Arc<Called>>,
+    next: usize,
+    seq: u64,
+    batches: std::sync::mpsc::Receiver<(Called, usize)>,
+}
+
+/// One batch all of whose partials are joined: its joined partial (`None` when it had no
+/// points), its reference failures (argument failures first) and its number of inputs.
+type Finished<S> = (Option<S>, Vec<(u32, String)>, usize);
+
+/// Where a batch handed out ends (one past its last task), its argument failures and its
+/// number of inputs.
+type BatchEnd = (u64, Vec<(u32, String)>, usize);
+
+/// Partials waiting for their turn, and the batch being joined.
+struct Joining<S> {
+    /// The next task to join.
+    next: u64,
+    waiting: std::collections::BTreeMap<u64, (S, Vec<(u32, String)>)>,
+    current: Option<S>,
+    failures: Vec<(u32, String)>,
+    /// Where each batch handed out ends.
+    ends: std::collections::VecDeque<BatchEnd>,
+}
+
+impl<S> Joining<S> {
+    /// Hands every batch whose tasks are all joined to the caller's thread.
+    fn finish_batches(&mut self, out: &std::sync::mpsc::SyncSender<Finished<S>>) -> bool {
+        while self.ends.front().is_some_and(|e| e.0 <= self.next) {
+            let (_, mut failures, len) = self.ends.pop_front().expect("checked");
+            failures.append(&mut self.failures);
+            if out.send((self.current.take(), failures, len)).is_err() {
+                return false;
+            }
+        }
+        true
+    }
+}
+
+/// Set when a fold thread panics, so that the others stop instead of waiting for its task.
+struct PanicFlag<'a>(&'a std::sync::atomic::AtomicBool);
+
+impl Drop for PanicFlag<'_> {
+    fn drop(&mut self) {
+        if std::thread::panicking() {
+            self.0.store(true, std::sync::atomic::Ordering::SeqCst);
+        }
+    }
+}
+
+/// Where the threads of the pipeline spend their time, printed to stderr at exit when
+/// `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see DEVELOPERS.md).
+pub mod stats {
+    use std::sync::atomic::{AtomicU64, Ordering};
+    use std::time::Instant;
+
+    /// Nanoseconds spent per activity, summed over threads.
+    #[derive(Default)]
+    pub struct Stats {
+        /// Kernel thread: taking the next batch of inputs.
+        pub inputs: AtomicU64,
+        /// Kernel thread: kernel arguments and the call through the worker.
+        pub kernel: AtomicU64,
+        /// Kernel thread: waiting for room (the folds are behind).
+        pub kernel_blocked: AtomicU64,
+        /// Fold threads: waiting for a task (the kernel is behind).
+        pub fold_idle: AtomicU64,
+        /// Fold threads: references and points.
+        pub references: AtomicU64,
+        /// Fold threads: accumulating a task's points.
+        pub accumulation: AtomicU64,
+        /// Fold threads: joining partials in order (lock included).
+        pub join: AtomicU64,
+        /// Caller's thread: waiting for a joined batch.
+        pub main_idle: AtomicU64,
+        /// Caller's thread: the sink (merge into the sweep's accumulators, findings).
+        pub main_merge: AtomicU64,
+    }
+
+    /// The process's figures.
+    pub static STATS: Stats = Stats {
+        inputs: AtomicU64::new(0),
+        kernel: AtomicU64::new(0),
+        kernel_blocked: AtomicU64::new(0),
+        fold_idle: AtomicU64::new(0),
+        references: AtomicU64::new(0),
+        accumulation: AtomicU64::new(0),
+        join: AtomicU64::new(0),
+        main_idle: AtomicU64::new(0),
+        main_merge: AtomicU64::new(0),
+    };
+
+    /// A stopwatch whose laps add to one of the figures.
+    pub struct Clock(Instant);
+
+    impl Clock {
+        /// Starts now.
+        pub fn start() -> Clock {
+            Clock(Instant::now())
+        }
+        /// Adds the time since the last lap to `to`.
+        #[inline]
+        pub fn lap(&mut self, to: &AtomicU64) {
+            let now = Instant::now();
+            to.fetch_add((now - self.0).as_nanos() as u64, Ordering::Relaxed);
+            self.0 = now;
+        }
+    }
+
+    /// The figures as one line per activity, in seconds.
+    pub fn report() -> String {
+        let s = &STATS;
+        [
+            ("kernel thread: inputs", &s.inputs),
+            ("kernel thread: arguments + kernel call", &s.kernel),
+            ("kernel thread: blocked (folds behind)", &s.kernel_blocked),
+            ("fold threads: idle (kernel behind)", &s.fold_idle),
+            ("fold threads: references + points", &s.references),
+            ("fold threads: accumulation", &s.accumulation),
+            ("fold threads: join in order", &s.join),
+            ("main thread: idle", &s.main_idle),
+            ("main thread: merge + findings", &s.main_merge),
+        ]
+        .iter()
+        .map(|(what, v)| {
+            format!(
+                "{what:42} {:9.3} s\n",
+                v.load(Ordering::Relaxed) as f64 * 1e-9
+            )
+        })
+        .collect()
+    }
+}
+
+/// The threads of [`Prober::probe_fold`]: a kernel thread calling the kernel batch after
+/// batch; fold threads taking tasks in input order, folding them and joining the partials in
+/// order (under a lock, so that no thread waits for the caller); the caller's thread, woken
+/// once per batch, handing the joined batches to the sink.
+#[allow(clippy::too_many_arguments)]
+fn pipeline<S: Send>(
+    refs: &RoleReferences,
+    kernel: &mut dyn KernelUnderTest,
+    batches: impl Iterator<Item = Vec<u32>> + Send,
+    folding: &Folding<'_, S>,
+    sink: &mut dyn FnMut(S),
+    advance: &mut dyn FnMut(usize),
+    failures: &mut Vec<(u32, String)>,
+    crashes: &mut Vec<KernelCrash>,
+) {
+    use std::sync::atomic::{AtomicBool, Ordering};
+    use std::sync::{mpsc, Arc, Mutex};
+    let joining = Mutex::new(Joining {
+        next: 0,
+        waiting: std::collections::BTreeMap::new(),
+        current: None,
+        failures: Vec::new(),
+        ends: std::collections::VecDeque::new(),
+    });
+    let panicked = AtomicBool::new(false);
+    let (joining, panicked) = (&joining, &panicked);
+    std::thread::scope(|scope| {
+        let (called_tx, called_rx) = mpsc::sync_channel::<(Called, usize)>(AHEAD);
+        let feeder = scope.spawn(move || {
+            let mut crashes = Vec::new();
+            let mut clock = stats::Clock::start();
+            for batch in batches {
+                let len = batch.len();
+                clock.lap(&stats::STATS.inputs);
+                let (called, crashed) = refs.call(kernel, batch);
+                crashes.extend(crashed);
+                clock.lap(&stats::STATS.kernel);
+                let sent = called_tx.send((called, len));
+                clock.lap(&stats::STATS.kernel_blocked);
+                if sent.is_err() {
+                    break;
+                }
+            }
+            crashes
+        });
+        // Only the fold threads hold the dispatch: when the last one ends, the kernel thread's
+        // sends fail and it stops too.
+        let dispatch = Arc::new(Mutex::new(Dispatch {
+            called: None,
+            next: 0,
+            seq: 0,
+            batches: called_rx,
+        }));
+        let (done_tx, done_rx) = mpsc::sync_channel::<Finished<S>>(AHEAD + 2);
+        for _ in 0..rayon::current_num_threads().max(1) {
+            let (dispatch, done_tx) = (Arc::clone(&dispatch), done_tx.clone());
+            scope.spawn(move || {
+                let _flag = PanicFlag(panicked);
+                let mut points = Vec::with_capacity(FOLD_TASK);
+                let mut clock = stats::Clock::start();
+                while !panicked.load(Ordering::SeqCst) {
+                    let task = {
+                        let mut d = dispatch.lock().expect("dispatch");
+                        loop {
+                            if let Some(called) = d.called.clone() {
+                                let n = called.inputs.len();
+                                let range = d.next..(d.next + FOLD_TASK).min(n);
+                                d.next = range.end;
+                                let seq = d.seq;
+                                d.seq += 1;
+                                if d.next == n {
+                                    d.called = None;
+                                }
+                                break Some((seq, called, range));
+                            }
+                            let Ok((called, len)) = d.batches.recv() else {
+                                break None;
+                            };
+                            let n = called.inputs.len() as u64;
+                            let tasks = n.div_ceil(FOLD_TASK as u64);
+                            let mut j = joining.lock().expect("joining");
+                            j.ends
+                                .push_back((d.seq + tasks, called.failures.clone(), len));
+                            if tasks == 0 {
+                                // An empty batch: done at once, in its turn.
+                                if !j.finish_batches(&done_tx) {
+                                    break None;
+                                }
+                            } else {
+                                d.called = Some(Arc::new(called));
+                                d.next = 0;
+                            }
+                        }
+                    };
+                    clock.lap(&stats::STATS.fold_idle);
+                    let Some((seq, called, range)) = task else {
+                        break;
+                    };
+                    let mut failed = Vec::new();
+                    refs.points_of(&called, range, &mut points, &mut failed);
+                    drop(called);
+                    clock.lap(&stats::STATS.references);
+                    let part = (folding.fold)(&points);
+                    clock.lap(&stats::STATS.accumulation);
+                    let mut j = joining.lock().expect("joining");
+                    j.waiting.insert(seq, (part, failed));
+                    while let Some((part, mut failed)) = {
+                        let next = j.next;
+                        j.waiting.remove(&next)
+                    } {
+                        j.failures.append(&mut failed);
+                        j.current = Some(match j.current.take() {
+                            None => part,
+                            Some(c) => (folding.join)(c, part),
+                        });
+                        j.next += 1;
+                    }
+                    let finished = j.finish_batches(&done_tx);
+                    drop(j);
+                    clock.lap(&stats::STATS.join);
+                    if !finished {
+                        break;
+                    }
+                }
+            });
+        }
+        drop(dispatch);
+        drop(done_tx);
+        let mut clock = stats::Clock::start();
+        for (part, failed, len) in done_rx {
+            clock.lap(&stats::STATS.main_idle);
+            advance(len);
+            failures.extend(failed);
+            if let Some(part) = part {
+                sink(part);
+            }
+            clock.lap(&stats::STATS.main_merge);
+        }
+        crashes.extend(feeder.join().expect("kernel thread"));
+    });
 }
 
 impl Probe for Prober<'_> {
@@ -420,9 +747,87 @@ impl Probe for Prober<'_> {
                 a
             },
         };
-        self.probe_fold(inputs.iter().copied(), &folding, &mut |part| {
+        let batches = inputs.chunks(CHUNK).map(|c| c.to_vec());
+        self.probe_fold(batches, inputs.len() as u64, &folding, &mut |part| {
             all.extend(part)
         });
         all
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::activation::{lookup, Constants, Role};
+    use crate::check::InProcessKernel;
+    use crate::format::Binary32;
+    use crate::reference::ParamRounding;
+
+    fn sigmoid_references() -> RoleReferences {
+        let function = lookup("sigmoid").expect("in the catalog");
+        let constants = Constants::resolve(function, &[], ParamRounding::Exact, &Binary32);
+        let forward = Evaluator::new(function, Role::Forward, constants.clone(), &Binary32);
+        let derivative = Evaluator::new(function, Role::Derivative, constants, &Binary32);
+        let fast = Some((
+            FastEvaluator::new(&forward),
+            FastEvaluator::new(&derivative),
+        ));
+        RoleReferences {
+            forward,
+            derivative,
+            role: CheckRole::Forward,
+            seed: 1,
+            kinks: Vec::new(),
+            fast,
+        }
+    }
+
+    /// The threaded pipeline hands every point to the sink in input order, one partial per
+    /// batch, attributes crashes to their inputs, and agrees point for point with the
+    /// caller's-thread path that small sweeps take (inputs: two runs of patterns, more than
+    /// four batches, a short last batch; the kernel "crashes" on every 10,007th pattern).
+    #[test]
+    fn pipeline_keeps_input_order_and_crashes() {
+        let refs = sigmoid_references();
+        let runs = [
+            (0x3f80_0000u32, 0x3f80_0000 + 150_000),
+            (0xbf00_0000, 0xbf00_0000 + 130_000),
+        ];
+        let all: Vec<u32> = runs.iter().flat_map(|&(a, b)| a..=b).collect();
+        let kernel = |x: u32, _: Option<u32>| (x % 10_007 != 0).then_some(x ^ 1);
+        let folding = Folding {
+            fold: &|points: &[Point]| points.to_vec(),
+            join: &|mut a: Vec<Point>, b: Vec<Point>| {
+                a.extend(b);
+                a
+            },
+        };
+        let mut k = InProcessKernel::new(kernel);
+        let mut prober = Prober::new(&mut k, &refs, false);
+        let mut parts = Vec::new();
+        prober.probe_fold(run_batches(&runs), all.len() as u64, &folding, &mut |p| {
+            parts.push(p)
+        });
+        assert_eq!(parts.len(), all.len().div_ceil(CHUNK));
+        let points: Vec<Point> = parts.into_iter().flatten().collect();
+        let inputs: Vec<u32> = points.iter().map(|p| p.input).collect();
+        assert_eq!(inputs, all);
+        assert_eq!(prober.evaluated, all.len() as u64);
+        let crashed: Vec<u32> = all.iter().copied().filter(|x| x % 10_007 == 0).collect();
+        let seen: Vec<u32> = prober.crashes.iter().map(|c| c.input).collect();
+        assert_eq!(seen, crashed);
+        // The same inputs a small piece at a time, each on the caller's thread.
+        let mut k = InProcessKernel::new(kernel);
+        let mut small = Prober::new(&mut k, &refs, false);
+        for (i, piece) in all.chunks(INLINE as usize).enumerate().step_by(7) {
+            let got = small.probe(piece);
+            let want = &points[i * INLINE as usize..][..piece.len()];
+            for (g, w) in got.iter().zip(want) {
+                assert_eq!(
+                    (g.input, g.output, g.reference.bits),
+                    (w.input, w.output, w.reference.bits)
+                );
+            }
+        }
     }
 }
