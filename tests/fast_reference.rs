@@ -42,9 +42,19 @@ fn evaluator(
     Evaluator::new(
         f,
         role,
-        Constants::resolve(f, &user, ParamRounding::Exact, format),
+        Constants::resolve(f, &user, rounding(name), format),
         format,
     )
+}
+
+/// SELU's published constants are decimals, not binary64 numbers: its fast path exists only
+/// once they are rounded (`--param-rounding f32`), which the tests use for it.
+fn rounding(name: &str) -> ParamRounding {
+    if name == "selu" {
+        ParamRounding::F32
+    } else {
+        ParamRounding::Exact
+    }
 }
 
 /// The exact value at 256 bits, straight from the definitions (only for approximation checks;
@@ -85,6 +95,56 @@ fn truth(name: &str, role: Role, x: f64, param: f64) -> f64 {
                 let pi2 = Float::with_val(p, rug::float::Constant::Pi) * 2u32;
                 let dens = Float::with_val(p, -x.clone().square() / 2u32).exp() / pi2.sqrt();
                 cdf + Float::with_val(p, &x * &dens)
+            }
+        }
+        ("softplus", Role::Forward) => x.clone().exp().ln_1p(),
+        ("softplus", Role::Derivative) => sig(&x),
+        ("log-sigmoid", Role::Forward) => -Float::with_val(p, -&x).exp().ln_1p(),
+        ("log-sigmoid", Role::Derivative) => sig(&Float::with_val(p, -&x)),
+        ("mish", r) => {
+            let sp = x.clone().exp().ln_1p();
+            let th = sp.clone().tanh();
+            if r == Role::Forward {
+                Float::with_val(p, &x * &th)
+            } else {
+                let sech2 = sp.sech().square();
+                th + Float::with_val(p, &x * &sech2) * sig(&x)
+            }
+        }
+        ("selu", r) => {
+            // The binary32 roundings of λ and α (the tests' --param-rounding f32).
+            let lambda = Float::with_val(p, 1.050_700_987_355_480_5_f32);
+            let alpha = Float::with_val(p, 1.673_263_242_354_377_3_f32);
+            match r {
+                Role::Forward if x > 0 => Float::with_val(p, &x * &lambda),
+                Role::Derivative if x >= 0 => lambda,
+                Role::Forward => Float::with_val(p, x.clone().exp_m1() * lambda * alpha),
+                Role::Derivative => Float::with_val(p, x.clone().exp() * lambda * alpha),
+            }
+        }
+        ("celu", r) => {
+            let z = Float::with_val(p, &x / param);
+            match r {
+                Role::Forward if x > 0 => x.clone(),
+                Role::Derivative if x > 0 => Float::with_val(p, 1),
+                Role::Forward => Float::with_val(p, z.exp_m1() * param),
+                Role::Derivative => z.exp(),
+            }
+        }
+        ("gelu-tanh", r) => {
+            let pi = Float::with_val(p, rug::float::Constant::Pi);
+            let c = Float::with_val(p, Float::with_val(p, 2) / pi).sqrt();
+            let k = Float::with_val(p, 44715) / 1_000_000u32;
+            let x2 = Float::with_val(p, x.square_ref());
+            let u = Float::with_val(p, &x + Float::with_val(p, &x2 * &x) * &k) * &c;
+            let s = sig(&Float::with_val(p, &u * 2u32));
+            if r == Role::Forward {
+                Float::with_val(p, &x * &s)
+            } else {
+                let g = (Float::with_val(p, &x2 * &k) * 3u32 + 1u32) * &c * 2u32;
+                let one_minus = Float::with_val(p, 1u32 - &s);
+                let corr = Float::with_val(p, &x * &g) * &s * &one_minus;
+                s + corr
             }
         }
         _ => unreachable!(),
@@ -215,6 +275,52 @@ fn inputs(name: &str, n: usize, seed: u64) -> Vec<u32> {
             (5.0, 12.0),
             (4000.0, 4100.0),
         ],
+        "softplus" => &[
+            (-800.0, -590.0),
+            (-104.0, -85.0),
+            (30.0, 45.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
+        "log-sigmoid" => &[
+            (590.0, 800.0),
+            (85.0, 104.0),
+            (-45.0, -30.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
+        "mish" => &[
+            (-1.3, -1.1),
+            (-800.0, -590.0),
+            (-60.0, -30.0),
+            (15.0, 25.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
+        "selu" | "celu" => &[
+            (-1.1, -0.9),
+            (-20.0, -15.0),
+            (-45.0, -30.0),
+            (-110.0, -85.0),
+            (-800.0, -590.0),
+            (-4100.0, -4000.0),
+            (-0.07, -0.05),
+        ],
+        "gelu-tanh" => &[
+            (-0.8, -0.7),
+            (-25.0, -15.0),
+            (5.0, 10.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
         _ => &[],
     };
     let rest = n - v.len();
@@ -321,11 +427,48 @@ fn gelu_fast_matches_mpfr() {
 }
 
 #[test]
+fn softplus_log_sigmoid_fast_matches_mpfr() {
+    check("softplus", &[], SMALL / 4);
+    check("log-sigmoid", &[], SMALL / 4);
+    exhaustive16("softplus", &[]);
+    exhaustive16("log-sigmoid", &[]);
+}
+
+#[test]
+fn mish_fast_matches_mpfr() {
+    check("mish", &[], SMALL / 4);
+    exhaustive16("mish", &[]);
+}
+
+#[test]
+fn selu_celu_fast_matches_mpfr() {
+    check("selu", &[], SMALL / 4);
+    check("celu", &[], SMALL / 8);
+    check("celu", &["alpha=0.25"], SMALL / 16);
+    check("celu", &["alpha=1.75"], SMALL / 16);
+    check("celu", &["alpha=3.3000000000000000444089209850062616169452667236328125"], SMALL / 16);
+    exhaustive16("selu", &[]);
+    exhaustive16("celu", &[]);
+    exhaustive16("celu", &["alpha=0.25"]);
+}
+
+#[test]
+fn gelu_tanh_fast_matches_mpfr() {
+    check("gelu-tanh", &[], SMALL / 4);
+    exhaustive16("gelu-tanh", &[]);
+}
+
+#[test]
 fn inexact_parameters_have_no_fast_path() {
     // 0.1 is not a binary64 number: the fast path declines and MPFR handles it.
     let e = evaluator("elu", Role::Forward, &Binary32, &["alpha=0.1"]);
     assert!(FastEvaluator::new(&e).is_none());
-    let e = evaluator("softplus", Role::Forward, &Binary32, &[]);
+    let e = evaluator("celu", Role::Forward, &Binary32, &["alpha=0.1"]);
+    assert!(FastEvaluator::new(&e).is_none());
+    // SELU's published constants are 32-digit decimals, not binary64 numbers.
+    let f = lookup("selu").unwrap();
+    let exact = Constants::resolve(f, &[], ParamRounding::Exact, &Binary32);
+    let e = Evaluator::new(f, Role::Forward, exact, &Binary32);
     assert!(FastEvaluator::new(&e).is_none());
 }
 
@@ -338,7 +481,19 @@ fn large_comparison() {
         .and_then(|s| s.parse().ok())
         .unwrap_or(10_000_000);
     let only = std::env::var("FAST_ONLY").ok();
-    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+    for name in [
+        "sigmoid",
+        "tanh",
+        "swish",
+        "elu",
+        "gelu",
+        "softplus",
+        "log-sigmoid",
+        "mish",
+        "selu",
+        "celu",
+        "gelu-tanh",
+    ] {
         if only.as_deref().is_some_and(|o| o != name) {
             continue;
         }
