@@ -592,6 +592,53 @@ fn regions(name: &str, role: Role, beta: f64) -> Vec<Region> {
                 inside: vec![(-38.81, -4095.0)],
             },
         ],
+        ("softplus", Role::Forward) => vec![Region {
+            edges: vec![38.0, -745.2],
+            inside: vec![(38.001, 4095.0), (-745.21, -4095.0)],
+        }],
+        ("softplus", Role::Derivative) => regions("sigmoid", Role::Forward, beta),
+        ("log-sigmoid", Role::Forward) => vec![Region {
+            edges: vec![-38.0, 745.2],
+            inside: vec![(-38.001, -4095.0), (745.21, 4095.0)],
+        }],
+        ("log-sigmoid", Role::Derivative) => regions("sigmoid", Role::Forward, beta)
+            .into_iter()
+            .map(|r| Region {
+                edges: r.edges.iter().map(|e| -e).collect(),
+                inside: r.inside.iter().map(|&(a, b)| (-a, -b)).collect(),
+            })
+            .collect(),
+        ("mish", _) => {
+            let right = if role == Role::Forward { 20.0 } else { 22.0 };
+            vec![Region {
+                edges: vec![right, -753.0],
+                inside: vec![(right as f32 * 1.0001, 4095.0), (-753.01, -4095.0)],
+            }]
+        }
+        ("gelu-tanh", _) => vec![Region {
+            edges: vec![1.3877787807814457e-17, -1.3877787807814457e-17, 8.0, -22.0],
+            inside: vec![
+                (1e-45, 1.3877e-17),
+                (-1e-45, -1.3877e-17),
+                (8.001, 4095.0),
+                (-22.001, -4095.0),
+            ],
+        }],
+        // SELU is ELU with α' = λα (binary32 roundings: λα ≈ 1.758, ilogb 0) on x ≤ 0.
+        ("selu", _) => regions("elu", role, 1.7580993408473766),
+        ("celu", _) => {
+            // Thresholds on z = x/α (with the margins of the computed quotient), scaled to x.
+            let z_edges: &[f64] = match role {
+                Role::Forward => &[-2.7755575615628914e-17, -38.3],
+                Role::Derivative => &[-2.7755575615628914e-17, -745.3],
+            };
+            let far = z_edges[1] * 1.0001;
+            let tiny = (2.775e-17 * beta) as f32;
+            vec![Region {
+                edges: z_edges.iter().map(|z| z * beta).collect(),
+                inside: vec![(-1e-45, -tiny), ((far * beta) as f32, (-4095.0 * beta) as f32)],
+            }]
+        }
         ("elu", Role::Forward) => vec![Region {
             edges: vec![-38.2],
             inside: vec![(-38.21, -4095.0)],
@@ -700,6 +747,18 @@ fn closed_regions_swish() {
         "swish",
         &["beta=0.0000000000000000008673617379884035472059622406959533691406250"],
     );
+}
+
+#[test]
+fn closed_regions_exp_log() {
+    closed_regions("softplus", &[]);
+    closed_regions("log-sigmoid", &[]);
+    closed_regions("mish", &[]);
+    closed_regions("gelu-tanh", &[]);
+    closed_regions("selu", &[]);
+    closed_regions("celu", &[]);
+    closed_regions("celu", &["alpha=0.25"]);
+    closed_regions("celu", &["alpha=1.75"]);
 }
 
 #[test]
