@@ -6,6 +6,7 @@
 //!   (|z| < 4096 past the tail);
 //! * e^(z_c) − 1 for z < 0: the relative sensitivity of expm1 at z is |z|·e^z/|e^z − 1| =
 //!   |z|/(e^|z| − 1) ≤ 1, so ≤ 1.01·OP on top of [`expm1`]'s bound.
+//!
 //! [`widen`] adds these.  For z ≤ −1 the forward value is −α + α·e^z, an asymptote plus a
 //! positive delta; for −1 < z < 0 it is α·expm1(z); the derivative is 1 + expm1(z) near 0 and
 //! e^z below.

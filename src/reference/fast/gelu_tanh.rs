@@ -13,6 +13,7 @@
 //! * derivative, x > 0: (D + x·g·t)/D² (positive terms), or 1 + (t/D)·(x·g/D − 1) for x ≥ 1
 //!   (x·g/D − 1 ≥ 0.5 there); x < 0: t·(D + x·g)/D², whose cancellation near the zero of the
 //!   derivative (x ≈ −0.75) [`Ev::add`] bounds.
+//!
 //! When t < 2^−898 (x < 0 only), D = 1 up to a relative 2^−898 ([`DROPPED`]).
 //!
 //! [`exp`]: super::exp::exp
@@ -66,12 +67,14 @@ const TWO_M56: f64 = 1.3877787807814457e-17;
 ///   |x| < 2^(e+2): delta < 1.62·2^e·2^−56 < 2^(e−54): just above x/2;
 /// * derivative y − 1/2 = tanh(u)/2 + x·u′·2s(1 − s), both of x's sign, each < 0.405|x| (u′ <
 ///   0.81, s(1 − s) ≤ 1/4): 0 < |y − 1/2| < 0.81|x| < 2^−55: beside 1/2 on x's side.
+///
 /// x ≥ 8: 2u ≥ 1.594·(8 + 0.0447·512) = 49.23, e^(−49.23) = 2^(−71.03).
 /// * forward x − y = x·σ(−2u) < x·e^(−2u) < 2^(ilogb(x) + 1 − 71): just below x;
 /// * derivative y − 1 = σ(−2u)·(x·g·σ(2u) − 1) > 0 (x·g·σ(2u) ≥ 8·1.594·0.99 > 1) and
 ///   < e^(−2u)·x·g ≤ 2^(−71.03)·8·1.596·(1 + 3·0.0448·64) = 2^(−64.1) < 2^−54 (the bound
 ///   decreases for x ≥ 8: the derivative of its logarithm is 1/x + 6kx/(1 + 3kx²) − g < 0):
 ///   just above 1.
+///
 /// x < −22: 2|u| ≥ 1.594·(22 + 0.0447·10648) = 793.8.
 /// * forward 0 < |y| = |x|·σ(2u) < |x|·e^(−2|u|) ≤ 22·e^(−793.8) = 2^(−1140.7): −0;
 /// * derivative y = s·(1 + x·g·(1 − s)), x·g·(1 − s) < −22·1.594·0.99 < −1, so y < 0 and |y| <

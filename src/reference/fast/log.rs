@@ -28,6 +28,7 @@
 //!   relative error ≤ 1.3·OP (one product, one addition, 1/3 within 2^−104), damped by
 //!   w/3 < 2^−17 in P, plus one final addition OP: ≤ 1.01·OP; errors of w itself (≤ 7.1·OP)
 //!   enter damped by 2^−17 as well.  The product 2s·P adds OP.
+//!
 //! Altogether ln(1 + d/c_j) has relative error ≤ 5.1·OP + 2^−83.5 + 2^−114 < 2^−83, recorded
 //! as [`CORE`] = 2^−82.  ln c_j is a double-word constant (2^−104, [`super::dd::constant`]);
 //! the sum ln c_j + ln(1 + d/c_j) goes through [`Ev::add`], which bounds the cancellation when

@@ -90,9 +90,9 @@ impl FastEvaluator {
             "softplus" => Kind::Softplus,
             "log-sigmoid" => Kind::LogSigmoid,
             "mish" => Kind::Mish,
-            "selu" => selu::kind(&c)?,
+            "selu" => selu::kind(c)?,
             "celu" => Kind::Celu(celu::parameter(exact_f64(c.get("alpha").exact())?)?),
-            "gelu-tanh" => gelu_tanh::kind(&c)?,
+            "gelu-tanh" => gelu_tanh::kind(c)?,
             _ => return None,
         };
         let format = evaluator.format();
