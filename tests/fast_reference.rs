@@ -1007,3 +1007,38 @@ fn exp_log_every_binade() {
         }
     }
 }
+
+/// Constants rounded to the kernel's own 16-bit format (`--param-rounding format`): GELU-tanh's
+/// c and k and SELU's λ and α become short binary numbers, every pattern against the engine.
+#[test]
+fn format_rounded_constants_16_bit() {
+    for name in ["gelu-tanh", "selu"] {
+        for format in [&Binary16 as &'static dyn Format, &Bfloat16] {
+            for role in [Role::Forward, Role::Derivative] {
+                let f = lookup(name).unwrap();
+                let constants = Constants::resolve(f, &[], ParamRounding::Format, format);
+                let e = Evaluator::new(f, role, constants, format);
+                let fast = FastEvaluator::new(&e).expect("fast path");
+                let mut decided = 0;
+                for x in 0u32..65536 {
+                    if let Some(r) = fast.try_reference(x) {
+                        let m = e.reference(x).unwrap();
+                        assert!(
+                            r.bits == m.bits
+                                && r.exact.map(|v| (v.binade, v.approx.to_bits()))
+                                    == m.exact.map(|v| (v.binade, v.approx.to_bits())),
+                            "{name} {role:?} {} at {x:#06x}: fast {r:?} vs mpfr {m:?}",
+                            format.name()
+                        );
+                        decided += 1;
+                    }
+                }
+                eprintln!(
+                    "{name} {role:?} {} format-rounded: decided {decided}/65536",
+                    format.name()
+                );
+                assert!(decided > 60000);
+            }
+        }
+    }
+}

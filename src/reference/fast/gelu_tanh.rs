@@ -46,13 +46,13 @@ fn double_word(value: &Real) -> Option<Ev> {
     })
 }
 
-/// The fast-path kind for the resolved constants: c within [0.797, 0.798] and k within
-/// [0.0447, 0.0448], the ranges the closed-form thresholds below are proved for (the default
-/// constants and their binary32 roundings lie inside).
+/// The fast-path kind for the resolved constants: c within [0.79, 0.80] and k within
+/// [0.044, 0.046], the ranges the closed-form thresholds below are proved for (the default
+/// constants and their binary32, binary16 and bfloat16 roundings lie inside).
 pub(super) fn kind(c: &Constants) -> Option<Kind> {
     let cc = double_word(c.get("c"))?;
     let kk = double_word(c.get("k"))?;
-    let ok = (0.797..=0.798).contains(&cc.v.hi) && (0.0447..=0.0448).contains(&kk.v.hi);
+    let ok = (0.79..=0.80).contains(&cc.v.hi) && (0.044..=0.046).contains(&kk.v.hi);
     ok.then_some(Kind::GeluTanh(cc, kk))
 }
 
@@ -60,25 +60,25 @@ pub(super) fn kind(c: &Constants) -> Option<Kind> {
 const TWO_M56: f64 = 1.3877787807814457e-17;
 
 /// GELU-tanh or its derivative where a closed form decides it (x finite, nonzero, |x| < TAIL;
-/// c ∈ [0.797, 0.798], k ∈ [0.0447, 0.0448]; logarithms from mpmath, 50 digits).
+/// c ∈ [0.79, 0.80], k ∈ [0.044, 0.046]; logarithms from Python's math.log, rounded outwards).
 ///
-/// |x| < 2^−56: u has x's sign and |u| = c|x|(1 + kx²) < 0.81|x|; 0 < |tanh u| < |u|.
+/// |x| < 2^−56: u has x's sign and |u| = c|x|(1 + kx²) < 0.81|x| (c ≤ 0.8); 0 < |tanh u| < |u|.
 /// * forward y = x/2 + x·tanh(u)/2, the delta positive and < 0.405x²; with e = ilogb(x/2),
 ///   |x| < 2^(e+2): delta < 1.62·2^e·2^−56 < 2^(e−54): just above x/2;
 /// * derivative y − 1/2 = tanh(u)/2 + x·u′·2s(1 − s), both of x's sign, each < 0.405|x| (u′ <
 ///   0.81, s(1 − s) ≤ 1/4): 0 < |y − 1/2| < 0.81|x| < 2^−55: beside 1/2 on x's side.
 ///
-/// x ≥ 8: 2u ≥ 1.594·(8 + 0.0447·512) = 49.23, e^(−49.23) = 2^(−71.03).
-/// * forward x − y = x·σ(−2u) < x·e^(−2u) < 2^(ilogb(x) + 1 − 71): just below x;
-/// * derivative y − 1 = σ(−2u)·(x·g·σ(2u) − 1) > 0 (x·g·σ(2u) ≥ 8·1.594·0.99 > 1) and
-///   < e^(−2u)·x·g ≤ 2^(−71.03)·8·1.596·(1 + 3·0.0448·64) = 2^(−64.1) < 2^−54 (the bound
+/// x ≥ 8: 2u ≥ 1.58·(8 + 0.044·512) = 48.23, e^(−48.23) = 2^(−69.58).
+/// * forward x − y = x·σ(−2u) < x·e^(−2u) < 2^(ilogb(x) + 1 − 69.5): just below x;
+/// * derivative y − 1 = σ(−2u)·(x·g·σ(2u) − 1) > 0 (x·g·σ(2u) ≥ 8·1.58·0.99 > 1) and
+///   < e^(−2u)·x·g ≤ 2^(−69.58)·8·1.6·(1 + 3·0.046·64) = 2^(−62.6) < 2^−54 (the bound
 ///   decreases for x ≥ 8: the derivative of its logarithm is 1/x + 6kx/(1 + 3kx²) − g < 0):
 ///   just above 1.
 ///
-/// x < −22: 2|u| ≥ 1.594·(22 + 0.0447·10648) = 793.8.
-/// * forward 0 < |y| = |x|·σ(2u) < |x|·e^(−2|u|) ≤ 22·e^(−793.8) = 2^(−1140.7): −0;
-/// * derivative y = s·(1 + x·g·(1 − s)), x·g·(1 − s) < −22·1.594·0.99 < −1, so y < 0 and |y| <
-///   s·|x|·g ≤ e^(−793.8)·22·1.596·(1 + 3·0.0448·484) = 2^(−1134.1): −0.
+/// x < −22: 2|u| ≥ 1.58·(22 + 0.044·10648) = 775.0.
+/// * forward 0 < |y| = |x|·σ(2u) < |x|·e^(−2|u|) ≤ 22·e^(−775.0) = 2^(−1113.6): −0;
+/// * derivative y = s·(1 + x·g·(1 − s)), x·g·(1 − s) < −22·1.58·0.99 < −1, so y < 0 and |y| <
+///   s·|x|·g ≤ e^(−775.0)·22·1.6·(1 + 3·0.046·484) = 2^(−1106.9): −0.
 ///   (Both bounds decrease as x decreases: 2|u| grows like |x|³.)
 #[inline(always)]
 fn closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
