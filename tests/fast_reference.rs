@@ -981,6 +981,10 @@ fn exp_log_every_binade() {
     inputs.extend(per_binade(&mut g, -40, 50, 200));
     inputs.extend((0..4000).map(|_| (g.next() % 0x7f_ffff) as u32 + 1)); // subnormals
     inputs.extend((0..4000).map(|_| 0x8000_0000 | ((g.next() % 0x7f_ffff) as u32 + 1)));
+    // Softplus' and log-sigmoid's band edge (|x| = 2^−30), every format's patterns around it.
+    for v in [9.313225746154785e-10, -9.313225746154785e-10] {
+        inputs.extend(neighbours(&Binary32, v, 300));
+    }
     // Overflow edges: compared where decided (an overflowing λx is left to the engine).
     let mut edges = neighbours(&Binary32, f32::MAX as f64 / 1.0507009873554805, 500);
     edges.extend(neighbours(&Binary32, f32::MAX as f64, 500));

@@ -10,6 +10,7 @@ use super::dd::Dd;
 use super::decide::{engine_beside, engine_tiny, Outcome};
 use super::log::log1p;
 use super::logistic;
+use super::softplus::{band, BAND};
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -46,6 +47,10 @@ pub fn log_sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
     }
     if let Some(o) = closed(format, x) {
         return o;
+    }
+    if a < BAND {
+        // ln σ(x) = −softplus(−x) = −(ln 2 − x/2 + x²/8 − …).
+        return Outcome::Value(band(x, -1.0).neg(), 0);
     }
     let t = decay(Dd::new(a));
     match t.plain {
