@@ -42,9 +42,19 @@ fn evaluator(
     Evaluator::new(
         f,
         role,
-        Constants::resolve(f, &user, ParamRounding::Exact, format),
+        Constants::resolve(f, &user, rounding(name), format),
         format,
     )
+}
+
+/// SELU's published constants are decimals, not binary64 numbers: its fast path exists only
+/// once they are rounded (`--param-rounding f32`), which the tests use for it.
+fn rounding(name: &str) -> ParamRounding {
+    if name == "selu" {
+        ParamRounding::F32
+    } else {
+        ParamRounding::Exact
+    }
 }
 
 /// The exact value at 256 bits, straight from the definitions (only for approximation checks;
@@ -85,6 +95,58 @@ fn truth(name: &str, role: Role, x: f64, param: f64) -> f64 {
                 let pi2 = Float::with_val(p, rug::float::Constant::Pi) * 2u32;
                 let dens = Float::with_val(p, -x.clone().square() / 2u32).exp() / pi2.sqrt();
                 cdf + Float::with_val(p, &x * &dens)
+            }
+        }
+        ("softplus", Role::Forward) => x.clone().exp().ln_1p(),
+        ("softplus", Role::Derivative) => sig(&x),
+        ("log-sigmoid", Role::Forward) => -Float::with_val(p, -&x).exp().ln_1p(),
+        ("log-sigmoid", Role::Derivative) => sig(&Float::with_val(p, -&x)),
+        ("mish", r) => {
+            let sp = x.clone().exp().ln_1p();
+            let th = sp.clone().tanh();
+            if r == Role::Forward {
+                Float::with_val(p, &x * &th)
+            } else {
+                let sech2 = sp.sech().square();
+                th + Float::with_val(p, &x * &sech2) * sig(&x)
+            }
+        }
+        ("selu", r) => {
+            // The binary32 roundings of λ and α (the tests' --param-rounding f32).
+            // The published decimals (Klambauer et al. 2017), rounded to nearest binary32.
+            let round = |d: &str| Float::with_val(p, d.parse::<f32>().unwrap());
+            let lambda = round("1.0507009873554804934193349852946");
+            let alpha = round("1.6732632423543772848170429916717");
+            match r {
+                Role::Forward if x > 0 => Float::with_val(p, &x * &lambda),
+                Role::Derivative if x >= 0 => lambda,
+                Role::Forward => Float::with_val(p, x.clone().exp_m1() * lambda * alpha),
+                Role::Derivative => Float::with_val(p, x.clone().exp() * lambda * alpha),
+            }
+        }
+        ("celu", r) => {
+            let z = Float::with_val(p, &x / param);
+            match r {
+                Role::Forward if x > 0 => x.clone(),
+                Role::Derivative if x > 0 => Float::with_val(p, 1),
+                Role::Forward => Float::with_val(p, z.exp_m1() * param),
+                Role::Derivative => z.exp(),
+            }
+        }
+        ("gelu-tanh", r) => {
+            let pi = Float::with_val(p, rug::float::Constant::Pi);
+            let c = Float::with_val(p, Float::with_val(p, 2) / pi).sqrt();
+            let k = Float::with_val(p, 44715) / 1_000_000u32;
+            let x2 = Float::with_val(p, x.square_ref());
+            let u = Float::with_val(p, &x + Float::with_val(p, &x2 * &x) * &k) * &c;
+            let s = sig(&Float::with_val(p, &u * 2u32));
+            if r == Role::Forward {
+                Float::with_val(p, &x * &s)
+            } else {
+                let g = (Float::with_val(p, &x2 * &k) * 3u32 + 1u32) * &c * 2u32;
+                let one_minus = Float::with_val(p, 1u32 - &s);
+                let corr = Float::with_val(p, &x * &g) * &s * &one_minus;
+                s + corr
             }
         }
         _ => unreachable!(),
@@ -215,6 +277,52 @@ fn inputs(name: &str, n: usize, seed: u64) -> Vec<u32> {
             (5.0, 12.0),
             (4000.0, 4100.0),
         ],
+        "softplus" => &[
+            (-800.0, -590.0),
+            (-104.0, -85.0),
+            (30.0, 45.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
+        "log-sigmoid" => &[
+            (590.0, 800.0),
+            (85.0, 104.0),
+            (-45.0, -30.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
+        "mish" => &[
+            (-1.3, -1.1),
+            (-800.0, -590.0),
+            (-60.0, -30.0),
+            (15.0, 25.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
+        "selu" | "celu" => &[
+            (-1.1, -0.9),
+            (-20.0, -15.0),
+            (-45.0, -30.0),
+            (-110.0, -85.0),
+            (-800.0, -590.0),
+            (-4100.0, -4000.0),
+            (-0.07, -0.05),
+        ],
+        "gelu-tanh" => &[
+            (-0.8, -0.7),
+            (-25.0, -15.0),
+            (5.0, 10.0),
+            (0.9, 1.1),
+            (-1.1, -0.9),
+            (4000.0, 4100.0),
+            (-4100.0, -4000.0),
+        ],
         _ => &[],
     };
     let rest = n - v.len();
@@ -321,11 +429,52 @@ fn gelu_fast_matches_mpfr() {
 }
 
 #[test]
+fn softplus_log_sigmoid_fast_matches_mpfr() {
+    check("softplus", &[], SMALL / 4);
+    check("log-sigmoid", &[], SMALL / 4);
+    exhaustive16("softplus", &[]);
+    exhaustive16("log-sigmoid", &[]);
+}
+
+#[test]
+fn mish_fast_matches_mpfr() {
+    check("mish", &[], SMALL / 4);
+    exhaustive16("mish", &[]);
+}
+
+#[test]
+fn selu_celu_fast_matches_mpfr() {
+    check("selu", &[], SMALL / 4);
+    check("celu", &[], SMALL / 8);
+    check("celu", &["alpha=0.25"], SMALL / 16);
+    check("celu", &["alpha=1.75"], SMALL / 16);
+    check(
+        "celu",
+        &["alpha=3.29999999999999982236431605997495353221893310546875"],
+        SMALL / 16,
+    );
+    exhaustive16("selu", &[]);
+    exhaustive16("celu", &[]);
+    exhaustive16("celu", &["alpha=0.25"]);
+}
+
+#[test]
+fn gelu_tanh_fast_matches_mpfr() {
+    check("gelu-tanh", &[], SMALL / 4);
+    exhaustive16("gelu-tanh", &[]);
+}
+
+#[test]
 fn inexact_parameters_have_no_fast_path() {
     // 0.1 is not a binary64 number: the fast path declines and MPFR handles it.
     let e = evaluator("elu", Role::Forward, &Binary32, &["alpha=0.1"]);
     assert!(FastEvaluator::new(&e).is_none());
-    let e = evaluator("softplus", Role::Forward, &Binary32, &[]);
+    let e = evaluator("celu", Role::Forward, &Binary32, &["alpha=0.1"]);
+    assert!(FastEvaluator::new(&e).is_none());
+    // SELU's published constants are 32-digit decimals, not binary64 numbers.
+    let f = lookup("selu").unwrap();
+    let exact = Constants::resolve(f, &[], ParamRounding::Exact, &Binary32);
+    let e = Evaluator::new(f, Role::Forward, exact, &Binary32);
     assert!(FastEvaluator::new(&e).is_none());
 }
 
@@ -338,7 +487,19 @@ fn large_comparison() {
         .and_then(|s| s.parse().ok())
         .unwrap_or(10_000_000);
     let only = std::env::var("FAST_ONLY").ok();
-    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+    for name in [
+        "sigmoid",
+        "tanh",
+        "swish",
+        "elu",
+        "gelu",
+        "softplus",
+        "log-sigmoid",
+        "mish",
+        "selu",
+        "celu",
+        "gelu-tanh",
+    ] {
         if only.as_deref().is_some_and(|o| o != name) {
             continue;
         }
@@ -437,6 +598,56 @@ fn regions(name: &str, role: Role, beta: f64) -> Vec<Region> {
                 inside: vec![(-38.81, -4095.0)],
             },
         ],
+        ("softplus", Role::Forward) => vec![Region {
+            edges: vec![38.0, -745.2],
+            inside: vec![(38.001, 4095.0), (-745.21, -4095.0)],
+        }],
+        ("softplus", Role::Derivative) => regions("sigmoid", Role::Forward, beta),
+        ("log-sigmoid", Role::Forward) => vec![Region {
+            edges: vec![-38.0, 745.2],
+            inside: vec![(-38.001, -4095.0), (745.21, 4095.0)],
+        }],
+        ("log-sigmoid", Role::Derivative) => regions("sigmoid", Role::Forward, beta)
+            .into_iter()
+            .map(|r| Region {
+                edges: r.edges.iter().map(|e| -e).collect(),
+                inside: r.inside.iter().map(|&(a, b)| (-a, -b)).collect(),
+            })
+            .collect(),
+        ("mish", _) => {
+            let right = if role == Role::Forward { 20.0 } else { 22.0 };
+            vec![Region {
+                edges: vec![right, -753.0],
+                inside: vec![(right as f32 * 1.0001, 4095.0), (-753.01, -4095.0)],
+            }]
+        }
+        ("gelu-tanh", _) => vec![Region {
+            edges: vec![1.3877787807814457e-17, -1.3877787807814457e-17, 8.0, -22.0],
+            inside: vec![
+                (1e-45, 1.3877e-17),
+                (-1e-45, -1.3877e-17),
+                (8.001, 4095.0),
+                (-22.001, -4095.0),
+            ],
+        }],
+        // SELU is ELU with α' = λα (binary32 roundings: λα ≈ 1.758, ilogb 0) on x ≤ 0.
+        ("selu", _) => regions("elu", role, 1.7580993408473766),
+        ("celu", _) => {
+            // Thresholds on z = x/α (with the margins of the computed quotient), scaled to x.
+            let z_edges: &[f64] = match role {
+                Role::Forward => &[-2.7755575615628914e-17, -38.3],
+                Role::Derivative => &[-2.7755575615628914e-17, -745.3],
+            };
+            let far = z_edges[1] * 1.0001;
+            let tiny = (2.775e-17 * beta) as f32;
+            vec![Region {
+                edges: z_edges.iter().map(|z| z * beta).collect(),
+                inside: vec![
+                    (-1e-45, -tiny),
+                    ((far * beta) as f32, (-4095.0 * beta) as f32),
+                ],
+            }]
+        }
         ("elu", Role::Forward) => vec![Region {
             edges: vec![-38.2],
             inside: vec![(-38.21, -4095.0)],
@@ -545,6 +756,18 @@ fn closed_regions_swish() {
         "swish",
         &["beta=0.0000000000000000008673617379884035472059622406959533691406250"],
     );
+}
+
+#[test]
+fn closed_regions_exp_log() {
+    closed_regions("softplus", &[]);
+    closed_regions("log-sigmoid", &[]);
+    closed_regions("mish", &[]);
+    closed_regions("gelu-tanh", &[]);
+    closed_regions("selu", &[]);
+    closed_regions("celu", &[]);
+    closed_regions("celu", &["alpha=0.25"]);
+    closed_regions("celu", &["alpha=1.75"]);
 }
 
 #[test]
@@ -700,5 +923,126 @@ fn gelu_band_and_mills_table() {
             d as f64 >= 0.995 * t as f64,
             "gelu {role:?}: {d}/{t} decided"
         );
+    }
+}
+
+/// The committed 16-bit golden tables (every pattern, checked once against the independent
+/// mpmath script of tests/crosscheck): wherever the fast path decides, its bits must be the
+/// table's, for every function with a fast path under the tables' exact constants (SELU's
+/// published constants are not binary64 numbers, so it has none there).
+#[test]
+fn fast_path_matches_golden_16_bit_tables() {
+    use std::io::Read;
+    let dir = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/golden");
+    for name in [
+        "sigmoid",
+        "tanh",
+        "silu",
+        "elu",
+        "gelu",
+        "softplus",
+        "log-sigmoid",
+        "mish",
+        "celu",
+        "gelu-tanh",
+    ] {
+        for format in [&Binary16 as &'static dyn Format, &Bfloat16] {
+            for (role, label) in [(Role::Forward, "forward"), (Role::Derivative, "derivative")] {
+                let file = dir.join(format!("{}-{name}-{label}.u16.gz", format.name()));
+                let mut bytes = Vec::new();
+                flate2::read::GzDecoder::new(std::fs::File::open(&file).expect("golden table"))
+                    .read_to_end(&mut bytes)
+                    .unwrap();
+                assert_eq!(bytes.len(), 131072, "{file:?}");
+                let e = evaluator(name, role, format, &[]);
+                let fast = FastEvaluator::new(&e).expect("fast path");
+                let mut decided = 0;
+                for x in 0u32..65536 {
+                    if let Some(r) = fast.try_reference(x) {
+                        let want =
+                            u16::from_le_bytes([bytes[2 * x as usize], bytes[2 * x as usize + 1]]);
+                        assert_eq!(r.bits as u16, want, "{file:?} at {x:#06x}");
+                        decided += 1;
+                    }
+                }
+                assert!(decided > 60000, "{file:?}: only {decided} decided");
+            }
+        }
+    }
+}
+
+/// Tiny and moderate inputs of the exp/log functions, every binade from the subnormals to 2^9
+/// of both signs (60 random patterns each, 200 from 2^−40 up), and binary32's overflow edge
+/// (SELU's λx overflows just below the largest finite input), against the engine.
+#[test]
+fn exp_log_every_binade() {
+    let mut g = Mix(83);
+    let mut inputs = per_binade(&mut g, -126, 86, 60);
+    inputs.extend(per_binade(&mut g, -40, 50, 200));
+    inputs.extend((0..4000).map(|_| (g.next() % 0x7f_ffff) as u32 + 1)); // subnormals
+    inputs.extend((0..4000).map(|_| 0x8000_0000 | ((g.next() % 0x7f_ffff) as u32 + 1)));
+    // Softplus' and log-sigmoid's band edge (|x| = 2^−30), every format's patterns around it.
+    for v in [9.313225746154785e-10, -9.313225746154785e-10] {
+        inputs.extend(neighbours(&Binary32, v, 300));
+    }
+    // Overflow edges: compared where decided (an overflowing λx is left to the engine).
+    let mut edges = neighbours(&Binary32, f32::MAX as f64 / 1.0507009873554805, 500);
+    edges.extend(neighbours(&Binary32, f32::MAX as f64, 500));
+    edges.extend(neighbours(&Binary32, -(f32::MAX as f64), 500));
+    for (name, params) in [
+        ("softplus", &[][..]),
+        ("log-sigmoid", &[]),
+        ("mish", &[]),
+        ("selu", &[]),
+        ("celu", &[]),
+        ("celu", &["alpha=0.375"][..]),
+        ("gelu-tanh", &[]),
+    ] {
+        for role in [Role::Forward, Role::Derivative] {
+            let (d, t) = compare(name, role, &Binary32, params, &inputs);
+            let (de, te) = compare(name, role, &Binary32, params, &edges);
+            eprintln!(
+                "{name} {params:?} {role:?} every binade: decided {d}/{t}, overflow edges {de}/{te}"
+            );
+            assert!(
+                d as f64 >= 0.995 * t as f64,
+                "{name} {role:?}: {d}/{t} decided"
+            );
+        }
+    }
+}
+
+/// Constants rounded to the kernel's own 16-bit format (`--param-rounding format`): GELU-tanh's
+/// c and k and SELU's λ and α become short binary numbers, every pattern against the engine.
+#[test]
+fn format_rounded_constants_16_bit() {
+    for name in ["gelu-tanh", "selu"] {
+        for format in [&Binary16 as &'static dyn Format, &Bfloat16] {
+            for role in [Role::Forward, Role::Derivative] {
+                let f = lookup(name).unwrap();
+                let constants = Constants::resolve(f, &[], ParamRounding::Format, format);
+                let e = Evaluator::new(f, role, constants, format);
+                let fast = FastEvaluator::new(&e).expect("fast path");
+                let mut decided = 0;
+                for x in 0u32..65536 {
+                    if let Some(r) = fast.try_reference(x) {
+                        let m = e.reference(x).unwrap();
+                        assert!(
+                            r.bits == m.bits
+                                && r.exact.map(|v| (v.binade, v.approx.to_bits()))
+                                    == m.exact.map(|v| (v.binade, v.approx.to_bits())),
+                            "{name} {role:?} {} at {x:#06x}: fast {r:?} vs mpfr {m:?}",
+                            format.name()
+                        );
+                        decided += 1;
+                    }
+                }
+                eprintln!(
+                    "{name} {role:?} {} format-rounded: decided {decided}/65536",
+                    format.name()
+                );
+                assert!(decided > 60000);
+            }
+        }
     }
 }

@@ -1,5 +1,6 @@
-//! A fast reference path: double-word evaluations of sigmoid, tanh, swish/SiLU, ELU and GELU
-//! (forward and derivative) with proven error bounds, decided by the engine's own rule.
+//! A fast reference path: double-word evaluations of sigmoid, tanh, swish/SiLU, ELU, GELU,
+//! softplus, log-sigmoid, mish, SELU, CELU and GELU-tanh (forward and derivative) with proven
+//! error bounds, decided by the engine's own rule.
 //!
 //! [`FastEvaluator::try_reference`] returns a reference only when the fast value ± its bound
 //! decides the rounding into the format and the clamped binade; then the reference equals the
@@ -12,15 +13,22 @@
 //! hardware FMA chosen at run time.
 
 mod arch;
+mod celu;
 mod common;
 pub mod dd;
 mod decide;
 mod elu;
 pub mod exp;
 mod gelu;
+mod gelu_tanh;
+mod log;
+mod log_sigmoid;
 mod logistic;
 mod mills;
+mod mish;
+mod selu;
 mod series;
+mod softplus;
 
 pub use decide::FAST_PRECISION;
 
@@ -38,6 +46,12 @@ enum Kind {
     Swish(f64),
     Elu(f64),
     Gelu,
+    Softplus,
+    LogSigmoid,
+    Mish,
+    Selu(f64, f64),
+    Celu(f64),
+    GeluTanh(dd::Ev, dd::Ev),
 }
 
 /// The fast path for one evaluator's function, role, parameters and format.
@@ -73,6 +87,12 @@ impl FastEvaluator {
             "swish" => Kind::Swish(exact_f64(c.get("beta").exact())?),
             "elu" => Kind::Elu(exact_f64(c.get("alpha").exact())?),
             "gelu" => Kind::Gelu,
+            "softplus" => Kind::Softplus,
+            "log-sigmoid" => Kind::LogSigmoid,
+            "mish" => Kind::Mish,
+            "selu" => selu::kind(c)?,
+            "celu" => Kind::Celu(celu::parameter(exact_f64(c.get("alpha").exact())?)?),
+            "gelu-tanh" => gelu_tanh::kind(c)?,
             _ => return None,
         };
         let format = evaluator.format();
@@ -131,6 +151,12 @@ impl FastEvaluator {
             Kind::Swish(beta) => logistic::swish(format, x, beta, self.role),
             Kind::Elu(alpha) => elu::elu(format, x, alpha, self.role),
             Kind::Gelu => gelu::gelu(format, x, self.role),
+            Kind::Softplus => softplus::softplus(format, x, self.role),
+            Kind::LogSigmoid => log_sigmoid::log_sigmoid(format, x, self.role),
+            Kind::Mish => mish::mish(format, x, self.role),
+            Kind::Selu(l, la) => selu::selu(format, x, l, la, self.role),
+            Kind::Celu(alpha) => celu::celu(format, x, alpha, self.role),
+            Kind::GeluTanh(c, k) => gelu_tanh::gelu_tanh(format, x, c, k, self.role),
         };
         finish(format, outcome)
     }
