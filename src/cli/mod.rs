@@ -195,7 +195,8 @@ pub fn resolve(
         Failure::bad_input(format!("unknown format '{format}' (known: f32, f16, bf16)"))
     })?;
     let user = Constants::parse_params(f, &args.params).map_err(Failure::bad_input)?;
-    let constants = Constants::resolve(f, &user, args.param_rounding, fmt);
+    let constants = Constants::resolve_checked(f, &user, args.param_rounding, fmt)
+        .map_err(Failure::bad_input)?;
     let role = if derivative {
         Role::Derivative
     } else {

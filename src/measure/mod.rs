@@ -12,6 +12,7 @@ mod nonfinite;
 mod shape;
 mod special;
 mod thresholds;
+pub mod valid;
 
 pub use accuracy::{
     accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, BucketPoint, FloorView, HistogramBin,
