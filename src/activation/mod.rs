@@ -191,7 +191,10 @@ impl Constants {
             rounding.apply_checked(
                 &Real::Exact(value.clone()),
                 format,
-                &format!("parameter {name}={:e}", value.to_f64()),
+                &format!(
+                    "parameter {name}={:e}",
+                    rug::Float::with_val(53, value).to_f64()
+                ),
             )?;
         }
         for (name, value) in function.constants() {

@@ -432,6 +432,13 @@ pub fn load(path: &Path) -> Result<Spec, String> {
             ))
         }
     };
+    let parsed = params
+        .iter()
+        .map(|(name, v)| Constants::parse_params(function, &[format!("{name}={v}")]))
+        .collect::<Result<Vec<_>, String>>()?
+        .concat();
+    Constants::resolve_checked(function, &parsed, param_rounding, format)
+        .map_err(|e| format!("key `kernel.params`: {e}"))?;
     let timeout = k.timeout.unwrap_or(10.0);
     crate::kernel::batch_timeout(timeout, "key `kernel.timeout`")?;
     let dir = path.parent().map(Path::to_path_buf).unwrap_or_default();
