@@ -99,6 +99,7 @@ const TOML_TOKENS: &[&str] = &[
     "\"",
     "'",
     "#",
+    "\u{0}",
     "\u{fffd}",
 ];
 
