@@ -7,7 +7,8 @@
 //! 0, 1 or 2, and with 2 print exactly one line on stderr.
 //!
 //! `cargo test --release --test fuzz_readers` runs 300 inputs per reader; the long run is
-//! `FUZZ_INPUTS=100000 cargo test --release --test fuzz_readers -- --ignored --nocapture`.
+//! `FUZZ_INPUTS=100000 cargo test --release --test fuzz_readers -- --ignored --nocapture`
+//! (`FUZZ_READERS=manifest,shards` to run only some).
 
 use serde_json::Value;
 use std::panic::{catch_unwind, AssertUnwindSafe};
@@ -931,10 +932,14 @@ fn long_fuzz_every_reader() {
         ("shards", run_shards),
         ("options", run_options),
     ];
+    // `FUZZ_READERS=manifest,shards` runs only those.
+    let only = std::env::var("FUZZ_READERS").ok();
+    let chosen = |name: &str| only.as_deref().map_or(true, |o| o.split(',').any(|r| r == name));
     // One thread per reader: each has its own scratch folder.
     let results: Vec<(&str, (usize, usize, Vec<String>))> = std::thread::scope(|scope| {
         let handles: Vec<_> = runs
             .iter()
+            .filter(|(name, _)| chosen(name))
             .map(|&(name, run)| (name, scope.spawn(move || run(n))))
             .collect();
         handles

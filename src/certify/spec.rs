@@ -333,6 +333,12 @@ fn kind(name: &str) -> Result<SweepKind, String> {
 
 /// Reads and validates a spec; every error names the key (the caller adds the file name).
 pub fn load(path: &Path) -> Result<Spec, String> {
+    // User text quoted in a message stays on the message's one line.
+    load_inner(path).map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r"))
+}
+
+/// [`load`], before newlines in quoted text are escaped.
+fn load_inner(path: &Path) -> Result<Spec, String> {
     let bytes = std::fs::read(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => "no such file".to_string(),
         _ => format!("cannot read: {e}"),

@@ -421,6 +421,8 @@ pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
     std::panic::set_hook(Box::new(|_| {}));
     let result = std::panic::catch_unwind(|| merge_checked(files));
     std::panic::set_hook(hook);
+    // User text quoted in a message stays on the message's one line.
+    let result = result.map(|r| r.map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r")));
     result.unwrap_or_else(|panic| {
         let why = panic
             .downcast_ref::<String>()
