@@ -377,23 +377,22 @@ fn seeds() -> &'static Seeds {
     SEEDS.get_or_init(|| {
         let dir = scratch("seeds");
         let base = |extra: &[&str], json: &Path| {
-            let mut a = vec![
-                "check",
-                "--builtin-kernel",
-                "reference",
-                "--quiet",
+            let mut a = vec!["check", "--quiet",
                 "--no-progress",
                 "--json",
                 json.to_str().unwrap(),
             ];
             a.extend_from_slice(extra);
+            if !a.contains(&"--builtin-kernel") {
+                a.extend(["--builtin-kernel", "reference"]);
+            }
             let (code, err) = ulpgauge(&a);
             assert!([0, 1].contains(&code), "{a:?}: {err}");
         };
         // An exhaustive bf16 sweep (streamed runs), a sampled f32 one (runs found by gap
         // scans, a kink in the derivative role) and an exhaustive f16 one of a function with
         // overflow (non-finite runs in the state).
-        let kinds: [&[&str]; 3] = [
+        let kinds: [&[&str]; 4] = [
             &["--function", "sigmoid", "--format", "bf16", "--range=1,3"],
             &[
                 "--function",
@@ -406,7 +405,32 @@ fn seeds() -> &'static Seeds {
                 "--per-binade",
                 "2",
             ],
-            &["--function", "elu", "--format", "f16", "--range=8,12"],
+            // NaN for every x where e^x overflows (the blended SIMD form): streamed runs in
+            // an exhaustive sweep, runs found by gap scans in a sampled one.
+            &[
+                "--builtin-kernel",
+                "blended-elu",
+                "--function",
+                "elu",
+                "--format",
+                "f16",
+                "--range=8,16",
+            ],
+            &[
+                "--builtin-kernel",
+                "blended-elu",
+                "--function",
+                "elu",
+                "--format",
+                "f32",
+                "--range=80,100",
+                "--per-binade",
+                "4",
+                "--points",
+                "50",
+                "--sweep",
+                "dense,edge,random",
+            ],
         ];
         let mut shard_sets = Vec::new();
         let mut reports = Vec::new();
