@@ -298,6 +298,9 @@ fn ulpgauge(args: &[&str]) -> (i32, String) {
     )
 }
 
+/// Inputs tried, inputs accepted, and the panics met (with where the input was kept).
+type Outcome = (usize, usize, Vec<String>);
+
 /// How many inputs per reader: 300 by default, `FUZZ_INPUTS` for the long run.
 fn budget(long: bool) -> usize {
     if long {
@@ -318,7 +321,7 @@ fn fuzz(
     seed: u64,
     mut make: impl FnMut(&mut Rng) -> Vec<u8>,
     mut reader: impl FnMut(&[u8]) -> Result<(), String>,
-) -> (usize, usize, Vec<String>) {
+) -> Outcome {
     let mut rng = Rng(seed);
     let (mut accepted, mut panics) = (0, Vec::new());
     let started = Instant::now();
@@ -352,7 +355,7 @@ fn fuzz(
     (n, accepted, panics)
 }
 
-fn assert_clean(name: &str, (n, _, panics): (usize, usize, Vec<String>)) {
+fn assert_clean(name: &str, (n, _, panics): Outcome) {
     assert!(
         panics.is_empty(),
         "{name}: {} of {n} inputs panicked: {:?}",
@@ -377,7 +380,9 @@ fn seeds() -> &'static Seeds {
     SEEDS.get_or_init(|| {
         let dir = scratch("seeds");
         let base = |extra: &[&str], json: &Path| {
-            let mut a = vec!["check", "--quiet",
+            let mut a = vec![
+                "check",
+                "--quiet",
                 "--no-progress",
                 "--json",
                 json.to_str().unwrap(),
@@ -594,10 +599,7 @@ fn mutate_shard(rng: &mut Rng, seed: &Value) -> Vec<u8> {
     let on_state = rng.below(4) != 0;
     for _ in 0..1 + rng.below(2) {
         if on_state {
-            let mut state = doc
-                .pointer("/shard/state")
-                .cloned()
-                .unwrap_or(Value::Null);
+            let mut state = doc.pointer("/shard/state").cloned().unwrap_or(Value::Null);
             mutate_json(rng, &mut state);
             if let Some(s) = doc.pointer_mut("/shard/state") {
                 *s = state;
@@ -612,7 +614,7 @@ fn mutate_shard(rng: &mut Rng, seed: &Value) -> Vec<u8> {
     serde_json::to_vec(&doc).unwrap()
 }
 
-fn run_manifest(n: usize) -> (usize, usize, Vec<String>) {
+fn run_manifest(n: usize) -> Outcome {
     let dir = scratch("manifest");
     fuzz(
         "manifest",
@@ -623,7 +625,7 @@ fn run_manifest(n: usize) -> (usize, usize, Vec<String>) {
     )
 }
 
-fn run_spec(n: usize) -> (usize, usize, Vec<String>) {
+fn run_spec(n: usize) -> Outcome {
     let dir = scratch("spec");
     fuzz(
         "certify-spec",
@@ -634,7 +636,7 @@ fn run_spec(n: usize) -> (usize, usize, Vec<String>) {
     )
 }
 
-fn run_compare(n: usize) -> (usize, usize, Vec<String>) {
+fn run_compare(n: usize) -> Outcome {
     let s = seeds();
     let dir = scratch("compare");
     let parsed: Vec<(Value, String)> = s
@@ -654,7 +656,7 @@ fn run_compare(n: usize) -> (usize, usize, Vec<String>) {
     )
 }
 
-fn run_npy(n: usize) -> (usize, usize, Vec<String>) {
+fn run_npy(n: usize) -> Outcome {
     let dir = scratch("npy");
     let seed = npy_u16(64);
     fuzz(
@@ -664,7 +666,24 @@ fn run_npy(n: usize) -> (usize, usize, Vec<String>) {
         |rng| {
             let mut v = seed.clone();
             for _ in 0..1 + rng.below(3) {
-                v = mutate_bytes(rng, &v, &["'<f2'", "'<u2'", "'>f4'", "(0,)", "(1,2)", "()", "True", "99999999999999999999", "-1", "{", "}", "\n"]);
+                v = mutate_bytes(
+                    rng,
+                    &v,
+                    &[
+                        "'<f2'",
+                        "'<u2'",
+                        "'>f4'",
+                        "(0,)",
+                        "(1,2)",
+                        "()",
+                        "True",
+                        "99999999999999999999",
+                        "-1",
+                        "{",
+                        "}",
+                        "\n",
+                    ],
+                );
             }
             v
         },
@@ -672,7 +691,7 @@ fn run_npy(n: usize) -> (usize, usize, Vec<String>) {
     )
 }
 
-fn run_shards(n: usize) -> (usize, usize, Vec<String>) {
+fn run_shards(n: usize) -> Outcome {
     let s = seeds();
     let mut total = (0, 0, Vec::new());
     for (k, set) in s.shard_sets.iter().enumerate() {
@@ -800,13 +819,14 @@ fn mutate_options(rng: &mut Rng) -> Vec<String> {
 /// Parses and validates an option line in process: what `check` does before any work.
 fn options_reader(line: &[String]) -> Result<(), String> {
     use clap::Parser;
-    let parsed = CheckLine::try_parse_from(line).map_err(|e| ulpgauge::cli::one_line(&e.render().to_string()))?;
+    let parsed = CheckLine::try_parse_from(line)
+        .map_err(|e| ulpgauge::cli::one_line(&e.render().to_string()))?;
     let target = ulpgauge::cli::check::target_from_args(&parsed.args).map_err(|f| f.message)?;
     ulpgauge::cli::check::build_config(&target, &parsed.args).map_err(|f| f.message)?;
     Ok(())
 }
 
-fn run_options(n: usize) -> (usize, usize, Vec<String>) {
+fn run_options(n: usize) -> Outcome {
     fuzz(
         "options",
         n,
@@ -913,14 +933,26 @@ fn the_binary_refuses_mutated_inputs_with_one_line() {
         let m = dir.join(format!("manifest-{k}.toml"));
         std::fs::write(&m, mutate_toml(&mut rng, MANIFEST)).unwrap();
         refused += (one_line(
-            &["check", "--manifest", m.to_str().unwrap(), "--json", out.to_str().unwrap()],
+            &[
+                "check",
+                "--manifest",
+                m.to_str().unwrap(),
+                "--json",
+                out.to_str().unwrap(),
+            ],
             "manifest",
         ) == 2) as u32;
         // A certify spec.
         let sp = dir.join(format!("spec-{k}.toml"));
         std::fs::write(&sp, mutate_toml(&mut rng, SPEC)).unwrap();
         refused += (one_line(
-            &["certify", "--spec", sp.to_str().unwrap(), "--json", out.to_str().unwrap()],
+            &[
+                "certify",
+                "--spec",
+                sp.to_str().unwrap(),
+                "--json",
+                out.to_str().unwrap(),
+            ],
             "certify",
         ) == 2) as u32;
     }
@@ -948,7 +980,7 @@ fn the_binary_refuses_mutated_inputs_with_one_line() {
 fn long_fuzz_every_reader() {
     let n = budget(true);
     seeds();
-    let runs: [(&str, fn(usize) -> (usize, usize, Vec<String>)); 6] = [
+    let runs: [(&str, fn(usize) -> Outcome); 6] = [
         ("manifest", run_manifest),
         ("certify-spec", run_spec),
         ("compare", run_compare),
@@ -958,9 +990,12 @@ fn long_fuzz_every_reader() {
     ];
     // `FUZZ_READERS=manifest,shards` runs only those.
     let only = std::env::var("FUZZ_READERS").ok();
-    let chosen = |name: &str| only.as_deref().map_or(true, |o| o.split(',').any(|r| r == name));
+    let chosen = |name: &str| {
+        only.as_deref()
+            .map_or(true, |o| o.split(',').any(|r| r == name))
+    };
     // One thread per reader: each has its own scratch folder.
-    let results: Vec<(&str, (usize, usize, Vec<String>))> = std::thread::scope(|scope| {
+    let results: Vec<(&str, Outcome)> = std::thread::scope(|scope| {
         let handles: Vec<_> = runs
             .iter()
             .filter(|(name, _)| chosen(name))
@@ -978,4 +1013,109 @@ fn long_fuzz_every_reader() {
         }
     }
     assert!(failures.is_empty(), "{failures:#?}");
+}
+
+/// Edits that keep a state well-formed JSON but make it one no check could have written are
+/// refused with the field's path in the message.
+#[test]
+fn corrupted_states_are_refused_naming_the_field() {
+    let s = seeds();
+    let edit = |set: usize, which: usize, pointer: &str, value: Value, expected: &str| {
+        let mut doc = s.shard_sets[set][which].1.clone();
+        *doc.pointer_mut(pointer)
+            .unwrap_or_else(|| panic!("{pointer} in seed {set}")) = value;
+        let err = merge_text(
+            &s.shard_sets[set],
+            which,
+            &serde_json::to_vec(&doc).unwrap(),
+        )
+        .expect_err(pointer);
+        assert!(err.contains(expected), "{pointer}: {err}");
+        assert!(!err.contains("inconsistent and cannot be merged"), "{err}");
+    };
+    let state = "/shard/state";
+    let mut bins =
+        s.shard_sets[0][1].1[&"shard"]["state"]["stream"]["accuracy"]["histogram"].clone();
+    bins.as_array_mut().unwrap().push(0.into());
+    edit(
+        0,
+        1,
+        &format!("{state}/stream/accuracy/histogram"),
+        bins,
+        "stream.accuracy.histogram",
+    );
+    edit(
+        0,
+        0,
+        &format!("{state}/stream/accuracy/total/sum/base"),
+        5000.into(),
+        "stream.accuracy.total.sum.base",
+    );
+    edit(0, 1, &format!("{state}/inputs"), 0.into(), "inputs");
+    edit(
+        0,
+        1,
+        &format!("{state}/stream/accuracy/layout/mant_bits"),
+        40.into(),
+        "stream.accuracy.layout",
+    );
+    edit(
+        2,
+        1,
+        &format!("{state}/stream/runs/builder/summary/totals/runs"),
+        7.into(),
+        "stream.runs.builder.summary.totals",
+    );
+    edit(
+        3,
+        0,
+        &format!("{state}/runs/builder/summary/keep"),
+        Value::from(u64::MAX),
+        "runs.builder.summary.keep",
+    );
+    // A count read from the file sizes nothing: every part is asked for, a few are named.
+    let mut huge = s.shard_sets[0].clone();
+    for (_, v) in &mut huge {
+        v["shard"]["count"] = Value::from(1u64 << 60);
+    }
+    let err = merge_text(&huge, 0, &serde_json::to_vec(&huge[0].1).unwrap()).unwrap_err();
+    assert!(
+        err.contains("missing shard(s)") && err.contains("more"),
+        "{err}"
+    );
+}
+
+/// Parameters that round to ±∞ or 0 in the kernel's format, and unbounded counts, are bad
+/// input before any work.
+#[test]
+fn out_of_range_parameters_and_counts_are_bad_input() {
+    for (extra, expected) in [
+        (
+            &["--param", "alpha=1e40", "--param-rounding", "format"][..],
+            "rounds to inf in f16",
+        ),
+        (
+            &["--param", "alpha=1e-40", "--param-rounding", "format"],
+            "rounds to 0 in f16",
+        ),
+        (&["--param", "alpha=1e-400"], "outside the binary64 range"),
+        (&["--neighbours", "4000000000"], "--neighbours"),
+        (&["--list-runs", "18446744073709551615"], "--list-runs"),
+    ] {
+        let mut args = vec![
+            "check",
+            "--builtin-kernel",
+            "reference",
+            "--function",
+            "elu",
+            "--format",
+            "f16",
+            "--quiet",
+        ];
+        args.extend_from_slice(extra);
+        let (code, err) = ulpgauge(&args);
+        assert_eq!(code, 2, "{extra:?}: {err}");
+        assert_eq!(err.trim_end().lines().count(), 1, "{err}");
+        assert!(err.contains(expected), "{extra:?}: {err}");
+    }
 }

@@ -413,13 +413,8 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
         ))
     })?;
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
-    Constants::resolve_checked(
-        function,
-        &params,
-        args.function_args.param_rounding,
-        format,
-    )
-    .map_err(Failure::bad_input)?;
+    Constants::resolve_checked(function, &params, args.function_args.param_rounding, format)
+        .map_err(Failure::bad_input)?;
     let sweep = sweep_spec(format, &args.sweep_options)?;
     Ok(CheckConfig {
         function,

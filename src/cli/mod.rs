@@ -145,9 +145,16 @@ pub fn run() -> i32 {
 /// The first line of clap's message, without its "error: " prefix; control characters of
 /// the offending argument shown escaped so the message stays one line.
 pub fn one_line(rendered: &str) -> String {
-    let first = rendered.lines().find(|l| !l.trim().is_empty()).unwrap_or("bad arguments");
+    let first = rendered
+        .lines()
+        .find(|l| !l.trim().is_empty())
+        .unwrap_or("bad arguments");
     let text = first.strip_prefix("error: ").unwrap_or(first);
-    text.chars().flat_map(char::escape_default).collect::<String>().replace("\\'", "'").replace("\\\"", "\"")
+    text.chars()
+        .flat_map(char::escape_default)
+        .collect::<String>()
+        .replace("\\'", "'")
+        .replace("\\\"", "\"")
 }
 
 /// A message on one line: a parser's multi-line excerpt (TOML, JSON) joined with " | ".

@@ -60,9 +60,11 @@ pub fn bits_value(
     field: &str,
 ) -> Result<u32, Invalid> {
     let bits = crate::format::parse_hex(format, &v.bits).map_err(|e| format!("{field}: {e}"))?;
-    ensure(crate::report::BitsValue::new(format, bits) == *v, field, || {
-        format!("{} is not the value of {}", v.value, v.bits)
-    })?;
+    ensure(
+        crate::report::BitsValue::new(format, bits) == *v,
+        field,
+        || format!("{} is not the value of {}", v.value, v.bits),
+    )?;
     Ok(bits)
 }
 

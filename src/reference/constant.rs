@@ -76,7 +76,9 @@ impl ParamRounding {
             ParamRounding::F32 => &Binary32,
             ParamRounding::Format => format,
         };
-        let nonzero = value.exact().map_or(true, |q| q.cmp0() != std::cmp::Ordering::Equal);
+        let nonzero = value
+            .exact()
+            .map_or(true, |q| q.cmp0() != std::cmp::Ordering::Equal);
         let bits = match value {
             Real::Exact(q) => round_rational(q, false, target),
             Real::Irrational(..) => super::engine::round_constant(value, target),
@@ -85,7 +87,11 @@ impl ParamRounding {
         if !rounded.is_finite() || (rounded == 0.0 && nonzero) {
             return Err(format!(
                 "{what} rounds to {} in {} (--param-rounding {}): out of the format's range",
-                if rounded.is_finite() { "0".to_string() } else { format!("{rounded}") },
+                if rounded.is_finite() {
+                    "0".to_string()
+                } else {
+                    format!("{rounded}")
+                },
                 target.name(),
                 match self {
                     ParamRounding::F32 => "f32",
@@ -102,7 +108,7 @@ impl ParamRounding {
 pub fn exact_in_range(q: &Rational) -> bool {
     let a = q.clone().abs();
     q.cmp0() == std::cmp::Ordering::Equal
-        || (a < Rational::from(rug::Integer::from(1) << 1024u32)
+        || (a < (rug::Integer::from(1) << 1024u32)
             && a >= Rational::from((rug::Integer::from(1), rug::Integer::from(1) << 1074u32)))
 }
 

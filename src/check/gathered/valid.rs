@@ -28,7 +28,10 @@ impl Gathered {
         // is a measured input.
         let counted = self.stream.counted();
         ensure(counted <= self.inputs, "inputs", || {
-            format!("{counted} points counted from {} measured inputs", self.inputs)
+            format!(
+                "{counted} points counted from {} measured inputs",
+                self.inputs
+            )
         })?;
         for (i, p) in self.probe_points.iter().enumerate() {
             point(l, p, &format!("probe_points[{i}]"))?;
@@ -36,7 +39,9 @@ impl Gathered {
         for (i, (x, why)) in self.failures.iter().enumerate() {
             let field = format!("failures[{i}]");
             pattern(l, *x, &field)?;
-            ensure(why.len() <= MAX_MESSAGE, &field, || "message too long".into())?;
+            ensure(why.len() <= MAX_MESSAGE, &field, || {
+                "message too long".into()
+            })?;
         }
         let c = &self.crashes;
         for (name, list) in [

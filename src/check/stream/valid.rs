@@ -15,7 +15,9 @@ impl Kept {
         for (first, last) in self.subnormal_ends.iter().flatten() {
             pattern(l, *first, "subnormal_ends")?;
             pattern(l, *last, "subnormal_ends")?;
-            ensure(first <= last, "subnormal_ends", || "last below first".into())?;
+            ensure(first <= last, "subnormal_ends", || {
+                "last below first".into()
+            })?;
         }
         Ok(())
     }

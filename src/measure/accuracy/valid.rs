@@ -2,9 +2,7 @@
 //! consistency of the totals with the rows, bins, regions and plot samples they were
 //! joined from.
 
-use super::{
-    binade_key, grid, region_of, Acc, AccuracyAcc, RawWorst, Samples, BINS, REGIONS,
-};
+use super::{binade_key, grid, region_of, Acc, AccuracyAcc, RawWorst, Samples, BINS, REGIONS};
 use crate::format::{Format, Layout};
 use crate::measure::valid::{
     bits_value, count, ensure, error, finite_pattern, pattern, within, Invalid,
@@ -20,7 +18,11 @@ impl Acc {
         })?;
         within("sum", self.sum.validate())?;
         ensure(self.sum.count() == self.points, "sum.count", || {
-            format!("{} errors summed for {} points", self.sum.count(), self.points)
+            format!(
+                "{} errors summed for {} points",
+                self.sum.count(),
+                self.points
+            )
         })?;
         if self.points == 0 {
             ensure(self.worst.is_none() && self.max == 0.0, "worst", || {
@@ -49,7 +51,11 @@ impl Acc {
         )?;
         // The mean of errors is at most the largest (exactly, so also once rounded).
         ensure(self.sum.mean() <= self.max, "sum", || {
-            format!("mean {} above the largest error {}", self.sum.mean(), self.max)
+            format!(
+                "mean {} above the largest error {}",
+                self.sum.mean(),
+                self.max
+            )
         })
     }
 }
@@ -225,7 +231,10 @@ impl Samples {
     /// Plot samples: one per point (a list) or per touched bucket (a grid), never a dense
     /// span (written as a list).
     fn validate(&self, l: Layout, points: u64, max: f64) -> Result<(), Invalid> {
-        let (lo_all, hi_all) = (l.ordinal(l.max_finite(true)), l.ordinal(l.max_finite(false)));
+        let (lo_all, hi_all) = (
+            l.ordinal(l.max_finite(true)),
+            l.ordinal(l.max_finite(false)),
+        );
         match self {
             Samples::All(list) => {
                 ensure(list.len() as u64 == points, "All", || {

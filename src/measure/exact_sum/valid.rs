@@ -34,7 +34,12 @@ impl ExactSum {
             ensure(
                 u128::from(s.squares_carries) <= (self.count as u128 >> 22) + 1,
                 &field,
-                || format!("squares {} are not of {} errors", s.squares_carries, self.count),
+                || {
+                    format!(
+                        "squares {} are not of {} errors",
+                        s.squares_carries, self.count
+                    )
+                },
             )?;
             ensure(self.count > 0 || *s == Slot::default(), &field, || {
                 "an empty sum has a nonzero slot".into()

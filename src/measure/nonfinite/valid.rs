@@ -20,7 +20,10 @@ impl Raw {
         pattern(l, self.last, field)?;
         mismatch(self.classes, field)?;
         ensure(self.first <= self.last, field, || {
-            format!("run {:#x}..{:#x} ends before it starts", self.first, self.last)
+            format!(
+                "run {:#x}..{:#x} ends before it starts",
+                self.first, self.last
+            )
         })?;
         ensure(
             l.is_sign_negative(self.first) == l.is_sign_negative(self.last),
@@ -35,7 +38,9 @@ impl Raw {
 
 impl RunSummary {
     fn validate(&self, l: Layout) -> Result<(), Invalid> {
-        ensure(self.keep <= MAX_KEEP, "keep", || format!("{} runs", self.keep))?;
+        ensure(self.keep <= MAX_KEEP, "keep", || {
+            format!("{} runs", self.keep)
+        })?;
         count(self.totals.runs, "totals.runs")?;
         count(self.totals.inputs, "totals.inputs")?;
         let width = l.precision() - 1;
@@ -100,9 +105,11 @@ impl RunSummary {
 
 impl RunBuilder {
     fn validate(&self, l: Layout) -> Result<(), Invalid> {
-        ensure(self.sign == l.infinity(true) & !l.infinity(false), "sign", || {
-            format!("{:#x} is not the sign bit", self.sign)
-        })?;
+        ensure(
+            self.sign == l.infinity(true) & !l.infinity(false),
+            "sign",
+            || format!("{:#x} is not the sign bit", self.sign),
+        )?;
         within("summary", self.summary.validate(l))?;
         ensure(self.ends.len() <= 2, "ends", || {
             format!("{} runs at the ends", self.ends.len())

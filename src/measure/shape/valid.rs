@@ -5,19 +5,20 @@ use crate::format::{Format, Layout};
 use crate::measure::valid::{bits_value, count, ensure, finite_pattern, pattern, Invalid};
 
 impl Side {
-    fn validate(
-        &self,
-        format: &dyn Format,
-        negative: bool,
-        field: &str,
-    ) -> Result<(), Invalid> {
+    fn validate(&self, format: &dyn Format, negative: bool, field: &str) -> Result<(), Invalid> {
         let l: Layout = format.layout();
         count(self.violation_count, field)?;
         ensure(
             self.violations.len() <= EXAMPLES
                 && self.violations.len() as u64 <= self.violation_count,
             field,
-            || format!("{} examples of {} violations", self.violations.len(), self.violation_count),
+            || {
+                format!(
+                    "{} examples of {} violations",
+                    self.violations.len(),
+                    self.violation_count
+                )
+            },
         )?;
         for v in &self.violations {
             for b in [&v.from, &v.to, &v.from_output, &v.to_output] {
@@ -63,9 +64,11 @@ impl ShapeAcc {
             finite_pattern(l, a, "jumps")?;
             finite_pattern(l, b, "jumps")?;
             // A jump is more than 2·r + 16 kernel steps (see `pair`).
-            ensure(r <= 1 << 33 && k > 2 * r + 16 && k <= 1 << 33, "jumps", || {
-                format!("{k} kernel steps against {r} reference steps is no jump")
-            })?;
+            ensure(
+                r <= 1 << 33 && k > 2 * r + 16 && k <= 1 << 33,
+                "jumps",
+                || format!("{k} kernel steps against {r} reference steps is no jump"),
+            )?;
         }
         Ok(())
     }

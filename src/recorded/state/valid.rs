@@ -8,7 +8,13 @@ impl ThresholdWalk {
     fn validate(&self, l: Layout, field: &str) -> Result<(), Invalid> {
         pattern(l, self.asymptote, field)?;
         let hold = self.hold.iter().flat_map(|&(x, y)| [x, y]);
-        for bits in self.reference.into_iter().chain(self.fail).chain(self.last).chain(hold) {
+        for bits in self
+            .reference
+            .into_iter()
+            .chain(self.fail)
+            .chain(self.last)
+            .chain(hold)
+        {
             pattern(l, bits, field)?;
         }
         Ok(())
