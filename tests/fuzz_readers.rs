@@ -301,6 +301,9 @@ fn ulpgauge(args: &[&str]) -> (i32, String) {
 /// Inputs tried, inputs accepted, and the panics met (with where the input was kept).
 type Outcome = (usize, usize, Vec<String>);
 
+/// A reader's fuzz loop for a number of inputs.
+type Reader = fn(usize) -> Outcome;
+
 /// How many inputs per reader: 300 by default, `FUZZ_INPUTS` for the long run.
 fn budget(long: bool) -> usize {
     if long {
@@ -980,7 +983,7 @@ fn the_binary_refuses_mutated_inputs_with_one_line() {
 fn long_fuzz_every_reader() {
     let n = budget(true);
     seeds();
-    let runs: [(&str, fn(usize) -> Outcome); 6] = [
+    let runs: [(&str, Reader); 6] = [
         ("manifest", run_manifest),
         ("certify-spec", run_spec),
         ("compare", run_compare),
