@@ -179,6 +179,29 @@ impl Constants {
         }
         Constants { entries }
     }
+    /// [`Constants::resolve`], refusing a parameter or constant that the rounding turns into
+    /// ±∞ or 0 (one line naming it).
+    pub fn resolve_checked(
+        function: &dyn Activation,
+        user: &[(String, Rational)],
+        rounding: ParamRounding,
+        format: &dyn Format,
+    ) -> Result<Constants, String> {
+        for (name, value) in user {
+            rounding.apply_checked(
+                &Real::Exact(value.clone()),
+                format,
+                &format!(
+                    "parameter {name}={:e}",
+                    rug::Float::with_val(53, value).to_f64()
+                ),
+            )?;
+        }
+        for (name, value) in function.constants() {
+            rounding.apply_checked(&value, format, &format!("constant {name}"))?;
+        }
+        Ok(Constants::resolve(function, user, rounding, format))
+    }
     /// Validates `name=value` strings against a function's parameters.
     pub fn parse_params(
         function: &dyn Activation,
@@ -208,6 +231,11 @@ impl Constants {
                     })?;
                 let q = crate::reference::parse_decimal(value.trim())
                     .map_err(|e| format!("parameter {name}: {e}"))?;
+                if !crate::reference::exact_in_range(&q) {
+                    return Err(format!(
+                        "parameter {name}={value} is outside the binary64 range (2^-1074 to 2^1024 in magnitude)"
+                    ));
+                }
                 if spec.domain == Domain::Positive && q.cmp0() != std::cmp::Ordering::Greater {
                     return Err(format!("parameter {name} must be > 0, got {value}"));
                 }

@@ -343,6 +343,12 @@ fn kind(name: &str) -> Result<SweepKind, String> {
 
 /// Reads and validates a spec; every error names the key (the caller adds the file name).
 pub fn load(path: &Path) -> Result<Spec, String> {
+    // User text quoted in a message stays on the message's one line.
+    load_inner(path).map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r"))
+}
+
+/// [`load`], before newlines in quoted text are escaped.
+fn load_inner(path: &Path) -> Result<Spec, String> {
     let bytes = std::fs::read(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => "no such file".to_string(),
         _ => format!("cannot read: {e}"),
@@ -443,6 +449,13 @@ pub fn load(path: &Path) -> Result<Spec, String> {
             ))
         }
     };
+    let parsed = params
+        .iter()
+        .map(|(name, v)| Constants::parse_params(function, &[format!("{name}={v}")]))
+        .collect::<Result<Vec<_>, String>>()?
+        .concat();
+    Constants::resolve_checked(function, &parsed, param_rounding, format)
+        .map_err(|e| format!("key `kernel.params`: {e}"))?;
     let timeout = k.timeout.unwrap_or(10.0);
     crate::kernel::batch_timeout(timeout, "key `kernel.timeout`")?;
     let kernel_memory = match &k.memory {

@@ -14,6 +14,8 @@ use crate::report::model::{CrashReport, ReferenceFailures, Verdict};
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
 
+mod valid;
+
 /// A crash of the kernel, as kept in the state.
 #[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct CrashAt {

@@ -130,7 +130,8 @@ impl Setup {
     fn new(config: &CheckConfig) -> Result<Setup, String> {
         let format = config.format;
         let function = config.function;
-        let constants = Constants::resolve(function, &config.params, config.param_rounding, format);
+        let constants =
+            Constants::resolve_checked(function, &config.params, config.param_rounding, format)?;
         let kinks = function
             .kinks(&constants)
             .into_iter()

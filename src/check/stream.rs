@@ -6,6 +6,8 @@ use crate::measure::{
     Accuracy, AccuracyAcc, FindingSink, NonFiniteStream, Point, RunSummary, Shape, ShapeAcc,
 };
 use serde::{Deserialize, Serialize};
+
+mod valid;
 use std::collections::BTreeMap;
 
 /// What an exhaustive sweep keeps of its points besides the accumulators: the few points

@@ -332,6 +332,12 @@ pub fn sweep_spec(
     if options.points == Some(0) {
         return Err(Failure::bad_input("--points must be at least 1"));
     }
+    if options.neighbours > MAX_NEIGHBOURS {
+        return Err(Failure::bad_input(format!(
+            "--neighbours {} is more than {MAX_NEIGHBOURS} (the neighbourhoods are listed)",
+            options.neighbours
+        )));
+    }
     if options.per_binade < 2 {
         return Err(Failure::bad_input("--per-binade must be at least 2"));
     }
@@ -391,8 +397,20 @@ pub fn sweep_spec(
     })
 }
 
+/// Most neighbours of an interesting point on each side (`--neighbours`).
+pub const MAX_NEIGHBOURS: u32 = 1 << 16;
+
+/// Most non-finite runs a report lists (`--list-runs`); counts are exact whatever it is.
+pub const MAX_LISTED_RUNS: usize = 1 << 16;
+
 /// Validates a target with the sweep options into a [`CheckConfig`]; every error is bad input.
 pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, Failure> {
+    if args.list_runs > MAX_LISTED_RUNS {
+        return Err(Failure::bad_input(format!(
+            "--list-runs {} is more than {MAX_LISTED_RUNS}",
+            args.list_runs
+        )));
+    }
     if args.from_output && args.role != RoleArg::Gradient {
         return Err(Failure::bad_input(
             "--from-output applies to --role gradient only",
@@ -409,6 +427,8 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
     let format = crate::format::resolve(&target.format, args.function_args.fp8_overflow)
         .map_err(Failure::bad_input)?;
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
+    Constants::resolve_checked(function, &params, args.function_args.param_rounding, format)
+        .map_err(Failure::bad_input)?;
     let sweep = sweep_spec(format, &args.sweep_options)?;
     Ok(CheckConfig {
         function,

@@ -106,12 +106,18 @@ pub fn run() -> i32 {
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {
-            let code = match e.kind() {
-                clap::error::ErrorKind::DisplayHelp | clap::error::ErrorKind::DisplayVersion => 0,
-                _ => EXIT_BAD_INPUT,
+            return match e.kind() {
+                clap::error::ErrorKind::DisplayHelp | clap::error::ErrorKind::DisplayVersion => {
+                    let _ = e.print();
+                    0
+                }
+                _ => {
+                    // Bad input is one line, like every other refusal (clap's usage and tips
+                    // are what --help shows).
+                    eprintln!("ulpgauge: {}", one_line(&e.render().to_string()));
+                    EXIT_BAD_INPUT
+                }
             };
-            let _ = e.print();
-            return code;
         }
     };
     let result = match cli.command {
@@ -131,10 +137,36 @@ pub fn run() -> i32 {
     match result {
         Ok(code) => code,
         Err(failure) => {
-            eprintln!("ulpgauge: {}", failure.message);
+            eprintln!("ulpgauge: {}", flatten(&failure.message));
             failure.code
         }
     }
+}
+
+/// The first line of clap's message, without its "error: " prefix; control characters of
+/// the offending argument shown escaped so the message stays one line.
+pub fn one_line(rendered: &str) -> String {
+    let first = rendered
+        .lines()
+        .find(|l| !l.trim().is_empty())
+        .unwrap_or("bad arguments");
+    let text = first.strip_prefix("error: ").unwrap_or(first);
+    text.chars()
+        .flat_map(char::escape_default)
+        .collect::<String>()
+        .replace("\\'", "'")
+        .replace("\\\"", "\"")
+}
+
+/// A message on one line: a parser's multi-line excerpt (TOML, JSON) joined with " | ".
+pub fn flatten(message: &str) -> String {
+    message
+        .lines()
+        .map(str::trim_end)
+        .filter(|l| !l.trim().is_empty())
+        .collect::<Vec<_>>()
+        .join(" | ")
+        .replace('\r', " ")
 }
 
 /// Options shared by every command that evaluates a catalog function.
@@ -232,7 +264,8 @@ pub fn resolve(
     })?;
     let fmt = crate::format::resolve(format, args.fp8_overflow).map_err(Failure::bad_input)?;
     let user = Constants::parse_params(f, &args.params).map_err(Failure::bad_input)?;
-    let constants = Constants::resolve(f, &user, args.param_rounding, fmt);
+    let constants = Constants::resolve_checked(f, &user, args.param_rounding, fmt)
+        .map_err(Failure::bad_input)?;
     let role = if derivative {
         Role::Derivative
     } else {

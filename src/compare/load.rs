@@ -322,6 +322,12 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
 
 /// Reads a report file; `role` ("baseline"/"candidate") prefixes every error.
 pub fn load(path: &Path, role: &str) -> Result<Loaded, String> {
+    // User text quoted in a message stays on the message's one line.
+    load_inner(path, role).map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r"))
+}
+
+/// [`load`], before newlines in quoted text are escaped.
+fn load_inner(path: &Path, role: &str) -> Result<Loaded, String> {
     let what = format!("{role} {}", path.display());
     let bytes = std::fs::read(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => format!("{what}: no such file"),

@@ -117,6 +117,12 @@ pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
 
 /// [`load_manifest`] with each entry's variants and caller environment.
 pub fn load_manifest_entries(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, String> {
+    // User text quoted in a message stays on the message's one line.
+    load_manifest_inner(path).map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r"))
+}
+
+/// [`load_manifest_entries`], before newlines in quoted text are escaped.
+fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, String> {
     let shown = path.display().to_string();
     let text = std::fs::read_to_string(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => format!("manifest {shown}: no such file"),

@@ -7,6 +7,8 @@ use crate::reference::Reference;
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
 
+mod valid;
+
 /// The worst point.
 #[derive(Clone, Debug, Serialize, Deserialize)]
 pub struct Worst {

@@ -10,6 +10,8 @@
 
 use rug::{Integer, Rational};
 
+mod valid;
+
 /// Σk, Σk² of the values with one exponent field.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
 struct Slot {

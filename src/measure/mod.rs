@@ -13,6 +13,7 @@ mod rounding;
 mod shape;
 mod special;
 mod thresholds;
+pub mod valid;
 
 pub use accuracy::{
     accuracy, Accuracy, AccuracyAcc, BinadeRow, Bucket, BucketPoint, FloorView, HistogramBin,

@@ -11,6 +11,8 @@ use super::{FindingSink, Point, Probe};
 use crate::format::{Class, Format, Layout};
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
+
+mod valid;
 use std::ops::RangeInclusive;
 
 /// Largest gap scanned input by input next to a run; beyond it only the part nearest the run

@@ -6,6 +6,8 @@ use crate::format::{Format, Layout};
 use crate::report::BitsValue;
 use serde::{Deserialize, Serialize};
 
+mod valid;
+
 /// At most this many examples of each finding are listed; counts are complete.
 const EXAMPLES: usize = 20;
 

@@ -129,7 +129,8 @@ fn merge_kernel(
     };
     let (_, count) = shard_of(first_path, first)?;
     let reference = frame(first);
-    let mut ordered: Vec<Option<(&Path, &Value)>> = vec![None; count as usize];
+    // Parts by index: the count read from a file sizes nothing.
+    let mut ordered: std::collections::BTreeMap<u64, (&Path, &Value)> = Default::default();
     for &(path, report) in shards {
         let (index, _) = shard_of(path, report)?;
         let here = frame(report);
@@ -141,26 +142,34 @@ fn merge_kernel(
                 first_difference(&reference, &here)
             ));
         }
-        let slot = &mut ordered[index as usize - 1];
-        if let Some((other, _)) = slot {
+        if let Some((other, _)) = ordered.get(&index) {
             return Err(format!(
                 "shard {index}/{count} given twice: {} and {}",
                 other.display(),
                 path.display()
             ));
         }
-        *slot = Some((path, report));
+        ordered.insert(index, (path, report));
     }
-    let missing: Vec<String> = ordered
-        .iter()
-        .enumerate()
-        .filter(|(_, s)| s.is_none())
-        .map(|(i, _)| format!("{}/{count}", i + 1))
-        .collect();
-    if !missing.is_empty() {
-        return Err(format!("missing shard(s) {}", missing.join(", ")));
+    if ordered.len() as u64 != count {
+        // The first few missing parts: at most one per part given, plus ten, to walk.
+        let missing: Vec<String> = (1..=count)
+            .filter(|i| !ordered.contains_key(i))
+            .take(10)
+            .map(|i| format!("{i}/{count}"))
+            .collect();
+        let more = count - ordered.len() as u64 - missing.len() as u64;
+        return Err(format!(
+            "missing shard(s) {}{}",
+            missing.join(", "),
+            if more > 0 {
+                format!(" and {more} more")
+            } else {
+                String::new()
+            }
+        ));
     }
-    let ordered: Vec<(&Path, &Value)> = ordered.into_iter().flatten().collect();
+    let ordered: Vec<(&Path, &Value)> = ordered.into_values().collect();
 
     let format_name = first.get("format").and_then(Value::as_str).unwrap_or("");
     let format: &'static dyn Format = format::by_name(format_name)
@@ -182,15 +191,42 @@ fn merge_kernel(
             .cloned()
             .ok_or_else(|| format!("{}: the shard has no state", path.display()))?;
         let read = || {
-            serde_json::from_value::<Gathered>(state.clone())
-                .map_err(|e| format!("{}: unreadable shard state: {e}", path.display()))
+            let g = serde_json::from_value::<Gathered>(state.clone())
+                .map_err(|e| format!("{}: unreadable shard state: {e}", path.display()))?;
+            g.validate(format)
+                .map_err(|e| format!("{}: bad shard state field {e}", path.display()))?;
+            Ok::<Gathered, String>(g)
         };
-        agrees_with_report(path, report, read()?, format)?;
-        read()
+        let stated = report.pointer("/sweep/inputs").and_then(Value::as_u64);
+        let state = read()?;
+        if stated != Some(state.inputs) {
+            return Err(format!(
+                "{}: the shard state measured {} inputs, the report's sweep.inputs says {}",
+                path.display(),
+                state.inputs,
+                stated.map_or("nothing".to_string(), |n| n.to_string())
+            ));
+        }
+        agrees_with_report(path, report, state, format)?;
+        Ok((path, read()?))
     });
-    let mut gathered = states.next().expect("at least one shard")?;
+    let (_, mut gathered) = states.next().ok_or("no shard reports given")??;
+    let mut total_inputs = gathered.inputs;
     for state in states {
-        gathered.merge(state?);
+        let (path, state) = state?;
+        gathered
+            .joinable(&state)
+            .map_err(|e| format!("{}: shard state field {e}", path.display()))?;
+        total_inputs += state.inputs;
+        if total_inputs > format.pattern_count() {
+            return Err(format!(
+                "{}: the shards measured {total_inputs} inputs, more than the {} patterns of {}",
+                path.display(),
+                format.pattern_count(),
+                format.name()
+            ));
+        }
+        gathered.merge(state);
     }
     let recorded = gathered.recorded.clone();
     let hygiene = match &recorded {
@@ -385,6 +421,8 @@ pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
     std::panic::set_hook(Box::new(|_| {}));
     let result = std::panic::catch_unwind(|| merge_checked(files));
     std::panic::set_hook(hook);
+    // User text quoted in a message stays on the message's one line.
+    let result = result.map(|r| r.map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r")));
     result.unwrap_or_else(|panic| {
         let why = panic
             .downcast_ref::<String>()
@@ -401,6 +439,12 @@ pub fn merge(files: &[ShardFile]) -> Result<Merged, String> {
 fn merge_checked(files: &[ShardFile]) -> Result<Merged, String> {
     let first = files.first().ok_or("no shard reports given")?;
     let (first_kernels, manifest) = kernels(first)?;
+    if first_kernels.is_empty() {
+        return Err(format!(
+            "{}: \"kernels\" is empty: nothing to merge",
+            first.path.display()
+        ));
+    }
     let mut per_kernel: Vec<Vec<(&Path, &Value)>> = vec![Vec::new(); first_kernels.len()];
     for file in files {
         let (list, is_manifest) = kernels(file)?;

@@ -31,8 +31,12 @@ impl Column {
         let file = File::open(path).map_err(|e| format!("{}: cannot open: {e}", at()))?;
         let size = file.metadata().map_err(|e| format!("{}: {e}", at()))?.len();
         let mut reader = BufReader::new(&file);
-        let header = NpyHeader::from_reader(&mut reader)
-            .map_err(|e| format!("{}: not a readable .npy file ({e})", at()))?;
+        let header = NpyHeader::from_reader(&mut reader).map_err(|e| {
+            // The parser's message may quote the header over several lines.
+            let e = e.to_string();
+            let first = e.lines().next().unwrap_or("").trim_end();
+            format!("{}: not a readable .npy file ({first})", at())
+        })?;
         let data_offset = reader
             .stream_position()
             .map_err(|e| format!("{}: {e}", at()))?;

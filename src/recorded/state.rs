@@ -14,6 +14,8 @@ use crate::report::BitsValue;
 use crate::sweep::{Threshold, ThresholdKind};
 use serde::{Deserialize, Serialize};
 
+mod valid;
+
 /// One side's threshold, walked over the recorded inputs of that side in increasing bit
 /// order (outward from zero).
 #[derive(Clone, Debug, Serialize, Deserialize)]

@@ -62,6 +62,56 @@ impl ParamRounding {
     }
 }
 
+impl ParamRounding {
+    /// The rounded value, refused when rounding turns a nonzero value into ±∞ or 0 (the
+    /// kernel would not compute the function asked for); `what` names it in the message.
+    pub fn apply_checked(
+        self,
+        value: &Real,
+        format: &dyn Format,
+        what: &str,
+    ) -> Result<Real, String> {
+        let target: &dyn Format = match self {
+            ParamRounding::Exact => return Ok(value.clone()),
+            ParamRounding::F32 => &Binary32,
+            ParamRounding::Format => format,
+        };
+        let nonzero = value
+            .exact()
+            .map_or(true, |q| q.cmp0() != std::cmp::Ordering::Equal);
+        let bits = match value {
+            Real::Exact(q) => round_rational(q, false, target),
+            Real::Irrational(..) => super::engine::round_constant(value, target),
+        };
+        let rounded = target.to_f64(bits);
+        if !rounded.is_finite() || (rounded == 0.0 && nonzero) {
+            return Err(format!(
+                "{what} rounds to {} in {} (--param-rounding {}): out of the format's range",
+                if rounded.is_finite() {
+                    "0".to_string()
+                } else {
+                    format!("{rounded}")
+                },
+                target.name(),
+                match self {
+                    ParamRounding::F32 => "f32",
+                    _ => "format",
+                }
+            ));
+        }
+        Ok(self.apply(value, format))
+    }
+}
+
+/// Largest magnitude of an exact parameter: the binary64 range, beyond which no kernel
+/// could hold it and the references would grow without need.
+pub fn exact_in_range(q: &Rational) -> bool {
+    let a = q.clone().abs();
+    q.cmp0() == std::cmp::Ordering::Equal
+        || (a < (rug::Integer::from(1) << 1024u32)
+            && a >= Rational::from((rug::Integer::from(1), rug::Integer::from(1) << 1074u32)))
+}
+
 /// Parses a decimal such as `0.01`, `-1.5e-3` or `7` into the exact rational it denotes.
 pub fn parse_decimal(text: &str) -> Result<Rational, String> {
     let bad = || format!("'{text}' is not a decimal number");

@@ -7,7 +7,7 @@ pub mod fast;
 mod interval;
 mod round;
 
-pub use constant::{parse_decimal, ParamRounding, Real};
+pub use constant::{exact_in_range, parse_decimal, ParamRounding, Real};
 pub use engine::{round_constant, Evaluator, Reference, ReferenceError, MAX_PRECISION};
 pub use interval::Ival;
 pub use round::{floor_log2, floor_log2_rational, round_float, round_rational};
