@@ -16,11 +16,14 @@ mod common;
 pub mod dd;
 mod decide;
 mod elu;
+mod exact;
 pub mod exp;
 mod gelu;
 mod logistic;
 mod mills;
+mod piecewise;
 mod series;
+mod softsign;
 
 pub use decide::FAST_PRECISION;
 
@@ -38,6 +41,13 @@ enum Kind {
     Swish(f64),
     Elu(f64),
     Gelu,
+    Step,
+    Relu,
+    LeakyRelu((f64, f64)),
+    Relu6,
+    HardSigmoid,
+    HardSwish,
+    Softsign,
 }
 
 /// The fast path for one evaluator's function, role, parameters and format.
@@ -73,6 +83,13 @@ impl FastEvaluator {
             "swish" => Kind::Swish(exact_f64(c.get("beta").exact())?),
             "elu" => Kind::Elu(exact_f64(c.get("alpha").exact())?),
             "gelu" => Kind::Gelu,
+            "step" => Kind::Step,
+            "relu" => Kind::Relu,
+            "leaky-relu" => Kind::LeakyRelu(piecewise::leaky_alpha(c.get("alpha").exact())?),
+            "relu6" => Kind::Relu6,
+            "hard-sigmoid" => Kind::HardSigmoid,
+            "hard-swish" => Kind::HardSwish,
+            "softsign" => Kind::Softsign,
             _ => return None,
         };
         let format = evaluator.format();
@@ -126,6 +143,13 @@ impl FastEvaluator {
             Kind::Swish(beta) => logistic::swish(format, x, beta, self.role),
             Kind::Elu(alpha) => elu::elu(format, x, alpha, self.role),
             Kind::Gelu => gelu::gelu(format, x, self.role),
+            Kind::Step => piecewise::step(format, x, self.role),
+            Kind::Relu => piecewise::relu(format, x, self.role),
+            Kind::LeakyRelu(alpha) => piecewise::leaky_relu(format, x, alpha, self.role),
+            Kind::Relu6 => piecewise::relu6(format, x, self.role),
+            Kind::HardSigmoid => piecewise::hard_sigmoid(format, x, self.role),
+            Kind::HardSwish => piecewise::hard_swish(format, x, self.role),
+            Kind::Softsign => softsign::softsign(format, x, self.role),
         };
         finish(format, outcome)
     }
