@@ -25,6 +25,22 @@ fn rate(points: usize, f: impl FnOnce() -> u64) -> f64 {
     points as f64 / start.elapsed().as_secs_f64()
 }
 
+/// The functions with a fast path.
+const FUNCTIONS: [&str; 12] = [
+    "sigmoid",
+    "tanh",
+    "swish",
+    "elu",
+    "gelu",
+    "step",
+    "relu",
+    "leaky-relu",
+    "relu6",
+    "hard-sigmoid",
+    "hard-swish",
+    "softsign",
+];
+
 /// Stride of the whole-domain sample: a prime, so every exponent and low-bit pattern is hit.
 const DOMAIN_STRIDE: u64 = 4093;
 
@@ -63,7 +79,7 @@ fn domain(filter: Option<&str>) {
         "{:<8} {:<10} {:>12} {:>9}",
         "function", "role", "fast/s 1t", "decided"
     );
-    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+    for name in FUNCTIONS {
         if filter.is_some_and(|n| n != name) {
             continue;
         }
@@ -105,13 +121,19 @@ fn domain(filter: Option<&str>) {
 /// Stride of the per-binade sample.
 const BINADE_STRIDE: usize = 97;
 
-/// One-thread cost per binade of the forward fast path (MPFR fallback included).
+/// One-thread cost per binade of the fast path (MPFR fallback included), forward unless
+/// BENCH_ROLE=derivative.
 fn binades(filter: Option<&str>) {
-    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+    for name in FUNCTIONS {
         if filter.is_some_and(|n| n != name) {
             continue;
         }
-        let e = evaluator(name, Role::Forward);
+        // BENCH_ROLE=derivative times the derivative instead.
+        let role = match std::env::var("BENCH_ROLE").as_deref() {
+            Ok("derivative") => Role::Derivative,
+            _ => Role::Forward,
+        };
+        let e = evaluator(name, role);
         let fast = FastEvaluator::new(&e).expect("fast path");
         let mut total = 0.0;
         let mut costly = Vec::new();
@@ -191,7 +213,7 @@ fn main() {
         "ratio",
         "decided"
     );
-    for name in ["sigmoid", "tanh", "swish", "elu", "gelu"] {
+    for name in FUNCTIONS {
         if filter.as_deref().is_some_and(|n| n != name) {
             continue;
         }

@@ -812,7 +812,9 @@ fn catalog_inputs(
     let c = Constants::resolve(f, &user, ParamRounding::Exact, format);
     let mut special: Vec<f64> = vec![0.0, 1.0, 1.5, 3.0, 6.0, 0.5, 2.0, 4.0];
     special.extend(f.kinks(&c).iter().map(|k| k.at as f64));
-    for k in [-149, -126, -60, -56, -55, -30, -29, -28, -27, -24, 24, 53, 60, 100, 127] {
+    for k in [
+        -149, -126, -60, -56, -55, -30, -29, -28, -27, -24, 24, 53, 60, 100, 127,
+    ] {
         special.push(2f64.powi(k));
     }
     special.push(format.to_f64(format.max_finite(false)));
@@ -939,7 +941,10 @@ fn catalog_fast_matches_mpfr() {
 fn exact_functions_exhaustive16() {
     for name in EXACT {
         let missing = catalog_agreement(0, 65536, Some(name));
-        assert!(missing.iter().all(|m| m.contains("binary32")), "{missing:?}");
+        assert!(
+            missing.iter().all(|m| m.contains("binary32")),
+            "{missing:?}"
+        );
     }
 }
 

@@ -166,7 +166,8 @@ fn subtract_product(e: &mut Expansion, m: f64, den: &[f64]) {
 pub fn nearest_ratio(num: &[f64], den: &[f64], guess: f64) -> Option<(f64, i32)> {
     debug_assert!(num.len() + 4 * den.len() + den.len() <= MAX_TERMS);
     let safe = |v: &f64| *v == 0.0 || (TERM_LOW..=TERM_HIGH).contains(&v.abs());
-    if !(guess > 0.0) || !num.iter().all(safe) || !den.iter().all(safe) {
+    // A guess that is not positive (or NaN) fails the range test in the loop.
+    if !num.iter().all(safe) || !den.iter().all(safe) {
         return None;
     }
     let mut q = guess;

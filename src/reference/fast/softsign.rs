@@ -2,8 +2,8 @@
 //! [`super::exact`]).  With a = |x| (at most 24 significant bits): 1 + a, a² and 2a are exact
 //! binary64 terms, so both values are quotients of short exact sums.
 
-use super::decide::Outcome;
 use super::dd::{two_prod, two_sum};
+use super::decide::Outcome;
 use super::exact::{near, nearest_ratio, quotient};
 use crate::activation::Role;
 use crate::format::Layout;
