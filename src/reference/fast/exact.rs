@@ -154,6 +154,38 @@ fn subtract_product(e: &mut Expansion, m: f64, den: &[f64]) {
     }
 }
 
+/// The sign of Σnum − m·Σden − h·Σden from plain binary64 sums when they decide it, with
+/// Higham's running error bound: each addition errs by at most u·|its result|, so the computed
+/// sum is within u·Σ|partial sums| of the exact one (the first partial sum, num[0] alone, is
+/// exact; the products' parts are exact by FMA, h·v_j exactly).  Terms go in the order num[0],
+/// −RN(m·v_0) first: that is where the value cancels, so the bound stays small.
+#[inline(always)]
+fn filtered_sign(num: &[f64], den: &[f64], m: f64, h: f64) -> Option<i32> {
+    let (p0, e0) = two_prod(m, den[0]);
+    let mut s = num[0] - p0;
+    let mut bound = s.abs();
+    let add = |t: f64, s: &mut f64, bound: &mut f64| {
+        *s += t;
+        *bound += s.abs();
+    };
+    for &n in &num[1..] {
+        add(n, &mut s, &mut bound);
+    }
+    add(-e0, &mut s, &mut bound);
+    for &v in &den[1..] {
+        let (p, e) = two_prod(m, v);
+        add(-p, &mut s, &mut bound);
+        add(-e, &mut s, &mut bound);
+    }
+    if h != 0.0 {
+        for &v in den {
+            add(-(h * v), &mut s, &mut bound);
+        }
+    }
+    // u = 2^−53, doubled to cover the rounding of the bound's own sum.
+    (s.abs() > bound * 2.220446049250313e-16).then(|| sign(s))
+}
+
 /// RN_binary64(y) and sign(y − RN_binary64(y)) for y = Σnum / Σden > 0, from a guess within a
 /// few binary64 ulps; None when the guess is farther off or a term leaves the safe range.
 ///
@@ -169,6 +201,20 @@ pub fn nearest_ratio(num: &[f64], den: &[f64], guess: f64) -> Option<(f64, i32)>
     // A guess that is not positive (or NaN) fails the range test in the loop.
     if !num.iter().all(safe) || !den.iter().all(safe) {
         return None;
+    }
+    // The common case: the guess is RN and plain sums decide both signs.
+    if (TERM_LOW..=TERM_HIGH).contains(&guess) {
+        if let Some(s0) = filtered_sign(num, den, guess, 0.0) {
+            let neighbour = if s0 > 0 {
+                next_up(guess)
+            } else {
+                next_down(guess)
+            };
+            let h = (neighbour - guess) * 0.5;
+            if filtered_sign(num, den, guess, h) == Some(-s0) {
+                return Some((guess, s0));
+            }
+        }
     }
     let mut q = guess;
     for _ in 0..4 {

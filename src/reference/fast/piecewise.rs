@@ -133,7 +133,7 @@ fn hard_sigmoid_reference(format: Layout, x: f64, role: Role) -> Option<Referenc
                 let (q, side) = quotient(n, 6.0);
                 near(format, q, side)
             } else {
-                let (q, side) = nearest_ratio(&[x, 3.0], &[6.0], n / 6.0)?;
+                let (q, side) = nearest_ratio(&[3.0, x], &[6.0], n / 6.0)?;
                 near(format, q, side)
             }
         }
@@ -186,9 +186,9 @@ fn hard_swish_reference(format: Layout, x: f64, role: Role) -> Option<Reference>
             } else {
                 // 2x + 3 is nonzero, so its RN n has its sign.
                 let num = if n < 0.0 {
-                    [-2.0 * x, -3.0]
+                    [-3.0, -2.0 * x]
                 } else {
-                    [2.0 * x, 3.0]
+                    [3.0, 2.0 * x]
                 };
                 let (q, side) = nearest_ratio(&num, &[6.0], n.abs() / 6.0)?;
                 if n < 0.0 {
