@@ -32,7 +32,10 @@ pub fn softsign(format: Layout, x: f64, role: Role) -> Outcome {
                 if err == 0.0 {
                     quotient(a, d)
                 } else {
-                    match nearest_ratio(&[a], &[1.0, a], a / d) {
+                    // The larger denominator term first: its product cancels the numerator,
+                    // which keeps `nearest_ratio`'s running error bound small.
+                    let den = if a > 1.0 { [a, 1.0] } else { [1.0, a] };
+                    match nearest_ratio(&[a], &den, a / d) {
                         Some(r) => r,
                         None => return Outcome::Decline,
                     }
@@ -51,7 +54,12 @@ pub fn softsign(format: Layout, x: f64, role: Role) -> Outcome {
                     let (p, e) = two_prod(d, d);
                     nearest_ratio(&[1.0], &[p, e], guess)
                 } else {
-                    nearest_ratio(&[1.0], &[1.0, 2.0 * a, a * a], guess)
+                    let den = if a > 1.0 {
+                        [a * a, 2.0 * a, 1.0]
+                    } else {
+                        [1.0, 2.0 * a, a * a]
+                    };
+                    nearest_ratio(&[1.0], &den, guess)
                 };
                 match r {
                     Some((q, side)) => near(format, q, side),
