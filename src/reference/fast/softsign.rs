@@ -48,7 +48,13 @@ pub fn softsign(format: Layout, x: f64, role: Role) -> Outcome {
                 near(format, 1.0, -1)
             } else {
                 let (d, err) = two_sum(1.0, a);
-                let guess = 1.0 / (d * d);
+                // Below 2^−29 (1 + a inexact) 1 − 2a + 3a² is within about an ulp; 1/d²
+                // would inherit d's rounding and miss by several.
+                let guess = if err != 0.0 && a < 1.0 {
+                    1.0 - a * (2.0 - 3.0 * a)
+                } else {
+                    1.0 / (d * d)
+                };
                 let r = if err == 0.0 {
                     // (1 + a)² = p + e exactly.
                     let (p, e) = two_prod(d, d);
