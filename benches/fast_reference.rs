@@ -26,7 +26,7 @@ fn rate(points: usize, f: impl FnOnce() -> u64) -> f64 {
 }
 
 /// The functions with a fast path (SELU with its constants rounded to binary32).
-const FUNCTIONS: [&str; 11] = [
+const FUNCTIONS: [&str; 18] = [
     "sigmoid",
     "tanh",
     "swish",
@@ -38,6 +38,13 @@ const FUNCTIONS: [&str; 11] = [
     "selu",
     "celu",
     "gelu-tanh",
+    "step",
+    "relu",
+    "leaky-relu",
+    "relu6",
+    "hard-sigmoid",
+    "hard-swish",
+    "softsign",
 ];
 
 /// Stride of the whole-domain sample: a prime, so every exponent and low-bit pattern is hit.
@@ -126,13 +133,19 @@ fn domain(filter: Option<&str>) {
 /// Stride of the per-binade sample.
 const BINADE_STRIDE: usize = 97;
 
-/// One-thread cost per binade of the forward fast path (MPFR fallback included).
+/// One-thread cost per binade of the fast path (MPFR fallback included), forward unless
+/// BENCH_ROLE=derivative.
 fn binades(filter: Option<&str>) {
     for name in FUNCTIONS {
         if filter.is_some_and(|n| n != name) {
             continue;
         }
-        let e = evaluator(name, Role::Forward);
+        // BENCH_ROLE=derivative times the derivative instead.
+        let role = match std::env::var("BENCH_ROLE").as_deref() {
+            Ok("derivative") => Role::Derivative,
+            _ => Role::Forward,
+        };
+        let e = evaluator(name, role);
         let fast = FastEvaluator::new(&e).expect("fast path");
         let mut total = 0.0;
         let mut costly = Vec::new();

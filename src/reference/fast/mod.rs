@@ -18,6 +18,7 @@ mod common;
 pub mod dd;
 mod decide;
 mod elu;
+mod exact;
 pub mod exp;
 mod gelu;
 mod gelu_tanh;
@@ -26,9 +27,11 @@ mod log_sigmoid;
 mod logistic;
 mod mills;
 mod mish;
+mod piecewise;
 mod selu;
 mod series;
 mod softplus;
+mod softsign;
 
 pub use decide::FAST_PRECISION;
 
@@ -52,6 +55,13 @@ enum Kind {
     Selu(f64, f64),
     Celu(f64),
     GeluTanh(dd::Ev, dd::Ev),
+    Step,
+    Relu,
+    LeakyRelu((f64, f64)),
+    Relu6,
+    HardSigmoid,
+    HardSwish,
+    Softsign,
 }
 
 /// The fast path for one evaluator's function, role, parameters and format.
@@ -93,6 +103,13 @@ impl FastEvaluator {
             "selu" => selu::kind(c)?,
             "celu" => Kind::Celu(celu::parameter(exact_f64(c.get("alpha").exact())?)?),
             "gelu-tanh" => gelu_tanh::kind(c)?,
+            "step" => Kind::Step,
+            "relu" => Kind::Relu,
+            "leaky-relu" => Kind::LeakyRelu(piecewise::leaky_alpha(c.get("alpha").exact())?),
+            "relu6" => Kind::Relu6,
+            "hard-sigmoid" => Kind::HardSigmoid,
+            "hard-swish" => Kind::HardSwish,
+            "softsign" => Kind::Softsign,
             _ => return None,
         };
         let format = evaluator.format();
@@ -157,6 +174,13 @@ impl FastEvaluator {
             Kind::Selu(l, la) => selu::selu(format, x, l, la, self.role),
             Kind::Celu(alpha) => celu::celu(format, x, alpha, self.role),
             Kind::GeluTanh(c, k) => gelu_tanh::gelu_tanh(format, x, c, k, self.role),
+            Kind::Step => piecewise::step(format, x, self.role),
+            Kind::Relu => piecewise::relu(format, x, self.role),
+            Kind::LeakyRelu(alpha) => piecewise::leaky_relu(format, x, alpha, self.role),
+            Kind::Relu6 => piecewise::relu6(format, x, self.role),
+            Kind::HardSigmoid => piecewise::hard_sigmoid(format, x, self.role),
+            Kind::HardSwish => piecewise::hard_swish(format, x, self.role),
+            Kind::Softsign => softsign::softsign(format, x, self.role),
         };
         finish(format, outcome)
     }
