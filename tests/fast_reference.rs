@@ -1042,6 +1042,11 @@ fn format_rounded_constants_16_bit() {
                     format.name()
                 );
                 assert!(decided > 60000);
+            }
+        }
+    }
+}
+
 // ---------------------------------------------------------------------------------------------
 // Every catalog function and role, generically: whatever has a fast path is compared with the
 // engine bit for bit (bits, clamped binade, RN_binary64 approximation; and precision 0 wherever
