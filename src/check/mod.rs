@@ -276,9 +276,16 @@ fn gather(
     let before = from.checked_sub(1).and_then(|i| plan.measured.nth(i));
     let after = plan.measured.nth(to);
     prober.expect(own.len() + setup.probes.len() as u64);
-    let span = exhaustive
-        .then(|| ordinal_span(format, &plan.measured))
-        .flatten();
+    // A recorded part is a slice of the whole range's sweep: its plot grid must be the whole
+    // range's, as every other part's, or `merge` would join buckets of different grids.
+    let whole_range;
+    let spanned = if recorded && config.shard.is_some() {
+        whole_range = sweep::Inputs::of_range(format, &config.sweep.range);
+        &whole_range
+    } else {
+        &plan.measured
+    };
+    let span = exhaustive.then(|| ordinal_span(format, spanned)).flatten();
     let stream = Stream::new(
         measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span),
         role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone)),
