@@ -48,13 +48,16 @@ pub fn validate(path: &Path, symbol: &str) -> Result<(), String> {
         .iter()
         .any(|n| n == symbol || n.strip_prefix('_') == Some(symbol));
     if !found {
+        // The nearest five by edit distance, so a library of many kernels still suggests the
+        // one that was meant.
         let mut similar: Vec<&String> = names
             .iter()
             .filter(|n| {
                 n.contains(symbol) || symbol.contains(n.as_str()) || shares_prefix(n, symbol)
             })
-            .take(5)
             .collect();
+        similar.sort_by_key(|n| (edit_distance(n, symbol), n.as_str()));
+        similar.truncate(5);
         similar.sort();
         let hint = if similar.is_empty() {
             String::new()
@@ -179,4 +182,22 @@ pub fn open(path: &Path, symbol: &str) -> Result<Loaded, String> {
 
 fn one_line(text: &str) -> String {
     text.split_whitespace().collect::<Vec<_>>().join(" ")
+}
+
+/// Levenshtein distance in characters (the names are short).
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut diagonal = row[0];
+        row[0] = i + 1;
+        for (j, &cb) in b.iter().enumerate() {
+            let above = row[j + 1];
+            row[j + 1] = (diagonal + usize::from(ca != cb))
+                .min(above + 1)
+                .min(row[j] + 1);
+            diagonal = above;
+        }
+    }
+    row[b.len()]
 }
