@@ -224,6 +224,24 @@ pub struct KernelTarget {
     pub params: Vec<String>,
 }
 
+impl KernelTarget {
+    /// The target a manifest entry names.
+    pub fn of_spec(spec: &KernelSpec) -> KernelTarget {
+        KernelTarget {
+            library: Some(spec.library.clone()),
+            symbol: Some(spec.symbol.clone()),
+            function: spec.function.clone(),
+            format: spec.format.name().to_string(),
+            role: spec.role,
+            params: spec
+                .params
+                .iter()
+                .map(|(n, v)| format!("{n}={v}"))
+                .collect(),
+        }
+    }
+}
+
 /// Where the reports go.
 #[derive(Clone, Debug, Default)]
 pub struct Outputs {
@@ -628,18 +646,7 @@ fn manifest_kernels(path: &std::path::Path, args: &Args) -> Result<Vec<Configure
     let options = runner_options(args)?;
     let mut configs = Vec::new();
     for spec in &specs {
-        let target = KernelTarget {
-            library: Some(spec.library.clone()),
-            symbol: Some(spec.symbol.clone()),
-            function: spec.function.clone(),
-            format: spec.format.name().to_string(),
-            role: spec.role,
-            params: spec
-                .params
-                .iter()
-                .map(|(n, v)| format!("{n}={v}"))
-                .collect(),
-        };
+        let target = KernelTarget::of_spec(spec);
         configs.push(build_config(&target, args).map_err(|f| {
             Failure::bad_input(format!(
                 "{}: kernel {}: {}",
@@ -817,18 +824,7 @@ fn run_manifest_variants(
     let options = runner_options(args)?;
     let mut planned = Vec::new();
     for (spec, extras) in &entries {
-        let target = KernelTarget {
-            library: Some(spec.library.clone()),
-            symbol: Some(spec.symbol.clone()),
-            function: spec.function.clone(),
-            format: spec.format.name().to_string(),
-            role: spec.role,
-            params: spec
-                .params
-                .iter()
-                .map(|(n, v)| format!("{n}={v}"))
-                .collect(),
-        };
+        let target = KernelTarget::of_spec(spec);
         let in_entry = |f: Failure| {
             Failure::bad_input(format!(
                 "{}: kernel {}: {}",

@@ -107,18 +107,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     // Validate every kernel's configuration before building anything.
     let mut configs = Vec::new();
     for spec in &specs {
-        let target = KernelTarget {
-            library: Some(spec.library.clone()),
-            symbol: Some(spec.symbol.clone()),
-            function: spec.function.clone(),
-            format: spec.format.name().to_string(),
-            role: spec.role,
-            params: spec
-                .params
-                .iter()
-                .map(|(n, v)| format!("{n}={v}"))
-                .collect(),
-        };
+        let target = KernelTarget::of_spec(spec);
         configs.push(
             build_config(&target, &options).map_err(|f| {
                 Failure::bad_input(format!("kernel {}: {}", spec.symbol, f.message))

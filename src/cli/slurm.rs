@@ -219,18 +219,7 @@ fn validate_check(line: &[String]) -> Result<(), Failure> {
             ));
         }
         for spec in load_manifest(manifest).map_err(Failure::bad_input)? {
-            let target = check::KernelTarget {
-                library: Some(spec.library.clone()),
-                symbol: Some(spec.symbol.clone()),
-                function: spec.function.clone(),
-                format: spec.format.name().to_string(),
-                role: spec.role,
-                params: spec
-                    .params
-                    .iter()
-                    .map(|(n, v)| format!("{n}={v}"))
-                    .collect(),
-            };
+            let target = check::KernelTarget::of_spec(&spec);
             build_config(&target, &args).map_err(|f| {
                 Failure::bad_input(format!(
                     "{}: kernel {}: {}",

@@ -6,6 +6,7 @@
 //! its two ends suffices.
 
 use super::dd::{ilogb, is_pow2, next_down, next_up, pow2, two_sum, Dd, Ev, SLACK};
+use crate::activation::Role;
 use crate::format::{ExactValue, Layout};
 use crate::reference::Reference;
 
@@ -454,4 +455,20 @@ pub fn engine_beside(format: Layout, a: f64, above: bool) -> Option<Reference> {
         exact: Some(ExactValue { approx: a, binade }),
         precision: 64,
     })
+}
+
+/// The engine's tail (|x| ≥ 2^12) of a function that tends to x with slope 1 at +∞ and to −0
+/// from below at −∞ (GELU, mish, GELU-tanh, both roles): f just below x, f′ just above 1, and
+/// the negative tiny on the left, as the engine's `in_tail` answers.
+#[inline(always)]
+pub fn rectifier_tail(format: Layout, x: f64, role: Role) -> Outcome {
+    match (role, x > 0.0) {
+        (Role::Forward, true) => {
+            engine_beside(format, x, false).map_or(Outcome::Decline, Outcome::Fixed)
+        }
+        (Role::Derivative, true) => {
+            engine_beside(format, 1.0, true).map_or(Outcome::Decline, Outcome::Fixed)
+        }
+        (_, false) => Outcome::Fixed(engine_tiny(format, true)),
+    }
 }

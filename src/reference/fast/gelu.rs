@@ -11,7 +11,7 @@
 
 use super::common::{beside, decay, near_constant, near_side, TAIL, TWO_M53, TWO_M55};
 use super::dd::{two_prod, Dd, Ev};
-use super::decide::{engine_beside, engine_tiny, Outcome};
+use super::decide::{engine_tiny, rectifier_tail, Outcome};
 use super::exp::tables;
 use super::mills;
 use super::series::{horner, leading, BAND_LIMIT, NORMAL_CDF, NORMAL_SLOPE};
@@ -103,15 +103,7 @@ fn gelu_band(x: f64, role: Role) -> Outcome {
 pub fn gelu(format: Layout, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
-        return match (role, x > 0.0) {
-            (Role::Forward, true) => {
-                engine_beside(format, x, false).map_or(Outcome::Decline, Outcome::Fixed)
-            }
-            (Role::Derivative, true) => {
-                engine_beside(format, 1.0, true).map_or(Outcome::Decline, Outcome::Fixed)
-            }
-            (_, false) => Outcome::Fixed(engine_tiny(format, true)),
-        };
+        return rectifier_tail(format, x, role);
     }
     if let Some(o) = gelu_closed(format, x, role) {
         return o;

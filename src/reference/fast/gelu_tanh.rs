@@ -20,7 +20,7 @@
 
 use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL};
 use super::dd::{constant, Dd, Ev};
-use super::decide::{engine_beside, engine_tiny, Outcome};
+use super::decide::{engine_tiny, rectifier_tail, Outcome};
 use super::exp::expm1;
 use super::Kind;
 use crate::activation::{Constants, Role};
@@ -101,15 +101,7 @@ fn closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
 #[inline(always)]
 pub fn gelu_tanh(format: Layout, x: f64, c: Ev, k: Ev, role: Role) -> Outcome {
     if x.abs() >= TAIL {
-        return match (role, x > 0.0) {
-            (Role::Forward, true) => {
-                engine_beside(format, x, false).map_or(Outcome::Decline, Outcome::Fixed)
-            }
-            (Role::Derivative, true) => {
-                engine_beside(format, 1.0, true).map_or(Outcome::Decline, Outcome::Fixed)
-            }
-            (_, false) => Outcome::Fixed(engine_tiny(format, true)),
-        };
+        return rectifier_tail(format, x, role);
     }
     if let Some(o) = closed(format, x, role) {
         return o;

@@ -13,7 +13,7 @@
 
 use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL};
 use super::dd::{Dd, Ev};
-use super::decide::{engine_beside, engine_tiny, Outcome};
+use super::decide::{engine_tiny, rectifier_tail, Outcome};
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -44,15 +44,7 @@ fn closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
 pub fn mish(format: Layout, x: f64, role: Role) -> Outcome {
     let a = x.abs();
     if a >= TAIL {
-        return match (role, x > 0.0) {
-            (Role::Forward, true) => {
-                engine_beside(format, x, false).map_or(Outcome::Decline, Outcome::Fixed)
-            }
-            (Role::Derivative, true) => {
-                engine_beside(format, 1.0, true).map_or(Outcome::Decline, Outcome::Fixed)
-            }
-            (_, false) => Outcome::Fixed(engine_tiny(format, true)),
-        };
+        return rectifier_tail(format, x, role);
     }
     if let Some(o) = closed(format, x, role) {
         return o;
