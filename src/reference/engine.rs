@@ -337,7 +337,7 @@ impl<'a> Evaluator<'a> {
 /// Under a saturating OFP8 conversion the reference is RN(clamp(y, −max, max)), so the
 /// measures see the clamped value: an exact value beyond ±max (an infinite limit included)
 /// becomes ±max in emax's binade.
-fn saturated(format: &dyn Format, mut r: Reference) -> Reference {
+pub(crate) fn saturated(format: &dyn Format, mut r: Reference) -> Reference {
     let l = format.layout();
     if !l.is_saturating() || !l.is_finite(r.bits) {
         return r;
