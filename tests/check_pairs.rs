@@ -15,7 +15,13 @@ fn check(args: &[&str], json: &str) -> (i32, serde_json::Value, String) {
     let _ = std::fs::remove_file(&json_path);
     let lib = kernels().join("liblumen_gated.so");
     let out = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
-        .args(["check", "--lib", lib.to_str().unwrap(), "--symbol", "lumen_swiglu_f16"])
+        .args([
+            "check",
+            "--lib",
+            lib.to_str().unwrap(),
+            "--symbol",
+            "lumen_swiglu_f16",
+        ])
         .args(["--function", "swiglu", "--format", "f16", "--no-progress"])
         .args(args)
         .arg("--json")
@@ -51,8 +57,9 @@ fn the_product_overflow_region_is_named_exactly() {
     assert_eq!(report["coverage"]["kind"], "exhaustive");
     assert_eq!(report["coverage"]["pairs"], 65536);
     let expected = overflowing_b(-20.0);
-    // |b| > 65520/20 = 3276: b from 3276.x up to 65504, on both signs.
-    assert!(expected > 2 * 12000, "{expected}");
+    // |b| ≥ 65520/20 = 3276: per sign the 4 × 1024 patterns of [2^12, 2^16) and the 410 of
+    // [3276, 4096) (step 2 there; binary16 has 10 fraction bits).
+    assert_eq!(expected, 2 * (4 * 1024 + 410));
     let nf = &report["non_finite"];
     assert_eq!(nf["spurious"], expected);
     assert_eq!(nf["missing"], 0);
@@ -60,7 +67,10 @@ fn the_product_overflow_region_is_named_exactly() {
     for r in nf["regions"].as_array().unwrap() {
         assert_eq!(r["a_cells"][0], "-[2^4, 2^5)");
         assert_eq!(r["pairs"], expected / 2);
-        let b = (r["b_cells"][0].as_str().unwrap(), r["b_cells"][1].as_str().unwrap());
+        let b = (
+            r["b_cells"][0].as_str().unwrap(),
+            r["b_cells"][1].as_str().unwrap(),
+        );
         assert!(
             b == ("[2^11, 2^12)", "[2^15, 2^16)") || b == ("-[2^15, 2^16)", "-[2^11, 2^12)"),
             "{b:?}"

@@ -94,7 +94,13 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         evaluator: &evaluator,
         spec: &spec,
         sweep: &sweep,
-        shard: args.shard.as_deref().map(Shard::parse).transpose().ok().flatten(),
+        shard: args
+            .shard
+            .as_deref()
+            .map(Shard::parse)
+            .transpose()
+            .ok()
+            .flatten(),
         outcome: &outcome,
         max_ulp: args.max_ulp,
         allow_non_finite: args.allow_non_finite,
@@ -227,7 +233,10 @@ impl Report<'_> {
         let acc = &self.outcome.acc;
         let mut reasons = Vec::new();
         if acc.crashed > 0 {
-            reasons.push(format!("the kernel crashed or hung on {} pairs", acc.crashed));
+            reasons.push(format!(
+                "the kernel crashed or hung on {} pairs",
+                acc.crashed
+            ));
         }
         let non_finite = acc.spurious_non_finite + acc.missing_non_finite;
         if non_finite > 0 && !self.allow_non_finite {

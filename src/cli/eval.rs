@@ -232,11 +232,7 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
             (name.to_string(), json!(text))
         })
         .collect();
-    let role = if derivative {
-        "derivative"
-    } else {
-        "forward"
-    };
+    let role = if derivative { "derivative" } else { "forward" };
     if args.json {
         let kink_json = kink.as_ref().map(|k| {
             json!({"at": k.at, "left": k.left.to_f64(), "right": k.right.to_f64(), "convention": "right"})

@@ -89,7 +89,11 @@ pub fn evaluate(function: &str, rest: &[String], opts: Options) -> Result<i32, F
         "derivative-a" => crate::activation::gated::partial_definitions(evaluator.gated()).0,
         _ => crate::activation::gated::partial_definitions(evaluator.gated()).1,
     };
-    sayln!("{name} {} in {}  ({definition})", role.name(), format.name());
+    sayln!(
+        "{name} {} in {}  ({definition})",
+        role.name(),
+        format.name()
+    );
     for (label, input) in [("a", &a), ("b", &b)] {
         match &input.rounded_from {
             Some(text) => sayln!(

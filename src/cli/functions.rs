@@ -79,7 +79,10 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     }
     for entry in &all {
         if entry["arity"] == 2 {
-            sayln!("{}  (two inputs a, b)", entry["name"].as_str().unwrap_or(""));
+            sayln!(
+                "{}  (two inputs a, b)",
+                entry["name"].as_str().unwrap_or("")
+            );
             sayln!("  y(a,b) {}", entry["definition"].as_str().unwrap_or(""));
             sayln!("  dy/da  {}", entry["derivative_a"].as_str().unwrap_or(""));
             sayln!("  dy/db  {}", entry["derivative_b"].as_str().unwrap_or(""));

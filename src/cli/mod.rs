@@ -262,9 +262,8 @@ pub fn resolve_pair(
         return Ok(None);
     };
     let fmt = crate::format::resolve(format, args.fp8_overflow).map_err(Failure::bad_input)?;
-    let user = Constants::parse_params(g.act(), &args.params).map_err(|e| {
-        Failure::bad_input(e.replacen(g.act().name(), g.name(), 1))
-    })?;
+    let user = Constants::parse_params(g.act(), &args.params)
+        .map_err(|e| Failure::bad_input(e.replacen(g.act().name(), g.name(), 1)))?;
     let constants = Constants::resolve_checked(g.act(), &user, args.param_rounding, fmt)
         .map_err(Failure::bad_input)?;
     Ok(Some(crate::reference::PairEvaluator::new(

@@ -104,7 +104,11 @@ mod tests {
         assert_eq!(per_sign(f), 33);
         for bits in 0..=0xffffu32 {
             let Some(c) = cell(f, bits) else { continue };
-            assert_eq!(cell(f, pattern_in(f, c, bits as u64 * 7919)), Some(c), "{bits:#x}");
+            assert_eq!(
+                cell(f, pattern_in(f, c, bits as u64 * 7919)),
+                Some(c),
+                "{bits:#x}"
+            );
         }
         // 1.0 = 0x3c00 lies in [2^0, 2^1); 65504 = 0x7bff in [2^15, 2^16).
         assert_eq!(label(f, cell(f, 0x3c00).unwrap()), "[2^0, 2^1)");

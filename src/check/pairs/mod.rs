@@ -184,7 +184,11 @@ pub fn run_pairs(
     let mut reference_error = None;
     for_each_chunk(format, sweep, |av, bv| {
         let out = kernel.run(av, Some(bv));
-        for c in out.crashes.iter().take(KEPT_CRASHES.saturating_sub(crashes.len())) {
+        for c in out
+            .crashes
+            .iter()
+            .take(KEPT_CRASHES.saturating_sub(crashes.len()))
+        {
             crashes.push((av[c.index], bv[c.index], c.signal.clone()));
         }
         let joined = (0..av.len())

@@ -82,18 +82,27 @@ fn sharded_runs_join_into_the_unsharded_one_and_name_the_overflow() {
         .map(|&a| {
             let i = cells::cell(&Binary16, a).unwrap();
             let n = whole.acc.axis();
-            whole.acc.cell_spurious[i * n..(i + 1) * n].iter().sum::<u64>()
+            whole.acc.cell_spurious[i * n..(i + 1) * n]
+                .iter()
+                .sum::<u64>()
         })
         .sum();
     assert_eq!(spurious_negative_a, expected);
     let rs = regions(&whole.acc);
-    assert_eq!(rs.iter().map(|r| r.pairs).sum::<u64>(), whole.acc.spurious_non_finite);
+    assert_eq!(
+        rs.iter().map(|r| r.pairs).sum::<u64>(),
+        whole.acc.spurious_non_finite
+    );
     // a = −20: a·b overflows binary16 for |b| > 65520/20 = 3276, so the row of −[2^4, 2^5)
     // holds spurious infinities in b's binades [2^11, 2^12) … [2^15, 2^16), on both signs.
     let c = |bits| cells::cell(&Binary16, bits).unwrap();
     let row = c(0xcd00);
-    assert!(rs.iter().any(|r| r.a == (row, row) && r.b == (c(0x6800), c(0x7bff))));
-    assert!(rs.iter().any(|r| r.a == (row, row) && r.b == (c(0xfbff), c(0xe800))));
+    assert!(rs
+        .iter()
+        .any(|r| r.a == (row, row) && r.b == (c(0x6800), c(0x7bff))));
+    assert!(rs
+        .iter()
+        .any(|r| r.a == (row, row) && r.b == (c(0xfbff), c(0xe800))));
 }
 
 #[test]
@@ -106,9 +115,13 @@ fn sampled_pairs_are_bounded_and_reproducible() {
         seed: 7,
     };
     let mut seen = Vec::new();
-    for_each_chunk(f, &sweep, |a, b| seen.extend(a.iter().zip(b).map(|(x, y)| (*x, *y))));
+    for_each_chunk(f, &sweep, |a, b| {
+        seen.extend(a.iter().zip(b).map(|(x, y)| (*x, *y)))
+    });
     assert_eq!(seen.len() as u64, sweep.count(f));
     let mut again = Vec::new();
-    for_each_chunk(f, &sweep, |a, b| again.extend(a.iter().zip(b).map(|(x, y)| (*x, *y))));
+    for_each_chunk(f, &sweep, |a, b| {
+        again.extend(a.iter().zip(b).map(|(x, y)| (*x, *y)))
+    });
     assert_eq!(seen, again);
 }
