@@ -22,7 +22,10 @@ pub struct Args {
     x: String,
     /// The second input of a gated function (B), or the input in the older form `eval FUNC X`.
     #[arg(allow_hyphen_values = true, value_name = "B")]
-    more: Vec<String>,
+    more: Option<String>,
+    /// B in the older form `eval FUNC A B` (a negative number, or any value after `--`).
+    #[arg(allow_negative_numbers = true, hide = true)]
+    older_b: Option<String>,
     /// Format of the input and of the result.
     #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
     format: Option<String>,
@@ -148,6 +151,7 @@ pub(super) fn plain_decimal(text: &str) -> String {
 pub fn run(args: Args) -> Result<i32, Failure> {
     let given: Vec<String> = std::iter::once(args.x.clone())
         .chain(args.more.iter().cloned())
+        .chain(args.older_b.iter().cloned())
         .collect();
     let (function, rest, note) = super::function_and_inputs("eval", args.function.clone(), &given)?;
     let code = evaluate(&args, &function, &rest)?;
