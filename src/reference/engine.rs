@@ -210,6 +210,12 @@ impl<'a> Evaluator<'a> {
         }
     }
 
+    /// The reference an enclosure of the (scaled) exact value decides, by the Ziv loop's own
+    /// rule, or `None` when it does not (for callers that enclose the value themselves).
+    pub(crate) fn decide(&self, iv: &Ival, prec: u32) -> Option<Reference> {
+        self.decided(iv, prec).map(|r| saturated(self.format, r))
+    }
+
     /// Both ends round to the same pattern and lie in the same (clamped) binade.
     fn decided(&self, iv: &Ival, prec: u32) -> Option<Reference> {
         if iv.lo.is_nan() || iv.hi.is_nan() {

@@ -11,5 +11,5 @@ mod round;
 pub use constant::{exact_in_range, parse_decimal, ParamRounding, Real};
 pub use engine::{round_constant, Evaluator, Reference, ReferenceError, MAX_PRECISION};
 pub use interval::Ival;
-pub use pair::PairEvaluator;
+pub use pair::{PairEvaluator, Prepared, PREPARED_PRECISION};
 pub use round::{floor_log2, floor_log2_rational, round_float, round_rational};

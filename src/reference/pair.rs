@@ -7,6 +7,22 @@ use crate::activation::{Constants, Ctx, Gated, GatedRole, Limit, Value};
 use crate::format::{Class, ExactValue, Format};
 use rug::{Float, Rational};
 
+/// Working precision of a prepared act(a): 128 bits leave 104 guard bits over binary32.
+pub const PREPARED_PRECISION: u32 = 128;
+
+/// act(a) enclosed once for many b ([`PairEvaluator::prepare`]).
+pub struct Prepared {
+    a: u32,
+    act: Option<Ival>,
+}
+
+impl Prepared {
+    /// The a it was prepared for.
+    pub fn a(&self) -> u32 {
+        self.a
+    }
+}
+
 /// Computes references of one gated function, role and format (a, b and y share the format).
 pub struct PairEvaluator {
     gated: &'static dyn Gated,
@@ -78,6 +94,59 @@ impl PairEvaluator {
                 self.inner.reference_scaled(a, Some(&scale))
             }
         }
+    }
+
+    /// What [`PairEvaluator::reference_prepared`] reuses for every b at one a: act(a) (or
+    /// act′(a)) enclosed once at [`PREPARED_PRECISION`] bits, when a is finite and act(a) is
+    /// neither exactly zero nor rational (those take the ordinary path, which is exact).
+    pub fn prepare(&self, a: u32) -> Prepared {
+        let f = self.format();
+        let usable = self.role.inner().1
+            && !matches!(f.classify(a), Class::Nan | Class::Infinite)
+            && !self.exactly_zero(a);
+        let act = usable
+            .then(|| {
+                let ctx = Ctx {
+                    prec: PREPARED_PRECISION,
+                    constants: self.constants(),
+                };
+                match self
+                    .gated
+                    .act()
+                    .eval(&self.point(a), self.role.inner().0, &ctx)
+                {
+                    Value::Exact(_) => None,
+                    Value::Enclosed(iv) => Some(iv),
+                    Value::Near { base, delta } => Some(
+                        Ival::rational(&base, PREPARED_PRECISION + 64)
+                            .add(&delta, PREPARED_PRECISION + 64),
+                    ),
+                }
+            })
+            .flatten();
+        Prepared { a, act }
+    }
+
+    /// The reference at (a, b) from a prepared a: the enclosure of act(a) times the exact b
+    /// (exact products: b has at most 24 significant bits), decided by the engine's rule; the
+    /// same result as [`PairEvaluator::reference`], which it falls back to when undecided.
+    pub fn reference_prepared(&self, p: &Prepared, b: u32) -> Result<Reference, ReferenceError> {
+        let f = self.format();
+        if let (Some(iv), Class::Normal | Class::Subnormal) = (&p.act, f.classify(b)) {
+            let bf = f.to_f64(b);
+            let prec = iv.lo.prec().max(iv.hi.prec()) + 64;
+            let lo = Float::with_val(prec, &iv.lo * bf);
+            let hi = Float::with_val(prec, &iv.hi * bf);
+            let y = if bf < 0.0 {
+                Ival::new(hi, lo)
+            } else {
+                Ival::new(lo, hi)
+            };
+            if let Some(r) = self.inner.decide(&y, PREPARED_PRECISION) {
+                return Ok(r);
+            }
+        }
+        self.reference(p.a, b)
     }
 
     /// An enclosure of y(a, b) at `prec` bits, for finite a and b (display only).

@@ -12,7 +12,7 @@ pub use acc::{regions, PairAcc, Region, WorstPair};
 
 use super::kernel::KernelUnderTest;
 use crate::format::Format;
-use crate::reference::PairEvaluator;
+use crate::reference::{PairEvaluator, Prepared};
 use rayon::prelude::*;
 
 /// Which pairs are measured.
@@ -179,6 +179,7 @@ pub fn run_pairs(
     mut progress: impl FnMut(u64),
 ) -> PairOutcome {
     let format = evaluator.format();
+    let reuse_a = matches!(sweep, PairSweep::Exhaustive { .. });
     let mut total = PairAcc::new(format);
     let mut crashes = Vec::new();
     let mut reference_error = None;
@@ -197,10 +198,20 @@ pub fn run_pairs(
             .try_fold(
                 || PairAcc::new(format),
                 |mut acc, idx| {
+                    // An exhaustive sweep holds a fixed for 2^16 pairs: act(a) is enclosed
+                    // once per task and reused for every b.
+                    let mut prepared: Option<Prepared> = None;
                     for &i in idx {
-                        let r = evaluator
-                            .reference(av[i], bv[i])
-                            .map_err(|e| e.to_string())?;
+                        let r = if reuse_a {
+                            if prepared.as_ref().map(|p| p.a()) != Some(av[i]) {
+                                prepared = Some(evaluator.prepare(av[i]));
+                            }
+                            let p = prepared.as_ref().expect("prepared");
+                            evaluator.reference_prepared(p, bv[i])
+                        } else {
+                            evaluator.reference(av[i], bv[i])
+                        };
+                        let r = r.map_err(|e| e.to_string())?;
                         acc.add(format, av[i], bv[i], out.outputs[i], &r);
                     }
                     Ok::<PairAcc, String>(acc)
