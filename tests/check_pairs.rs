@@ -116,3 +116,28 @@ fn bad_pair_options_are_exit_2_naming_the_option() {
         assert!(report.is_null());
     }
 }
+
+#[test]
+fn the_heat_map_marks_the_overflow_cells() {
+    let svg = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("check-pairs/swiglu.svg");
+    let _ = std::fs::remove_file(&svg);
+    let (code, _, err) = check(
+        &["--range=-20,-19.984375", "--plot", svg.to_str().unwrap()],
+        "swiglu-plot.json",
+    );
+    assert_eq!(code, 1, "{err}");
+    let text = std::fs::read_to_string(&svg).unwrap();
+    assert!(text.starts_with("<svg") && text.trim_end().ends_with("</svg>"));
+    // Both runs of b binades of the row of a = −20 are drawn in the non-finite colour.
+    let marked: Vec<_> = text
+        .lines()
+        .filter(|l| l.contains("fill=\"#4a148c\"><title>a -[2^4, 2^5)"))
+        .collect();
+    assert_eq!(marked.len(), 2, "{marked:?}");
+    assert!(marked
+        .iter()
+        .any(|l| l.contains("b [2^11, 2^12) .. [2^15, 2^16)")));
+    assert!(marked
+        .iter()
+        .any(|l| l.contains("b -[2^15, 2^16) .. -[2^11, 2^12)")));
+}

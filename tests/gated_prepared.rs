@@ -9,7 +9,9 @@ use ulpgauge::reference::{PairEvaluator, ParamRounding};
 
 /// splitmix64 (Steele, Lea, Flood 2014), for reproducible samples.
 fn mix(i: u64) -> u64 {
-    let mut z = i.wrapping_mul(0x9e37_79b9_7f4a_7c15).wrapping_add(0x1234_5678);
+    let mut z = i
+        .wrapping_mul(0x9e37_79b9_7f4a_7c15)
+        .wrapping_add(0x1234_5678);
     z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
     z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
     z ^ (z >> 31)
@@ -48,7 +50,14 @@ fn prepared_and_plain_references_agree() {
                             .count()
                     })
                     .sum();
-                assert_eq!(mismatches, 0, "{} {} {}", g.name(), role.name(), format.name());
+                assert_eq!(
+                    mismatches,
+                    0,
+                    "{} {} {}",
+                    g.name(),
+                    role.name(),
+                    format.name()
+                );
             }
         }
     }

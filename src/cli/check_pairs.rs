@@ -48,7 +48,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         .symbol
         .clone()
         .ok_or_else(|| Failure::bad_input("--symbol is required with --lib"))?;
-    if let Some(path) = &args.json {
+    for path in [&args.json, &args.plot].into_iter().flatten() {
         crate::report::check_writable(path).map_err(Failure::bad_input)?;
     }
     // The pair ABI (a, b, y, n) is the two-array shape gradient kernels use (x, g, dx, n).
@@ -111,6 +111,17 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         let text = serde_json::to_string_pretty(&report.json(code, &reasons)).expect("json");
         crate::report::write_atomic(path, &(text + "\n")).map_err(Failure::bad_input)?;
     }
+    if let Some(path) = &args.plot {
+        let title = format!(
+            "{} {} {}: max ulp per binade of a and b ({})",
+            evaluator.gated().name(),
+            evaluator.role().name(),
+            format.name(),
+            report.coverage()
+        );
+        let svg = crate::report::pair_heatmap::render(&outcome.acc, format, &title);
+        crate::report::write_atomic(path, &svg).map_err(Failure::bad_input)?;
+    }
     if !args.quiet {
         report.terminal(code, &reasons);
     }
@@ -124,7 +135,6 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
         (args.manifest.is_some(), "--manifest"),
         (args.csv.is_some(), "--csv"),
         (args.findings.is_some(), "--findings"),
-        (args.plot.is_some(), "--plot"),
         (args.html.is_some(), "--html"),
         (args.junit.is_some(), "--junit"),
         (args.caller_fpenv.is_some(), "--caller-fpenv"),
@@ -134,7 +144,7 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
     ];
     match unsupported.iter().find(|(given, _)| *given) {
         Some((_, flag)) => Err(Failure::bad_input(format!(
-            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --max-ulp, --allow-non-finite)"
+            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --max-ulp, --allow-non-finite)"
         ))),
         None => Ok(()),
     }
