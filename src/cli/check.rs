@@ -34,6 +34,10 @@ pub enum RoleArg {
     Derivative,
     /// The kernel computes g·f′(x) from x (or f(x), see --from-output) and g.
     Gradient,
+    /// A gated kernel computes ∂y/∂a = act′(a)·b from a and b.
+    DerivativeA,
+    /// A gated kernel computes ∂y/∂b = act(a) from a (and b).
+    DerivativeB,
 }
 
 /// Arguments of `check`.
@@ -303,7 +307,8 @@ impl Outputs {
 fn role_of(args: &Args) -> CheckRole {
     match args.role {
         RoleArg::Forward => CheckRole::Forward,
-        RoleArg::Derivative => CheckRole::Derivative,
+        // The gated roles are refused for one-input functions before a role is needed.
+        RoleArg::Derivative | RoleArg::DerivativeA | RoleArg::DerivativeB => CheckRole::Derivative,
         RoleArg::Gradient => CheckRole::Gradient {
             from_output: args.from_output,
         },
@@ -713,6 +718,16 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
 
 /// Runs `check`.
 pub fn run(args: Args) -> Result<i32, Failure> {
+    if let Some(function) = &args.function {
+        if crate::activation::lookup_gated(function).is_some() {
+            return super::check_pairs::run(&args, function);
+        }
+    }
+    if matches!(args.role, RoleArg::DerivativeA | RoleArg::DerivativeB) {
+        return Err(Failure::bad_input(
+            "--role derivative-a and derivative-b are the roles of the two-input functions (swiglu, geglu, geglu-tanh, reglu)",
+        ));
+    }
     if args.inputs.is_some() {
         return run_recorded_set(&args);
     }
