@@ -35,6 +35,7 @@ mod functions;
 mod golden;
 mod inputs;
 mod matrix;
+mod quant;
 mod merge;
 mod slurm;
 mod worker;
