@@ -61,7 +61,10 @@ impl Activation for LeakyRelu {
         }
     }
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
-        Value::Exact(self.eval_rational(&common::rational(x), role, ctx).expect("rational"))
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
     }
     fn eval_rational(&self, x: &Rational, role: Role, ctx: &Ctx) -> Option<Rational> {
         let left = *x < 0;

@@ -35,8 +35,8 @@ mod functions;
 mod golden;
 mod inputs;
 mod matrix;
-mod quant;
 mod merge;
+mod quant;
 mod slurm;
 mod worker;
 

@@ -37,7 +37,7 @@ pub struct QuantCheckArgs {
     pub quant: QuantArgs,
     /// i8/u8: fail when an output is more than S output steps from the exact value (default:
     /// fail when any output is not the correctly rounded code).
-    #[arg(long, value_name = "S")]
+    #[arg(long, value_name = "S", allow_hyphen_values = true)]
     pub max_steps: Option<f64>,
 }
 
@@ -82,7 +82,9 @@ fn function_and_constants(
         ));
     }
     if function_args.fp8_overflow.is_some() {
-        return Err(Failure::bad_input("--fp8-overflow applies to e4m3 and e5m2 only"));
+        return Err(Failure::bad_input(
+            "--fp8-overflow applies to e4m3 and e5m2 only",
+        ));
     }
     let user = Constants::parse_params(function, params).map_err(Failure::bad_input)?;
     let constants = Constants::resolve_checked(
@@ -148,7 +150,14 @@ pub fn eval(
         for e in &table {
             if x == "all" {
                 let exact = e.t_exact.as_ref().map_or(String::new(), |t| t.to_string());
-                sayln!("{},{},{},{exact},{},{}", e.q, e.x, e.t, e.nearest_even, e.ties_away);
+                sayln!(
+                    "{},{},{},{exact},{},{}",
+                    e.q,
+                    e.x,
+                    e.t,
+                    e.nearest_even,
+                    e.ties_away
+                );
             } else {
                 sayln!(
                     "{} {}: x = {} = {}, exact output {}, correctly rounded {} (ties away: {})",
@@ -247,7 +256,9 @@ pub fn check(args: &CheckArgs) -> Result<Option<i32>, Failure> {
     }
     let mut reports = Vec::new();
     for (entry, function, constants) in planned {
-        reports.push(check_one(entry, function, &constants, args, &options, limit)?);
+        reports.push(check_one(
+            entry, function, &constants, args, &options, limit,
+        )?);
     }
     let manifest = args.manifest.is_some();
     if let Some(path) = &outputs.json {

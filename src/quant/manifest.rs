@@ -108,9 +108,10 @@ pub fn load(path: &Path) -> Result<Vec<QuantEntry>, String> {
                 )))
             }
         };
-        let library = e.library.or(file.library.clone()).ok_or_else(|| {
-            at("no `library` (top level or in the entry)".to_string())
-        })?;
+        let library = e
+            .library
+            .or(file.library.clone())
+            .ok_or_else(|| at("no `library` (top level or in the entry)".to_string()))?;
         let texts = [
             value_text(&e.input_scale),
             value_text(&e.input_zero_point),

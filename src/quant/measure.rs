@@ -124,14 +124,7 @@ pub fn measure(expected: &[Expected], outputs: &[Option<i32>]) -> Measures {
                 };
                 if f64::from(out) == other && e.t_clamped.fract() != 0.0 {
                     let rn = e.nearest_even;
-                    counts.add(
-                        out.into(),
-                        rn.into(),
-                        out.into(),
-                        rn.into(),
-                        e.t_clamped,
-                        1,
-                    );
+                    counts.add(out.into(), rn.into(), out.into(), rn.into(), e.t_clamped, 1);
                 }
             }
             2 => m.off_by_two += 1,

@@ -82,10 +82,8 @@ pub fn expected(
             if e0 == e1 && a0 == a1 {
                 let mid = Rational::from(&t_lo + &t_hi) / 2u32;
                 let t = nearest_f64(&mid);
-                let tie = exact
-                    && split(&t_lo).1 == Rational::from((1, 2))
-                    && t_lo > lo
-                    && t_lo < hi;
+                let tie =
+                    exact && split(&t_lo).1 == Rational::from((1, 2)) && t_lo > lo && t_lo < hi;
                 return Ok(Expected {
                     tie,
                     q,
@@ -112,7 +110,12 @@ pub fn expected(
 
 /// An interval [lo, hi] of rationals that holds f(x) (lo = hi when exact); `None` asks for
 /// more precision (an enclosure with a non-finite end).
-fn enclose(f: &dyn Activation, role: Role, ctx: &Ctx, x: &Rational) -> Option<(Rational, Rational)> {
+fn enclose(
+    f: &dyn Activation,
+    role: Role,
+    ctx: &Ctx,
+    x: &Rational,
+) -> Option<(Rational, Rational)> {
     if let Some(y) = f.eval_rational(x, role, ctx) {
         return Some((y.clone(), y));
     }

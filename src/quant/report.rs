@@ -234,7 +234,8 @@ impl QuantReport {
 }
 
 /// The CSV header of [`QuantReport::csv_rows`]: x and t_exact are exact rationals (`p/q`).
-pub const CSV_HEADER: &str = "symbol,function,format,role,q,x,t,t_exact,expected,ties_away,output,off_by,steps\n";
+pub const CSV_HEADER: &str =
+    "symbol,function,format,role,q,x,t,t_exact,expected,ties_away,output,off_by,steps\n";
 
 /// A number for the terminal: the shortest round-trip decimal, or 6 decimals when longer.
 fn short(v: f64) -> String {
