@@ -119,6 +119,11 @@ pub fn eval(
     } else {
         Role::Forward
     };
+    if json && x == "all" {
+        return Err(Failure::bad_input(
+            "eval --json takes one code; `all` prints the 256-row table as CSV",
+        ));
+    }
     let codes: Vec<i32> = if x == "all" {
         ty.codes().collect()
     } else {
@@ -143,7 +148,7 @@ pub fn eval(
         .map(|&q| crate::quant::reference::expected(&spec, f, role, &constants, q))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|message| Failure { code: 1, message })?;
-    if x == "all" || !json {
+    if !json {
         if x == "all" {
             sayln!("q,x,t,t_exact,expected,ties_away");
         }

@@ -127,7 +127,7 @@ pub fn load(path: &Path) -> Result<Vec<QuantEntry>, String> {
                 output_zero_point: Some(&texts[3]),
             },
         )
-        .map_err(|m| at(m.replace("--", "").replace(" with format", " with format")))?;
+        .map_err(|m| at(m.replace("--", "")))?;
         entries.push(QuantEntry {
             library: dir.join(library),
             symbol: e.symbol,

@@ -123,10 +123,10 @@ fn enclose(
     let below = Float::with_val_round(prec, x, Round::Down).0;
     let above = Float::with_val_round(prec, x, Round::Up).0;
     if below == above {
-        return bounds(f.eval(&below, role, ctx), prec);
+        return bounds(f.eval(&below, role, ctx));
     }
-    let (a_lo, a_hi) = bounds(f.eval(&below, role, ctx), prec)?;
-    let (b_lo, b_hi) = bounds(f.eval(&above, role, ctx), prec)?;
+    let (a_lo, a_hi) = bounds(f.eval(&below, role, ctx))?;
+    let (b_lo, b_hi) = bounds(f.eval(&above, role, ctx))?;
     let lo = a_lo.min(b_lo);
     let hi = a_hi.max(b_hi);
     let size = Rational::from(lo.abs_ref()).max(Rational::from(hi.abs_ref()));
@@ -135,14 +135,13 @@ fn enclose(
 }
 
 /// The ends of a function's value as exact rationals.
-fn bounds(value: Value, prec: u32) -> Option<(Rational, Rational)> {
+fn bounds(value: Value) -> Option<(Rational, Rational)> {
     match value {
         Value::Exact(q) => Some((q.clone(), q)),
         Value::Enclosed(iv) => Some((iv.lo.to_rational()?, iv.hi.to_rational()?)),
         Value::Near { base, delta } => {
-            let _ = prec;
             let (d_lo, d_hi) = (delta.lo.to_rational()?, delta.hi.to_rational()?);
-            Some((Rational::from(&base + d_lo), base + d_hi))
+            Some((&base + d_lo, base + d_hi))
         }
     }
 }

@@ -141,7 +141,7 @@ impl QuantSpec {
 
     /// The real input of code `q`: S_in·(q − Z_in), exactly.
     pub fn real_input(&self, q: i32) -> Rational {
-        Rational::from(&self.input_scale * Rational::from(q - self.input_zero_point))
+        &self.input_scale * Rational::from(q - self.input_zero_point)
     }
 
     /// The exact output code of a real result y: y/S_out + Z_out.
