@@ -29,13 +29,6 @@ impl IntType {
             IntType::U8 => "u8",
         }
     }
-    /// The C type of the kernel's arrays.
-    pub fn c_type(self) -> &'static str {
-        match self {
-            IntType::I8 => "int8_t",
-            IntType::U8 => "uint8_t",
-        }
-    }
     /// Smallest code.
     pub fn min(self) -> i32 {
         match self {
