@@ -61,6 +61,10 @@ echo "== The 8-bit path: OCP FP8 kernels, exhaustively, and a bfloat16 cast that
 run check --manifest kernels-under-test/lumen-edge-8bit.toml \
   --json reports/lumen-edge-8bit.json --html reports/lumen-edge-8bit.html
 echo
+echo "== The quantized path: int8/uint8 table kernels, all 256 codes (kernels-under-test/lumen-edge-int8.toml)"
+run check --manifest kernels-under-test/lumen-edge-int8.toml \
+  --json reports/lumen-edge-int8.json --csv reports/lumen-edge-int8.csv
+echo
 echo "== Certificates (kernels-under-test/specs/)"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
   --html reports/certificate-sigmoid-f16.html

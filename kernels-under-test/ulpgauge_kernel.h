@@ -4,7 +4,10 @@
  * A kernel is an exported C function with one of these shapes.  T is `float` for f32,
  * `uint16_t` (the raw bit pattern) for f16 and bf16, and `uint8_t` (the raw bit pattern) for the
  * OCP FP8 formats e4m3 and e5m2 (OFP8 v1.0: E4M3 has no infinities and one NaN per sign,
- * S.1111.111; out-of-range results follow --fp8-overflow, NaN/inf by default or saturating).  ulpgauge never passes overlapping buffers
+ * S.1111.111; out-of-range results follow --fp8-overflow, NaN/inf by default or saturating).
+ * For the 8-bit affine-quantized formats i8 and u8, T is `int8_t` or `uint8_t` (the code q
+ * itself; x = S_in*(q - Z_in), the expected code clamp(RNE(f(x)/S_out + Z_out))), forward and
+ * derivative roles only, always called on all 256 codes.  ulpgauge never passes overlapping buffers
  * unless the manifest declares `in-place = true`, in which case it may also call with y == x.
  *
  *   forward:     void NAME(const T *x, T *y, size_t n);              y[i] = f(x[i])
@@ -44,6 +47,8 @@ typedef void (*ulpgauge_u16_gradient)(const uint16_t *x, const uint16_t *g, uint
                                       size_t n);
 typedef void (*ulpgauge_u8_kernel)(const uint8_t *x, uint8_t *y, size_t n);
 typedef void (*ulpgauge_u8_gradient)(const uint8_t *x, const uint8_t *g, uint8_t *dx, size_t n);
+typedef void (*ulpgauge_i8_quantized)(const int8_t *q, int8_t *y, size_t n);
+typedef void (*ulpgauge_u8_quantized)(const uint8_t *q, uint8_t *y, size_t n);
 
 #ifdef __cplusplus
 }

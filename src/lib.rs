@@ -16,6 +16,7 @@ pub mod kernel;
 pub mod matrix;
 pub mod measure;
 pub mod merge;
+pub mod quant;
 pub mod recorded;
 pub mod reference;
 pub mod report;

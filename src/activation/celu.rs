@@ -3,7 +3,7 @@
 use super::common::{self, above, one, tiny};
 use super::{Activation, Constants, Ctx, Domain, Facts, Limit, ParamSpec, Role, Value};
 use crate::reference::Ival;
-use rug::Float;
+use rug::{Float, Rational};
 
 /// CELU.
 pub struct Celu;
@@ -45,6 +45,10 @@ impl Activation for Celu {
             (Role::Derivative, true) => Limit::Finite(one()),
             (Role::Derivative, false) => Limit::Zero { negative: false },
         }
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        // CELU's derivative at 0 is e^0 = 1 from the left too, so x ≥ 0 is rational for f′.
+        super::elu::linear_piece(x, role, &one())
     }
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
         let prec = ctx.prec;

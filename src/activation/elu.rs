@@ -59,6 +59,19 @@ impl Activation for Elu {
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
         exponential_linear(x, role, ctx, &one(), ctx.exact("alpha"))
     }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        linear_piece(x, role, &one())
+    }
+}
+
+/// The rational piece of [`exponential_linear`]: scale·x for x > 0 (scale for f′ at x ≥ 0);
+/// `None` on the exponential side, where a nonzero rational x gives an irrational value.
+pub fn linear_piece(x: &Rational, role: Role, scale: &Rational) -> Option<Rational> {
+    match role {
+        Role::Forward if *x > 0 => Some(Rational::from(x * scale)),
+        Role::Derivative if *x >= 0 => Some(scale.clone()),
+        _ => None,
+    }
 }
 
 /// scale·x for x > 0 and scale·alpha·expm1(x) for x ≤ 0, or its derivative: ELU (scale 1) and

@@ -47,11 +47,17 @@ impl Activation for HardSigmoid {
             _ => Limit::Zero { negative: false },
         }
     }
-    fn eval(&self, x: &Float, role: Role, _ctx: &Ctx) -> Value {
-        Value::Exact(match role {
+    fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        Some(match role {
             Role::Forward if *x <= -3 => Rational::new(),
             Role::Forward if *x >= 3 => one(),
-            Role::Forward => (common::rational(x) + 3u32) / 6u32,
+            Role::Forward => (x.clone() + 3u32) / 6u32,
             Role::Derivative if *x >= -3 && *x < 3 => Rational::from((1, 6)),
             Role::Derivative => Rational::new(),
         })

@@ -47,9 +47,15 @@ impl Activation for HardSwish {
             _ => Limit::Zero { negative: false },
         }
     }
-    fn eval(&self, x: &Float, role: Role, _ctx: &Ctx) -> Value {
-        let q = common::rational(x);
-        Value::Exact(match role {
+    fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        let q = x.clone();
+        Some(match role {
             Role::Forward if *x <= -3 => Rational::new(),
             Role::Forward if *x >= 3 => q,
             Role::Forward => Rational::from(&q + 3u32) * q / 6u32,

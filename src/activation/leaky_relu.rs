@@ -3,7 +3,7 @@
 use super::common::{self, one};
 use super::{Activation, Constants, Ctx, Facts, Kink, Limit, Role, Value};
 use super::{Domain, ParamSpec};
-use rug::Float;
+use rug::{Float, Rational};
 
 /// Leaky ReLU with slope alpha on the left.
 pub struct LeakyRelu;
@@ -61,11 +61,17 @@ impl Activation for LeakyRelu {
         }
     }
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, ctx: &Ctx) -> Option<Rational> {
         let left = *x < 0;
         let alpha = ctx.exact("alpha");
-        Value::Exact(match (role, left) {
-            (Role::Forward, false) => common::rational(x),
-            (Role::Forward, true) => common::rational(x) * alpha,
+        Some(match (role, left) {
+            (Role::Forward, false) => x.clone(),
+            (Role::Forward, true) => Rational::from(x * alpha),
             (Role::Derivative, false) => one(),
             (Role::Derivative, true) => alpha.clone(),
         })

@@ -293,4 +293,10 @@ pub trait Activation: Send + Sync {
     fn limit(&self, role: Role, positive: bool, c: &Constants) -> Limit;
     /// f(x) or f′(x) at a finite x (exact, at least 64 bits of precision).
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value;
+    /// f(x) or f′(x) exactly at a rational x where that value is rational (the
+    /// piecewise-rational functions and pieces); `None` elsewhere. Quantized inputs such as
+    /// 0.1·k are rationals no binary float holds, and their exact ties need this.
+    fn eval_rational(&self, _x: &Rational, _role: Role, _ctx: &Ctx) -> Option<Rational> {
+        None
+    }
 }

@@ -40,12 +40,17 @@ impl Activation for Relu {
             _ => Limit::Zero { negative: false },
         }
     }
-    fn eval(&self, x: &Float, role: Role, _ctx: &Ctx) -> Value {
-        let right = x.is_zero() || *x > 0;
-        Value::Exact(match role {
-            Role::Forward if *x > 0 => common::rational(x),
+    fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        Some(match role {
+            Role::Forward if *x > 0 => x.clone(),
             Role::Forward => Rational::new(),
-            Role::Derivative if right => one(),
+            Role::Derivative if *x >= 0 => one(),
             Role::Derivative => Rational::new(),
         })
     }

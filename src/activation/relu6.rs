@@ -46,11 +46,17 @@ impl Activation for Relu6 {
             _ => Limit::Zero { negative: false },
         }
     }
-    fn eval(&self, x: &Float, role: Role, _ctx: &Ctx) -> Value {
-        Value::Exact(match role {
+    fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        Some(match role {
             Role::Forward if *x <= 0 => Rational::new(),
             Role::Forward if *x >= 6 => Rational::from(6),
-            Role::Forward => common::rational(x),
+            Role::Forward => x.clone(),
             Role::Derivative if *x >= 0 && *x < 6 => one(),
             Role::Derivative => Rational::new(),
         })

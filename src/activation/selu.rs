@@ -64,4 +64,7 @@ impl Activation for Selu {
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
         exponential_linear(x, role, ctx, ctx.exact("lambda"), ctx.exact("alpha"))
     }
+    fn eval_rational(&self, x: &Rational, role: Role, ctx: &Ctx) -> Option<Rational> {
+        super::elu::linear_piece(x, role, ctx.exact("lambda"))
+    }
 }

@@ -33,10 +33,16 @@ impl Activation for Softsign {
             _ => Limit::Zero { negative: false },
         }
     }
-    fn eval(&self, x: &Float, role: Role, _ctx: &Ctx) -> Value {
-        let q = common::rational(x);
+    fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
+        Value::Exact(
+            self.eval_rational(&common::rational(x), role, ctx)
+                .expect("rational"),
+        )
+    }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        let q = x.clone();
         let denominator = Rational::from(q.abs_ref()) + 1u32;
-        Value::Exact(match role {
+        Some(match role {
             Role::Forward => q / denominator,
             Role::Derivative => Rational::from(denominator.square_ref()).recip(),
         })

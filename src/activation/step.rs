@@ -39,4 +39,10 @@ impl Activation for Step {
             _ => Value::Exact(Rational::new()),
         }
     }
+    fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
+        Some(match role {
+            Role::Forward if *x >= 0 => one(),
+            _ => Rational::new(),
+        })
+    }
 }

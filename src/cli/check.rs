@@ -52,8 +52,8 @@ pub struct Args {
     /// Catalog function the kernel computes (see `ulpgauge functions`).
     #[arg(long, value_name = "FUNC")]
     pub function: Option<String>,
-    /// Format of the kernel's inputs and outputs.
-    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
+    /// Format of the kernel's inputs and outputs (i8/u8: affine-quantized codes).
+    #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2|i8|u8")]
     pub format: Option<String>,
     #[command(flatten)]
     pub function_args: FunctionArgs,
@@ -168,6 +168,9 @@ pub struct Args {
     /// each mask is a variant of the kernel, measured and compared bit for bit.
     #[arg(long, value_name = "MASK", allow_hyphen_values = true)]
     pub cpu_mask: Vec<String>,
+    /// `--format i8|u8`: scales, zero points and `--max-steps` (see `cli/quant.rs`).
+    #[command(flatten)]
+    pub quant: super::quant::QuantCheckArgs,
 }
 
 /// Which inputs a check sweeps: shared by `check` and `matrix` (certify sets them from its
@@ -718,6 +721,9 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
 
 /// Runs `check`.
 pub fn run(args: Args) -> Result<i32, Failure> {
+    if let Some(code) = super::quant::check(&args)? {
+        return Ok(code);
+    }
     if let Some(function) = &args.function {
         if crate::activation::lookup_gated(function).is_some() {
             return super::check_pairs::run(&args, function);

@@ -58,5 +58,6 @@ pub fn defaults() -> Args {
         grads: None,
         caller_fpenv: None,
         cpu_mask: Vec::new(),
+        quant: Default::default(),
     }
 }

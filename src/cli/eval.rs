@@ -47,6 +47,8 @@ pub struct Args {
     json: bool,
     #[command(flatten)]
     function_args: FunctionArgs,
+    #[command(flatten)]
+    quant: super::quant::QuantArgs,
 }
 
 /// How the input was given.
@@ -184,6 +186,24 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
             "eval takes one input X (usage: ulpgauge eval --function FUNC --format FMT X)",
         ));
     };
+    if args.input_format.is_none() && args.output_format.is_none() {
+        let quantized = super::quant::eval(
+            args.format.as_deref(),
+            &args.quant,
+            function,
+            x,
+            args.derivative,
+            args.json,
+            &args.function_args,
+        )?;
+        if let Some(code) = quantized {
+            return Ok(code);
+        }
+    } else if args.quant.input_scale.is_some() || args.quant.output_scale.is_some() {
+        return Err(Failure::bad_input(
+            "--input-scale and --output-scale apply to --format i8 and u8 only",
+        ));
+    }
     let (input_name, output_name) = format_pair(
         args.format.as_deref(),
         args.input_format.as_deref(),

@@ -38,6 +38,7 @@ mod golden;
 mod inputs;
 mod matrix;
 mod merge;
+mod quant;
 mod slurm;
 mod worker;
 
