@@ -96,6 +96,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         symbol: Some(spec.symbol.clone()),
         function: spec.function.name().to_string(),
         format: spec.format.name().to_string(),
+        input_format: None,
         role: spec.role,
         params: options.function_args.params.clone(),
     };
@@ -114,6 +115,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         symbol: spec.symbol.clone(),
         function: spec.function.name().to_string(),
         format: spec.format,
+        input_format: spec.format,
         role: spec.role,
         params: spec.params.clone(),
         param_passing: spec.param_passing,
