@@ -57,6 +57,10 @@ echo "== The 8-bit path: OCP FP8 kernels, exhaustively, and a bfloat16 cast that
 run check --manifest kernels-under-test/lumen-edge-8bit.toml \
   --json reports/lumen-edge-8bit.json --html reports/lumen-edge-8bit.html
 echo
+echo "== Activations fused with a cast: input and output formats differ (kernels-under-test/lumen-edge-mixed.toml)"
+run check --manifest kernels-under-test/lumen-edge-mixed.toml \
+  --json reports/lumen-edge-mixed.json --html reports/lumen-edge-mixed.html
+echo
 echo "== Certificates (kernels-under-test/specs/)"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
   --html reports/certificate-sigmoid-f16.html
