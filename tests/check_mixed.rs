@@ -133,12 +133,26 @@ fn the_reference_kernel_is_exact_in_every_role_across_formats() {
 #[test]
 fn conflicting_or_incomplete_format_options_are_bad_input() {
     let bad: [&[&str]; 6] = [
-        &["--format", "f32", "--input-format", "bf16", "--output-format", "f32"],
+        &[
+            "--format",
+            "f32",
+            "--input-format",
+            "bf16",
+            "--output-format",
+            "f32",
+        ],
         &["--format", "f32", "--output-format", "bf16"],
         &["--input-format", "bf16"],
         &["--output-format", "f32"],
         &["--input-format", "bf9", "--output-format", "f32"],
-        &["--input-format", "bf16", "--output-format", "f32", "--shard", "1/2"],
+        &[
+            "--input-format",
+            "bf16",
+            "--output-format",
+            "f32",
+            "--shard",
+            "1/2",
+        ],
     ];
     for extra in bad {
         let path = out_path("bad.json");
@@ -190,7 +204,10 @@ fn manifest_entries_take_input_and_output_formats_or_format_alone() {
     assert_eq!(r["kernels"][0]["input_format"], "bf16");
     assert_eq!(r["kernels"][0]["output_format"], "f32");
     for (name, keys) in [
-        ("both.toml", "format = \"f32\"\ninput-format = \"bf16\"\noutput-format = \"f32\""),
+        (
+            "both.toml",
+            "format = \"f32\"\ninput-format = \"bf16\"\noutput-format = \"f32\"",
+        ),
         ("half.toml", "input-format = \"bf16\""),
         ("none.toml", ""),
         (
