@@ -222,3 +222,48 @@ fn manifest_entries_take_input_and_output_formats_or_format_alone() {
         assert!(err.contains("line "), "{name}: {err}");
     }
 }
+
+#[test]
+fn certify_specs_take_input_and_output_formats() {
+    let dir = out_path("specs");
+    std::fs::create_dir_all(&dir).unwrap();
+    let lib = kernels().join("liblumen_edge.so");
+    let spec = |formats: &str| {
+        format!(
+            "[kernel]\nlibrary = \"{}\"\nsymbol = \"lumen_silu_bf16_f32\"\nfunction = \"silu\"\n{formats}\n[sweep]\nrange = \"-2,2\"\n[require]\nmax_ulp = 0.5\n",
+            lib.display()
+        )
+    };
+    let good = dir.join("good.toml");
+    std::fs::write(
+        &good,
+        spec("input_format = \"bf16\"\noutput_format = \"f32\""),
+    )
+    .unwrap();
+    let path = out_path("certificate.json");
+    let (code, _, err) = run(&[
+        "certify",
+        "--spec",
+        good.to_str().unwrap(),
+        "--json",
+        path.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let c = read(&path);
+    assert_eq!(c["kernel"]["input_format"], "bf16");
+    assert_eq!(c["kernel"]["output_format"], "f32");
+    // The range is read in bf16: every bf16 pattern in [-2, 2) is an input.
+    assert!(c["statement"]
+        .as_str()
+        .unwrap()
+        .contains("bf16 bit patterns"));
+    let bad = dir.join("bad.toml");
+    std::fs::write(
+        &bad,
+        spec("format = \"f32\"\ninput_format = \"bf16\"\noutput_format = \"f32\""),
+    )
+    .unwrap();
+    let (code, _, err) = run(&["certify", "--spec", bad.to_str().unwrap()]);
+    assert_eq!(code, 2, "{err}");
+    assert!(err.contains("kernel.format"), "{err}");
+}

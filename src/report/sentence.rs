@@ -406,6 +406,7 @@ mod tests {
         assert_eq!(
             special(
                 f,
+                f,
                 0x7bff,
                 Some(0x7e00),
                 0x7bff,
@@ -419,6 +420,7 @@ mod tests {
         assert_eq!(
             special(
                 f,
+                f,
                 0xfc00,
                 Some(0x7e00),
                 0xbc00,
@@ -431,6 +433,7 @@ mod tests {
         );
         assert_eq!(
             special(
+                f,
                 f,
                 0x8000,
                 Some(0x0000),
