@@ -506,8 +506,13 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
             names.join(", ")
         ))
     })?;
-    let format = crate::format::resolve(&target.format, args.function_args.fp8_overflow)
-        .map_err(Failure::bad_input)?;
+    let format =
+        crate::format::resolve(&target.format, args.function_args.fp8_overflow).map_err(|e| {
+            match target.input_format {
+                Some(_) => Failure::bad_input(format!("--output-format: {e}")),
+                None => Failure::bad_input(e),
+            }
+        })?;
     let input_format = input_format_of(target, format)?;
     if input_format.name() != format.name() {
         refuse_for_mixed(target, args)?;
