@@ -47,6 +47,7 @@ fn main() {
             symbol: symbol.into(),
             function: "sigmoid".into(),
             format: ulpgauge::format::by_name("f32").unwrap(),
+            input_format: ulpgauge::format::by_name("f32").unwrap(),
             role: KernelRole::Forward,
             params: vec![],
             param_passing: ParamPassing::Baked,

@@ -16,7 +16,7 @@ build() { # build NAME SOURCES...
   local name="$1"; shift
   "$CC" $CFLAGS -std=c11 -fPIC -shared -fvisibility=hidden -o "$out/lib$name.so" "$@" -lm
 }
-build lumen_edge "$src/lumen_scalar.c" "$src/lumen_simd.c" "$src/lumen_elu_f16.c" "$src/lumen_gelu_bf16.c" "$src/lumen_fp8.c"
+build lumen_edge "$src/lumen_scalar.c" "$src/lumen_simd.c" "$src/lumen_elu_f16.c" "$src/lumen_gelu_bf16.c" "$src/lumen_fp8.c" "$src/lumen_mixed.c"
 build lumen_faulty "$src/lumen_faulty.c"
 build lumen_fastmath "$src/lumen_fastmath.c"
 build lumen_env "$src/lumen_env.c"

@@ -65,6 +65,10 @@ echo "== The quantized path: int8/uint8 table kernels, all 256 codes (kernels-un
 run check --manifest kernels-under-test/lumen-edge-int8.toml \
   --json reports/lumen-edge-int8.json --csv reports/lumen-edge-int8.csv
 echo
+echo "== Activations fused with a cast: input and output formats differ (kernels-under-test/lumen-edge-mixed.toml)"
+run check --manifest kernels-under-test/lumen-edge-mixed.toml \
+  --json reports/lumen-edge-mixed.json --html reports/lumen-edge-mixed.html
+echo
 echo "== Certificates (kernels-under-test/specs/)"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --json reports/certificate-sigmoid-f16.json \
   --html reports/certificate-sigmoid-f16.html

@@ -17,6 +17,11 @@
  *                void NAME(const T *y, const T *g, T *dx, size_t n); dx[i] = g[i] * h(y[i])
  *                where h(f(x)) = f'(x).
  *
+ * Mixed formats (check --input-format F --output-format G, or input-format/output-format in a
+ * manifest): the types follow each side, x and g of F's type, y and dx of G's, e.g.
+ *   void NAME(const uint16_t *x, float *y, size_t n);                bf16 in, f32 out
+ *   void NAME(const float *x, uint16_t *y, size_t n);                f32 in, bf16 out
+ *
  * Parameters (alpha, beta) are either baked into the kernel or passed as trailing `float`
  * arguments, in the catalog's order for the function (`ulpgauge functions` lists it):
  *   void NAME(const T *x, T *y, size_t n, float alpha);
@@ -49,6 +54,11 @@ typedef void (*ulpgauge_u8_kernel)(const uint8_t *x, uint8_t *y, size_t n);
 typedef void (*ulpgauge_u8_gradient)(const uint8_t *x, const uint8_t *g, uint8_t *dx, size_t n);
 typedef void (*ulpgauge_i8_quantized)(const int8_t *q, int8_t *y, size_t n);
 typedef void (*ulpgauge_u8_quantized)(const uint8_t *q, uint8_t *y, size_t n);
+/* Mixed formats, a few of the pairs: input type, then output type. */
+typedef void (*ulpgauge_u16_f32_kernel)(const uint16_t *x, float *y, size_t n);
+typedef void (*ulpgauge_f32_u16_kernel)(const float *x, uint16_t *y, size_t n);
+typedef void (*ulpgauge_u16_u8_kernel)(const uint16_t *x, uint8_t *y, size_t n);
+typedef void (*ulpgauge_f32_u8_kernel)(const float *x, uint8_t *y, size_t n);
 
 #ifdef __cplusplus
 }

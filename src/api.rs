@@ -201,6 +201,7 @@ impl Check {
         Ok(CheckConfig {
             function,
             format,
+            input_format: format,
             role: if self.derivative {
                 CheckRole::Derivative
             } else {

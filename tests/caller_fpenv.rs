@@ -50,6 +50,7 @@ fn compared_inputs(function: &str, range: Option<&str>) -> Vec<u32> {
         symbol: None,
         function: function.to_string(),
         format: "f32".to_string(),
+        input_format: None,
         role: ulpgauge::check::CheckRole::Forward,
         params: Vec::new(),
     };

@@ -84,3 +84,9 @@ LUMEN_EXPORT void lumen_sigmoid_grad_e5m2(const uint8_t *x, const uint8_t *g, ui
         dx[i] = fp8_encode(fp8_decode(g[i], 2, 15, 0) * s * (1.0f - s), 2, 15, 0);
     }
 }
+
+/* f16 activations in, E4M3 out (the next matmul reads FP8): a float sigmoid, one conversion. */
+LUMEN_EXPORT void lumen_sigmoid_f16_e4m3(const uint16_t *x, uint8_t *y, size_t n) {
+    for (size_t i = 0; i < n; i++)
+        y[i] = fp8_encode(1.0f / (1.0f + expf(-lumen_f16_to_f32(x[i]))), 3, 7, 1);
+}

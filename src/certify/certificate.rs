@@ -7,7 +7,9 @@
 //! - `schema`, `verdict` ("pass" | "fail" | "crashed"), `exit_code` (0 | 1 | 3), `statement`
 //!   (the coverage in words: exhaustive, or evidence over sampled points and not proof).
 //! - `spec`: {path, sha256}.
-//! - `kernel`: {library, symbol, function, format, role, from_output, params, param_rounding}.
+//! - `kernel`: {library, symbol, function, format, input_format, output_format, role,
+//!   from_output, params, param_rounding} (`format` the outputs'; the pair differs only for a
+//!   kernel that mixes formats).
 //! - `requirements`: [{key, requirement, limit, measured, shown, passed, detail}].
 //! - `sweep`: {kinds, range, coverage, inputs, points, seed, per_binade, random_points,
 //!   reference_failures}; `ranges`: the same for each `require.range` sweep, with `range`.
@@ -45,8 +47,12 @@ pub struct KernelRef {
     pub symbol: String,
     /// Catalog function.
     pub function: String,
-    /// Format.
+    /// Format (of the outputs).
     pub format: &'static str,
+    /// Format of the inputs (equal to `output_format` unless the kernel mixes formats).
+    pub input_format: &'static str,
+    /// Format of the outputs.
+    pub output_format: &'static str,
     /// "forward", "derivative" or "gradient".
     pub role: String,
     /// Gradient kernels fed f(x).
@@ -196,7 +202,7 @@ pub fn certificate(
         schema: CERTIFICATE_SCHEMA,
         verdict,
         exit_code,
-        statement: statement(&sweep, &ranges, report.format),
+        statement: statement(&sweep, &ranges, report.input_format),
         spec: SpecRef {
             path: spec.path.display().to_string(),
             sha256: spec.sha256.clone(),
@@ -206,6 +212,8 @@ pub fn certificate(
             symbol: spec.symbol.clone(),
             function: report.function.clone(),
             format: report.format,
+            input_format: report.input_format,
+            output_format: report.output_format,
             role: report.role.clone(),
             from_output: report.from_output,
             params: report.params.clone(),
@@ -236,7 +244,14 @@ pub fn table(c: &Certificate) -> String {
     let k = &c.kernel;
     s.push_str(&format!(
         "certify {} {} {} — {}\n",
-        k.function, k.role, k.format, k.symbol
+        k.function,
+        k.role,
+        if k.input_format == k.output_format {
+            k.format.to_string()
+        } else {
+            format!("{} → {}", k.input_format, k.output_format)
+        },
+        k.symbol
     ));
     if let Some(lib) = &c.provenance.library {
         s.push_str(&format!(

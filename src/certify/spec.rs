@@ -5,7 +5,9 @@
 //! library = "build/liblumen_edge.so"   # relative to the spec file
 //! symbol = "lumen_elu_f32"
 //! function = "elu"
-//! format = "f32"                       # f32 | f16 | bf16
+//! format = "f32"                       # f32 | f16 | bf16 | e4m3 | e5m2; or both of:
+//! # input_format = "bf16"              #   a kernel that reads one format
+//! # output_format = "f32"              #   and writes another (see check --input-format)
 //! role = "forward"                     # forward | derivative | gradient | gradient-from-output
 //! params = { alpha = "0.5" }           # exact decimals (strings keep every digit)
 //! param_passing = "trailing"           # baked (default) | trailing
@@ -69,7 +71,9 @@ struct KernelTable {
     library: String,
     symbol: String,
     function: String,
-    format: String,
+    format: Option<String>,
+    input_format: Option<String>,
+    output_format: Option<String>,
     role: Option<String>,
     #[serde(default)]
     params: BTreeMap<String, Number>,
@@ -262,8 +266,10 @@ pub struct Spec {
     pub symbol: String,
     /// Catalog function.
     pub function: Entry,
-    /// Format.
+    /// Format of the outputs (and of the inputs unless `input_format` differs).
     pub format: &'static dyn Format,
+    /// Format of the inputs (and of a gradient's g); `format` unless the kernel mixes formats.
+    pub input_format: &'static dyn Format,
     /// Role.
     pub role: KernelRole,
     /// (NAME, exact decimal).
@@ -384,13 +390,50 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
             names.join(", ")
         )
     })?;
-    let format = crate::format::by_name(&k.format).ok_or_else(|| {
-        format!(
-            "key `kernel.format`: unknown format '{}' (known: {})",
-            k.format,
-            crate::format::KNOWN
-        )
-    })?;
+    let (key, name, input_name) = match (&k.format, &k.input_format, &k.output_format) {
+        (Some(f), None, None) => ("kernel.format", f, None),
+        (None, Some(i), Some(o)) => ("kernel.output_format", o, Some(i)),
+        (Some(_), _, _) => {
+            return Err(
+                "key `kernel.format`: give `format` or both `input_format` and `output_format`, not both"
+                    .into(),
+            )
+        }
+        (None, None, None) => {
+            return Err("key `kernel.format`: missing (or `input_format` and `output_format`)".into())
+        }
+        (None, _, _) => {
+            return Err(
+                "key `kernel.input_format`: needs both `input_format` and `output_format` (or `format`)"
+                    .into(),
+            )
+        }
+    };
+    let known = |key: &str, name: &str| {
+        crate::format::by_name(name).ok_or_else(|| {
+            format!(
+                "key `{key}`: unknown format '{name}' (known: {})",
+                crate::format::KNOWN
+            )
+        })
+    };
+    let format = known(key, name)?;
+    // An input is a bit pattern, not a rounding: a `-sat` suffix means nothing there.
+    let input_format = match input_name {
+        None => format,
+        Some(i) => {
+            let base = i.strip_suffix("-sat").unwrap_or(i);
+            let f = known("kernel.input_format", base)?;
+            if f.name() == format.name() {
+                format
+            } else {
+                f
+            }
+        }
+    };
+    if input_format.name() != format.name() && k.in_place {
+        return Err("key `kernel.in_place`: y == x needs equal input and output formats".into());
+    }
     if k.symbol.trim().is_empty() {
         return Err("key `kernel.symbol`: empty".into());
     }
@@ -484,7 +527,7 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
     let range = match &s.range {
         Some(r) => {
             let t = r.text("sweep.range")?;
-            InputRange::parse(format, &t)
+            InputRange::parse(input_format, &t)
                 .map_err(|e| format!("key `sweep.range`: {}", e.replace("--range ", "")))?;
             Some(t)
         }
@@ -582,7 +625,7 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
     for (i, entry) in r.range.iter().enumerate() {
         let key = format!("require.range[{i}].range");
         let t = entry.range.text(&key)?;
-        let range = InputRange::parse(format, &t)
+        let range = InputRange::parse(input_format, &t)
             .map_err(|e| format!("key `{key}`: {}", e.replace("--range ", "")))?;
         let max_ulp =
             limit(Some(entry.max_ulp), &format!("require.range[{i}].max_ulp"))?.expect("set");
@@ -624,6 +667,7 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
         symbol: k.symbol.clone(),
         function,
         format,
+        input_format,
         role,
         params,
         param_passing,

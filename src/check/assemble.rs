@@ -23,6 +23,7 @@ pub(super) fn report(
     sink: &mut dyn crate::measure::FindingSink,
 ) -> Result<CheckReport, String> {
     let format = config.format;
+    let input = config.input_format;
     let function = config.function;
     let spec = &config.sweep;
     for h in &mut hygiene {
@@ -51,11 +52,11 @@ pub(super) fn report(
             })
         }
     };
-    let figures = gathered.figures(format, sink);
-    let extremes = confirm::extremes(format, &figures.accuracy, &figures.non_finite, &thresholds);
-    let reference_check = confirm::confirm(&setup.refs, format, &extremes);
+    let figures = gathered.figures(input, format, sink);
+    let extremes = confirm::extremes(input, &figures.accuracy, &figures.non_finite, &thresholds);
+    let reference_check = confirm::confirm(&setup.refs, input, &extremes);
     let verdict = figures.verdict(
-        format,
+        input,
         &hygiene,
         &reference_check.disagreements,
         Acceptance {
@@ -94,7 +95,7 @@ pub(super) fn report(
             .interesting
             .iter()
             .map(|i| InterestingPoint {
-                input: BitsValue::new(format, i.input),
+                input: BitsValue::new(input, i.input),
                 what: i.what.clone(),
             })
             .collect(),
@@ -130,6 +131,8 @@ pub(super) fn report(
         schema: SCHEMA,
         function: function.name().to_string(),
         format: format.name(),
+        input_format: input.name(),
+        output_format: format.name(),
         role: config.role.report_name().to_string(),
         from_output: matches!(config.role, CheckRole::Gradient { from_output: true }),
         params,

@@ -29,6 +29,19 @@ pub fn builtin(
     params: &[(String, Rational)],
     rounding: ParamRounding,
 ) -> Result<Box<dyn KernelUnderTest>, String> {
+    builtin_mixed(name, function, format, format, role, params, rounding)
+}
+
+/// [`builtin`] for a kernel whose inputs (x, g) are in `input` and outputs in `format`.
+pub fn builtin_mixed(
+    name: &str,
+    function: Entry,
+    input: &'static dyn Format,
+    format: &'static dyn Format,
+    role: CheckRole,
+    params: &[(String, Rational)],
+    rounding: ParamRounding,
+) -> Result<Box<dyn KernelUnderTest>, String> {
     if matches!(role, CheckRole::Gradient { from_output: true }) {
         return Err("built-in kernels take x, not f(x): drop --from-output".into());
     }
@@ -38,12 +51,12 @@ pub fn builtin(
     } else {
         Role::Derivative
     };
-    let evaluator = Evaluator::new(function, evaluator_role, constants, format);
+    let evaluator = Evaluator::new(function, evaluator_role, constants, format).with_input(input);
     // A 16-bit kernel without g looks its answers up in a table computed once, in parallel.
     let table: Option<Vec<u32>> =
-        (format.width() <= 16 && !matches!(role, CheckRole::Gradient { .. })).then(|| {
+        (input.width() <= 16 && !matches!(role, CheckRole::Gradient { .. })).then(|| {
             use rayon::prelude::*;
-            (0..format.pattern_count() as u32)
+            (0..input.pattern_count() as u32)
                 .into_par_iter()
                 .map(|x| {
                     evaluator
@@ -60,7 +73,7 @@ pub fn builtin(
         let r = match g {
             None => evaluator.reference(x),
             Some(g) => {
-                let g = Rational::from_f64(format.to_f64(g)).expect("finite g");
+                let g = Rational::from_f64(input.to_f64(g)).expect("finite g");
                 evaluator.reference_scaled(x, Some(&g))
             }
         };
@@ -74,9 +87,10 @@ pub fn builtin(
             Some(if finite(y) { format.next_up(y) } else { y })
         })),
         "flush-to-zero" => Box::new(InProcessKernel::new(move |x, g| {
+            let in_sign = input.infinity(true) & !input.infinity(false);
             let sign = format.infinity(true) & !format.infinity(false);
-            let x = if format.classify(x) == Class::Subnormal {
-                x & sign
+            let x = if input.classify(x) == Class::Subnormal {
+                x & in_sign
             } else {
                 x
             };
@@ -88,10 +102,13 @@ pub fn builtin(
             })
         })),
         "crash-on-nan" => Box::new(InProcessKernel::new(move |x, g| {
-            (format.classify(x) != Class::Nan).then(|| exact(x, g))
+            (input.classify(x) != Class::Nan).then(|| exact(x, g))
         })),
         "blended-elu" => {
-            if function.name() != "elu" || role != CheckRole::Forward {
+            if function.name() != "elu"
+                || role != CheckRole::Forward
+                || input.name() != format.name()
+            {
                 return Err("blended-elu is a forward elu kernel".into());
             }
             Box::new(InProcessKernel::new(move |x, _| {

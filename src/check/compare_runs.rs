@@ -32,6 +32,7 @@ pub fn compare_runs(
 ) -> Result<OutputComparison, String> {
     let setup = Setup::new(config)?;
     let format = config.format;
+    let input = config.input_format;
     let mut measured = setup.plan.measured.clone();
     if let Some(shard) = &config.shard {
         let (from, to) = shard.bounds(measured.len());
@@ -55,7 +56,7 @@ pub fn compare_runs(
     };
     // The outputs at +0 and −0, to tell an input read as zero.
     let gradient = config.role != CheckRole::Forward && config.role != CheckRole::Derivative;
-    let zeros = [0u32, format.infinity(true) & !format.infinity(false)];
+    let zeros = [0u32, input.infinity(true) & !input.infinity(false)];
     let zero_out = |k: &mut dyn KernelUnderTest| k.run(&zeros, None).outputs;
     let (zero_a, zero_b) = if gradient {
         (Vec::new(), Vec::new())
@@ -78,12 +79,12 @@ pub fn compare_runs(
                 continue;
             }
             result.differing += 1;
-            if format.classify(x) == Class::Subnormal {
+            if input.classify(x) == Class::Subnormal {
                 result.at_subnormal_inputs += 1;
             }
             if result.first_differences.len() < LISTED_DIFFERENCES {
                 result.first_differences.push(Difference {
-                    input: BitsValue::new(format, x),
+                    input: BitsValue::new(input, x),
                     first: ya.map(|y| BitsValue::new(format, y)),
                     second: yb.map(|y| BitsValue::new(format, y)),
                 });
@@ -93,8 +94,8 @@ pub fn compare_runs(
                     result.outputs_flushed += 1;
                 }
             }
-            if !gradient && format.classify(x) == Class::Subnormal {
-                let sign = format.is_sign_negative(x) as usize;
+            if !gradient && input.classify(x) == Class::Subnormal {
+                let sign = input.is_sign_negative(x) as usize;
                 let (za, zb) = (
                     zero_a.get(sign).copied().flatten(),
                     zero_b.get(sign).copied().flatten(),

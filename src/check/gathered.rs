@@ -122,8 +122,15 @@ impl Gathered {
         self.inputs += other.inputs;
     }
 
-    /// The figures; findings still held go to the sink.
-    pub fn figures(self, format: &'static dyn Format, sink: &mut dyn FindingSink) -> Figures {
+    /// The figures; findings still held go to the sink. `input`: the inputs' format, `output`
+    /// the outputs'.
+    pub fn figures(
+        self,
+        input: &'static dyn Format,
+        output: &'static dyn Format,
+        sink: &mut dyn FindingSink,
+    ) -> Figures {
+        let format = input;
         let (accuracy, shape, streamed_runs, kept) = self.stream.finish(sink);
         let scanned = self.runs.as_ref().map_or(0, |r| r.scanned);
         let summary = match (streamed_runs, self.runs) {
@@ -137,7 +144,8 @@ impl Gathered {
         };
         // The rules read the zeros and the first and last subnormal-reference point per sign,
         // the kinks the kink points: exactly what the stream keeps.
-        let special_values = measure::special_values(format, &self.probe_points, &kept, &ctx);
+        let special_values =
+            measure::special_values(input, output, &self.probe_points, &kept, &ctx);
         let kinks = if self.role_is_forward {
             Vec::new()
         } else {
@@ -145,7 +153,7 @@ impl Gathered {
             all.extend(kept.iter().filter(|p| p.left.is_some()).cloned());
             all.sort_by_key(|p| p.input);
             all.dedup_by_key(|p| p.input);
-            measure::kink_sides(format, &all, self.tolerance)
+            measure::kink_sides(input, output, &all, self.tolerance)
         };
         let mut failures = self.failures;
         failures.sort();

@@ -20,7 +20,7 @@ mod stream;
 pub use crate::report::provenance::{
     cpu_info, gmp_version, library_info, mpfr_version, utc_now, Provenance,
 };
-pub use builtin::{blended_elu, builtin, BUILTIN_NAMES};
+pub use builtin::{blended_elu, builtin, builtin_mixed, BUILTIN_NAMES};
 pub use compare_runs::compare_runs;
 pub use confirm::Confirmation;
 pub use gathered::{Acceptance, CrashAt, Crashes, Figures, Gathered};
@@ -49,8 +49,10 @@ use crate::reference::fast::FastEvaluator;
 pub struct CheckConfig {
     /// Catalog function.
     pub function: Entry,
-    /// Format of the kernel.
+    /// Format of the kernel's outputs (and of its inputs unless `input_format` differs).
     pub format: &'static dyn Format,
+    /// Format of the kernel's inputs (and of a gradient's g): the sweep runs over it.
+    pub input_format: &'static dyn Format,
     /// What the kernel computes.
     pub role: CheckRole,
     /// Validated `--param` values.
@@ -130,6 +132,7 @@ struct Setup {
 impl Setup {
     fn new(config: &CheckConfig) -> Result<Setup, String> {
         let format = config.format;
+        let input = config.input_format;
         let function = config.function;
         let constants =
             Constants::resolve_checked(function, &config.params, config.param_rounding, format)?;
@@ -138,8 +141,10 @@ impl Setup {
             .into_iter()
             .map(|k| (k.at as f64, k.left))
             .collect();
-        let forward = Evaluator::new(function, Role::Forward, constants.clone(), format);
-        let derivative = Evaluator::new(function, Role::Derivative, constants.clone(), format);
+        let forward =
+            Evaluator::new(function, Role::Forward, constants.clone(), format).with_input(input);
+        let derivative =
+            Evaluator::new(function, Role::Derivative, constants.clone(), format).with_input(input);
         let fast = (config.reference == ReferencePath::Auto).then(|| {
             (
                 FastEvaluator::new(&forward),
@@ -161,8 +166,8 @@ impl Setup {
             role_is_forward,
             config.sweep.neighbours,
         );
-        let plan = sweep::plan(format, &config.sweep, interesting)?;
-        let probes = probe_inputs(format, &plan, &refs, role_is_forward);
+        let plan = sweep::plan(input, &config.sweep, interesting)?;
+        let probes = probe_inputs(input, &plan, &refs, role_is_forward);
         Ok(Setup {
             constants,
             refs,
@@ -221,10 +226,11 @@ pub fn run_check_into(
     let setup = Setup::new(config)?;
     let mut prober = Prober::new(kernel, &setup.refs, config.progress);
     let (gathered, thresholds) = gather(&mut prober, &setup, config, sink, false);
-    let format = config.format;
+    let format = config.input_format;
     // Shown beside the figures, not measured: these inputs are not counted.
     let centres = assemble::neighbourhood_centres(format, &setup.plan.interesting, &thresholds);
-    let neighbourhoods = measure::neighbourhoods(format, &centres, &mut prober, NEIGHBOURHOOD);
+    let neighbourhoods =
+        measure::neighbourhoods(format, config.format, &centres, &mut prober, NEIGHBOURHOOD);
     let hygiene_sample = spread(format, &setup.plan.measured, HYGIENE_SAMPLE);
     let (first, second) = prober.arguments(&hygiene_sample);
     let hygiene = prober.kernel().hygiene(&first, second.as_deref());
@@ -262,7 +268,8 @@ fn gather(
     sink: &mut dyn measure::FindingSink,
     recorded: bool,
 ) -> (Gathered, Vec<measure::ThresholdReport>) {
-    let format = config.format;
+    let format = config.input_format;
+    let output = config.format;
     let function = config.function;
     let plan = &setup.plan;
     let role_is_forward = config.role == CheckRole::Forward;
@@ -288,8 +295,10 @@ fn gather(
     };
     let span = exhaustive.then(|| ordinal_span(format, spanned)).flatten();
     let stream = Stream::new(
-        measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span),
-        role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone)),
+        measure::AccuracyAcc::new(output, config.abs_floor, config.list_over, span)
+            .with_input(format),
+        role_is_forward
+            .then(|| measure::ShapeAcc::new(output, function.facts().monotone).with_input(format)),
         exhaustive,
         config.listed_runs,
     );
@@ -307,7 +316,7 @@ fn gather(
         // Another part's inputs next to ours: evaluated again here, counted there.
         let neighbours: Vec<u32> = before.into_iter().chain(after).collect();
         let (evaluated, failures) = (prober.evaluated, prober.failures.len());
-        let l = format.layout();
+        let l = output.layout();
         let mut known: Vec<measure::Known> = prober
             .probe(&neighbours)
             .iter()
@@ -327,6 +336,7 @@ fn gather(
             let territory = territory(plan, before, from, to);
             return measure::non_finite_part(
                 format,
+                l,
                 &mut known,
                 prober,
                 territory,
@@ -340,6 +350,7 @@ fn gather(
         let mut only_present = recorded::PresentOnly::new(prober, &plan.measured, &setup.probes);
         let mut part = measure::non_finite_part(
             format,
+            l,
             &mut known,
             &mut only_present,
             territory,
@@ -357,6 +368,7 @@ fn gather(
     } else {
         measure::thresholds(
             format,
+            output,
             &setup.role_thresholds,
             prober,
             search_kernel,

@@ -69,15 +69,20 @@ impl RoleReferences {
         evaluator.as_ref()?.try_reference(x)
     }
 
+    /// The outputs' format.
     fn format(&self) -> &'static dyn Format {
         self.forward.format()
+    }
+    /// The inputs' format (x and a gradient's g).
+    fn input_format(&self) -> &'static dyn Format {
+        self.forward.input_format()
     }
     /// The kernel's arguments for input x.
     pub fn arguments(&self, x: u32) -> Result<(u32, Option<u32>), String> {
         match self.role {
             CheckRole::Forward | CheckRole::Derivative => Ok((x, None)),
             CheckRole::Gradient { from_output } => {
-                let g = gradient_factor(self.format(), self.seed, x);
+                let g = gradient_factor(self.input_format(), self.seed, x);
                 let first = if from_output {
                     self.forward.reference(x).map_err(|e| e.to_string())?.bits
                 } else {
@@ -124,6 +129,7 @@ impl RoleReferences {
         second: Option<u32>,
     ) -> Result<(Reference, Option<Reference>), String> {
         let format = self.format();
+        let input = self.input_format();
         let g = match self.role {
             CheckRole::Forward => {
                 if let Some(r) = self.fast_reference(true, x).filter(|_| allow_fast) {
@@ -133,12 +139,12 @@ impl RoleReferences {
             }
             CheckRole::Derivative => None,
             CheckRole::Gradient { .. } => {
-                let g = second.unwrap_or_else(|| gradient_factor(format, self.seed, x));
+                let g = second.unwrap_or_else(|| gradient_factor(input, self.seed, x));
                 // A recorded g may be anything; a non-finite one has no exact product.
-                Some(Rational::from_f64(format.to_f64(g)).ok_or_else(|| {
+                Some(Rational::from_f64(input.to_f64(g)).ok_or_else(|| {
                     format!(
                         "g = {} is not a finite number",
-                        crate::format::hex(format, g)
+                        crate::format::hex(input, g)
                     )
                 })?)
             }
@@ -152,7 +158,7 @@ impl RoleReferences {
             Some(g) => self.derivative.reference_scaled(x, Some(g)),
         }
         .map_err(|e| e.to_string())?;
-        let value = format.to_f64(x);
+        let value = input.to_f64(x);
         let left = self
             .kinks
             .iter()

@@ -35,12 +35,12 @@ impl Kept {
         }
     }
 
-    /// Adds the next point in bit order.
-    pub fn add(&mut self, l: Layout, p: &Point) {
+    /// Adds the next point in bit order (`l` the inputs' layout, `out` the outputs').
+    pub fn add(&mut self, l: Layout, out: Layout, p: &Point) {
         if Self::always(l, p) {
             self.points.insert(p.input, p.clone());
         }
-        if l.is_finite(p.input) && l.classify(p.reference.bits) == Class::Subnormal {
+        if l.is_finite(p.input) && out.classify(p.reference.bits) == Class::Subnormal {
             let side = l.is_sign_negative(p.input) as usize;
             match self.subnormal_ends[side] {
                 None => self.subnormal_ends[side] = Some((p.input, p.input)),
@@ -94,6 +94,9 @@ pub struct Stream {
     format: &'static dyn Format,
     /// The format's bit arithmetic, inlined in the per-point work.
     layout: Layout,
+    /// The input layout when it differs from the output's (mixed-format kernels).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    in_layout: Option<Layout>,
     accuracy: AccuracyAcc,
     shape: Option<ShapeAcc>,
     /// Exhaustive sweeps only: non-finite runs stream too.
@@ -111,19 +114,26 @@ impl Stream {
         keep: usize,
     ) -> Stream {
         let format = accuracy.format();
+        let input = accuracy.input_format();
         Stream {
             format,
             layout: format.layout(),
+            in_layout: (input.name() != format.name()).then(|| input.layout()),
             accuracy,
             shape,
-            runs: exhaustive.then(|| NonFiniteStream::new(format, keep)),
+            runs: exhaustive.then(|| NonFiniteStream::new(input, keep).with_output(format)),
             kept: Kept::default(),
         }
     }
 
-    /// The format's bit arithmetic.
+    /// The output format's bit arithmetic.
     pub fn layout(&self) -> Layout {
         self.layout
+    }
+
+    /// The input format's bit arithmetic.
+    fn il(&self) -> Layout {
+        self.in_layout.unwrap_or(self.layout)
     }
 
     /// Empty accumulators with the same settings, for a later stretch to merge in.
@@ -131,6 +141,7 @@ impl Stream {
         Stream {
             format: self.format,
             layout: self.layout,
+            in_layout: self.in_layout,
             accuracy: self.accuracy.fresh(),
             shape: self.shape.as_ref().map(|s| s.fresh()),
             runs: self.runs.as_ref().map(NonFiniteStream::fresh),
@@ -147,7 +158,7 @@ impl Stream {
         if let Some(r) = &mut self.runs {
             r.add(p);
         }
-        self.kept.add(self.layout, p);
+        self.kept.add(self.il(), self.layout, p);
     }
 
     /// Adds points in bit order, taking runs at once (see [`Self::add_run`]).
@@ -178,7 +189,9 @@ impl Stream {
     #[inline(always)]
     fn runnable(&self, p: &Point) -> bool {
         let l = self.layout;
-        p.left.is_none()
+        // Runs compare inputs and outputs in one layout; mixed formats go point by point.
+        self.in_layout.is_none()
+            && p.left.is_none()
             && p.second.is_none()
             && matches!(l.classify(p.input), Class::Normal | Class::Subnormal)
             && p.output.is_some_and(|o| l.is_finite(o))
@@ -271,7 +284,7 @@ impl Stream {
         if let (Some(mine), Some(theirs)) = (&mut self.runs, other.runs) {
             mine.merge(theirs);
         }
-        self.kept.merge(self.layout, other.kept);
+        self.kept.merge(self.il(), other.kept);
     }
 
     /// Hands the findings finished so far (non-finite runs, points over the listing limit)

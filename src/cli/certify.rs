@@ -96,6 +96,8 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         symbol: Some(spec.symbol.clone()),
         function: spec.function.name().to_string(),
         format: spec.format.name().to_string(),
+        input_format: (spec.input_format.name() != spec.format.name())
+            .then(|| spec.input_format.name().to_string()),
         role: spec.role,
         params: options.function_args.params.clone(),
     };
@@ -114,6 +116,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         symbol: spec.symbol.clone(),
         function: spec.function.name().to_string(),
         format: spec.format,
+        input_format: spec.input_format,
         role: spec.role,
         params: spec.params.clone(),
         param_passing: spec.param_passing,

@@ -10,8 +10,8 @@ use super::check_env::{self, CallerEnv};
 use super::{Failure, FunctionArgs};
 use crate::activation::{catalog, lookup, Constants};
 use crate::check::{
-    builtin, run_check_into, run_recorded, CheckConfig, CheckRole, KernelUnderTest, ReferencePath,
-    RunnerKernel, Shard,
+    builtin_mixed, run_check_into, run_recorded, CheckConfig, CheckRole, KernelUnderTest,
+    ReferencePath, RunnerKernel, Shard,
 };
 use crate::format::Format;
 use crate::kernel::{
@@ -52,9 +52,16 @@ pub struct Args {
     /// Catalog function the kernel computes (see `ulpgauge functions`).
     #[arg(long, value_name = "FUNC")]
     pub function: Option<String>,
-    /// Format of the kernel's inputs and outputs (i8/u8: affine-quantized codes).
+    /// Format of the kernel's inputs and outputs (shorthand for --input-format F
+    /// --output-format F; i8/u8: affine-quantized codes).
     #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2|i8|u8")]
     pub format: Option<String>,
+    /// Format of the kernel's inputs x (and of a gradient's g): the sweep runs over it.
+    #[arg(long, value_name = "FORMAT")]
+    pub input_format: Option<String>,
+    /// Format of the kernel's outputs: errors are ulps of it.
+    #[arg(long, value_name = "FORMAT")]
+    pub output_format: Option<String>,
     #[command(flatten)]
     pub function_args: FunctionArgs,
     /// What the kernel computes.
@@ -223,8 +230,10 @@ pub struct KernelTarget {
     pub symbol: Option<String>,
     /// Catalog function name.
     pub function: String,
-    /// Format name.
+    /// Format name (of the outputs).
     pub format: String,
+    /// Format name of the inputs, when it differs from `format`.
+    pub input_format: Option<String>,
     /// Role.
     pub role: CheckRole,
     /// `NAME=VALUE` parameters.
@@ -239,6 +248,8 @@ impl KernelTarget {
             symbol: Some(spec.symbol.clone()),
             function: spec.function.clone(),
             format: spec.format.name().to_string(),
+            input_format: (spec.input_format.name() != spec.format.name())
+                .then(|| spec.input_format.name().to_string()),
             role: spec.role,
             params: spec
                 .params
@@ -324,13 +335,66 @@ pub fn target_from_args(args: &Args) -> Result<KernelTarget, Failure> {
         v.clone()
             .ok_or_else(|| Failure::bad_input(format!("{flag} is required (or use --manifest)")))
     };
+    let function = need(&args.function, "--function")?;
+    let (input, output) = format_names(
+        args.format.as_deref(),
+        args.input_format.as_deref(),
+        args.output_format.as_deref(),
+    )?;
     Ok(KernelTarget {
         library: args.lib.clone(),
         symbol: args.symbol.clone(),
-        function: need(&args.function, "--function")?,
-        format: need(&args.format, "--format")?,
+        function,
+        input_format: (input != output).then_some(input),
+        format: output,
         role: role_of(args),
         params: args.function_args.params.clone(),
+    })
+}
+
+/// The input and output format names of `--format F` (both) or `--input-format F
+/// --output-format G`; giving `--format` with either of the pair, or one of the pair alone, is
+/// bad input.
+pub fn format_names(
+    format: Option<&str>,
+    input: Option<&str>,
+    output: Option<&str>,
+) -> Result<(String, String), Failure> {
+    match (format, input, output) {
+        (Some(_), Some(_), _) | (Some(_), _, Some(_)) => Err(Failure::bad_input(
+            "--format F is shorthand for --input-format F --output-format F: give --format or the pair, not both",
+        )),
+        (Some(f), None, None) => Ok((f.to_string(), f.to_string())),
+        (None, Some(i), Some(o)) => Ok((i.to_string(), o.to_string())),
+        (None, Some(_), None) => Err(Failure::bad_input(
+            "--input-format needs --output-format too (or --format for both)",
+        )),
+        (None, None, Some(_)) => Err(Failure::bad_input(
+            "--output-format needs --input-format too (or --format for both)",
+        )),
+        (None, None, None) => Err(Failure::bad_input(
+            "--format is required (or --input-format and --output-format, or --manifest)",
+        )),
+    }
+}
+
+/// The input format of a target whose output format is `format`: the same object unless the
+/// target names another one. An input is a bit pattern, not a rounding, so an FP8 `-sat`
+/// suffix means nothing on that side.
+pub fn input_format_of(
+    target: &KernelTarget,
+    format: &'static dyn Format,
+) -> Result<&'static dyn Format, Failure> {
+    let Some(name) = &target.input_format else {
+        return Ok(format);
+    };
+    let base = name.strip_suffix("-sat").unwrap_or(name);
+    let input = crate::format::resolve(base, None)
+        .map_err(|e| Failure::bad_input(format!("--input-format: {e}")))?;
+    Ok(if input.name() == format.name() {
+        format
+    } else {
+        input
     })
 }
 
@@ -450,15 +514,25 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
             names.join(", ")
         ))
     })?;
-    let format = crate::format::resolve(&target.format, args.function_args.fp8_overflow)
-        .map_err(Failure::bad_input)?;
+    let format =
+        crate::format::resolve(&target.format, args.function_args.fp8_overflow).map_err(|e| {
+            match target.input_format {
+                Some(_) => Failure::bad_input(format!("--output-format: {e}")),
+                None => Failure::bad_input(e),
+            }
+        })?;
+    let input_format = input_format_of(target, format)?;
+    if input_format.name() != format.name() {
+        refuse_for_mixed(target, args)?;
+    }
     let params = Constants::parse_params(function, &target.params).map_err(Failure::bad_input)?;
     Constants::resolve_checked(function, &params, args.function_args.param_rounding, format)
         .map_err(Failure::bad_input)?;
-    let sweep = sweep_spec(format, &args.sweep_options)?;
+    let sweep = sweep_spec(input_format, &args.sweep_options)?;
     Ok(CheckConfig {
         function,
         format,
+        input_format,
         role: target.role,
         params,
         param_rounding: args.function_args.param_rounding,
@@ -479,6 +553,33 @@ pub fn build_config(target: &KernelTarget, args: &Args) -> Result<CheckConfig, F
             .transpose()
             .map_err(Failure::bad_input)?,
     })
+}
+
+/// What a check of a mixed-format kernel cannot do yet: each is bad input, named.
+fn refuse_for_mixed(target: &KernelTarget, args: &Args) -> Result<(), Failure> {
+    let refused = [
+        (
+            matches!(target.role, CheckRole::Gradient { from_output: true }),
+            "--from-output (gradient-from-output)",
+        ),
+        (
+            args.in_place,
+            "--in-place (y == x needs equal element widths)",
+        ),
+        (args.shard.is_some(), "--shard"),
+        (
+            args.inputs.is_some(),
+            "--inputs/--outputs (recorded outputs)",
+        ),
+    ];
+    match refused.iter().find(|(given, _)| *given) {
+        Some((_, what)) => Err(Failure::bad_input(format!(
+            "{what} is not supported with different input and output formats ({} -> {})",
+            target.input_format.as_deref().unwrap_or(&target.format),
+            target.format
+        ))),
+        None => Ok(()),
+    }
 }
 
 /// Combines exit statuses: 3 (crash) beats 1 (finding) beats 0.
@@ -627,6 +728,7 @@ fn spec_from_args(
         symbol,
         function: target.function.clone(),
         format: config.format,
+        input_format: config.input_format,
         role: config.role,
         params: target
             .params
@@ -742,9 +844,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             || args.symbol.is_some()
             || args.function.is_some()
             || args.format.is_some()
+            || args.input_format.is_some()
+            || args.output_format.is_some()
         {
             return Err(Failure::bad_input(
-                "--manifest replaces --lib, --symbol, --function and --format",
+                "--manifest replaces --lib, --symbol, --function and --format (or --input-format/--output-format)",
             ));
         }
         let outputs = Outputs::from_args(&args)?;
@@ -763,9 +867,10 @@ pub fn run(args: Args) -> Result<i32, Failure> {
                 "--caller-fpenv and --cpu-mask apply to library kernels, which run in a worker",
             ));
         }
-        let mut kernel = builtin(
+        let mut kernel = builtin_mixed(
             name,
             config.function,
+            config.input_format,
             config.format,
             config.role,
             &config.params,

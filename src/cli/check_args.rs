@@ -12,6 +12,8 @@ pub fn defaults() -> Args {
         symbol: None,
         function: None,
         format: None,
+        input_format: None,
+        output_format: None,
         function_args: FunctionArgs {
             params: Vec::new(),
             param_rounding: ParamRounding::Exact,

@@ -60,6 +60,7 @@ fn plan(args: &Args, format: &'static dyn Format) -> Result<(Inputs, Vec<u32>), 
         symbol: None,
         function: function.clone(),
         format: args.format.clone(),
+        input_format: None,
         role: match args.role {
             RoleArg::Forward => CheckRole::Forward,
             RoleArg::Derivative => CheckRole::Derivative,

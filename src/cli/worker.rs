@@ -15,9 +15,12 @@ pub struct Args {
     /// The kernel symbol.
     #[arg(long)]
     symbol: String,
-    /// Bytes per element (4, 2 or 1).
+    /// Bytes per input element (4, 2 or 1).
     #[arg(long)]
     elem_bytes: usize,
+    /// Bytes per output element (default: --elem-bytes).
+    #[arg(long)]
+    out_bytes: Option<usize>,
     /// The kernel takes (x, g, dx, n).
     #[arg(long)]
     gradient: bool,
@@ -34,8 +37,11 @@ pub struct Args {
 
 /// Serves the runner until it closes the pipe.
 pub fn run(args: Args) -> Result<i32, Failure> {
-    if ![1, 2, 4].contains(&args.elem_bytes) {
-        return Err(Failure::bad_input("--elem-bytes must be 1, 2 or 4"));
+    let out_bytes = args.out_bytes.unwrap_or(args.elem_bytes);
+    if ![1, 2, 4].contains(&args.elem_bytes) || ![1, 2, 4].contains(&out_bytes) {
+        return Err(Failure::bad_input(
+            "--elem-bytes and --out-bytes must be 1, 2 or 4",
+        ));
     }
     let trailing = args
         .trailing
@@ -54,6 +60,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         symbol: args.symbol,
         abi: Abi {
             elem_bytes: args.elem_bytes,
+            out_bytes,
             gradient: args.gradient,
             trailing,
         },

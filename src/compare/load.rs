@@ -14,7 +14,7 @@ pub struct KernelKey {
     pub function: String,
     /// Parameters, "name=value" joined by ", ".
     pub params: String,
-    /// Format.
+    /// Format ("bf16→f32" for a kernel that mixes formats, so the pair tells kernels apart).
     pub format: String,
     /// Role (with "-from-output" for gradients fed f(x)).
     pub role: String,
@@ -187,10 +187,15 @@ fn figures(v: &Value, what: &str) -> Result<Figures, String> {
         }
         Some(_) => return Err(format!("{what}: key `kernel` is not an object")),
     };
+    let output = string(v, "format", what)?;
+    let format = match optional_string(v, "input_format", what)? {
+        Some(input) if input != output => format!("{input}→{output}"),
+        _ => output,
+    };
     let key = KernelKey {
         function: string(v, "function", what)?,
         params,
-        format: string(v, "format", what)?,
+        format,
         role,
         symbol,
     };

@@ -208,6 +208,26 @@ pub fn parse_hex(format: &dyn Format, text: &str) -> Result<u32, String> {
 }
 
 /// Serde for a `&'static dyn Format` field: written as the format's short name.
+/// One side of a kernel (its inputs or outputs): a format with its inlined bit arithmetic.
+#[derive(Clone, Copy, Debug, serde::Serialize, serde::Deserialize)]
+pub struct Side {
+    /// The format.
+    #[serde(with = "by_name_serde")]
+    pub format: &'static dyn Format,
+    /// Its layout.
+    pub layout: Layout,
+}
+
+impl Side {
+    /// The side of a format.
+    pub fn of(format: &'static dyn Format) -> Side {
+        Side {
+            format,
+            layout: format.layout(),
+        }
+    }
+}
+
 pub mod by_name_serde {
     use super::Format;
     use serde::{Deserialize, Deserializer, Serializer};

@@ -19,8 +19,10 @@ type Binary2 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize, f32, f
 /// How to call one kernel symbol.
 #[derive(Clone, Debug)]
 pub struct Abi {
-    /// Bytes per element: 4 for f32, 2 for f16 and bf16, 1 for the FP8 formats.
+    /// Bytes per input element (x, g): 4 for f32, 2 for f16 and bf16, 1 for the FP8 formats.
     pub elem_bytes: usize,
+    /// Bytes per output element (the output format's, which may differ from the input's).
+    pub out_bytes: usize,
     /// Takes (x or y, g, dx, n) instead of (x, y, n).
     pub gradient: bool,
     /// Trailing `float` arguments.

@@ -70,6 +70,8 @@ struct Ctx<'a> {
     runner: &'a mut Runner,
     pool: Pool,
     format: &'static dyn Format,
+    /// The format of x and g (the output's unless the kernel mixes formats).
+    in_format: &'static dyn Format,
     eb: usize,
     /// Name of the first input array in messages.
     first_name: &'static str,
@@ -90,6 +92,9 @@ impl Ctx<'_> {
     fn hex(&self, bits: u32) -> String {
         hex(self.format, bits)
     }
+    fn hex_in(&self, bits: u32) -> String {
+        hex(self.in_format, bits)
+    }
     /// "input 0x… gave 0x… but 0x… in the bulk run" for the first position that differs.
     fn mismatch(&self, w: &Window, got: &[u32], baseline: &str) -> Option<(usize, String)> {
         let i = got.iter().zip(&w.expected).position(|(a, b)| a != b)?;
@@ -97,10 +102,10 @@ impl Ctx<'_> {
             Some(g) => format!(
                 "input {}={} g={}",
                 self.first_name,
-                self.hex(w.first[i]),
-                self.hex(g[i])
+                self.hex_in(w.first[i]),
+                self.hex_in(g[i])
             ),
-            None => format!("input {}", self.hex(w.first[i])),
+            None => format!("input {}", self.hex_in(w.first[i])),
         };
         Some((
             i,
@@ -196,6 +201,7 @@ pub fn run_checks(
         runner,
         pool,
         format: spec.format,
+        in_format: spec.input_format,
         eb,
         first_name: if spec.role == (KernelRole::Gradient { from_output: true }) {
             "y"
@@ -298,7 +304,7 @@ fn bounds(c: &mut Ctx) -> Verdict {
         for layout in [Layout::GuardAfter, Layout::GuardBefore] {
             let w = c.pool.window(start, n);
             start += n;
-            let n_bytes = (n * c.eb) as i64;
+            let n_bytes = (n * c.format.width().div_ceil(8) as usize) as i64;
             match c.runner.call(&c.request(&w, layout)) {
                 Ok(reply) => {
                     if let Some(off) = reply.canary {
@@ -385,8 +391,8 @@ fn input_untouched(c: &mut Ctx, in_place: bool) -> Verdict {
                 false,
                 format!(
                     "n={n}: {name}[{i}] changed from {} to {}",
-                    c.hex(arr[i as usize]),
-                    c.hex(now)
+                    c.hex_in(arr[i as usize]),
+                    c.hex_in(now)
                 ),
             );
         }

@@ -6,7 +6,7 @@
 //! [[kernel]]
 //! symbol = "lumen_elu_f32"
 //! function = "elu"
-//! format = "f32"
+//! format = "f32"                       # or input-format = "bf16" with output-format = "f32"
 //! role = "forward"                     # forward | derivative | gradient | gradient-from-output
 //! params = { alpha = "1.0" }           # exact decimals; strings keep every digit
 //! param-passing = "trailing"           # baked (default) | trailing
@@ -44,7 +44,11 @@ struct Entry {
     variants: Vec<Spanned<String>>,
     caller_fpenv: Option<Spanned<String>>,
     function: Spanned<String>,
-    format: Spanned<String>,
+    format: Option<Spanned<String>>,
+    #[serde(alias = "input_format")]
+    input_format: Option<Spanned<String>>,
+    #[serde(alias = "output_format")]
+    output_format: Option<Spanned<String>>,
     #[serde(default)]
     role: Option<Spanned<Role>>,
     #[serde(default)]
@@ -202,14 +206,60 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
                 names.join(", ")
             )
         })?;
-        let format = crate::format::by_name(k.format.get_ref()).ok_or_else(|| {
-            format!(
-                "{}: key `format`: unknown format '{}' (known: {}, e4m3-sat, e5m2-sat)",
-                at(k.format.span()),
-                k.format.get_ref(),
-                crate::format::KNOWN
-            )
-        })?;
+        let (format_key, input_key) = match (&k.format, &k.input_format, &k.output_format) {
+            (Some(f), None, None) => (("format", f), None),
+            (None, Some(i), Some(o)) => (("output-format", o), Some(i)),
+            (Some(f), _, _) => {
+                return Err(format!(
+                    "{}: key `format`: give `format` or both `input-format` and `output-format`, not both",
+                    at(f.span())
+                ))
+            }
+            (None, None, None) => {
+                return Err(format!(
+                    "{}: kernel entry has no `format` (or `input-format` and `output-format`)",
+                    at(entry.span())
+                ))
+            }
+            (None, Some(_), None) | (None, None, Some(_)) => {
+                return Err(format!(
+                    "{}: kernel entry needs both `input-format` and `output-format` (or `format`)",
+                    at(entry.span())
+                ))
+            }
+        };
+        let named = |(key, name): (&str, &Spanned<String>)| {
+            crate::format::by_name(name.get_ref()).ok_or_else(|| {
+                format!(
+                    "{}: key `{key}`: unknown format '{}' (known: {}, e4m3-sat, e5m2-sat)",
+                    at(name.span()),
+                    name.get_ref(),
+                    crate::format::KNOWN
+                )
+            })
+        };
+        let format = named(format_key)?;
+        // An input is a bit pattern, not a rounding: a `-sat` suffix means nothing there.
+        let input_format = match input_key {
+            None => format,
+            Some(i) => {
+                let f = named(("input-format", i))?;
+                let base =
+                    crate::format::by_name(f.name().strip_suffix("-sat").unwrap_or(f.name()))
+                        .unwrap_or(f);
+                if base.name() == format.name() {
+                    format
+                } else {
+                    base
+                }
+            }
+        };
+        if input_format.name() != format.name() && k.in_place {
+            return Err(format!(
+                "{}: key `in-place`: y == x needs equal input and output formats",
+                at(entry.span())
+            ));
+        }
         if symbol.get_ref().trim().is_empty() {
             return Err(format!("{}: key `symbol`: empty", at(symbol.span())));
         }
@@ -258,6 +308,7 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
                 symbol: symbol.get_ref().clone(),
                 function: function.name().to_string(),
                 format,
+                input_format,
                 role,
                 params,
                 param_passing,

@@ -88,8 +88,10 @@ pub struct KernelSpec {
     pub symbol: String,
     /// Catalog name of the function it computes.
     pub function: String,
-    /// Number format of x and y.
+    /// Number format of y (and of x unless `input_format` differs).
     pub format: &'static dyn Format,
+    /// Number format of x (and of a gradient's g): `format` unless the kernel mixes formats.
+    pub input_format: &'static dyn Format,
     /// Forward, derivative or gradient.
     pub role: KernelRole,
     /// Parameter values as (NAME, exact decimal text); unset parameters take catalog defaults.

@@ -221,7 +221,8 @@ impl Runner {
         }
         crate::guard::install_handler();
         let abi = Abi {
-            elem_bytes: spec.format.width().div_ceil(8) as usize,
+            elem_bytes: spec.input_format.width().div_ceil(8) as usize,
+            out_bytes: spec.format.width().div_ceil(8) as usize,
             gradient: spec.role.takes_gradient(),
             trailing,
         };
@@ -281,7 +282,9 @@ impl Runner {
             .arg("--symbol")
             .arg(&self.spec.symbol)
             .arg("--elem-bytes")
-            .arg(self.abi.elem_bytes.to_string());
+            .arg(self.abi.elem_bytes.to_string())
+            .arg("--out-bytes")
+            .arg(self.abi.out_bytes.to_string());
         if self.abi.gradient {
             cmd.arg("--gradient");
         }
@@ -566,7 +569,7 @@ impl Runner {
 
     /// Element size in bytes.
     pub(crate) fn elem_bytes(&self) -> usize {
-        self.abi.elem_bytes
+        self.abi.elem_bytes.max(self.abi.out_bytes)
     }
 
     /// Whether the kernel takes a second input array.

@@ -430,8 +430,9 @@ impl Kernel {
             return self.call_threads(req);
         }
         let eb = self.abi.elem_bytes;
+        let ob = self.abi.out_bytes;
         let n = req.first.len();
-        let n_bytes = n * eb;
+        let n_bytes = n * ob;
         let x = Input::new(&req.first, eb, req.x_offset as usize);
         let g = req
             .second
@@ -453,8 +454,11 @@ impl Kernel {
                 }
             }
             let first_ptr = if req.layout == Layout::InPlace {
-                // SAFETY: y has room for n elements.
-                unsafe { std::ptr::copy_nonoverlapping(x.bytes.as_ptr(), y.y, n_bytes) };
+                // SAFETY: y has room for n elements (in place needs equal widths, refused
+                // otherwise before any call).
+                unsafe {
+                    std::ptr::copy_nonoverlapping(x.bytes.as_ptr(), y.y, n_bytes.min(x.bytes.len()))
+                };
                 y.y as *const u8
             } else {
                 x.ptr as *const u8
@@ -476,7 +480,7 @@ impl Kernel {
             };
             Y_BASE.store(0, Ordering::SeqCst);
             after = fpenv::read().unwrap_or(0);
-            outputs.push(y.values(n_bytes, eb));
+            outputs.push(y.values(n_bytes, ob));
             if input_changed.is_none() && req.layout != Layout::InPlace {
                 input_changed = x.changed(eb).map(|(i, v)| (0, i, v)).or_else(|| {
                     g.as_ref()
@@ -549,7 +553,7 @@ impl Kernel {
         let n = req.first.len().max(1);
         let x = Input::new(&req.first, eb, 0);
         let g = req.second.as_ref().map(|s| Input::new(s, eb, 0));
-        let y = Output::new(Layout::Padded, n * eb, 0);
+        let y = Output::new(Layout::Padded, n * self.abi.out_bytes, 0);
         let gp = g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8);
         enter_caller_env();
         // SAFETY: as in call().

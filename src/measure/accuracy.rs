@@ -354,9 +354,9 @@ impl RawWorst {
             ulp: error,
         }
     }
-    fn report(self, format: &dyn Format) -> Worst {
+    fn report(self, input: &dyn Format, format: &dyn Format) -> Worst {
         Worst {
-            input: BitsValue::new(format, self.input),
+            input: BitsValue::new(input, self.input),
             output: BitsValue::new(format, self.output),
             reference: BitsValue::new(format, self.reference),
             exact: self.exact,
@@ -416,10 +416,15 @@ struct Stretch {
 /// independent of the number of points (apart from `list_over` listings).
 #[derive(Serialize, Deserialize)]
 pub struct AccuracyAcc {
+    /// The output format (errors are ulps of it).
     #[serde(with = "crate::format::by_name_serde")]
     format: &'static dyn Format,
     /// The format's bit arithmetic, inlined in the per-point work.
     layout: Layout,
+    /// The input format when it differs from the output's (mixed-format kernels): rows,
+    /// regions and plot buckets are binades and ordinals of the inputs.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    input: Option<crate::format::Side>,
     abs_floor: Option<f64>,
     list_over: Option<f64>,
     total: Acc,
@@ -520,6 +525,7 @@ impl AccuracyAcc {
         AccuracyAcc {
             format,
             layout: format.layout(),
+            input: None,
             abs_floor,
             list_over,
             total: Acc::default(),
@@ -540,15 +546,32 @@ impl AccuracyAcc {
         }
     }
 
-    /// The format of the points.
+    /// The output format of the points.
     pub fn format(&self) -> &'static dyn Format {
         self.format
+    }
+
+    /// The same accumulator for inputs in another format (mixed-format kernels).
+    pub fn with_input(mut self, input: &'static dyn Format) -> Self {
+        self.input = (input.name() != self.format.name()).then(|| crate::format::Side::of(input));
+        self
+    }
+
+    /// The input format of the points.
+    pub fn input_format(&self) -> &'static dyn Format {
+        self.input.map_or(self.format, |s| s.format)
+    }
+
+    #[inline(always)]
+    fn in_layout(&self) -> Layout {
+        self.input.map_or(self.layout, |s| s.layout)
     }
 
     /// An empty accumulator with the same settings, for inputs that will be merged into this
     /// one (a dense plot span is not allocated again: its samples are kept as a list).
     pub fn fresh(&self) -> Self {
         let mut acc = AccuracyAcc::new(self.format, self.abs_floor, self.list_over, None);
+        acc.input = self.input;
         if let Samples::Grid { lo, hi, .. } = self.samples {
             acc.samples = Samples::Grid {
                 lo,
@@ -575,7 +598,7 @@ impl AccuracyAcc {
         let Some(stretch) = self.stretch.take() else {
             return;
         };
-        let l = self.layout;
+        let l = self.in_layout();
         let first = stretch.acc.first;
         let region = region_of(l.to_f64(first));
         debug_assert_eq!(region, region_of(l.to_f64(stretch.acc.last)));
@@ -623,7 +646,7 @@ impl AccuracyAcc {
         let (Some(p), Some(last)) = (run.first(), run.last()) else {
             return;
         };
-        let l = self.layout;
+        let l = self.in_layout();
         let within = self
             .bucket_of(l.ordinal(p.input))
             .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last.input)));
@@ -643,10 +666,12 @@ impl AccuracyAcc {
     #[inline(always)]
     fn add_points(&mut self, p: &Point, last: u32, n: u64) {
         let format = self.format;
+        let input_format = self.input_format();
         let l = self.layout;
+        let il = self.in_layout();
         debug_assert!(self.last_input.map_or(true, |before| before < p.input));
         self.last_input = Some(last);
-        let input_finite = l.is_finite(p.input);
+        let input_finite = il.is_finite(p.input);
         let j = match p.output {
             Some(out) if input_finite && l.is_finite(out) => judge_point(l, p, out),
             _ => None,
@@ -666,8 +691,8 @@ impl AccuracyAcc {
         if self.worst.as_ref().map_or(true, |w| j.error > w.ulp) {
             self.worst = Some(RawWorst::of(p, &j, j.error));
         }
-        let ordinal = l.ordinal(p.input);
-        let key = l.sign_and_exponent(p.input);
+        let ordinal = il.ordinal(p.input);
+        let key = il.sign_and_exponent(p.input);
         let continues = self.stretch.as_ref().is_some_and(|s| {
             s.key == key
                 && s.bucket
@@ -702,7 +727,7 @@ impl AccuracyAcc {
         }
         if self.list_over.is_some_and(|limit| j.error > limit) {
             self.over_limit
-                .push(RawWorst::of(p, &j, j.error).report(format));
+                .push(RawWorst::of(p, &j, j.error).report(input_format, format));
         }
         self.faithful += j.faithful as u64 * n;
         if j.faithful && !j.correct {
@@ -832,6 +857,7 @@ impl AccuracyAcc {
         self.settle();
         self.settle_listed(sink);
         let format = self.format;
+        let input_format = self.input_format();
         let total = self.total;
         let fraction = |n: u64| {
             if total.points == 0 {
@@ -856,13 +882,13 @@ impl AccuracyAcc {
                 };
                 BinadeRow {
                     binade: key.label(),
-                    first: BitsValue::new(format, lo),
-                    last: BitsValue::new(format, hi),
+                    first: BitsValue::new(input_format, lo),
+                    last: BitsValue::new(input_format, hi),
                     points: acc.points,
                     max_ulp: acc.max,
                     mean_ulp: acc.sum.mean(),
                     correctly_rounded: acc.correct as f64 / acc.points as f64,
-                    worst_input: BitsValue::new(format, acc.worst.expect("row has points")),
+                    worst_input: BitsValue::new(input_format, acc.worst.expect("row has points")),
                 }
             })
             .collect();
@@ -882,7 +908,7 @@ impl AccuracyAcc {
         let abs_floor = abs_floor.map(|a| FloorView {
             floor: a,
             max: floor_max.0,
-            worst: floor_max.1.map(|w| w.report(format)),
+            worst: floor_max.1.map(|w| w.report(input_format, format)),
         });
         let mut bounds: Vec<Option<f64>> = BINS.iter().map(|&b| Some(b)).collect();
         bounds.push(None);
@@ -900,7 +926,7 @@ impl AccuracyAcc {
         Accuracy {
             points: total.points,
             max_ulp: total.max,
-            worst: self.worst.map(|w| w.report(format)),
+            worst: self.worst.map(|w| w.report(input_format, format)),
             mean_ulp: total.sum.mean(),
             rms_ulp: total.sum.rms(),
             correctly_rounded: fraction(total.correct),

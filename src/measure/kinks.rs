@@ -25,7 +25,12 @@ pub struct KinkSide {
 
 /// Sides used at every kink point among `points`; `tolerance` is the largest ulp error that
 /// still counts as using a side.
-pub fn kink_sides(format: &dyn Format, points: &[Point], tolerance: f64) -> Vec<KinkSide> {
+pub fn kink_sides(
+    input: &dyn Format,
+    format: &dyn Format,
+    points: &[Point],
+    tolerance: f64,
+) -> Vec<KinkSide> {
     let mut out: Vec<KinkSide> = points
         .iter()
         .filter_map(|p| {
@@ -51,7 +56,7 @@ pub fn kink_sides(format: &dyn Format, points: &[Point], tolerance: f64) -> Vec<
                 }
             };
             Some(KinkSide {
-                input: BitsValue::new(format, p.input),
+                input: BitsValue::new(input, p.input),
                 left: BitsValue::new(format, left.bits),
                 right: BitsValue::new(format, right.bits),
                 output: p.output.map(|o| BitsValue::new(format, o)),

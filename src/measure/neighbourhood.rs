@@ -35,19 +35,20 @@ pub struct Neighbourhood {
 
 /// Evaluates `half` representable steps on each side of every centre (finite inputs only).
 pub fn neighbourhoods(
+    input: &dyn Format,
     format: &dyn Format,
     centres: &[(u32, String)],
     probe: &mut dyn Probe,
     half: u32,
 ) -> Vec<Neighbourhood> {
-    let top = format.ordinal(format.max_finite(false));
+    let top = input.ordinal(input.max_finite(false));
     centres
         .iter()
         .map(|(centre, what)| {
-            let c = format.ordinal(*centre);
+            let c = input.ordinal(*centre);
             let lo = (c - i64::from(half)).max(-top);
             let hi = (c + i64::from(half)).min(top);
-            let inputs: Vec<u32> = (lo..=hi).map(|o| format.from_ordinal(o)).collect();
+            let inputs: Vec<u32> = (lo..=hi).map(|o| input.from_ordinal(o)).collect();
             let points = probe
                 .probe(&inputs)
                 .into_iter()
@@ -59,7 +60,7 @@ pub fn neighbourhoods(
                         _ => None,
                     };
                     NearPoint {
-                        input: BitsValue::new(format, p.input),
+                        input: BitsValue::new(input, p.input),
                         output: p.output.map(|o| BitsValue::new(format, o)),
                         reference: BitsValue::new(format, p.reference.bits),
                         left: p.left.map(|l| BitsValue::new(format, l.bits)),
@@ -69,7 +70,7 @@ pub fn neighbourhoods(
                 .collect();
             Neighbourhood {
                 what: what.clone(),
-                centre: BitsValue::new(format, *centre),
+                centre: BitsValue::new(input, *centre),
                 points,
             }
         })

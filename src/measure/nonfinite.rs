@@ -494,30 +494,43 @@ pub struct NonFiniteStream {
     format: &'static dyn Format,
     /// The format's bit arithmetic, inlined in the per-point work.
     layout: Layout,
+    /// The output layout when it differs from the input's (mixed-format kernels): the
+    /// kernel's and the reference's classes are read in it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    out: Option<Layout>,
     builder: RunBuilder,
 }
 
 impl NonFiniteStream {
-    /// An empty stream that will list the `keep` longest runs.
+    /// An empty stream that will list the `keep` longest runs (`format`: the inputs').
     pub fn new(format: &'static dyn Format, keep: usize) -> Self {
         NonFiniteStream {
             format,
             layout: format.layout(),
+            out: None,
             builder: RunBuilder::new(format, keep),
         }
     }
+    /// The same stream reading outputs in another format (mixed-format kernels).
+    pub fn with_output(mut self, output: &'static dyn Format) -> Self {
+        self.out = (output.name() != self.format.name()).then(|| output.layout());
+        self
+    }
     /// An empty stream with the same settings.
     pub fn fresh(&self) -> Self {
-        NonFiniteStream::new(self.format, self.builder.summary.keep)
+        let mut s = NonFiniteStream::new(self.format, self.builder.summary.keep);
+        s.out = self.out;
+        s
     }
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        self.builder.push(p.input, classes(self.layout, p));
+        self.builder
+            .push(p.input, classes(self.out.unwrap_or(self.layout), p));
     }
     /// Adds the points of inputs `p.input..=last`, each with p's output and reference, both
     /// finite: none is a mismatch, so the run only moves the previous point along.
     pub fn add_run(&mut self, p: &Point, last: u32) {
-        let c = classes(self.layout, p);
+        let c = classes(self.out.unwrap_or(self.layout), p);
         self.builder.push(p.input, c);
         self.builder.moved(last, c);
     }
@@ -576,6 +589,7 @@ pub fn non_finite_runs(
     let mut known: Vec<Known> = points.iter().map(|p| (p.input, classes(l, p))).collect();
     non_finite_part(
         format,
+        l,
         &mut known,
         probe,
         0..=u32::MAX,
@@ -596,6 +610,7 @@ pub fn non_finite_runs(
 /// finished run goes to the sink at once: memory does not grow with the runs.
 pub fn non_finite_part(
     format: &'static dyn Format,
+    out: Layout,
     known: &mut Vec<Known>,
     probe: &mut dyn Probe,
     territory: RangeInclusive<u32>,
@@ -655,7 +670,7 @@ pub fn non_finite_part(
                 }
             }
             for (from, to) in ranges {
-                walk.scan(from, to, probe, l);
+                walk.scan(from, to, probe, out);
             }
         }
         if let Some(b) = right.filter(|b| walk.territory.contains(&b.0)) {

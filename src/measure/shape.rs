@@ -79,6 +79,9 @@ pub struct ShapeAcc {
     format: &'static dyn Format,
     /// The format's bit arithmetic, inlined in the per-point work.
     layout: Layout,
+    /// The input format when it differs from the output's (mixed-format kernels).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    input: Option<crate::format::Side>,
     monotone_function: bool,
     positive: Side,
     negative: Side,
@@ -98,6 +101,7 @@ impl ShapeAcc {
         ShapeAcc {
             format,
             layout: format.layout(),
+            input: None,
             monotone_function,
             positive: Side::default(),
             negative: Side::default(),
@@ -108,7 +112,24 @@ impl ShapeAcc {
 
     /// An empty accumulator with the same settings.
     pub fn fresh(&self) -> Self {
-        ShapeAcc::new(self.format, self.monotone_function)
+        let mut acc = ShapeAcc::new(self.format, self.monotone_function);
+        acc.input = self.input;
+        acc
+    }
+
+    /// The same accumulator for inputs in another format (mixed-format kernels).
+    pub fn with_input(mut self, input: &'static dyn Format) -> Self {
+        self.input = (input.name() != self.format.name()).then(|| crate::format::Side::of(input));
+        self
+    }
+
+    #[inline(always)]
+    fn in_layout(&self) -> Layout {
+        self.input.map_or(self.layout, |s| s.layout)
+    }
+
+    fn input_format(&self) -> &'static dyn Format {
+        self.input.map_or(self.format, |s| s.format)
     }
 
     /// The pair a < b (in x) of neighbouring evaluated inputs.
@@ -116,7 +137,8 @@ impl ShapeAcc {
     fn pair(&mut self, a: Seen, b: Seen) -> Option<Violation> {
         let l = self.layout;
         let (ka, kb) = (l.ordinal(a.output), l.ordinal(b.output));
-        let adjacent = l.ordinal(b.input) - l.ordinal(a.input) <= 1;
+        let il = self.in_layout();
+        let adjacent = il.ordinal(b.input) - il.ordinal(a.input) <= 1;
         if adjacent && l.is_finite(a.reference) && l.is_finite(b.reference) {
             let kernel_steps = ka.abs_diff(kb);
             let reference_steps = l.ordinal(a.reference).abs_diff(l.ordinal(b.reference));
@@ -138,9 +160,10 @@ impl ShapeAcc {
     #[inline(never)]
     fn violation(&self, a: Seen, b: Seen) -> Violation {
         let format = self.format;
+        let input = self.input_format();
         Violation {
-            from: BitsValue::new(format, a.input),
-            to: BitsValue::new(format, b.input),
+            from: BitsValue::new(input, a.input),
+            to: BitsValue::new(input, b.input),
             from_output: BitsValue::new(format, a.output),
             to_output: BitsValue::new(format, b.output),
         }
@@ -152,7 +175,8 @@ impl ShapeAcc {
         let Some(output) = p.output.filter(|&o| l.is_finite(o)) else {
             return;
         };
-        if !l.is_finite(p.input) {
+        let il = self.in_layout();
+        if !il.is_finite(p.input) {
             return;
         }
         let seen = Seen {
@@ -160,7 +184,7 @@ impl ShapeAcc {
             output,
             reference: p.reference.bits,
         };
-        let negative = l.is_sign_negative(p.input);
+        let negative = il.is_sign_negative(p.input);
         let last = if negative {
             self.negative.last
         } else {
@@ -202,7 +226,7 @@ impl ShapeAcc {
     /// reference steps are no jump), so only the first point's pair and the last point count.
     pub fn add_run(&mut self, first: &Point, last: &Point) {
         self.add(first);
-        let side = if self.layout.is_sign_negative(first.input) {
+        let side = if self.in_layout().is_sign_negative(first.input) {
             &mut self.negative
         } else {
             &mut self.positive
@@ -258,6 +282,7 @@ impl ShapeAcc {
             (Some(a), Some(b)) => self.pair(a, b),
             _ => None,
         };
+        let format = self.input_format();
         let violation_count =
             self.negative.violation_count + self.positive.violation_count + across.is_some() as u64;
         let violations = self
@@ -270,7 +295,6 @@ impl ShapeAcc {
             .take(EXAMPLES)
             .collect();
         self.jumps.sort_by(jump_order);
-        let format = self.format;
         Shape {
             monotone_function: self.monotone_function,
             monotonicity_violations: violation_count,

@@ -56,8 +56,10 @@ fn close_to(
 }
 
 /// Checks the rules at the probes and at the measured points whose reference is subnormal
-/// (the first and last such input of each sign).
+/// (the first and last such input of each sign). `input`: the inputs' format, `format` the
+/// outputs'.
 pub fn special_values(
+    input: &dyn Format,
     format: &dyn Format,
     probes: &[Point],
     measured: &[Point],
@@ -68,7 +70,7 @@ pub fn special_values(
         .chain(measured)
         .map(|p| (p.input, p))
         .collect();
-    let sign = format.infinity(true) & !format.infinity(false);
+    let sign = input.infinity(true) & !input.infinity(false);
     let mut rules = Vec::new();
     let mut push = |p: &Point, expected: u32, passed: bool, rule: String| {
         // The error against the nearer reference (either side at a kink).
@@ -82,6 +84,7 @@ pub fn special_values(
             }
         });
         let message = crate::report::sentence::special(
+            input,
             format,
             p.input,
             p.output,
@@ -92,7 +95,7 @@ pub fn special_values(
             ctx.tolerance,
         );
         rules.push(SpecialRule {
-            input: BitsValue::new(format, p.input),
+            input: BitsValue::new(input, p.input),
             expected: BitsValue::new(format, expected),
             output: p.output.map(|o| BitsValue::new(format, o)),
             passed,
@@ -105,14 +108,14 @@ pub fn special_values(
     for p in sorted {
         let out = p.output;
         let expected = p.reference.bits;
-        match format.classify(p.input) {
+        match input.classify(p.input) {
             Class::Nan => {
                 let passed = out.is_some_and(|o| format.classify(o) == Class::Nan);
                 push(p, expected, passed, "NaN in -> NaN out".into());
             }
             Class::Infinite => {
                 let passed = out.is_some_and(|o| close(format, p, o, ctx.tolerance));
-                let side = if format.is_sign_negative(p.input) {
+                let side = if input.is_sign_negative(p.input) {
                     "-inf"
                 } else {
                     "+inf"
@@ -120,7 +123,7 @@ pub fn special_values(
                 push(p, expected, passed, format!("limit at {side}"));
             }
             Class::Zero => {
-                let negative_in = format.is_sign_negative(p.input);
+                let negative_in = input.is_sign_negative(p.input);
                 let zero_expected = format.classify(expected) == Class::Zero;
                 let sign_matters = zero_expected && negative_in && ctx.keeps_negative_zero;
                 let passed = out.is_some_and(|o| {
@@ -155,14 +158,14 @@ pub fn special_values(
     let mut subnormal_outputs: Vec<&Point> = measured
         .iter()
         .filter(|p| {
-            is_finite(format, p.input) && format.classify(p.reference.bits) == Class::Subnormal
+            is_finite(input, p.input) && format.classify(p.reference.bits) == Class::Subnormal
         })
         .collect();
     subnormal_outputs.sort_by_key(|p| p.input);
     for negative in [false, true] {
         let side: Vec<&&Point> = subnormal_outputs
             .iter()
-            .filter(|p| format.is_sign_negative(p.input) == negative)
+            .filter(|p| input.is_sign_negative(p.input) == negative)
             .collect();
         let ends = [side.first(), side.last()];
         for (k, p) in ends.into_iter().flatten().enumerate() {

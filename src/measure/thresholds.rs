@@ -34,8 +34,10 @@ pub struct ThresholdReport {
 }
 
 /// Searches the kernel's thresholds next to the reference's; `search_kernel` is false for
-/// gradient kernels, whose asymptote changes with g.
+/// gradient kernels, whose asymptote changes with g. `input`: the inputs' format, `format`
+/// the outputs'.
 pub fn thresholds(
+    input: &dyn Format,
     format: &dyn Format,
     reference: &[Threshold],
     probe: &mut dyn Probe,
@@ -54,7 +56,7 @@ pub fn thresholds(
                 }
             };
             let (kernel, kernel_confirmed) = if search_kernel {
-                find_threshold(format, t.positive, confirm, |x| {
+                find_threshold(input, t.positive, confirm, |x| {
                     holds(probe.probe(&[x]).first().and_then(|p| p.output))
                 })
             } else {
@@ -69,16 +71,17 @@ pub fn thresholds(
             });
             let steps = match (t.first, kernel) {
                 (Some(r), Some(k)) => {
-                    let d = format.ordinal(k) - format.ordinal(r);
+                    let d = input.ordinal(k) - input.ordinal(r);
                     Some(if t.positive { d } else { -d })
                 }
                 _ => None,
             };
             let side = if t.positive { "+" } else { "-" };
             let asymptote = BitsValue::new(format, asymptote);
-            let reference = t.first.map(|b| BitsValue::new(format, b));
-            let kernel = kernel.map(|b| BitsValue::new(format, b));
+            let reference = t.first.map(|b| BitsValue::new(input, b));
+            let kernel = kernel.map(|b| BitsValue::new(input, b));
             let message = crate::report::sentence::threshold(
+                input,
                 format,
                 t.kind == ThresholdKind::Overflow,
                 side,

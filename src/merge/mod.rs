@@ -241,7 +241,7 @@ fn merge_kernel(
                 .map_err(|e| format!("{}: unreadable reference_check: {e}", path.display()))?;
         reference_check.merge(c);
     }
-    let figures = gathered.figures(format, &mut crate::measure::NoSink);
+    let figures = gathered.figures(format, format, &mut crate::measure::NoSink);
     let stated = |key: &str| first.get("verdict").and_then(|v| v.get(key));
     let verdict = figures.verdict(
         format,
@@ -373,7 +373,7 @@ fn agrees_with_report(
     state: Gathered,
     format: &'static dyn Format,
 ) -> Result<(), String> {
-    let figures = state.figures(format, &mut crate::measure::NoSink);
+    let figures = state.figures(format, format, &mut crate::measure::NoSink);
     let checks: [(&str, Value, Option<&Value>); 4] = [
         (
             "accuracy.points",

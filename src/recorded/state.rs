@@ -129,6 +129,7 @@ impl ThresholdWalk {
         let kernel_class = kernel.map(|(_, y)| value_class(format, y));
         let message = crate::report::sentence::threshold(
             format,
+            format,
             self.kind == crate::sweep::ThresholdKind::Overflow,
             side,
             &asymptote,

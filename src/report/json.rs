@@ -6,7 +6,11 @@
 //!
 //! - `schema`: "ulpgauge-check/2"; `function`, `format`, `role` ("forward" | "derivative" |
 //!   "gradient"), `from_output`, `params` (name → exact value or constant name),
-//!   `param_rounding`.
+//!   `param_rounding`; `input_format` and `output_format` (added within version 2): the
+//!   formats of x (and g) and of the outputs, equal unless the kernel mixes formats, and then
+//!   `format` is the output format. Every input value (worst input, binade rows, runs,
+//!   thresholds, rules) is in the input format, every output and reference value and every
+//!   ulp in the output format.
 //! - `kernel`: {library, symbol, ns_per_element}.
 //! - `sweep`: {kinds, range, coverage ("exhaustive" | "sampled"), inputs, probes, extra_inputs,
 //!   per_binade, neighbours, random_points, random_mode, seed, interesting: [{input: V, what}]}.

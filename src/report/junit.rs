@@ -233,7 +233,7 @@ fn check_suite(r: &CheckReport) -> Suite {
             } else {
                 format!("crashed ({})", c.signal)
             },
-            super::sentence::shown_of_name(r.format, &c.input),
+            super::sentence::shown_of_name(r.input_format, &c.input),
             c.count,
             if c.count == 1 { "" } else { "es" }
         )),

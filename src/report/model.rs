@@ -114,8 +114,13 @@ pub struct CheckReport {
     pub schema: &'static str,
     /// Catalog function.
     pub function: String,
-    /// Format name.
+    /// Format name: the output format (equal to `input_format` unless the kernel mixes
+    /// formats).
     pub format: &'static str,
+    /// The format of the kernel's inputs (and of a gradient's g).
+    pub input_format: &'static str,
+    /// The format of the kernel's outputs, in whose ulps errors are measured.
+    pub output_format: &'static str,
     /// "forward", "derivative" or "gradient".
     pub role: String,
     /// For gradients: whether the kernel takes f(x) rather than x.

@@ -105,6 +105,7 @@ fn call(format: &dyn Format, input: u32) -> String {
 /// both are finite numbers.
 #[allow(clippy::too_many_arguments)] // the fields of one rule, as measured
 pub fn special(
+    input_format: &dyn Format,
     format: &dyn Format,
     input: u32,
     output: Option<u32>,
@@ -114,7 +115,7 @@ pub fn special(
     ulp: Option<f64>,
     tolerance: f64,
 ) -> String {
-    let fx = call(format, input);
+    let fx = call(input_format, input);
     let got = match output {
         None => {
             return format!(
@@ -243,6 +244,7 @@ pub fn run(
 /// the kernel does.
 #[allow(clippy::too_many_arguments)] // the fields of one threshold, as measured
 pub fn threshold(
+    input: &dyn Format,
     format: &dyn Format,
     overflow: bool,
     side: &str,
@@ -259,7 +261,7 @@ pub fn threshold(
         ("saturation", "reaches".to_string())
     };
     let to = shown_of(format, asymptote);
-    let at = |v: &BitsValue| format!("x = {}", shown_of(format, v));
+    let at = |v: &BitsValue| format!("x = {}", shown_of(input, v));
     let side_words = if side == "+" { "x > 0" } else { "x < 0" };
     let reference_part = match reference {
         Some(r) => format!("the reference {reaches} {to} for good from {}", at(r)),
@@ -404,6 +406,7 @@ mod tests {
         assert_eq!(
             special(
                 f,
+                f,
                 0x7bff,
                 Some(0x7e00),
                 0x7bff,
@@ -417,6 +420,7 @@ mod tests {
         assert_eq!(
             special(
                 f,
+                f,
                 0xfc00,
                 Some(0x7e00),
                 0xbc00,
@@ -429,6 +433,7 @@ mod tests {
         );
         assert_eq!(
             special(
+                f,
                 f,
                 0x8000,
                 Some(0x0000),

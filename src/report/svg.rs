@@ -28,7 +28,8 @@ fn scale(e: f64) -> f64 {
 }
 
 fn panel(out: &mut String, r: &CheckReport, top: f64) -> Result<(), String> {
-    let format: &dyn Format = by_name(r.format).ok_or("unknown format")?;
+    // The x axis is the inputs' (mixed-format kernels: the input format's ordinals).
+    let format: &dyn Format = by_name(r.input_format).ok_or("unknown format")?;
     let acc = &r.accuracy.figures;
     let ord = |bits: &str| parse_hex(format, bits).ok().map(|b| format.ordinal(b));
     // The axis spans the measured points, the non-finite runs and the thresholds, within the
@@ -66,7 +67,11 @@ fn panel(out: &mut String, r: &CheckReport, top: f64) -> Result<(), String> {
         top + 22.0,
         escape(&r.function),
         r.role,
-        r.format,
+        if r.input_format == r.output_format {
+            r.format.to_string()
+        } else {
+            format!("{} → {}", r.input_format, r.output_format)
+        },
         escape(symbol),
         acc.max_ulp,
         acc.points,

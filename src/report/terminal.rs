@@ -45,7 +45,7 @@ fn non_finite(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         counted(total.inputs, "input"),
         counted(total.runs, "run")
     )?;
-    let per_binade = crate::format::by_name(r.format).map(|f| 1u64 << (f.precision() - 1));
+    let per_binade = crate::format::by_name(r.input_format).map(|f| 1u64 << (f.precision() - 1));
     let mut kinds: Vec<(&str, &str)> = r
         .non_finite_summary
         .iter()
@@ -126,7 +126,16 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
         crate::sweep::Coverage::Exhaustive => "exhaustive",
         crate::sweep::Coverage::Sampled => "sampled",
     };
-    writeln!(out, "{} {} {} — {symbol}", r.function, r.role, r.format)?;
+    if r.input_format == r.output_format {
+        writeln!(out, "{} {} {} — {symbol}", r.function, r.role, r.format)?;
+    } else {
+        // Mixed formats: inputs in one, outputs (and their ulps) in the other.
+        writeln!(
+            out,
+            "{} {} {} in, {} out (ulps of {}) — {symbol}",
+            r.function, r.role, r.input_format, r.output_format, r.output_format
+        )?;
+    }
     writeln!(
         out,
         "  coverage    {coverage}: {} measured points ({} inputs, range {})",

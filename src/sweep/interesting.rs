@@ -86,10 +86,11 @@ pub fn find_threshold(
 /// Reference thresholds of one evaluator on both sides.
 pub fn reference_thresholds(evaluator: &Evaluator, confirm: u32) -> Vec<Threshold> {
     let format = evaluator.format();
+    let input = evaluator.input_format();
     [true, false]
         .into_iter()
         .filter_map(|positive| {
-            let asymptote = evaluator.reference(format.infinity(!positive)).ok()?.bits;
+            let asymptote = evaluator.reference(input.infinity(!positive)).ok()?.bits;
             if format.classify(asymptote) == Class::Nan {
                 return None;
             }
@@ -98,7 +99,7 @@ pub fn reference_thresholds(evaluator: &Evaluator, confirm: u32) -> Vec<Threshol
             } else {
                 ThresholdKind::Saturation
             };
-            let (first, confirmed) = find_threshold(format, positive, confirm, |x| {
+            let (first, confirmed) = find_threshold(input, positive, confirm, |x| {
                 evaluator.reference(x).is_ok_and(|r| r.bits == asymptote)
             });
             Some(Threshold {
@@ -115,7 +116,7 @@ pub fn reference_thresholds(evaluator: &Evaluator, confirm: u32) -> Vec<Threshol
 /// The finite input where |f′| is largest, when that maximum is interior (not approached at
 /// ±∞): a coarse grid over [−32, 32], then finer grids between the best sample's neighbours.
 pub fn derivative_peak(derivative: &Evaluator) -> Option<u32> {
-    let format = derivative.format();
+    let format = derivative.input_format();
     let magnitude = |x: u32| {
         derivative
             .reference(x)
@@ -171,7 +172,7 @@ pub fn interesting_points(
     role_is_forward: bool,
     confirm: u32,
 ) -> (Vec<Interesting>, Vec<Threshold>) {
-    let format = forward.format();
+    let format = forward.input_format();
     let mut points = Vec::new();
     for kink in forward.function().kinks(forward.constants()) {
         if let Some(bits) = format.from_f64_exact(kink.at as f64) {

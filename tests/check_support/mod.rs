@@ -22,6 +22,7 @@ pub fn config(
     CheckConfig {
         function: lookup(function).expect("function"),
         format,
+        input_format: format,
         role,
         params: Vec::new(),
         param_rounding: ParamRounding::Exact,

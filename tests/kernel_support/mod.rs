@@ -32,6 +32,7 @@ pub fn spec(lib: &str, symbol: &str, function: &str, format: &str) -> KernelSpec
         symbol: symbol.to_string(),
         function: function.to_string(),
         format: ulpgauge::format::by_name(format).expect("format"),
+        input_format: ulpgauge::format::by_name(format).expect("format"),
         role: KernelRole::Forward,
         params: Vec::new(),
         param_passing: ParamPassing::Baked,

@@ -31,6 +31,9 @@ impl Stream {
             "format",
             || format!("{} in a {} check", self.format.name(), format.name()),
         )?;
+        ensure(self.in_layout.is_none(), "in_layout", || {
+            "a second (input) format: mixed-format states are not merged".into()
+        })?;
         within("accuracy", self.accuracy.validate(format))?;
         if let Some(s) = &self.shape {
             within("shape", s.validate(format))?;

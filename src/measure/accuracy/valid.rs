@@ -80,6 +80,10 @@ impl AccuracyAcc {
         ensure(self.layout == l, "layout", || {
             format!("{:?} is not the layout of {}", self.layout, format.name())
         })?;
+        // Shards of mixed-format checks are refused, so no state carries an input side.
+        ensure(self.input.is_none(), "input", || {
+            "a second (input) format: mixed-format states are not merged".into()
+        })?;
         if let Some(a) = self.abs_floor {
             ensure(a.is_finite() && a > 0.0, "abs_floor", || format!("{a}"))?;
         }

@@ -186,6 +186,9 @@ impl NonFiniteStream {
             "format",
             || format!("{} in a {} check", self.format.name(), format.name()),
         )?;
+        ensure(self.out.is_none(), "out", || {
+            "a second (output) format: mixed-format states are not merged".into()
+        })?;
         within("builder", self.builder.validate(self.layout))
     }
 

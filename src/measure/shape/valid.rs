@@ -46,6 +46,9 @@ impl Side {
 impl ShapeAcc {
     /// Whether the accumulator is one a forward check of `format` could have written.
     pub fn validate(&self, format: &dyn Format) -> Result<(), Invalid> {
+        ensure(self.input.is_none(), "input", || {
+            "a second (input) format: mixed-format states are not merged".into()
+        })?;
         ensure(
             self.format.name() == format.name() && self.layout == format.layout(),
             "format",

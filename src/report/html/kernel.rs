@@ -46,6 +46,22 @@ fn format_of(r: &Value) -> Option<&'static dyn Format> {
     r["format"].as_str().and_then(by_name)
 }
 
+/// The inputs' format (reports before mixed formats have only `format`).
+fn input_format_of(r: &Value) -> Option<&'static dyn Format> {
+    r["input_format"]
+        .as_str()
+        .and_then(by_name)
+        .or_else(|| format_of(r))
+}
+
+/// "f32", or "bf16 → f32" for a kernel that mixes formats.
+fn formats_text(r: &Value) -> String {
+    match (r["input_format"].as_str(), r["format"].as_str()) {
+        (Some(i), Some(o)) if i != o => format!("{i} → {o}"),
+        _ => text(&r["format"]),
+    }
+}
+
 /// "65504 (0x7bff)" of a {bits, value} object, with the bits in their own element.
 fn shown(format: Option<&dyn Format>, v: &Value) -> String {
     let bits = v["bits"].as_str().unwrap_or("");
@@ -121,10 +137,12 @@ pub fn index(out: &mut String, kernels: &[KernelInput]) -> FmtResult {
 }
 
 /// The plot data the script draws: compact arrays, bits as numbers.
-fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
+fn plot_data(format: &dyn Format, output: &dyn Format, k: &KernelInput) -> Value {
     let r = &k.report;
     let l = format.layout();
     let bits = |v: &Value| v["bits"].as_str().and_then(|b| parse_hex(format, b).ok());
+    let out_bits = |v: &Value| v["bits"].as_str().and_then(|b| parse_hex(output, b).ok());
+    let ol = output.layout();
     let ord = |v: &Value| bits(v).map(|b| format.ordinal(b));
     let buckets: Vec<Value> = k
         .buckets
@@ -177,9 +195,9 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
                 .map(|p| {
                     json!([
                         bits(&p["input"]),
-                        bits(&p["output"]),
-                        bits(&p["reference"]),
-                        bits(&p["left"]),
+                        out_bits(&p["output"]),
+                        out_bits(&p["reference"]),
+                        out_bits(&p["left"]),
                         p["ulp"]
                     ])
                 })
@@ -209,6 +227,13 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
         "mant": l.precision() - 1,
         "finite_only": l.is_finite_only(),
         "top": format.ordinal(format.max_finite(false)),
+        "out": {
+            "format": output.name(),
+            "exp": ol.width() - ol.precision(),
+            "mant": ol.precision() - 1,
+            "finite_only": ol.is_finite_only(),
+            "top": output.ordinal(output.max_finite(false)),
+        },
         "buckets": buckets,
         "runs": runs,
         "marks": marks,
@@ -221,6 +246,7 @@ fn plot_data(format: &dyn Format, k: &KernelInput) -> Value {
 pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
     let r = &k.report;
     let format = format_of(r);
+    let input = input_format_of(r);
     let a = &r["accuracy"];
     let id = anchor(i);
     let symbol = text(&r["kernel"]["symbol"]);
@@ -234,7 +260,7 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
         sym = esc(&symbol),
         function = esc(&text(&r["function"])),
         role = esc(&text(&r["role"])),
-        fmt = esc(&text(&r["format"])),
+        fmt = esc(&formats_text(r)),
         wb = esc(worst["input"]["bits"].as_str().unwrap_or("")),
     )?;
     card(out, r, format, word, class)?;
@@ -262,7 +288,7 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
         writeln!(
             out,
             r#"<p class="worst">Worst input x = <span class="worst-input">{}</span>: the kernel returned {}; the correctly rounded reference is {} (y ≈ {}), an error of {} ulp.</p>"#,
-            shown(format, &worst["input"]),
+            shown(input, &worst["input"]),
             shown(format, &worst["output"]),
             shown(format, &worst["reference"]),
             text(&worst["exact"]),
@@ -287,10 +313,10 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
             rounding["nearest_ties_away"]
         )?;
     }
-    failed(out, r, format)?;
+    failed(out, r, input)?;
     environment(out, r)?;
-    if let Some(f) = format {
-        let data = plot_data(f, k);
+    if let (Some(i), Some(f)) = (input, format) {
+        let data = plot_data(i, f, k);
         writeln!(
             out,
             r#"<h3>Error over the inputs</h3>
@@ -304,11 +330,11 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
             script_json(&data)
         )?;
     }
-    non_finite(out, r, format)?;
+    non_finite(out, r, input)?;
     thresholds(out, r)?;
-    rules(out, r, format)?;
-    binades(out, r, format)?;
-    shape_and_kinks(out, r, format)?;
+    rules(out, r, input, format)?;
+    binades(out, r, input)?;
+    shape_and_kinks(out, r, input, format)?;
     provenance(out, r)?;
     writeln!(out, "</section>")
 }
@@ -564,7 +590,12 @@ fn thresholds(out: &mut String, r: &Value) -> FmtResult {
     Ok(())
 }
 
-fn rules(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult {
+fn rules(
+    out: &mut String,
+    r: &Value,
+    input: Option<&dyn Format>,
+    format: Option<&dyn Format>,
+) -> FmtResult {
     let specials = r["special_values"].as_array().cloned().unwrap_or_default();
     let hygiene = r["hygiene"].as_array().cloned().unwrap_or_default();
     let failed_s = specials.iter().filter(|s| s["passed"] == false).count();
@@ -590,7 +621,7 @@ fn rules(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult 
             if ok { "passed" } else { "failed" },
             if ok { "✓" } else { "✗" },
             esc(&text(&s["rule"])),
-            shown(format, &s["input"]),
+            shown(input, &s["input"]),
             if s["output"].is_null() {
                 "none (crashed or hung)".into()
             } else {
@@ -721,7 +752,12 @@ fn binades(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResul
     writeln!(out, "</tbody></table></details>")
 }
 
-fn shape_and_kinks(out: &mut String, r: &Value, format: Option<&dyn Format>) -> FmtResult {
+fn shape_and_kinks(
+    out: &mut String,
+    r: &Value,
+    input: Option<&dyn Format>,
+    format: Option<&dyn Format>,
+) -> FmtResult {
     let kinks = r["kinks"].as_array().cloned().unwrap_or_default();
     if !kinks.is_empty() {
         writeln!(out, "<h3>Kinks</h3><ul>")?;
@@ -729,7 +765,7 @@ fn shape_and_kinks(out: &mut String, r: &Value, format: Option<&dyn Format>) -> 
             writeln!(
                 out,
                 "<li>At x = {} the kernel returns {}: it uses the {} one-sided derivative (left {}, right {}).</li>",
-                shown(format, &k["input"]),
+                shown(input, &k["input"]),
                 if k["output"].is_null() { "nothing (crashed)".into() } else { shown(format, &k["output"]) },
                 esc(&text(&k["uses"])),
                 shown(format, &k["left"]),
@@ -762,8 +798,8 @@ fn shape_and_kinks(out: &mut String, r: &Value, format: Option<&dyn Format>) -> 
                 writeln!(
                     out,
                     "<li>From x = {} to {} the output goes from {} to {}, against the function's direction.</li>",
-                    shown(format, &w["from"]),
-                    shown(format, &w["to"]),
+                    shown(input, &w["from"]),
+                    shown(input, &w["to"]),
                     shown(format, &w["from_output"]),
                     shown(format, &w["to_output"])
                 )?;

@@ -100,6 +100,9 @@
     this.figure = figure;
     this.data = data;
     this.fmt = { exp: data.exp, mant: data.mant, top: data.top, finiteOnly: !!data.finite_only };
+    // Outputs and references are in the output format (mixed-format kernels), inputs in fmt.
+    const o = data.out || data;
+    this.out = { exp: o.exp, mant: o.mant, top: o.top, finiteOnly: !!o.finite_only };
     this.area = figure.querySelector(".plot-area");
     this.pick = figure.querySelector(".pick");
     this.tip = html("div", "tooltip");
@@ -239,8 +242,8 @@
     const w = b[4];
     if (w) {
       lines.push("worst input x = " + shown(fmt, w[0]));
-      lines.push("kernel output f(x) = " + shown(fmt, w[1]));
-      lines.push("correctly rounded reference = " + shown(fmt, w[2]));
+      lines.push("kernel output f(x) = " + shown(this.out, w[1]));
+      lines.push("correctly rounded reference = " + shown(this.out, w[2]));
       lines.push("error = " + ulpText(b[3]) + " ulp");
     }
     return lines;
@@ -307,7 +310,7 @@
   };
 
   // ---- small plots: kernel output against the reference near thresholds and kinks ----
-  function nearPlot(container, fmt, n) {
+  function nearPlot(container, fmt, out, n) {
     const W = 320, H = 170, L = 50, R = 8, T = 14, B = 30;
     const box = html("figure", "near");
     box.appendChild(html("figcaption", "", n.what + " at x = " + value(fmt, n.centre)));
@@ -317,14 +320,14 @@
     const pts = n.points;
     if (!pts.length) return;
     const c = ordinal(fmt, n.centre);
-    const refAtCentre = pts.reduce(function (acc, p) { return ordinal(fmt, p[0]) === c && !isNan(fmt, p[2]) ? ordinal(fmt, p[2]) : acc; }, null);
+    const refAtCentre = pts.reduce(function (acc, p) { return ordinal(fmt, p[0]) === c && !isNan(out, p[2]) ? ordinal(out, p[2]) : acc; }, null);
     const base = refAtCentre === null ? 0 : refAtCentre;
     // Output steps from the reference at the centre, on a symmetric log scale: one step and a
     // million steps apart both stay readable.
     const sl = function (d) { return Math.sign(d) * Math.log2(1 + Math.abs(d)); };
     const ys = [];
     pts.forEach(function (p) {
-      [p[1], p[2]].forEach(function (b) { if (b !== null && !isNan(fmt, b)) ys.push(ordinal(fmt, b) - base); });
+      [p[1], p[2]].forEach(function (b) { if (b !== null && !isNan(out, b)) ys.push(ordinal(out, b) - base); });
     });
     const dlo = Math.min.apply(null, ys.concat([0])), dhi = Math.max.apply(null, ys.concat([0]));
     let ylo = sl(dlo), yhi = sl(dhi);
@@ -342,18 +345,18 @@
     el("text", { x: 10, y: T + (H - T - B) / 2, transform: "rotate(-90 10 " + (T + (H - T - B) / 2) + ")", "text-anchor": "middle" }, svg).textContent = "output steps";
     pts.forEach(function (p, i) {
       const xx = X(xs[i]);
-      const tip = "x = " + shown(fmt, p[0]) + "\nkernel f(x) = " + shown(fmt, p[1]) + "\nreference = " + shown(fmt, p[2]) +
-        (p[3] !== null ? "\nleft-hand reference = " + shown(fmt, p[3]) : "") + (p[4] !== null ? "\nerror " + ulpText(p[4]) + " ulp" : "");
-      if (p[2] !== null && !isNan(fmt, p[2])) {
-        const r = el("rect", { x: xx - 3.5, y: Y(ordinal(fmt, p[2]) - base) - 3.5, width: 7, height: 7, class: "r" }, svg);
+      const tip = "x = " + shown(fmt, p[0]) + "\nkernel f(x) = " + shown(out, p[1]) + "\nreference = " + shown(out, p[2]) +
+        (p[3] !== null ? "\nleft-hand reference = " + shown(out, p[3]) : "") + (p[4] !== null ? "\nerror " + ulpText(p[4]) + " ulp" : "");
+      if (p[2] !== null && !isNan(out, p[2])) {
+        const r = el("rect", { x: xx - 3.5, y: Y(ordinal(out, p[2]) - base) - 3.5, width: 7, height: 7, class: "r" }, svg);
         el("title", {}, r).textContent = tip;
       }
-      if (p[1] === null || isNan(fmt, p[1])) {
+      if (p[1] === null || isNan(out, p[1])) {
         // A non-finite (or missing) output: a triangle along the top edge.
         const t = el("path", { d: "M" + (xx - 4) + " " + (T + 2) + "h8l-4 7z", class: "nf" }, svg);
         el("title", {}, t).textContent = tip;
       } else {
-        const k = el("circle", { cx: xx, cy: Y(ordinal(fmt, p[1]) - base), r: 5, class: "k" }, svg);
+        const k = el("circle", { cx: xx, cy: Y(ordinal(out, p[1]) - base), r: 5, class: "k" }, svg);
         el("title", {}, k).textContent = tip;
       }
     });
@@ -393,7 +396,7 @@
     const plot = new Plot(figure, data);
     const section = figure.closest("section");
     const grid = section ? section.querySelector(".near-grid") : null;
-    if (grid) data.near.forEach(function (n) { nearPlot(grid, plot.fmt, n); });
+    if (grid) data.near.forEach(function (n) { nearPlot(grid, plot.fmt, plot.out, n); });
     const more = section ? section.querySelector(".all-binades") : null;
     if (more) {
       more.addEventListener("click", function () {
