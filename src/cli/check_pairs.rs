@@ -57,6 +57,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         symbol,
         function: function.to_string(),
         format,
+        input_format: format,
         role: KernelRole::Gradient { from_output: false },
         params: Vec::new(),
         param_passing: ParamPassing::Baked,

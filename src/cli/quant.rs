@@ -304,6 +304,7 @@ fn check_one(
         function: entry.function.clone(),
         // The worker only needs the element size: any 1-byte format carries the codes' bytes.
         format: &crate::format::E4m3 { saturating: false },
+        input_format: &crate::format::E4m3 { saturating: false },
         role: if entry.derivative {
             KernelRole::Derivative
         } else {
