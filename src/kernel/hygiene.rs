@@ -1,6 +1,10 @@
 //! The six hygiene checks.  Each compares the kernel against itself (never against the
 //! reference): same input, same output, whatever n, position, alignment, thread or repetition;
-//! nothing written outside y; x untouched; FP control state left alone.
+//! nothing written outside y; x untouched; FP control state left alone.  Strided kernels get
+//! five more (`strided.rs`): gaps, negative strides, the stride-0 broadcast, stride pairs against
+//! the contiguous call, ragged n.
+
+mod strided;
 
 use super::protocol::{CallRequest, Layout};
 use super::runner::{CallError, Runner};
@@ -28,6 +32,17 @@ pub const CHECKS: [&str; 6] = [
     "fp-environment",
     "determinism",
 ];
+
+pub use strided::STRIDED_CHECKS;
+
+/// The checks a kernel of this signature gets, in report order.
+fn names(strided: bool) -> Vec<&'static str> {
+    let mut v = CHECKS.to_vec();
+    if strided {
+        v.extend(STRIDED_CHECKS);
+    }
+    v
+}
 
 /// Sizes tried by the tail and bounds checks: every n up to 129 (past a 128-wide block) and a
 /// few around larger powers of two.
@@ -73,6 +88,8 @@ struct Ctx<'a> {
     eb: usize,
     /// Name of the first input array in messages.
     first_name: &'static str,
+    /// The strides the sweep calls with ((1, 1) for contiguous kernels).
+    strides: (i32, i32),
 }
 
 impl Ctx<'_> {
@@ -85,6 +102,7 @@ impl Ctx<'_> {
             reps: 1,
             first: w.first.clone(),
             second: w.second.clone(),
+            strides: self.strides,
         }
     }
     fn hex(&self, bits: u32) -> String {
@@ -139,10 +157,12 @@ pub fn run_checks(
     second: Option<&[u32]>,
 ) -> Vec<HygieneCheck> {
     let spec = runner.spec().clone();
+    let is_strided = spec.signature != super::Signature::Contiguous;
+    let checks = names(is_strided);
     let bulk = runner.run(sample, second);
     if let Some(reason) = runner.stopped() {
         let why = format!("could not run: {reason}");
-        return CHECKS
+        return checks
             .iter()
             .map(|&check| HygieneCheck {
                 check,
@@ -154,7 +174,7 @@ pub fn run_checks(
     let keep: Vec<usize> = (0..sample.len())
         .filter(|&i| bulk.outputs[i].is_some())
         .collect();
-    let note = if bulk.crashes.is_empty() {
+    let mut note = if bulk.crashes.is_empty() {
         String::new()
     } else {
         format!(
@@ -162,6 +182,13 @@ pub fn run_checks(
             bulk.crashes.len()
         )
     };
+    let strides = runner.strides();
+    if is_strided {
+        note += &format!(
+            "; called with strides ({},{}) as in the sweep",
+            strides.0, strides.1
+        );
+    }
     if keep.is_empty() {
         let why = if sample.is_empty() {
             "could not run: empty sample".to_string()
@@ -174,7 +201,7 @@ pub fn run_checks(
         } else {
             "could not run: the kernel crashed or hung on every sample input".to_string()
         };
-        return CHECKS
+        return checks
             .iter()
             .map(|&check| HygieneCheck {
                 check,
@@ -202,8 +229,9 @@ pub fn run_checks(
         } else {
             "x"
         },
+        strides,
     };
-    let results = [
+    let mut results = vec![
         tail(&mut ctx),
         alignment(&mut ctx),
         bounds(&mut ctx),
@@ -211,7 +239,10 @@ pub fn run_checks(
         fp_environment(&mut ctx),
         determinism(&mut ctx, spec.thread_safe),
     ];
-    CHECKS
+    if is_strided {
+        results.extend(strided::run(&mut ctx));
+    }
+    checks
         .iter()
         .zip(results)
         .map(|(&check, (passed, detail))| HygieneCheck {
@@ -299,15 +330,22 @@ fn bounds(c: &mut Ctx) -> Verdict {
             let w = c.pool.window(start, n);
             start += n;
             let n_bytes = (n * c.eb) as i64;
+            let place = |off: i64, what: &str| {
+                if c.strides.1 == 1 {
+                    outside(off, n_bytes, what)
+                } else {
+                    format!(
+                        "a write at byte offset {off} from y[0] ({}) {what}",
+                        super::stride::where_in(off, n, c.eb, c.strides.1)
+                    )
+                }
+            };
             match c.runner.call(&c.request(&w, layout)) {
                 Ok(reply) => {
                     if let Some(off) = reply.canary {
                         return (
                             false,
-                            format!(
-                                "n={n}: {}",
-                                outside(off, n_bytes, "overwrote a canary byte")
-                            ),
+                            format!("n={n}: {}", place(off, "overwrote a canary byte")),
                         );
                     }
                 }
@@ -315,7 +353,7 @@ fn bounds(c: &mut Ctx) -> Verdict {
                     let off = f.addr as i64 - f.y_base as i64;
                     return (
                         false,
-                        format!("n={n}: {}", outside(off, n_bytes, "touched the guard page")),
+                        format!("n={n}: {}", place(off, "touched the guard page")),
                     );
                 }
                 Err(e) => return (false, failed_to_run(&e, &format!("n={n}"))),
