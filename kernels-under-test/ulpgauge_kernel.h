@@ -14,6 +14,12 @@
  *                void NAME(const T *y, const T *g, T *dx, size_t n); dx[i] = g[i] * h(y[i])
  *                where h(f(x)) = f'(x).
  *
+ * Strided kernels (signature = "strided" in the manifest, --signature strided), forward and
+ * derivative roles: element strides, negative allowed; x and y point at element 0, element i is
+ * x[i*sx] (so with sx < 0 the array lies below x), and sx may be 0 (every y is f(x[0])):
+ *   strided:     void NAME(const T *x, ptrdiff_t sx, T *y, ptrdiff_t sy, size_t n);
+ *                y[i*sy] = f(x[i*sx]); nothing between y's elements may be written.
+ *
  * Parameters (alpha, beta) are either baked into the kernel or passed as trailing `float`
  * arguments, in the catalog's order for the function (`ulpgauge functions` lists it):
  *   void NAME(const T *x, T *y, size_t n, float alpha);
@@ -44,6 +50,12 @@ typedef void (*ulpgauge_u16_gradient)(const uint16_t *x, const uint16_t *g, uint
                                       size_t n);
 typedef void (*ulpgauge_u8_kernel)(const uint8_t *x, uint8_t *y, size_t n);
 typedef void (*ulpgauge_u8_gradient)(const uint8_t *x, const uint8_t *g, uint8_t *dx, size_t n);
+typedef void (*ulpgauge_f32_strided)(const float *x, ptrdiff_t sx, float *y, ptrdiff_t sy,
+                                     size_t n);
+typedef void (*ulpgauge_u16_strided)(const uint16_t *x, ptrdiff_t sx, uint16_t *y, ptrdiff_t sy,
+                                     size_t n);
+typedef void (*ulpgauge_u8_strided)(const uint8_t *x, ptrdiff_t sx, uint8_t *y, ptrdiff_t sy,
+                                    size_t n);
 
 #ifdef __cplusplus
 }

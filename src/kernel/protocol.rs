@@ -543,7 +543,10 @@ mod tests {
         let req = request(3, 1, 2, true);
         let bytes = encode_call(OP_CALL, 9, &req).0;
         let mut cursor = io::Cursor::new(&bytes[4..]);
-        assert_eq!(decode_call(&mut Reader(&mut cursor)).unwrap(), (9, req));
+        assert_eq!(
+            decode_call(&mut Reader(&mut cursor)).unwrap(),
+            (9, req.clone())
+        );
         let mut huge = bytes.clone();
         // n sits after op, token and five words.
         huge[4 + 8 + 20..4 + 8 + 24].copy_from_slice(&u32::MAX.to_le_bytes());

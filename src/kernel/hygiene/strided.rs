@@ -23,8 +23,11 @@ pub const STRIDED_CHECKS: [&str; 5] = [
 /// each other (a sweep in bit order starts with long runs of equal outputs, which would hide a
 /// kernel that reads the neighbouring element).
 pub(super) fn run(c: &mut Ctx) -> Vec<Verdict> {
+    // NaN stays out too: a NaN read from a gap must not look like a neighbour's result.
+    let nan = |b: u32| c.format.classify(b) == Class::Nan;
     let mut seen = std::collections::HashSet::new();
     let keep: Vec<usize> = (0..c.pool.first.len())
+        .filter(|&i| !nan(c.pool.first[i]) && !nan(c.pool.expected[i]))
         .filter(|&i| seen.insert(c.pool.expected[i]))
         .collect();
     if keep.len() > 1 {
@@ -180,10 +183,10 @@ impl Ctx<'_> {
             .filter(|&j| j < base.len() && j != source && base[j] != want)
             .find(|&j| base[j] == got[i]);
         let nan = |b: u32| self.format.classify(b) == Class::Nan;
-        if let Some(j) = near {
-            format!("{head}: wrong element read (x[{j}]'s result)")
-        } else if nan(got[i]) && !nan(want) {
+        if nan(got[i]) && !nan(want) {
             format!("{head}: NaN, so a gap of x or a place past its ends was read (ulpgauge fills them with NaN)")
+        } else if let Some(j) = near {
+            format!("{head}: wrong element read (x[{j}]'s result)")
         } else if got[i] == 0xa5a5_a5a5 >> (32 - 8 * self.eb as u32) {
             format!("{head}: the canary ulpgauge put there, so y[{i}] was not written")
         } else {
