@@ -373,3 +373,41 @@ fn the_demo_manifest_finds_the_off_by_one_and_passes_the_pointer_walk() {
         ]
     );
 }
+
+#[test]
+fn certify_judges_all_eleven_checks_of_a_strided_kernel() {
+    let dir = kernels();
+    let lib = dir.join("liblumen_strided.so");
+    let spec = |symbol: &str, strides: &str| {
+        let path = dir.join(format!("certify-{symbol}.toml"));
+        std::fs::write(
+            &path,
+            format!(
+                "[kernel]\nlibrary = \"{}\"\nsymbol = \"{symbol}\"\nfunction = \"sigmoid\"\n\
+                 format = \"f32\"\nsignature = \"strided\"\nstrides = {strides}\n\n\
+                 [sweep]\nkind = [\"edge\"]\n\n[require]\nhygiene = true\n",
+                lib.display()
+            ),
+        )
+        .unwrap();
+        path
+    };
+    let good = spec("lumen_sigmoid_f32_strided", "[2, -3]");
+    let (code, stdout, err) = ulpgauge(&["certify", "--spec", good.to_str().unwrap()]);
+    assert_eq!(code, 0, "{stdout}{err}");
+    assert!(stdout.contains("11/11 checks"), "{stdout}");
+    let bad = spec("lumen_sigmoid_f32_strided_ob1", "[2, -3]");
+    let (code, stdout, _) = ulpgauge(&["certify", "--spec", bad.to_str().unwrap()]);
+    assert_eq!(code, 1, "{stdout}");
+    assert!(
+        stdout.contains("stride-equivalence: strides (2,1), n=67, element 64"),
+        "{stdout}"
+    );
+    let zero = spec("lumen_sigmoid_f32_strided", "\"2,0\"");
+    let (code, _, err) = ulpgauge(&["certify", "--spec", zero.to_str().unwrap()]);
+    assert_eq!(code, 2, "{err}");
+    assert!(
+        err.contains("key `kernel.strides`") && err.contains("SY is 0"),
+        "{err}"
+    );
+}
