@@ -15,7 +15,9 @@ use serde::Serialize;
 /// One entry of a report's `hygiene` list.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize)]
 pub struct HygieneCheck {
-    /// `tail`, `alignment`, `bounds`, `input-untouched`, `fp-environment` or `determinism`.
+    /// `tail`, `alignment`, `bounds`, `input-untouched`, `fp-environment` or `determinism`;
+    /// for strided kernels also `stride-gaps`, `stride-negative`, `stride-broadcast`,
+    /// `stride-equivalence` or `stride-ragged`.
     pub check: &'static str,
     /// Whether the kernel passed; a check that could not run did not pass.
     pub passed: bool,
@@ -174,7 +176,7 @@ pub fn run_checks(
     let keep: Vec<usize> = (0..sample.len())
         .filter(|&i| bulk.outputs[i].is_some())
         .collect();
-    let mut note = if bulk.crashes.is_empty() {
+    let note = if bulk.crashes.is_empty() {
         String::new()
     } else {
         format!(
@@ -183,12 +185,15 @@ pub fn run_checks(
         )
     };
     let strides = runner.strides();
-    if is_strided {
-        note += &format!(
+    // The six checks call at the sweep's strides; say so where they are not the only ones.
+    let at_sweep = if is_strided {
+        format!(
             "; called with strides ({},{}) as in the sweep",
             strides.0, strides.1
-        );
-    }
+        )
+    } else {
+        String::new()
+    };
     if keep.is_empty() {
         let why = if sample.is_empty() {
             "could not run: empty sample".to_string()
@@ -245,10 +250,15 @@ pub fn run_checks(
     checks
         .iter()
         .zip(results)
-        .map(|(&check, (passed, detail))| HygieneCheck {
+        .enumerate()
+        .map(|(k, (&check, (passed, detail)))| HygieneCheck {
             check,
             passed,
-            detail: if passed { detail + &note } else { detail },
+            detail: match (passed, k < CHECKS.len()) {
+                (true, true) => detail + &note + &at_sweep,
+                (true, false) => detail + &note,
+                (false, _) => detail,
+            },
         })
         .collect()
 }
