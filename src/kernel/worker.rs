@@ -343,7 +343,8 @@ fn decode(bytes: &[u8], eb: usize) -> Vec<u32> {
 }
 
 impl Input {
-    fn new(values: &[u32], eb: usize, offset: usize, stride: isize) -> Input {
+    /// `around`: NaN around the array too (strided kernels), not the canary bytes.
+    fn new(values: &[u32], eb: usize, offset: usize, stride: isize, around: bool) -> Input {
         let page = PAGE.load(Ordering::Relaxed) as usize;
         let span = Span {
             stride,
@@ -362,7 +363,7 @@ impl Input {
             encode(&laid, eb)
         };
         let region = Region::new(2 * page + 64 + bytes.len());
-        if stride != 1 {
+        if around {
             // Around a strided x too: a read past either end comes out as NaN.
             let nan = encode(&[gap_pattern(eb)], eb);
             // SAFETY: the region is region.len writable bytes.
@@ -539,11 +540,11 @@ impl Kernel {
         } else {
             sx
         };
-        let x = Input::new(&req.first, eb, req.x_offset as usize, sx);
+        let x = Input::new(&req.first, eb, req.x_offset as usize, sx, self.abi.strided);
         let g = req
             .second
             .as_ref()
-            .map(|s| Input::new(s, eb, req.x_offset as usize, 1));
+            .map(|s| Input::new(s, eb, req.x_offset as usize, 1, false));
         let y = Output::new(req.layout, n, eb, sy, req.y_offset as usize);
         let in_place_x = if req.layout == Layout::InPlace {
             encode(&req.first, eb)
@@ -664,8 +665,8 @@ impl Kernel {
         let eb = self.abi.elem_bytes;
         let n = req.first.len().max(1);
         let (sx, sy) = self.strides(req);
-        let x = Input::new(&req.first, eb, 0, sx);
-        let g = req.second.as_ref().map(|s| Input::new(s, eb, 0, 1));
+        let x = Input::new(&req.first, eb, 0, sx, self.abi.strided);
+        let g = req.second.as_ref().map(|s| Input::new(s, eb, 0, 1, false));
         let y = Output::new(Layout::Padded, n, eb, sy, 0);
         let gp = g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8);
         enter_caller_env();
