@@ -350,3 +350,104 @@ fn mixed_formats_read_the_input_in_one_format_and_round_into_the_other() {
     assert_eq!(code, 2);
     assert!(err.contains("--output-format"), "{err}");
 }
+
+#[test]
+fn gated_functions_take_a_pair() {
+    // silu(−2)·(−3) = 6/(1 + e^2) = 0.71521753… (binary64 here; the binary16 spacing near 0.7
+    // is 2^−11, far coarser than binary64's error).
+    let v = eval_json(&["--function", "swiglu", "--format", "f16", "-2", "-3"]);
+    // Checked as "within half an ulp", 2^−12 in [0.5, 1) (IEEE 754 binary16, p = 11); the
+    // `half` crate's from_f64 rounds through binary32 (see DEVELOPERS.md), so it is not used.
+    let exact = 6.0 / (1.0 + 2f64.exp());
+    let got = v["rounded"]["value"].as_f64().unwrap();
+    assert!((got - exact).abs() <= 2f64.powi(-12), "{got} vs {exact}");
+    assert_eq!(got * 2048.0, (got * 2048.0).round());
+    assert_eq!(v["a"]["bits"], "0xc000");
+    assert_eq!(v["b"]["bits"], "0xc200");
+    assert_eq!(v["arity"], 2);
+    // ∂/∂b is silu(a) alone: silu(2) = 2/(1 + e^−2) = 1.7615941559557649.
+    let v = eval_json(&[
+        "--function",
+        "swiglu",
+        "--format",
+        "f32",
+        "--role",
+        "derivative-b",
+        "2",
+        "7",
+    ]);
+    assert_eq!(
+        v["rounded"]["value"].as_f64().unwrap(),
+        (2.0 / (1.0 + (-2f64).exp())) as f32 as f64
+    );
+    // One input, or --derivative without saying which one: exit 2, one line.
+    for args in [
+        &["eval", "--function", "reglu", "--format", "f16", "1"][..],
+        &[
+            "eval",
+            "--function",
+            "reglu",
+            "--format",
+            "f16",
+            "--derivative",
+            "1",
+            "2",
+        ][..],
+        &[
+            "eval",
+            "--function",
+            "sigmoid",
+            "--format",
+            "f16",
+            "--role",
+            "derivative-a",
+            "1",
+        ][..],
+    ] {
+        let (code, _, err) = ulpgauge(args);
+        assert_eq!(code, 2, "{args:?}");
+        assert_eq!(err.trim().lines().count(), 1, "{err}");
+    }
+    let (_, out, _) = ulpgauge(&["functions", "--json"]);
+    let all: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let gated: Vec<_> = all
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["arity"] == 2)
+        .map(|f| f["name"].as_str().unwrap().to_string())
+        .collect();
+    assert_eq!(gated, ["swiglu", "geglu", "geglu-tanh", "reglu"]);
+}
+
+#[test]
+fn batch_reads_gated_pairs() {
+    use std::io::Write;
+    let run = |input: &str| {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+            .args(["batch", "--function", "reglu", "--format", "f16"])
+            .stdin(std::process::Stdio::piped())
+            .stdout(std::process::Stdio::piped())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .unwrap();
+        child
+            .stdin
+            .take()
+            .unwrap()
+            .write_all(input.as_bytes())
+            .unwrap();
+        let out = child.wait_with_output().unwrap();
+        (
+            out.status.code(),
+            String::from_utf8_lossy(&out.stdout).into_owned(),
+        )
+    };
+    // relu(3)·5 = 15 = 0x4b80 in binary16 (1.875·2^3); 0·∞ is NaN (IEEE 754-2019 §7.2).
+    let (code, out) = run("0x4200 0x4500\n0x0000 0x7c00\n");
+    assert_eq!(code, Some(0));
+    assert_eq!(out, "0x4200 0x4500 0x4b80\n0x0000 0x7c00 0x7e00\n");
+    let (code, out) = run("0x4200 0x4500 0x3c00");
+    assert_eq!(code, Some(2));
+    assert!(out.is_empty());
+}

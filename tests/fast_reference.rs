@@ -37,29 +37,35 @@ fn evaluator(
     params: &[&str],
 ) -> Evaluator<'static> {
     let f = lookup(name).unwrap();
-    let assignments: Vec<String> = params.iter().map(|s| s.to_string()).collect();
+    let (rounding, assignments) = rounding(params);
     let user = Constants::parse_params(f, &assignments).unwrap();
     Evaluator::new(
         f,
         role,
-        Constants::resolve(f, &user, rounding(name), format),
+        Constants::resolve(f, &user, rounding, format),
         format,
     )
 }
 
-/// SELU's published constants are decimals, not binary64 numbers: its fast path exists only
-/// once they are rounded (`--param-rounding f32`), which the tests use for it.
-fn rounding(name: &str) -> ParamRounding {
-    if name == "selu" {
+/// `param-rounding=f32` among a test's parameters stands for `--param-rounding f32` (SELU's
+/// constants then become binary64 numbers, its other fast kind); the rest are parameters.
+fn rounding(params: &[&str]) -> (ParamRounding, Vec<String>) {
+    let f32 = params.contains(&F32_ROUNDED);
+    let rest = params.iter().filter(|p| **p != F32_ROUNDED);
+    let rounding = if f32 {
         ParamRounding::F32
     } else {
         ParamRounding::Exact
-    }
+    };
+    (rounding, rest.map(|s| s.to_string()).collect())
 }
 
+/// See [`rounding`].
+const F32_ROUNDED: &str = "param-rounding=f32";
+
 /// The exact value at 256 bits, straight from the definitions (only for approximation checks;
-/// β and α as f64).
-fn truth(name: &str, role: Role, x: f64, param: f64) -> f64 {
+/// β and α as f64; SELU's λ and α rounded to binary32 when `f32_constants`).
+fn truth(name: &str, role: Role, x: f64, param: f64, f32_constants: bool) -> f64 {
     use rug::Float;
     let p = 256;
     let x = Float::with_val(p, x);
@@ -112,9 +118,15 @@ fn truth(name: &str, role: Role, x: f64, param: f64) -> f64 {
             }
         }
         ("selu", r) => {
-            // The binary32 roundings of λ and α (the tests' --param-rounding f32).
-            // The published decimals (Klambauer et al. 2017), rounded to nearest binary32.
-            let round = |d: &str| Float::with_val(p, d.parse::<f32>().unwrap());
+            // The published decimals (Klambauer et al. 2017), exact, or rounded to nearest
+            // binary32 (the tests' --param-rounding f32).
+            let round = |d: &str| {
+                if f32_constants {
+                    Float::with_val(p, d.parse::<f32>().unwrap())
+                } else {
+                    Float::with_val(p, Float::parse(d).unwrap())
+                }
+            };
             let lambda = round("1.0507009873554804934193349852946");
             let alpha = round("1.6732632423543772848170429916717");
             match r {
@@ -184,8 +196,10 @@ fn compare(
     inputs: &[u32],
 ) -> (usize, usize) {
     let e = evaluator(name, role, format, params);
+    let f32_constants = params.contains(&F32_ROUNDED);
     let param = params
-        .first()
+        .iter()
+        .find(|a| **a != F32_ROUNDED)
         .map(|a| a.split_once('=').unwrap().1.parse::<f64>().unwrap())
         .unwrap_or(1.0);
     let fast =
@@ -196,7 +210,13 @@ fn compare(
             Some(r) => {
                 let m = e.reference(x).unwrap();
                 assert!(
-                    same(&r, &m, || truth(name, role, format.to_f64(x), param)),
+                    same(&r, &m, || truth(
+                        name,
+                        role,
+                        format.to_f64(x),
+                        param,
+                        f32_constants
+                    )),
                     "{name} {role:?} {} {params:?} at {:#x} ({}): fast {r:?} vs mpfr {m:?}",
                     format.name(),
                     x,
@@ -444,7 +464,9 @@ fn mish_fast_matches_mpfr() {
 
 #[test]
 fn selu_celu_fast_matches_mpfr() {
+    // The published λ and α (double-word constants) and the same rounded to f32 (exact f64).
     check("selu", &[], SMALL / 4);
+    check("selu", &[F32_ROUNDED], SMALL / 8);
     check("celu", &[], SMALL / 8);
     check("celu", &["alpha=0.25"], SMALL / 16);
     check("celu", &["alpha=1.75"], SMALL / 16);
@@ -454,6 +476,7 @@ fn selu_celu_fast_matches_mpfr() {
         SMALL / 16,
     );
     exhaustive16("selu", &[]);
+    exhaustive16("selu", &[F32_ROUNDED]);
     exhaustive16("celu", &[]);
     exhaustive16("celu", &["alpha=0.25"]);
 }
@@ -470,11 +493,6 @@ fn inexact_parameters_have_no_fast_path() {
     let e = evaluator("elu", Role::Forward, &Binary32, &["alpha=0.1"]);
     assert!(FastEvaluator::new(&e).is_none());
     let e = evaluator("celu", Role::Forward, &Binary32, &["alpha=0.1"]);
-    assert!(FastEvaluator::new(&e).is_none());
-    // SELU's published constants are 32-digit decimals, not binary64 numbers.
-    let f = lookup("selu").unwrap();
-    let exact = Constants::resolve(f, &[], ParamRounding::Exact, &Binary32);
-    let e = Evaluator::new(f, Role::Forward, exact, &Binary32);
     assert!(FastEvaluator::new(&e).is_none());
 }
 
@@ -706,7 +724,8 @@ fn ilogb(x: f64) -> i32 {
 /// Edges (±300 patterns, every format) and random inside points (all decided, binary32).
 fn closed_regions(name: &str, params: &[&str]) {
     let param = params
-        .first()
+        .iter()
+        .find(|a| **a != F32_ROUNDED)
         .map(|a| a.split_once('=').unwrap().1.parse::<f64>().unwrap())
         .unwrap_or(1.0);
     let mut g = Mix(2024);
@@ -1063,13 +1082,21 @@ const EXACT: [&str; 7] = [
     "softsign",
 ];
 
-/// Functions with a double-word fast path on this branch.
-const DOUBLE_WORD: [&str; 6] = ["sigmoid", "tanh", "swish", "silu", "elu", "gelu"];
-
-/// Functions without a fast path under their default parameters: SELU's published λ and α are
-/// 32-digit decimals, not binary64 numbers (its fast path needs them rounded:
-/// `--param-rounding f32|format`; the default constants are still open work of issue #18).
-const PENDING: [&str; 1] = ["selu"];
+/// Functions with a double-word fast path (src/reference/fast/: one file per family).
+const DOUBLE_WORD: [&str; 12] = [
+    "sigmoid",
+    "tanh",
+    "swish",
+    "silu",
+    "elu",
+    "gelu",
+    "softplus",
+    "log-sigmoid",
+    "mish",
+    "selu",
+    "celu",
+    "gelu-tanh",
+];
 
 /// Parameter sets per function: the defaults and, for leaky ReLU, negative, zero, integer,
 /// decimal (n/d), long binary64 and overflowing slopes.
@@ -1286,13 +1313,9 @@ fn exact_functions_exhaustive16() {
 }
 
 /// Every catalog function has a fast path in every role and format (default parameters).
-/// Functions in [`PENDING`] are exempt (see there).
 #[test]
 fn every_catalog_function_has_a_fast_path() {
     for f in ulpgauge::activation::catalog() {
-        if PENDING.contains(&f.name()) {
-            continue;
-        }
         for role in [Role::Forward, Role::Derivative] {
             for format in [&Binary32 as &'static dyn Format, &Binary16, &Bfloat16] {
                 let e = evaluator(f.name(), role, format, &[]);

@@ -8,6 +8,7 @@ cargo build --release --locked
 python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge
 python3 tests/crosscheck/crosscheck.py --ulpgauge target/release/ulpgauge --formats e4m3,e5m2,e4m3-sat,e5m2-sat
 python3 tests/crosscheck/mixed.py --ulpgauge target/release/ulpgauge
+python3 tests/crosscheck/gated.py --ulpgauge target/release/ulpgauge
 python3 tests/recorder/test_recorder.py --ulpgauge target/release/ulpgauge
 cargo test --release --locked
 bash tests/reports/run.sh

@@ -7,6 +7,7 @@
 
 mod catalog;
 pub mod common;
+pub mod gated;
 
 mod celu;
 mod elu;
@@ -28,6 +29,7 @@ mod swish;
 mod tanh;
 
 pub use catalog::{catalog, lookup, Entry};
+pub use gated::{gated_catalog, lookup_gated, Gated, GatedEntry, GatedRole};
 
 use crate::format::Format;
 use crate::reference::{Ival, ParamRounding, Real};

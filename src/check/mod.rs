@@ -10,6 +10,7 @@ mod compare_runs;
 mod confirm;
 mod gathered;
 mod kernel;
+pub mod pairs;
 mod probe;
 mod recorded;
 mod runner_kernel;

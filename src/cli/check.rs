@@ -35,6 +35,10 @@ pub enum RoleArg {
     Derivative,
     /// The kernel computes g·f′(x) from x (or f(x), see --from-output) and g.
     Gradient,
+    /// A gated kernel computes ∂y/∂a = act′(a)·b from a and b.
+    DerivativeA,
+    /// A gated kernel computes ∂y/∂b = act(a) from a (and b).
+    DerivativeB,
 }
 
 /// Arguments of `check`.
@@ -331,7 +335,8 @@ impl Outputs {
 fn role_of(args: &Args) -> CheckRole {
     match args.role {
         RoleArg::Forward => CheckRole::Forward,
-        RoleArg::Derivative => CheckRole::Derivative,
+        // The gated roles are refused for one-input functions before a role is needed.
+        RoleArg::Derivative | RoleArg::DerivativeA | RoleArg::DerivativeB => CheckRole::Derivative,
         RoleArg::Gradient => CheckRole::Gradient {
             from_output: args.from_output,
         },
@@ -744,10 +749,26 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
 pub fn run(args: Args) -> Result<i32, Failure> {
     let signature = signature_from_args(&args)?;
     if signature != Signature::Contiguous
-        && (args.manifest.is_some() || args.builtin_kernel.is_some() || args.inputs.is_some())
+        && (args.manifest.is_some()
+            || args.builtin_kernel.is_some()
+            || args.inputs.is_some()
+            || args
+                .function
+                .as_deref()
+                .is_some_and(|f| crate::activation::lookup_gated(f).is_some()))
     {
         return Err(Failure::bad_input(
-            "--signature strided and --strides describe a library kernel (--lib); a manifest entry sets its own",
+            "--signature strided and --strides describe a one-input library kernel (--lib); a manifest entry sets its own",
+        ));
+    }
+    if let Some(function) = &args.function {
+        if crate::activation::lookup_gated(function).is_some() {
+            return super::check_pairs::run(&args, function);
+        }
+    }
+    if matches!(args.role, RoleArg::DerivativeA | RoleArg::DerivativeB) {
+        return Err(Failure::bad_input(
+            "--role derivative-a and derivative-b are the roles of the two-input functions (swiglu, geglu, geglu-tanh, reglu)",
         ));
     }
     if args.inputs.is_some() {

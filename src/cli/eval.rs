@@ -15,13 +15,17 @@ pub struct Args {
     #[arg(long, value_name = "FUNC")]
     function: Option<String>,
     /// Input: a decimal (rounded to nearest, ties to even, if the format cannot hold it), `inf`,
-    /// `-inf`, `nan`, or the format's bit pattern as 0x-hex. The older form `eval FUNC X` is
-    /// still read (with a note).
+    /// `-inf`, `nan`, or the format's bit pattern as 0x-hex; a gated function (swiglu, geglu,
+    /// geglu-tanh, reglu) takes two, `A B`. The older form `eval FUNC X` is still read (with a
+    /// note).
     #[arg(allow_hyphen_values = true, value_name = "X")]
     x: String,
-    /// The input, in the older form `eval FUNC X`.
-    #[arg(allow_hyphen_values = true, hide = true)]
-    older_x: Option<String>,
+    /// The second input of a gated function (B), or the input in the older form `eval FUNC X`.
+    #[arg(allow_hyphen_values = true, value_name = "B")]
+    more: Option<String>,
+    /// B in the older form `eval FUNC A B` (a negative number, or any value after `--`).
+    #[arg(allow_negative_numbers = true, hide = true)]
+    older_b: Option<String>,
     /// Format of the input and of the result.
     #[arg(long, value_name = "f32|f16|bf16|e4m3|e5m2")]
     format: Option<String>,
@@ -31,9 +35,13 @@ pub struct Args {
     /// Format the result is rounded into (default: --format).
     #[arg(long, value_name = "FORMAT")]
     output_format: Option<String>,
-    /// Evaluate f′ instead of f.
+    /// Evaluate f′ instead of f (one-input functions).
     #[arg(long)]
     derivative: bool,
+    /// forward or derivative; for a gated function forward, derivative-a (∂y/∂a = act′(a)·b) or
+    /// derivative-b (∂y/∂b = act(a)).
+    #[arg(long, value_name = "ROLE")]
+    role: Option<String>,
     /// Print one JSON object instead of text.
     #[arg(long)]
     json: bool,
@@ -42,13 +50,13 @@ pub struct Args {
 }
 
 /// How the input was given.
-struct Input {
-    bits: u32,
+pub(super) struct Input {
+    pub(super) bits: u32,
     /// The decimal text when it was not exactly representable.
-    rounded_from: Option<String>,
+    pub(super) rounded_from: Option<String>,
 }
 
-fn parse_input(format: &dyn Format, text: &str) -> Result<Input, Failure> {
+pub(super) fn parse_input(format: &dyn Format, text: &str) -> Result<Input, Failure> {
     let exact = |bits| {
         Ok(Input {
             bits,
@@ -109,7 +117,7 @@ fn exact_digits(evaluator: &Evaluator, format: &dyn Format, bits: u32) -> Option
 
 /// Rewrites MPFR's `d.ddd…e±N` as a plain decimal when −6 ≤ N ≤ 20, which reads better for
 /// activation values; other exponents stay in scientific form.
-fn plain_decimal(text: &str) -> String {
+pub(super) fn plain_decimal(text: &str) -> String {
     let Some((mantissa, exponent)) = text.split_once('e') else {
         return text.to_string();
     };
@@ -142,7 +150,8 @@ fn plain_decimal(text: &str) -> String {
 /// Runs `eval`.
 pub fn run(args: Args) -> Result<i32, Failure> {
     let given: Vec<String> = std::iter::once(args.x.clone())
-        .chain(args.older_x.clone())
+        .chain(args.more.iter().cloned())
+        .chain(args.older_b.iter().cloned())
         .collect();
     let (function, rest, note) = super::function_and_inputs("eval", args.function.clone(), &given)?;
     let code = evaluate(&args, &function, &rest)?;
@@ -154,6 +163,22 @@ pub fn run(args: Args) -> Result<i32, Failure> {
 
 /// `eval` once its function and input are known.
 fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure> {
+    if crate::activation::lookup_gated(function).is_some() {
+        return super::eval_pair::evaluate(
+            function,
+            rest,
+            super::eval_pair::Options {
+                format: args.format.as_deref(),
+                input_format: args.input_format.as_deref(),
+                output_format: args.output_format.as_deref(),
+                role: args.role.as_deref(),
+                derivative: args.derivative,
+                json: args.json,
+                function_args: &args.function_args,
+            },
+        );
+    }
+    let derivative = super::unary_derivative(function, args.role.as_deref(), args.derivative)?;
     let [x] = rest else {
         return Err(Failure::bad_input(
             "eval takes one input X (usage: ulpgauge eval --function FUNC --format FMT X)",
@@ -168,7 +193,7 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
         function,
         &input_name,
         &output_name,
-        args.derivative,
+        derivative,
         &args.function_args,
     )?;
     let evaluator = &target.evaluator;
@@ -211,11 +236,7 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
             (name.to_string(), json!(text))
         })
         .collect();
-    let role = if args.derivative {
-        "derivative"
-    } else {
-        "forward"
-    };
+    let role = if derivative { "derivative" } else { "forward" };
     if args.json {
         let kink_json = kink.as_ref().map(|k| {
             json!({"at": k.at, "left": k.left.to_f64(), "right": k.right.to_f64(), "convention": "right"})

@@ -43,6 +43,8 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             .collect();
         all.push(json!({
             "name": f.name(),
+            "arity": 1,
+            "roles": ["forward", "derivative"],
             "definition": f.definition(),
             "derivative": f.derivative_definition(),
             "params": params,
@@ -51,11 +53,45 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             "limits": {"forward": limits(Role::Forward), "derivative": limits(Role::Derivative)},
         }));
     }
+    for g in crate::activation::gated_catalog() {
+        let (da, db) = crate::activation::gated::partial_definitions(*g);
+        let params: Vec<_> = g
+            .act()
+            .params()
+            .iter()
+            .map(|p| json!({"name": p.name, "default": p.default, "doc": p.doc}))
+            .collect();
+        all.push(json!({
+            "name": g.name(),
+            "arity": 2,
+            "roles": crate::activation::GatedRole::ALL.map(|r| r.name()),
+            "activation": g.act().name(),
+            "definition": g.definition(),
+            "derivative_a": da,
+            "derivative_b": db,
+            "params": params,
+            "signature": "void NAME(const T *a, const T *b, T *y, size_t n)",
+        }));
+    }
     if args.json {
         sayln!("{}", serde_json::to_string_pretty(&all).expect("json"));
         return Ok(0);
     }
     for entry in &all {
+        if entry["arity"] == 2 {
+            sayln!(
+                "{}  (two inputs a, b)",
+                entry["name"].as_str().unwrap_or("")
+            );
+            sayln!("  y(a,b) {}", entry["definition"].as_str().unwrap_or(""));
+            sayln!("  dy/da  {}", entry["derivative_a"].as_str().unwrap_or(""));
+            sayln!("  dy/db  {}", entry["derivative_b"].as_str().unwrap_or(""));
+            sayln!(
+                "  roles  forward, derivative-a, derivative-b; kernel {}",
+                entry["signature"].as_str().unwrap_or("")
+            );
+            continue;
+        }
         sayln!("{}", entry["name"].as_str().unwrap_or(""));
         sayln!("  f(x)   {}", entry["definition"].as_str().unwrap_or(""));
         sayln!("  f'(x)  {}", entry["derivative"].as_str().unwrap_or(""));

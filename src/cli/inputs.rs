@@ -64,6 +64,11 @@ fn plan(args: &Args, format: &'static dyn Format) -> Result<(Inputs, Vec<u32>), 
             RoleArg::Forward => CheckRole::Forward,
             RoleArg::Derivative => CheckRole::Derivative,
             RoleArg::Gradient => CheckRole::Gradient { from_output: false },
+            RoleArg::DerivativeA | RoleArg::DerivativeB => {
+                return Err(Failure::bad_input(
+                    "inputs: the roles of the two-input functions (derivative-a, derivative-b) are not planned here yet",
+                ))
+            }
         },
         params: args.function_args.params.clone(),
     };

@@ -29,8 +29,10 @@ mod certify;
 pub mod check;
 pub mod check_args;
 pub mod check_env;
+mod check_pairs;
 mod compare;
 mod eval;
+mod eval_pair;
 mod functions;
 mod golden;
 mod inputs;
@@ -247,6 +249,73 @@ pub fn resolve_mixed(
     Ok(target)
 }
 
+/// Resolves a gated function (two inputs), its role and format into a pair evaluator;
+/// `Ok(None)` when `function` is not a gated function.
+pub fn resolve_pair(
+    function: &str,
+    format: &str,
+    role: crate::activation::GatedRole,
+    args: &FunctionArgs,
+) -> Result<Option<crate::reference::PairEvaluator>, Failure> {
+    use crate::activation::{lookup_gated, Constants};
+    let Some(g) = lookup_gated(function) else {
+        return Ok(None);
+    };
+    let fmt = crate::format::resolve(format, args.fp8_overflow).map_err(Failure::bad_input)?;
+    let user = Constants::parse_params(g.act(), &args.params)
+        .map_err(|e| Failure::bad_input(e.replacen(g.act().name(), g.name(), 1)))?;
+    let constants = Constants::resolve_checked(g.act(), &user, args.param_rounding, fmt)
+        .map_err(Failure::bad_input)?;
+    Ok(Some(crate::reference::PairEvaluator::new(
+        g, role, constants, fmt,
+    )))
+}
+
+/// The role of a gated function from `--role` and `--derivative`: a gated function has two
+/// partial derivatives, so `--derivative` alone is refused naming both roles.
+pub fn gated_role(
+    function: &str,
+    role: Option<&str>,
+    derivative: bool,
+) -> Result<crate::activation::GatedRole, Failure> {
+    use crate::activation::GatedRole;
+    match (role, derivative) {
+        (None, false) => Ok(GatedRole::Forward),
+        (None, true) | (Some("derivative"), _) => Err(Failure::bad_input(format!(
+            "{function} takes two inputs and has two partial derivatives: use --role derivative-a (dy/da) or --role derivative-b (dy/db)"
+        ))),
+        (Some(name), _) => GatedRole::parse(name).ok_or_else(|| {
+            Failure::bad_input(format!(
+                "--role {name}: {function} has the roles forward, derivative-a, derivative-b"
+            ))
+        }),
+    }
+}
+
+/// Whether a unary function's `--role` asks for f′ (`forward` or `derivative`; the gated
+/// roles are refused naming the function's arity).
+pub fn unary_derivative(
+    function: &str,
+    role: Option<&str>,
+    derivative: bool,
+) -> Result<bool, Failure> {
+    match role {
+        None => Ok(derivative),
+        Some("forward") if !derivative => Ok(false),
+        Some("derivative") => Ok(true),
+        Some(name) => Err(Failure::bad_input(format!(
+            "--role {name}: {function} takes one input and has the roles forward, derivative"
+        ))),
+    }
+}
+
+/// The names of every catalog function, unary then gated, for "unknown function" lines.
+pub fn all_function_names() -> String {
+    let unary = crate::activation::catalog().iter().map(|f| f.name());
+    let gated = crate::activation::gated_catalog().iter().map(|g| g.name());
+    unary.chain(gated).collect::<Vec<_>>().join(", ")
+}
+
 /// Resolves names and parameters into an evaluator, or a bad-input failure.
 pub fn resolve(
     function: &str,
@@ -254,12 +323,11 @@ pub fn resolve(
     derivative: bool,
     args: &FunctionArgs,
 ) -> Result<Target, Failure> {
-    use crate::activation::{catalog, lookup, Constants, Role};
+    use crate::activation::{lookup, Constants, Role};
     let f = lookup(function).ok_or_else(|| {
-        let names: Vec<_> = catalog().iter().map(|f| f.name()).collect();
         Failure::bad_input(format!(
             "unknown function '{function}' (known: {})",
-            names.join(", ")
+            all_function_names()
         ))
     })?;
     let fmt = crate::format::resolve(format, args.fp8_overflow).map_err(Failure::bad_input)?;

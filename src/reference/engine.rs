@@ -210,6 +210,12 @@ impl<'a> Evaluator<'a> {
         }
     }
 
+    /// The reference an enclosure of the (scaled) exact value decides, by the Ziv loop's own
+    /// rule, or `None` when it does not (for callers that enclose the value themselves).
+    pub(crate) fn decide(&self, iv: &Ival, prec: u32) -> Option<Reference> {
+        self.decided(iv, prec).map(|r| saturated(self.format, r))
+    }
+
     /// Both ends round to the same pattern and lie in the same (clamped) binade.
     fn decided(&self, iv: &Ival, prec: u32) -> Option<Reference> {
         if iv.lo.is_nan() || iv.hi.is_nan() {
@@ -337,7 +343,7 @@ impl<'a> Evaluator<'a> {
 /// Under a saturating OFP8 conversion the reference is RN(clamp(y, −max, max)), so the
 /// measures see the clamped value: an exact value beyond ±max (an infinite limit included)
 /// becomes ±max in emax's binade.
-fn saturated(format: &dyn Format, mut r: Reference) -> Reference {
+pub(crate) fn saturated(format: &dyn Format, mut r: Reference) -> Reference {
     let l = format.layout();
     if !l.is_saturating() || !l.is_finite(r.bits) {
         return r;

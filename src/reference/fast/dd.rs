@@ -15,6 +15,9 @@
 // and keeping them explicit keeps every one visible in the proofs.
 #![allow(clippy::should_implement_trait)]
 
+use crate::reference::Real;
+use rug::Float;
+
 /// Uniform relative error bound of one double-word operation (see the module comment).
 pub const OP: f64 = 7.888609052210118e-31; // 2^-100
 
@@ -276,11 +279,29 @@ impl Ev {
 
 /// A real constant as a double-word: hi = RN(c), lo = RN(c − hi), so |c − hi − lo| ≤
 /// 2^−53·|lo| ≤ 2^−106·|c|·(1 + 2^−52); we record r = 2^−104.
-pub fn constant(c: &rug::Float) -> Ev {
+pub fn constant(c: &Float) -> Ev {
     let hi = c.to_f64();
-    let lo = rug::Float::with_val(c.prec(), c - hi).to_f64();
+    let lo = Float::with_val(c.prec(), c - hi).to_f64();
     Ev {
         v: Dd { hi, lo },
         r: 4.930380657631324e-32, // 2^-104
     }
+}
+
+/// A constant of the engine as a double-word within a relative 2^−103: the midpoint m of a
+/// 300-bit enclosure no wider than 2^−200·|m| is within 2^−200 of it, and [`constant`] rounds
+/// m within 2^−104 (1 + 2^−52).
+pub fn double_word(value: &Real) -> Option<Ev> {
+    let iv = value.enclose(300);
+    let mid = Float::with_val(320, &iv.lo + &iv.hi) / 2u32;
+    let width = Float::with_val(320, &iv.hi - &iv.lo);
+    let limit = Float::with_val(320, mid.abs_ref()) >> 200u32;
+    if !mid.is_normal() || width > limit {
+        return None;
+    }
+    let e = constant(&mid);
+    Some(Ev {
+        v: e.v,
+        r: 9.860761315262648e-32, // 2^-103
+    })
 }

@@ -39,6 +39,10 @@ pub enum Outcome {
     Leading(Dd, f64, f64),
     /// y is exactly this (nonzero, normal) f64: rounded like the engine's exact rationals.
     Exact(f64),
+    /// y is an exact rational, known here only as this enclosure (a parameter that is no
+    /// binary64 times x): decided like [`Outcome::Value`], reported as exact (precision 0) as
+    /// the engine reports a rational value; a tie of the format declines to the engine.
+    Rational(Ev),
     /// A reference given as is (the engine's asymptotic tails, replicated).
     Fixed(Reference),
     /// No fast answer: the caller uses MPFR.
@@ -282,6 +286,13 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
         Outcome::Exact(x) => {
             let (bits, binade) = round_dd(format, x, 0.0, 0)?;
             Some(reference(bits, binade, x, 0))
+        }
+        Outcome::Rational(v) => {
+            if !less(v.r, MAX_REL) {
+                return None;
+            }
+            let (bits, binade, approx) = decide_interval(format, v.v, absolute(&v), 0)?;
+            Some(reference(bits, binade, approx, 0))
         }
         Outcome::Value(v, k) => {
             if !less(v.r, MAX_REL) {

@@ -19,32 +19,12 @@
 //! [`exp`]: super::exp::exp
 
 use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL};
-use super::dd::{constant, Dd, Ev};
+use super::dd::{double_word, Dd, Ev};
 use super::decide::{engine_tiny, rectifier_tail, Outcome};
 use super::exp::expm1;
 use super::Kind;
 use crate::activation::{Constants, Role};
 use crate::format::Layout;
-use crate::reference::Real;
-use rug::Float;
-
-/// A constant of the engine as a double-word within a relative 2^−103: the midpoint m of a
-/// 300-bit enclosure no wider than 2^−200·|m| is within 2^−200 of it, and [`constant`] rounds
-/// m within 2^−104 (1 + 2^−52).
-fn double_word(value: &Real) -> Option<Ev> {
-    let iv = value.enclose(300);
-    let mid = Float::with_val(320, &iv.lo + &iv.hi) / 2u32;
-    let width = Float::with_val(320, &iv.hi - &iv.lo);
-    let limit = Float::with_val(320, mid.abs_ref()) >> 200u32;
-    if !mid.is_normal() || width > limit {
-        return None;
-    }
-    let e = constant(&mid);
-    Some(Ev {
-        v: e.v,
-        r: 9.860761315262648e-32, // 2^-103
-    })
-}
 
 /// The fast-path kind for the resolved constants: c within [0.79, 0.80] and k within
 /// [0.044, 0.046], the ranges the closed-form thresholds below are proved for (the default

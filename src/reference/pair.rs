@@ -1,0 +1,325 @@
+//! References of the gated functions y(a, b) = act(a)·b: the unary activation's exact value
+//! times the exact b, rounded once by the same Ziv loop (b enters as the engine's exact scale).
+
+use super::engine::{saturated, Evaluator, Reference, ReferenceError, MAX_PRECISION};
+use super::interval::Ival;
+use crate::activation::{Constants, Ctx, Gated, GatedRole, Limit, Value};
+use crate::format::{Class, ExactValue, Format};
+use rug::{Float, Rational};
+
+/// Working precision of a prepared act(a): 128 bits leave 104 guard bits over binary32.
+pub const PREPARED_PRECISION: u32 = 128;
+
+/// act(a) enclosed once for many b ([`PairEvaluator::prepare`]).
+pub struct Prepared {
+    a: u32,
+    act: Option<Ival>,
+}
+
+impl Prepared {
+    /// The a it was prepared for.
+    pub fn a(&self) -> u32 {
+        self.a
+    }
+}
+
+/// Computes references of one gated function, role and format (a, b and y share the format).
+pub struct PairEvaluator {
+    gated: &'static dyn Gated,
+    role: GatedRole,
+    /// act (or act′) of a, unscaled; b is passed per point as its exact scale.
+    inner: Evaluator<'static>,
+}
+
+impl PairEvaluator {
+    /// An evaluator; `constants` must come from [`Constants::resolve`] for `gated.act()`.
+    pub fn new(
+        gated: &'static dyn Gated,
+        role: GatedRole,
+        constants: Constants,
+        format: &'static dyn Format,
+    ) -> Self {
+        let inner = Evaluator::new(gated.act(), role.inner().0, constants, format);
+        PairEvaluator { gated, role, inner }
+    }
+    /// The gated function.
+    pub fn gated(&self) -> &'static dyn Gated {
+        self.gated
+    }
+    /// The role.
+    pub fn role(&self) -> GatedRole {
+        self.role
+    }
+    /// The format of a, b and y.
+    pub fn format(&self) -> &'static dyn Format {
+        self.inner.format()
+    }
+    /// The resolved constants of the activation.
+    pub fn constants(&self) -> &Constants {
+        self.inner.constants()
+    }
+
+    /// The correctly rounded reference at the pair of patterns (a, b).
+    ///
+    /// IEEE 754 conventions where the product has no real value: NaN in either operand gives
+    /// NaN, and 0·∞ (a factor exactly zero, or tending to zero at a = ±∞, times an infinite
+    /// other factor) gives NaN, as IEEE multiplication does. An exactly zero product takes the
+    /// sign rule of multiplication (sign of act(a)'s reference zero xor sign of b).
+    /// `derivative-b` is act(a) and ignores b.
+    pub fn reference(&self, a: u32, b: u32) -> Result<Reference, ReferenceError> {
+        let f = self.format();
+        if !self.role.inner().1 {
+            return self.inner.reference(a);
+        }
+        if f.classify(a) == Class::Nan || f.classify(b) == Class::Nan {
+            return Ok(self.nan());
+        }
+        let b_negative = f.is_sign_negative(b);
+        match f.classify(b) {
+            Class::Infinite => Ok(match self.sign_of_act(a)? {
+                None => self.nan(),
+                Some(negative) => self.infinite(negative != b_negative),
+            }),
+            Class::Zero => {
+                if f.classify(a) == Class::Infinite && self.infinite_limit(a) {
+                    return Ok(self.nan());
+                }
+                self.zero_times(a, b_negative)
+            }
+            _ if f.classify(a) != Class::Infinite && self.exactly_zero(a) => {
+                self.zero_times(a, b_negative)
+            }
+            _ => {
+                let scale = Rational::from_f64(f.to_f64(b)).expect("finite b");
+                self.inner.reference_scaled(a, Some(&scale))
+            }
+        }
+    }
+
+    /// What [`PairEvaluator::reference_prepared`] reuses for every b at one a: act(a) (or
+    /// act′(a)) enclosed once at [`PREPARED_PRECISION`] bits, when a is finite and act(a) is
+    /// neither exactly zero nor rational (those take the ordinary path, which is exact).
+    pub fn prepare(&self, a: u32) -> Prepared {
+        let f = self.format();
+        let usable = self.role.inner().1
+            && !matches!(f.classify(a), Class::Nan | Class::Infinite)
+            && !self.exactly_zero(a);
+        let act = usable
+            .then(|| {
+                let ctx = Ctx {
+                    prec: PREPARED_PRECISION,
+                    constants: self.constants(),
+                };
+                match self
+                    .gated
+                    .act()
+                    .eval(&self.point(a), self.role.inner().0, &ctx)
+                {
+                    Value::Exact(_) => None,
+                    Value::Enclosed(iv) => Some(iv),
+                    Value::Near { base, delta } => Some(
+                        Ival::rational(&base, PREPARED_PRECISION + 64)
+                            .add(&delta, PREPARED_PRECISION + 64),
+                    ),
+                }
+            })
+            .flatten();
+        Prepared { a, act }
+    }
+
+    /// The reference at (a, b) from a prepared a: the enclosure of act(a) times the exact b
+    /// (exact products: b has at most 24 significant bits), decided by the engine's rule; the
+    /// same result as [`PairEvaluator::reference`], which it falls back to when undecided.
+    pub fn reference_prepared(&self, p: &Prepared, b: u32) -> Result<Reference, ReferenceError> {
+        let f = self.format();
+        if let (Some(iv), Class::Normal | Class::Subnormal) = (&p.act, f.classify(b)) {
+            let bf = f.to_f64(b);
+            let prec = iv.lo.prec().max(iv.hi.prec()) + 64;
+            let lo = Float::with_val(prec, &iv.lo * bf);
+            let hi = Float::with_val(prec, &iv.hi * bf);
+            let y = if bf < 0.0 {
+                Ival::new(hi, lo)
+            } else {
+                Ival::new(lo, hi)
+            };
+            if let Some(r) = self.inner.decide(&y, PREPARED_PRECISION) {
+                return Ok(r);
+            }
+        }
+        self.reference(p.a, b)
+    }
+
+    /// An enclosure of y(a, b) at `prec` bits, for finite a and b (display only).
+    pub fn enclosure(&self, a: u32, b: u32, prec: u32) -> Option<Ival> {
+        let f = self.format();
+        let finite = |x| !matches!(f.classify(x), Class::Nan | Class::Infinite);
+        if !finite(a) || (self.role.inner().1 && !finite(b)) {
+            return None;
+        }
+        let v = self.act_enclosure(a, prec);
+        Some(if self.role.inner().1 {
+            v.mul_rational(&Rational::from_f64(f.to_f64(b))?, prec)
+        } else {
+            v
+        })
+    }
+
+    /// The value of act (or act′) at a finite a as one interval.
+    fn act_enclosure(&self, a: u32, prec: u32) -> Ival {
+        let ctx = Ctx {
+            prec,
+            constants: self.constants(),
+        };
+        let value = self
+            .gated
+            .act()
+            .eval(&self.point(a), self.role.inner().0, &ctx);
+        match value {
+            Value::Exact(q) => Ival::rational(&q, prec),
+            Value::Enclosed(iv) => iv,
+            Value::Near { base, delta } => Ival::rational(&base, prec + 64).add(&delta, prec),
+        }
+    }
+
+    /// a as an MPFR number, −0 kept.
+    fn point(&self, a: u32) -> Float {
+        let f = self.format();
+        let x = Float::with_val(64, f.to_f64(a));
+        if x.is_zero() && f.is_sign_negative(a) {
+            -x
+        } else {
+            x
+        }
+    }
+
+    /// Whether act (or act′) of a finite a is exactly zero (relu's left half, silu(±0), …):
+    /// catalog functions return those as exact values or point intervals.
+    fn exactly_zero(&self, a: u32) -> bool {
+        let ctx = Ctx {
+            prec: 64,
+            constants: self.constants(),
+        };
+        match self
+            .gated
+            .act()
+            .eval(&self.point(a), self.role.inner().0, &ctx)
+        {
+            Value::Exact(q) => q.is_zero(),
+            Value::Enclosed(iv) => iv.is_point() && iv.lo.is_zero(),
+            Value::Near { base, delta } => base.is_zero() && delta.is_point() && delta.lo.is_zero(),
+        }
+    }
+
+    /// Whether act (or act′) tends to ±∞ at the infinite a.
+    fn infinite_limit(&self, a: u32) -> bool {
+        let positive = !self.format().is_sign_negative(a);
+        let limit = self
+            .gated
+            .act()
+            .limit(self.role.inner().0, positive, self.constants());
+        matches!(limit, Limit::Infinite { .. })
+    }
+
+    /// The sign of act (or act′) at a: `None` when it is zero (or tends to zero at a = ±∞),
+    /// else whether it is negative; decided by widening the precision like the Ziv loop.
+    fn sign_of_act(&self, a: u32) -> Result<Option<bool>, ReferenceError> {
+        let f = self.format();
+        if f.classify(a) == Class::Infinite {
+            let positive = !f.is_sign_negative(a);
+            let limit = self
+                .gated
+                .act()
+                .limit(self.role.inner().0, positive, self.constants());
+            return Ok(match limit {
+                Limit::Finite(q) if q.is_zero() => None,
+                Limit::Finite(q) => Some(q.cmp0().is_lt()),
+                Limit::Zero { .. } => None,
+                Limit::Infinite { negative } => Some(negative),
+            });
+        }
+        if self.exactly_zero(a) {
+            return Ok(None);
+        }
+        let mut prec = 64;
+        while prec <= MAX_PRECISION {
+            let iv = self.act_enclosure(a, prec);
+            if iv.is_positive() {
+                return Ok(Some(false));
+            }
+            if iv.is_negative() {
+                return Ok(Some(true));
+            }
+            prec *= 2;
+        }
+        Err(ReferenceError(format!(
+            "{} {} at {}: sign of the activation undecided at {MAX_PRECISION} bits",
+            self.gated.name(),
+            self.role.name(),
+            crate::format::hex(f, a)
+        )))
+    }
+
+    /// An exactly zero product: act(a)'s reference zero sign xor b's sign.
+    fn zero_times(&self, a: u32, b_negative: bool) -> Result<Reference, ReferenceError> {
+        let f = self.format();
+        let act = self.inner.reference(a)?;
+        let act_negative = f.classify(act.bits) != Class::Nan && f.is_sign_negative(act.bits);
+        Ok(Reference {
+            bits: f.encode(act_negative != b_negative, 0, 0),
+            exact: Some(ExactValue {
+                approx: 0.0,
+                binade: f.emin(),
+            }),
+            precision: 0,
+        })
+    }
+
+    fn nan(&self) -> Reference {
+        Reference {
+            bits: self.format().quiet_nan(),
+            exact: None,
+            precision: 0,
+        }
+    }
+
+    fn infinite(&self, negative: bool) -> Reference {
+        let f = self.format();
+        let r = Reference {
+            bits: f.layout().overflow(negative),
+            exact: None,
+            precision: 0,
+        };
+        saturated(f, r)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::PairEvaluator;
+    use crate::activation::{lookup_gated, Constants, GatedRole};
+    use crate::format::{Binary16, Format};
+    use crate::reference::ParamRounding;
+
+    fn eval(name: &str, role: GatedRole, a: f64, b: f64) -> u32 {
+        let g = lookup_gated(name).expect("gated");
+        let c = Constants::resolve(g.act(), &[], ParamRounding::Exact, &Binary16);
+        let e = PairEvaluator::new(g, role, c, &Binary16);
+        let f = &Binary16;
+        let bits = |v: f64| f.from_f64_exact(v).expect("exact");
+        e.reference(bits(a), bits(b)).expect("reference").bits
+    }
+
+    #[test]
+    fn products_round_once() {
+        // relu(3)·5 = 15 exactly (0x4b80 in binary16: 1.875·2^3, IEEE 754 binary16 layout).
+        assert_eq!(eval("reglu", GatedRole::Forward, 3.0, 5.0), 0x4b80);
+        // ∂/∂b of reglu at a = −2 is relu(−2) = +0; ∂/∂a at a = 2, b = −3 is −3 (0xc200).
+        assert_eq!(eval("reglu", GatedRole::DerivativeB, -2.0, 7.0), 0x0000);
+        assert_eq!(eval("reglu", GatedRole::DerivativeA, 2.0, -3.0), 0xc200);
+        // 256·512 = 131072 > 65504 + 16: overflows to +∞ (0x7c00); 0·∞ is NaN.
+        assert_eq!(eval("reglu", GatedRole::Forward, 256.0, 512.0), 0x7c00);
+        assert!(eval("swiglu", GatedRole::Forward, 0.0, f64::INFINITY) & 0x7fff > 0x7c00);
+        // relu(−1) = +0 times −2: −0 by the sign rule of multiplication.
+        assert_eq!(eval("reglu", GatedRole::Forward, -1.0, -2.0), 0x8000);
+    }
+}
