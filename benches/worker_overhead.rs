@@ -53,6 +53,7 @@ fn main() {
             param_passing: ParamPassing::Baked,
             in_place: false,
             thread_safe: true,
+            signature: ulpgauge::kernel::Signature::Contiguous,
         };
         let mut runner = Runner::start(
             &spec,

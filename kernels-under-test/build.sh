@@ -20,6 +20,7 @@ build lumen_edge "$src/lumen_scalar.c" "$src/lumen_simd.c" "$src/lumen_elu_f16.c
 build lumen_faulty "$src/lumen_faulty.c"
 build lumen_fastmath "$src/lumen_fastmath.c"
 build lumen_env "$src/lumen_env.c"
+build lumen_strided "$src/lumen_strided.c"
 build lumen_gated "$src/lumen_swiglu_f16.c"
 build lumen_quant "$src/lumen_quant.c"
 if command -v cargo >/dev/null 2>&1; then

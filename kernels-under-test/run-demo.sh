@@ -49,6 +49,10 @@ echo "== Where the kernels run: the caller's FP environment and dispatch variant
 run check --manifest kernels-under-test/lumen-edge-env.toml \
   --json reports/lumen-edge-env.json --junit reports/lumen-edge-env.xml --html reports/lumen-edge-env.html
 echo
+echo "== Strided kernels: y[i*sy] = f(x[i*sx]) (kernels-under-test/lumen-edge-strided.toml)"
+run check --manifest kernels-under-test/lumen-edge-strided.toml \
+  --json reports/lumen-edge-strided.json --junit reports/lumen-edge-strided.xml --html reports/lumen-edge-strided.html
+echo
 echo "== The dispatching SiLU with FMA hidden from glibc, then shown (--cpu-mask)"
 run check --lib kernels-under-test/build/liblumen_env.so --symbol lumen_silu_f32 --function silu \
   --format f32 --cpu-mask=-FMA --cpu-mask=+FMA --json reports/silu-f32-cpu-mask.json

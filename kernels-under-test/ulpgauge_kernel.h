@@ -21,6 +21,11 @@
  * manifest): the types follow each side, x and g of F's type, y and dx of G's, e.g.
  *   void NAME(const uint16_t *x, float *y, size_t n);                bf16 in, f32 out
  *   void NAME(const float *x, uint16_t *y, size_t n);                f32 in, bf16 out
+ * Strided kernels (signature = "strided" in the manifest, --signature strided), forward and
+ * derivative roles: element strides, negative allowed; x and y point at element 0, element i is
+ * x[i*sx] (so with sx < 0 the array lies below x), and sx may be 0 (every y is f(x[0])):
+ *   strided:     void NAME(const T *x, ptrdiff_t sx, T *y, ptrdiff_t sy, size_t n);
+ *                y[i*sy] = f(x[i*sx]); nothing between y's elements may be written.
  *
  * Parameters (alpha, beta) are either baked into the kernel or passed as trailing `float`
  * arguments, in the catalog's order for the function (`ulpgauge functions` lists it):
@@ -59,6 +64,12 @@ typedef void (*ulpgauge_u16_f32_kernel)(const uint16_t *x, float *y, size_t n);
 typedef void (*ulpgauge_f32_u16_kernel)(const float *x, uint16_t *y, size_t n);
 typedef void (*ulpgauge_u16_u8_kernel)(const uint16_t *x, uint8_t *y, size_t n);
 typedef void (*ulpgauge_f32_u8_kernel)(const float *x, uint8_t *y, size_t n);
+typedef void (*ulpgauge_f32_strided)(const float *x, ptrdiff_t sx, float *y, ptrdiff_t sy,
+                                     size_t n);
+typedef void (*ulpgauge_u16_strided)(const uint16_t *x, ptrdiff_t sx, uint16_t *y, ptrdiff_t sy,
+                                     size_t n);
+typedef void (*ulpgauge_u8_strided)(const uint8_t *x, ptrdiff_t sx, uint8_t *y, ptrdiff_t sy,
+                                    size_t n);
 
 #ifdef __cplusplus
 }

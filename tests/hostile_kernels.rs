@@ -584,6 +584,7 @@ fn a_faulting_address_is_reported_only_for_a_real_fault() {
         reps: 1,
         first: x.clone(),
         second: None,
+        strides: (1, 1),
     };
     // raise(3) sends the signal (si_code SI_TKILL, signal(7)); a load from an unmapped page
     // faults (SEGV_MAPERR) with si_addr the address loaded.

@@ -231,6 +231,10 @@ pub fn judge(req: &Requirements, report: &CheckReport, ranges: &[CheckReport]) -
             key: "require.hygiene".into(),
             requirement: if req.hygiene.len() == crate::kernel::hygiene::CHECKS.len() {
                 "hygiene (all six checks)".to_string()
+            } else if req.hygiene.len()
+                == crate::kernel::hygiene::CHECKS.len() + crate::kernel::hygiene::STRIDED_CHECKS.len()
+            {
+                "hygiene (all eleven checks of a strided kernel)".to_string()
             } else {
                 format!("hygiene: {}", req.hygiene.join(", "))
             },

@@ -14,6 +14,8 @@
 //! param_rounding = "exact"             # exact (default) | f32 | format
 //! in_place = false                     # default false
 //! thread_safe = true                   # default true
+//! signature = "strided"                # contiguous (default) | strided: (x, sx, y, sy, n)
+//! strides = [2, -1]                    # strided: the sweep's SX,SY (default [1, 1]; or "2,-1")
 //! timeout = 10.0                       # seconds per batch before the kernel counts as hung
 //! memory = "4G"                        # address space of the worker (check's --kernel-memory)
 //!
@@ -35,7 +37,8 @@
 //! limits = true                        # the limits at ±inf (of f′ for derivative kernels)
 //! no_spurious_overflow = true          # no non-finite output where the reference is finite
 //! monotone = true                      # forward kernels of monotone functions
-//! hygiene = true                       # all six checks, or a list: ["tail", "bounds"]
+//! hygiene = true                       # all six checks (and the five stride-* checks of a
+//!                                      # strided kernel), or a list: ["tail", "bounds"]
 //! kinks = "either"                     # derivative/gradient kernels: left | right | either
 //! same_verdict_in = "ftz,daz"          # every requirement judged the same in this caller FP
 //!                                      # environment (as `check --caller-fpenv`) as by default
@@ -48,7 +51,7 @@
 
 use crate::activation::{lookup, Constants, Entry};
 use crate::format::Format;
-use crate::kernel::hygiene::CHECKS;
+use crate::kernel::hygiene::{CHECKS, STRIDED_CHECKS};
 use crate::kernel::{KernelRole, ParamPassing};
 use crate::reference::ParamRounding;
 use crate::sweep::{InputRange, SampleMode, SweepKind};
@@ -82,6 +85,8 @@ struct KernelTable {
     #[serde(default)]
     in_place: bool,
     thread_safe: Option<bool>,
+    signature: Option<String>,
+    strides: Option<crate::kernel::stride::StridesValue>,
     timeout: Option<f64>,
     memory: Option<String>,
 }
@@ -282,6 +287,8 @@ pub struct Spec {
     pub in_place: bool,
     /// Concurrent calls allowed.
     pub thread_safe: bool,
+    /// Contiguous or strided, with the sweep's strides.
+    pub signature: crate::kernel::Signature,
     /// Seconds per batch.
     pub timeout: f64,
     /// Address space of the worker, in bytes.
@@ -482,6 +489,24 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
             ))
         }
     };
+    let signature = crate::kernel::Signature::parse(
+        k.signature.as_deref().unwrap_or("contiguous"),
+        k.strides.as_ref().map(|s| s.text()).as_deref(),
+    )
+    .map_err(|e| {
+        let key = if k.strides.is_some() && !e.starts_with("unknown signature") {
+            "kernel.strides"
+        } else {
+            "kernel.signature"
+        };
+        format!("key `{key}`: {e}")
+    })?;
+    if signature != crate::kernel::Signature::Contiguous && role.takes_gradient() {
+        return Err(
+            "key `kernel.signature`: the strided signature takes forward and derivative kernels only"
+                .into(),
+        );
+    }
     let param_rounding = match k.param_rounding.as_deref() {
         None | Some("exact") => ParamRounding::Exact,
         Some("f32") => ParamRounding::F32,
@@ -568,14 +593,18 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
     }
     let hygiene = match &r.hygiene {
         None | Some(HygieneValue::All(false)) => Vec::new(),
-        Some(HygieneValue::All(true)) => CHECKS.to_vec(),
+        Some(HygieneValue::All(true)) => match signature {
+            crate::kernel::Signature::Contiguous => CHECKS.to_vec(),
+            _ => CHECKS.iter().chain(&STRIDED_CHECKS).copied().collect(),
+        },
         Some(HygieneValue::Some(names)) => {
             let mut v = Vec::new();
+            let known: Vec<&'static str> = CHECKS.iter().chain(&STRIDED_CHECKS).copied().collect();
             for n in names {
-                let c = CHECKS.iter().find(|c| **c == n.as_str()).ok_or_else(|| {
+                let c = known.iter().find(|c| **c == n.as_str()).ok_or_else(|| {
                     format!(
                         "key `require.hygiene`: unknown check '{n}' (known: {})",
-                        CHECKS.join(", ")
+                        known.join(", ")
                     )
                 })?;
                 v.push(*c);
@@ -674,6 +703,7 @@ fn load_inner(path: &Path) -> Result<Spec, String> {
         param_rounding,
         in_place: k.in_place,
         thread_safe: k.thread_safe.unwrap_or(true),
+        signature,
         timeout,
         kernel_memory,
         sweep,

@@ -122,6 +122,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         param_passing: spec.param_passing,
         in_place: spec.in_place,
         thread_safe: spec.thread_safe,
+        signature: spec.signature,
     };
     let runner_options = RunnerOptions {
         batch_timeout: Duration::from_secs_f64(spec.timeout),

@@ -16,6 +16,7 @@ use crate::check::{
 use crate::format::Format;
 use crate::kernel::{
     load_manifest, load_manifest_entries, KernelSpec, ParamPassing, Runner, RunnerOptions,
+    Signature,
 };
 use crate::recorded::{Recorded, RecordedPaths};
 use crate::report::{
@@ -119,6 +120,14 @@ pub struct Args {
     /// The kernel must not be called from several threads at once.
     #[arg(long)]
     pub not_thread_safe: bool,
+    /// The kernel's C signature: `contiguous` (x, y, n) or `strided` (x, sx, y, sy, n), with
+    /// element strides.
+    #[arg(long, value_enum, default_value_t = SignatureArg::Contiguous)]
+    pub signature: SignatureArg,
+    /// Strided kernels: the element strides the measuring sweep calls with (default 1,1;
+    /// nonzero, |stride| <= 64; negative strides walk down from x[0]).
+    #[arg(long, value_name = "SX,SY", allow_hyphen_values = true)]
+    pub strides: Option<String>,
     /// Seconds a batch may take before the kernel counts as hung.
     #[arg(long, value_name = "SECONDS", default_value_t = 10.0)]
     pub timeout: f64,
@@ -219,6 +228,25 @@ pub enum PassingArg {
     Baked,
     /// Trailing `float` arguments in catalog order.
     Trailing,
+}
+
+/// The C signature, as named on the command line.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, clap::ValueEnum)]
+pub enum SignatureArg {
+    /// (x, y, n).
+    Contiguous,
+    /// (x, sx, y, sy, n).
+    Strided,
+}
+
+/// The signature of `--signature` and `--strides`; bad strides are bad input.
+pub(super) fn signature_from_args(args: &Args) -> Result<Signature, Failure> {
+    let name = match args.signature {
+        SignatureArg::Contiguous => "contiguous",
+        SignatureArg::Strided => "strided",
+    };
+    Signature::parse(name, args.strides.as_deref())
+        .map_err(|e| Failure::bad_input(format!("--strides: {e}")))
 }
 
 /// One kernel to check, as named on the command line or in a manifest.
@@ -744,6 +772,7 @@ fn spec_from_args(
         },
         in_place: args.in_place,
         thread_safe: !args.not_thread_safe,
+        signature: signature_from_args(args)?,
     })
 }
 
@@ -825,6 +854,27 @@ fn run_recorded_set(args: &Args) -> Result<i32, Failure> {
 pub fn run(args: Args) -> Result<i32, Failure> {
     if let Some(code) = super::quant::check(&args)? {
         return Ok(code);
+    }
+    let signature = signature_from_args(&args)?;
+    if signature != Signature::Contiguous
+        && (args.input_format.is_some() || args.output_format.is_some())
+    {
+        return Err(Failure::bad_input(
+            "--signature strided takes one format for x and y (--format), not --input-format/--output-format",
+        ));
+    }
+    if signature != Signature::Contiguous
+        && (args.manifest.is_some()
+            || args.builtin_kernel.is_some()
+            || args.inputs.is_some()
+            || args
+                .function
+                .as_deref()
+                .is_some_and(|f| crate::activation::lookup_gated(f).is_some()))
+    {
+        return Err(Failure::bad_input(
+            "--signature strided and --strides describe a one-input library kernel (--lib); a manifest entry sets its own",
+        ));
     }
     if let Some(function) = &args.function {
         if crate::activation::lookup_gated(function).is_some() {

@@ -45,6 +45,8 @@ pub fn defaults() -> Args {
         param_passing: PassingArg::Baked,
         in_place: false,
         not_thread_safe: false,
+        signature: super::check::SignatureArg::Contiguous,
+        strides: None,
         timeout: 10.0,
         stop_on_crash: false,
         max_restarts: crate::kernel::DEFAULT_MAX_RESTARTS,

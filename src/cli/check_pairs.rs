@@ -63,6 +63,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         param_passing: ParamPassing::Baked,
         in_place: args.in_place,
         thread_safe: !args.not_thread_safe,
+        signature: crate::kernel::Signature::Contiguous,
     };
     let runner = Runner::start(&spec, runner_options(args)?).map_err(Failure::bad_input)?;
     let mut kernel = RunnerKernel(runner);

@@ -190,6 +190,8 @@ fn validate_check(line: &[String]) -> Result<(), Failure> {
         ))
     })?;
     let args = parsed.args;
+    super::check::signature_from_args(&args)
+        .map_err(|f| Failure::bad_input(format!("check arguments: {}", f.message)))?;
     let owned = [
         (args.shard.is_some(), "--shard"),
         (args.json.is_some(), "--json"),

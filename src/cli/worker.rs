@@ -24,6 +24,9 @@ pub struct Args {
     /// The kernel takes (x, g, dx, n).
     #[arg(long)]
     gradient: bool,
+    /// The kernel takes (x, sx, y, sy, n).
+    #[arg(long)]
+    strided: bool,
     /// A trailing float argument, as the hex of its bits (exact), repeatable.
     #[arg(long)]
     trailing: Vec<String>,
@@ -63,6 +66,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             out_bytes,
             gradient: args.gradient,
             trailing,
+            strided: args.strided,
         },
         parent: args.parent,
         fpenv,

@@ -15,6 +15,9 @@ type Unary2 = unsafe extern "C" fn(*const u8, *mut u8, usize, f32, f32);
 type Binary0 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize);
 type Binary1 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize, f32);
 type Binary2 = unsafe extern "C" fn(*const u8, *const u8, *mut u8, usize, f32, f32);
+type Strided0 = unsafe extern "C" fn(*const u8, isize, *mut u8, isize, usize);
+type Strided1 = unsafe extern "C" fn(*const u8, isize, *mut u8, isize, usize, f32);
+type Strided2 = unsafe extern "C" fn(*const u8, isize, *mut u8, isize, usize, f32, f32);
 
 /// How to call one kernel symbol.
 #[derive(Clone, Debug)]
@@ -27,6 +30,8 @@ pub struct Abi {
     pub gradient: bool,
     /// Trailing `float` arguments.
     pub trailing: Vec<f32>,
+    /// Takes (x, sx, y, sy, n) with element strides (forward and derivative kernels only).
+    pub strided: bool,
 }
 
 impl Abi {
@@ -64,6 +69,30 @@ impl Abi {
             (true, _) => {
                 std::mem::transmute::<*const c_void, Binary2>(symbol)(a, b, out, n, t[0], t[1])
             }
+        }
+    }
+
+    /// Calls a strided kernel: element i of x is `a[i*sx]`, of y `out[i*sy]`.
+    ///
+    /// # Safety
+    /// `symbol` must be a strided function of this `Abi`'s element and trailing types; `a` and
+    /// `out` must point at element 0 of arrays holding every element the strides reach.
+    pub unsafe fn call_strided(
+        &self,
+        symbol: *const c_void,
+        a: *const u8,
+        sx: isize,
+        out: *mut u8,
+        sy: isize,
+        n: usize,
+    ) {
+        let t = &self.trailing;
+        match t.len() {
+            0 => std::mem::transmute::<*const c_void, Strided0>(symbol)(a, sx, out, sy, n),
+            1 => std::mem::transmute::<*const c_void, Strided1>(symbol)(a, sx, out, sy, n, t[0]),
+            _ => std::mem::transmute::<*const c_void, Strided2>(symbol)(
+                a, sx, out, sy, n, t[0], t[1],
+            ),
         }
     }
 }

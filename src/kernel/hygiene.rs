@@ -1,6 +1,10 @@
 //! The six hygiene checks.  Each compares the kernel against itself (never against the
 //! reference): same input, same output, whatever n, position, alignment, thread or repetition;
-//! nothing written outside y; x untouched; FP control state left alone.
+//! nothing written outside y; x untouched; FP control state left alone.  Strided kernels get
+//! five more (`strided.rs`): gaps, negative strides, the stride-0 broadcast, stride pairs against
+//! the contiguous call, ragged n.
+
+mod strided;
 
 use super::protocol::{CallRequest, Layout};
 use super::runner::{CallError, Runner};
@@ -11,7 +15,9 @@ use serde::Serialize;
 /// One entry of a report's `hygiene` list.
 #[derive(Clone, Debug, PartialEq, Eq, Serialize)]
 pub struct HygieneCheck {
-    /// `tail`, `alignment`, `bounds`, `input-untouched`, `fp-environment` or `determinism`.
+    /// `tail`, `alignment`, `bounds`, `input-untouched`, `fp-environment` or `determinism`;
+    /// for strided kernels also `stride-gaps`, `stride-negative`, `stride-broadcast`,
+    /// `stride-equivalence` or `stride-ragged`.
     pub check: &'static str,
     /// Whether the kernel passed; a check that could not run did not pass.
     pub passed: bool,
@@ -28,6 +34,17 @@ pub const CHECKS: [&str; 6] = [
     "fp-environment",
     "determinism",
 ];
+
+pub use strided::STRIDED_CHECKS;
+
+/// The checks a kernel of this signature gets, in report order.
+fn names(strided: bool) -> Vec<&'static str> {
+    let mut v = CHECKS.to_vec();
+    if strided {
+        v.extend(STRIDED_CHECKS);
+    }
+    v
+}
 
 /// Sizes tried by the tail and bounds checks: every n up to 129 (past a 128-wide block) and a
 /// few around larger powers of two.
@@ -75,6 +92,8 @@ struct Ctx<'a> {
     eb: usize,
     /// Name of the first input array in messages.
     first_name: &'static str,
+    /// The strides the sweep calls with ((1, 1) for contiguous kernels).
+    strides: (i32, i32),
 }
 
 impl Ctx<'_> {
@@ -87,6 +106,7 @@ impl Ctx<'_> {
             reps: 1,
             first: w.first.clone(),
             second: w.second.clone(),
+            strides: self.strides,
         }
     }
     fn hex(&self, bits: u32) -> String {
@@ -144,10 +164,12 @@ pub fn run_checks(
     second: Option<&[u32]>,
 ) -> Vec<HygieneCheck> {
     let spec = runner.spec().clone();
+    let is_strided = spec.signature != super::Signature::Contiguous;
+    let checks = names(is_strided);
     let bulk = runner.run(sample, second);
     if let Some(reason) = runner.stopped() {
         let why = format!("could not run: {reason}");
-        return CHECKS
+        return checks
             .iter()
             .map(|&check| HygieneCheck {
                 check,
@@ -167,6 +189,16 @@ pub fn run_checks(
             bulk.crashes.len()
         )
     };
+    let strides = runner.strides();
+    // The six checks call at the sweep's strides; say so where they are not the only ones.
+    let at_sweep = if is_strided {
+        format!(
+            "; called with strides ({},{}) as in the sweep",
+            strides.0, strides.1
+        )
+    } else {
+        String::new()
+    };
     if keep.is_empty() {
         let why = if sample.is_empty() {
             "could not run: empty sample".to_string()
@@ -179,7 +211,7 @@ pub fn run_checks(
         } else {
             "could not run: the kernel crashed or hung on every sample input".to_string()
         };
-        return CHECKS
+        return checks
             .iter()
             .map(|&check| HygieneCheck {
                 check,
@@ -208,8 +240,9 @@ pub fn run_checks(
         } else {
             "x"
         },
+        strides,
     };
-    let results = [
+    let mut results = vec![
         tail(&mut ctx),
         alignment(&mut ctx),
         bounds(&mut ctx),
@@ -217,13 +250,21 @@ pub fn run_checks(
         fp_environment(&mut ctx),
         determinism(&mut ctx, spec.thread_safe),
     ];
-    CHECKS
+    if is_strided {
+        results.extend(strided::run(&mut ctx));
+    }
+    checks
         .iter()
         .zip(results)
-        .map(|(&check, (passed, detail))| HygieneCheck {
+        .enumerate()
+        .map(|(k, (&check, (passed, detail)))| HygieneCheck {
             check,
             passed,
-            detail: if passed { detail + &note } else { detail },
+            detail: match (passed, k < CHECKS.len()) {
+                (true, true) => detail + &note + &at_sweep,
+                (true, false) => detail + &note,
+                (false, _) => detail,
+            },
         })
         .collect()
 }
@@ -304,16 +345,24 @@ fn bounds(c: &mut Ctx) -> Verdict {
         for layout in [Layout::GuardAfter, Layout::GuardBefore] {
             let w = c.pool.window(start, n);
             start += n;
-            let n_bytes = (n * c.format.width().div_ceil(8) as usize) as i64;
+            let ob = c.format.width().div_ceil(8) as usize;
+            let n_bytes = (n * ob) as i64;
+            let place = |off: i64, what: &str| {
+                if c.strides.1 == 1 {
+                    outside(off, n_bytes, what)
+                } else {
+                    format!(
+                        "a write at byte offset {off} from y[0] ({}) {what}",
+                        super::stride::where_in(off, n, ob, c.strides.1)
+                    )
+                }
+            };
             match c.runner.call(&c.request(&w, layout)) {
                 Ok(reply) => {
                     if let Some(off) = reply.canary {
                         return (
                             false,
-                            format!(
-                                "n={n}: {}",
-                                outside(off, n_bytes, "overwrote a canary byte")
-                            ),
+                            format!("n={n}: {}", place(off, "overwrote a canary byte")),
                         );
                     }
                 }
@@ -321,7 +370,7 @@ fn bounds(c: &mut Ctx) -> Verdict {
                     let off = f.addr as i64 - f.y_base as i64;
                     return (
                         false,
-                        format!("n={n}: {}", outside(off, n_bytes, "touched the guard page")),
+                        format!("n={n}: {}", place(off, "touched the guard page")),
                     );
                 }
                 Err(e) => return (false, failed_to_run(&e, &format!("n={n}"))),

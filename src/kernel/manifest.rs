@@ -12,6 +12,8 @@
 //! param-passing = "trailing"           # baked (default) | trailing
 //! in-place = false                     # default false
 //! thread-safe = true                   # default true
+//! signature = "strided"                # contiguous (default) | strided: (x, sx, y, sy, n)
+//! strides = [2, -1]                    # strided: the sweep's element strides (default [1, 1])
 //! caller-fpenv = "ftz,daz"             # run also in the caller's FP environment (see check)
 //! variants = ["lumen_elu_f32_avx2", "lumen_elu_f32_sse2"]   # instead of `symbol`: dispatch
 //!                                      # variants of one kernel, each measured and compared
@@ -59,6 +61,8 @@ struct Entry {
     in_place: bool,
     #[serde(default = "yes")]
     thread_safe: bool,
+    signature: Option<Spanned<String>>,
+    strides: Option<Spanned<super::stride::StridesValue>>,
     library: Option<Spanned<String>>,
 }
 
@@ -298,6 +302,31 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
             }
             _ => ParamPassing::Baked,
         };
+        let signature = super::Signature::parse(
+            k.signature
+                .as_ref()
+                .map_or("contiguous", |s| s.get_ref().as_str()),
+            k.strides.as_ref().map(|s| s.get_ref().text()).as_deref(),
+        )
+        .map_err(|e| match (&k.strides, &k.signature) {
+            (Some(st), _) if !e.starts_with("unknown signature") => {
+                format!("{}: key `strides`: {e}", at(st.span()))
+            }
+            (_, Some(sig)) => format!("{}: key `signature`: {e}", at(sig.span())),
+            _ => format!("{}: {e}", at(entry.span())),
+        })?;
+        if signature != super::Signature::Contiguous && input_format.name() != format.name() {
+            return Err(format!(
+                "{}: key `signature`: the strided signature takes one format for x and y (no input-format/output-format pair)",
+                at(k.signature.as_ref().expect("set").span())
+            ));
+        }
+        if signature != super::Signature::Contiguous && role.takes_gradient() {
+            return Err(format!(
+                "{}: key `signature`: the strided signature takes forward and derivative kernels only",
+                at(k.signature.as_ref().expect("set").span())
+            ));
+        }
         let extras = EntryExtras {
             variants: k.variants.iter().map(|v| v.get_ref().clone()).collect(),
             caller_fpenv: k.caller_fpenv.as_ref().map(|e| e.get_ref().clone()),
@@ -314,6 +343,7 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
                 param_passing,
                 in_place: k.in_place,
                 thread_safe: k.thread_safe,
+                signature,
             },
             extras,
         ));

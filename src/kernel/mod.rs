@@ -19,6 +19,7 @@ pub mod manifest;
 pub mod protocol;
 mod runner;
 mod spawn;
+pub mod stride;
 pub mod worker;
 
 pub use bisect::{batch_timeout, fault_limits};
@@ -29,6 +30,7 @@ pub use runner::{
     DEFAULT_MAX_RESTARTS, PACE_FACTOR, PACE_FLOOR,
 };
 pub use spawn::{kernel_memory, show_size, DEFAULT_KERNEL_MEMORY};
+pub use stride::Signature;
 
 use crate::format::Format;
 use std::path::PathBuf;
@@ -102,6 +104,8 @@ pub struct KernelSpec {
     pub in_place: bool,
     /// Whether concurrent calls are allowed.
     pub thread_safe: bool,
+    /// Contiguous `(x, y, n)` or strided `(x, sx, y, sy, n)`, with the sweep's strides.
+    pub signature: Signature,
 }
 
 impl KernelSpec {

@@ -82,6 +82,8 @@ pub struct CallRequest {
     pub first: Vec<u32>,
     /// g, for gradient kernels.
     pub second: Option<Vec<u32>>,
+    /// Element strides (sx, sy) for strided kernels; (1, 1) for contiguous ones.
+    pub strides: (i32, i32),
 }
 
 /// What a successful call reports.
@@ -220,6 +222,8 @@ pub fn encode_call(op: u32, token: u64, req: &CallRequest) -> Writer {
         .u32(req.reps)
         .u32(req.first.len() as u32)
         .u32(req.second.is_some() as u32)
+        .u32(req.strides.0 as u32)
+        .u32(req.strides.1 as u32)
         .u32s(&req.first);
     if let Some(s) = &req.second {
         w.u32s(s);
@@ -239,8 +243,18 @@ pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<(u64, CallRequest)>
         1 => true,
         _ => return Err(bad("second-array flag")),
     };
+    let strides = (r.u32()? as i32, r.u32()? as i32);
+    let widest = strides
+        .0
+        .unsigned_abs()
+        .max(strides.1.unsigned_abs())
+        .max(1) as usize;
     if n > MAX_ELEMENTS || threads > MAX_THREADS || reps > MAX_REPS {
         return Err(bad("request out of bounds"));
+    }
+    // Buffers span n·|stride| elements: both bounds keep them small.
+    if widest > super::stride::MAX_STRIDE as usize || n * widest > MAX_ELEMENTS {
+        return Err(bad("strides out of bounds"));
     }
     let first = r.u32s(n)?;
     let second = if has_second { Some(r.u32s(n)?) } else { None };
@@ -254,6 +268,7 @@ pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<(u64, CallRequest)>
             reps: reps.max(1),
             first,
             second,
+            strides,
         },
     ))
 }
@@ -326,9 +341,10 @@ pub fn decode_reply<R: Read>(r: &mut Reader<R>, req: &CallRequest) -> io::Result
         w if w < arrays && (index as usize) < req.first.len() => Some((which, index, value)),
         _ => return Err(bad("input-changed record out of range")),
     };
-    // The canary area is a page or two around y: an offset beyond n elements plus a few pages
-    // cannot come from the worker.
-    let reach = 4 * req.first.len() as i64 + (1 << 20);
+    // The canary area is a page or two around y's span: an offset beyond n elements at the
+    // widest stride plus a few pages cannot come from the worker.
+    let widest = req.strides.1.unsigned_abs().max(1) as i64;
+    let reach = 4 * widest * req.first.len() as i64 + (1 << 20);
     let canary = match has_canary {
         0 if canary == 0 => None,
         1 if canary.abs() <= reach => Some(canary),
@@ -442,6 +458,7 @@ mod tests {
             reps,
             first: (0..n as u32).collect(),
             second: second.then(|| vec![7; n]),
+            strides: (1, 1),
         }
     }
 
@@ -526,11 +543,26 @@ mod tests {
         let req = request(3, 1, 2, true);
         let bytes = encode_call(OP_CALL, 9, &req).0;
         let mut cursor = io::Cursor::new(&bytes[4..]);
-        assert_eq!(decode_call(&mut Reader(&mut cursor)).unwrap(), (9, req));
+        assert_eq!(
+            decode_call(&mut Reader(&mut cursor)).unwrap(),
+            (9, req.clone())
+        );
         let mut huge = bytes.clone();
         // n sits after op, token and five words.
         huge[4 + 8 + 20..4 + 8 + 24].copy_from_slice(&u32::MAX.to_le_bytes());
         let mut cursor = io::Cursor::new(&huge[4..]);
+        assert!(decode_call(&mut Reader(&mut cursor)).is_err());
+        // Strides sit after n and the second-array flag; beyond MAX_STRIDE they are forged.
+        let strided = CallRequest {
+            strides: (-3, 64),
+            ..req.clone()
+        };
+        let bytes = encode_call(OP_CALL, 9, &strided).0;
+        let mut cursor = io::Cursor::new(&bytes[4..]);
+        assert_eq!(decode_call(&mut Reader(&mut cursor)).unwrap(), (9, strided));
+        let mut wide = bytes.clone();
+        wide[4 + 8 + 28..4 + 8 + 32].copy_from_slice(&(-65i32 as u32).to_le_bytes());
+        let mut cursor = io::Cursor::new(&wide[4..]);
         assert!(decode_call(&mut Reader(&mut cursor)).is_err());
     }
 

@@ -219,17 +219,35 @@ impl Runner {
                 super::abi::MAX_TRAILING
             ));
         }
+        let strided = spec.signature != super::Signature::Contiguous;
+        if strided && spec.role.takes_gradient() {
+            return Err(format!(
+                "{}: the strided signature takes forward and derivative kernels only",
+                spec.symbol
+            ));
+        }
+        let (sx, sy) = spec.signature.strides();
+        if sx == 0 || sy == 0 || sx.abs().max(sy.abs()) > super::stride::MAX_STRIDE {
+            return Err(format!(
+                "{}: strides {sx},{sy} out of range (nonzero, |stride| <= {})",
+                spec.symbol,
+                super::stride::MAX_STRIDE
+            ));
+        }
         crate::guard::install_handler();
         let abi = Abi {
             elem_bytes: spec.input_format.width().div_ceil(8) as usize,
             out_bytes: spec.format.width().div_ceil(8) as usize,
             gradient: spec.role.takes_gradient(),
             trailing,
+            strided,
         };
+        // A call's buffers span n·|stride| elements; the protocol bounds that span.
+        let widest = sx.unsigned_abs().max(sy.unsigned_abs()) as usize;
         let mut runner = Runner {
             spec: spec.clone(),
             options: RunnerOptions {
-                batch_size: options.batch_size.clamp(1, protocol::MAX_ELEMENTS),
+                batch_size: options.batch_size.clamp(1, protocol::MAX_ELEMENTS / widest),
                 ..options
             },
             abi,
@@ -287,6 +305,9 @@ impl Runner {
             .arg(self.abi.out_bytes.to_string());
         if self.abi.gradient {
             cmd.arg("--gradient");
+        }
+        if self.abi.strided {
+            cmd.arg("--strided");
         }
         for t in &self.abi.trailing {
             cmd.arg("--trailing").arg(format!("{:08x}", t.to_bits()));
@@ -501,6 +522,7 @@ impl Runner {
             reps: 1,
             first: first.to_vec(),
             second: second.map(|s| s.to_vec()),
+            strides: self.strides(),
         };
         let mut reply = self.call(&req)?;
         Ok(reply.outputs.swap_remove(0))
@@ -526,6 +548,7 @@ impl Runner {
             reps: 7,
             first: sample[..n].to_vec(),
             second: second.map(|s| s[..n].to_vec()),
+            strides: self.strides(),
         };
         let timeout = self.options.batch_timeout.saturating_mul(20);
         self.guarded(|runner| {
@@ -565,6 +588,11 @@ impl Runner {
             }
             _ => most.max(1),
         }
+    }
+
+    /// The strides the sweep calls with ((1, 1) for contiguous kernels).
+    pub fn strides(&self) -> (i32, i32) {
+        self.spec.signature.strides()
     }
 
     /// Element size in bytes.

@@ -13,6 +13,7 @@ use super::protocol::{
     self, decode_call, encode_reply, CallReply, CallRequest, Fault, Layout, Reader, Writer,
     HELLO_MAGIC, OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR, TAG_OK,
 };
+use super::stride::Span;
 use super::{fpenv, loader};
 use std::ffi::c_void;
 use std::fs::File;
@@ -290,11 +291,26 @@ impl Drop for Region {
 }
 
 /// Input array copied into element format, with slack on both sides for misaligned or
-/// over-reading kernels.
+/// over-reading kernels.  A strided array's gaps and surroundings hold the format's quiet NaN,
+/// so a kernel that reads a gap instead of an element gives itself away.
 struct Input {
     _region: Region,
+    /// The lowest element position of the span.
+    low: *mut u8,
+    /// Element 0, the pointer the kernel receives.
     ptr: *mut u8,
+    /// The whole span as laid out (elements and gaps).
     bytes: Vec<u8>,
+    span: Span,
+}
+
+/// A quiet NaN in every format of each width (binary32; binary16 and bfloat16; E4M3 and E5M2).
+fn gap_pattern(eb: usize) -> u32 {
+    match eb {
+        1 => 0x7f,
+        2 => 0x7fc0,
+        _ => 0x7fc0_0000,
+    }
 }
 
 fn encode(values: &[u32], eb: usize) -> Vec<u8> {
@@ -327,59 +343,97 @@ fn decode(bytes: &[u8], eb: usize) -> Vec<u32> {
 }
 
 impl Input {
-    fn new(values: &[u32], eb: usize, offset: usize) -> Input {
+    /// `around`: NaN around the array too (strided kernels), not the canary bytes.
+    fn new(values: &[u32], eb: usize, offset: usize, stride: isize, around: bool) -> Input {
         let page = PAGE.load(Ordering::Relaxed) as usize;
-        let bytes = encode(values, eb);
+        let span = Span {
+            stride,
+            n: values.len(),
+        };
+        let bytes = if stride == 1 {
+            encode(values, eb)
+        } else {
+            let mut laid = vec![gap_pattern(eb); span.elems()];
+            for (i, &v) in values.iter().enumerate() {
+                // Stride 0: every element is x[0], the first value.
+                if stride != 0 || i == 0 {
+                    laid[span.pos(i)] = v;
+                }
+            }
+            encode(&laid, eb)
+        };
         let region = Region::new(2 * page + 64 + bytes.len());
+        if around {
+            // Around a strided x too: a read past either end comes out as NaN.
+            let nan = encode(&[gap_pattern(eb)], eb);
+            // SAFETY: the region is region.len writable bytes.
+            let all = unsafe { std::slice::from_raw_parts_mut(region.base, region.len) };
+            all.chunks_exact_mut(eb)
+                .for_each(|c| c.copy_from_slice(&nan));
+        }
         // SAFETY: page + offset + len stays inside the region.
-        let ptr = unsafe { region.base.add(page + offset % 64) };
-        unsafe { std::ptr::copy_nonoverlapping(bytes.as_ptr(), ptr, bytes.len()) };
+        let low = unsafe { region.base.add(page + offset % 64) };
+        unsafe { std::ptr::copy_nonoverlapping(bytes.as_ptr(), low, bytes.len()) };
         Input {
             _region: region,
-            ptr,
+            low,
+            // SAFETY: element 0 lies inside the span.
+            ptr: unsafe { low.add(span.lead() * eb) },
             bytes,
+            span,
         }
     }
     /// Puts the original bytes back.
     fn restore(&self) {
-        // SAFETY: ptr holds bytes.len() writable bytes.
-        unsafe { std::ptr::copy_nonoverlapping(self.bytes.as_ptr(), self.ptr, self.bytes.len()) };
+        // SAFETY: low holds bytes.len() writable bytes.
+        unsafe { std::ptr::copy_nonoverlapping(self.bytes.as_ptr(), self.low, self.bytes.len()) };
     }
-    /// First element whose bytes differ from the original: (index, new bits).
+    /// First element whose bytes differ from the original: (index, new bits).  Gaps of a
+    /// strided x are not elements and are not reported.
     fn changed(&self, eb: usize) -> Option<(u32, u32)> {
-        // SAFETY: ptr holds bytes.len() readable bytes.
-        let now = unsafe { std::slice::from_raw_parts(self.ptr, self.bytes.len()) };
+        // SAFETY: low holds bytes.len() readable bytes.
+        let now = unsafe { std::slice::from_raw_parts(self.low, self.bytes.len()) };
         if now == self.bytes.as_slice() {
             return None;
         }
-        let i = now
-            .chunks_exact(eb)
-            .zip(self.bytes.chunks_exact(eb))
-            .position(|(a, b)| a != b)?;
-        Some((i as u32, decode(&now[i * eb..(i + 1) * eb], eb)[0]))
+        let count = if self.span.stride == 0 {
+            self.span.n.min(1)
+        } else {
+            self.span.n
+        };
+        (0..count).find_map(|i| {
+            let p = self.span.pos(i) * eb;
+            let (a, b) = (&now[p..p + eb], &self.bytes[p..p + eb]);
+            (a != b).then(|| (i as u32, decode(a, eb)[0]))
+        })
     }
 }
 
-/// The output buffer, placed per the layout, with canary bytes on its free sides.
+/// The output buffer, placed per the layout, with canary bytes on its free sides and in the
+/// gaps of a strided y.
 struct Output {
     region: Region,
+    /// Element 0.
     y: *mut u8,
+    /// The lowest element position of the span, as an offset into the region.
+    low: usize,
+    span: Span,
+    eb: usize,
     /// Canary byte ranges, as offsets into the region.
     canaries: Vec<(usize, usize)>,
 }
 
 impl Output {
-    fn new(layout: Layout, n_bytes: usize, offset: usize) -> Output {
+    fn new(layout: Layout, n: usize, eb: usize, stride: isize, offset: usize) -> Output {
         let page = PAGE.load(Ordering::Relaxed) as usize;
-        match layout {
+        let span = Span { stride, n };
+        let n_bytes = span.elems() * eb;
+        let (region, low, canaries) = match layout {
             Layout::Padded | Layout::InPlace => {
                 let region = Region::new(2 * page + 64 + n_bytes);
                 let start = page + offset % 64;
-                Output {
-                    y: unsafe { region.base.add(start) },
-                    canaries: vec![(0, start), (start + n_bytes, region.len)],
-                    region,
-                }
+                let canaries = vec![(0, start), (start + n_bytes, region.len)];
+                (region, start, canaries)
             }
             Layout::GuardAfter | Layout::GuardBefore => {
                 let data = (n_bytes + 128).div_ceil(page) * page;
@@ -395,36 +449,84 @@ impl Output {
                 } else {
                     (page, vec![(page + n_bytes, page + data)])
                 };
-                Output {
-                    y: unsafe { region.base.add(start) },
-                    canaries,
-                    region,
-                }
+                (region, start, canaries)
             }
+        };
+        Output {
+            // SAFETY: element 0 lies inside the span, inside the region.
+            y: unsafe { region.base.add(low + span.lead() * eb) },
+            low,
+            span,
+            eb,
+            canaries,
+            region,
         }
     }
-    /// Offset from y[0] of the first overwritten canary byte.
+    /// Offset from y[0] of the lowest overwritten canary byte (outside the span or in a gap).
     fn damaged_canary(&self) -> Option<i64> {
-        let y_off = self.y as usize - self.region.base as usize;
-        for &(lo, hi) in &self.canaries {
-            // SAFETY: canary ranges are readable parts of the region.
-            let bytes = unsafe { std::slice::from_raw_parts(self.region.base.add(lo), hi - lo) };
-            if bytes.iter().all(|&b| b == CANARY) {
-                continue;
-            }
-            if let Some(i) = bytes.iter().position(|&b| b != CANARY) {
-                return Some((lo + i) as i64 - y_off as i64);
+        let y_off = (self.y as usize - self.region.base as usize) as i64;
+        // SAFETY: the whole region is readable except its guard pages, which no canary range
+        // and no span byte touches.
+        let at = |lo: usize, hi: usize| unsafe {
+            std::slice::from_raw_parts(self.region.base.add(lo), hi - lo)
+        };
+        let outside = self.canaries.iter().find_map(|&(lo, hi)| {
+            let i = at(lo, hi).iter().position(|&b| b != CANARY)?;
+            Some((lo + i) as i64 - y_off)
+        });
+        let gap = if self.span.stride.unsigned_abs() > 1 {
+            let bytes = at(self.low, self.low + self.span.elems() * self.eb);
+            (0..bytes.len())
+                .find(|&b| !self.span.is_element(b / self.eb) && bytes[b] != CANARY)
+                .map(|b| (self.low + b) as i64 - y_off)
+        } else {
+            None
+        };
+        match (outside, gap) {
+            (Some(a), Some(b)) => Some(a.min(b)),
+            (a, b) => a.or(b),
+        }
+    }
+    fn values(&self) -> Vec<u32> {
+        let eb = self.eb;
+        // SAFETY: the span's bytes are readable.
+        let bytes = unsafe {
+            std::slice::from_raw_parts(self.region.base.add(self.low), self.span.elems() * eb)
+        };
+        if self.span.stride == 1 {
+            return decode(bytes, eb);
+        }
+        (0..self.span.n)
+            .map(|i| {
+                let p = self.span.pos(i) * eb;
+                decode(&bytes[p..p + eb], eb)[0]
+            })
+            .collect()
+    }
+    /// Writes `values` into y's elements (the in-place layout's x).
+    fn fill(&self, values: &[u8]) {
+        let eb = self.eb;
+        for (i, v) in values.chunks_exact(eb).enumerate() {
+            // SAFETY: element i lies inside the span.
+            unsafe {
+                let p = self.region.base.add(self.low + self.span.pos(i) * eb);
+                std::ptr::copy_nonoverlapping(v.as_ptr(), p, eb);
             }
         }
-        None
-    }
-    fn values(&self, n_bytes: usize, eb: usize) -> Vec<u32> {
-        // SAFETY: y holds n_bytes readable bytes.
-        decode(unsafe { std::slice::from_raw_parts(self.y, n_bytes) }, eb)
     }
 }
 
 impl Kernel {
+    /// The request's strides for a strided kernel; a contiguous kernel's arrays are always
+    /// contiguous.
+    fn strides(&self, req: &CallRequest) -> (isize, isize) {
+        if self.abi.strided {
+            (req.strides.0 as isize, req.strides.1 as isize)
+        } else {
+            (1, 1)
+        }
+    }
+
     fn call(&self, req: &CallRequest) -> CallReply {
         if req.threads > 1 {
             return self.call_threads(req);
@@ -432,13 +534,24 @@ impl Kernel {
         let eb = self.abi.elem_bytes;
         let ob = self.abi.out_bytes;
         let n = req.first.len();
-        let n_bytes = n * ob;
-        let x = Input::new(&req.first, eb, req.x_offset as usize);
+        let (sx, sy) = self.strides(req);
+        // In place, x is y: it takes y's stride.
+        let sx = if req.layout == Layout::InPlace {
+            sy
+        } else {
+            sx
+        };
+        let x = Input::new(&req.first, eb, req.x_offset as usize, sx, self.abi.strided);
         let g = req
             .second
             .as_ref()
-            .map(|s| Input::new(s, eb, req.x_offset as usize));
-        let y = Output::new(req.layout, n_bytes, req.y_offset as usize);
+            .map(|s| Input::new(s, eb, req.x_offset as usize, 1, false));
+        let y = Output::new(req.layout, n, ob, sy, req.y_offset as usize);
+        let in_place_x = if req.layout == Layout::InPlace {
+            encode(&req.first, eb)
+        } else {
+            Vec::new()
+        };
         let mut outputs = Vec::new();
         enter_caller_env();
         let before = fpenv::read().unwrap_or(0);
@@ -454,11 +567,7 @@ impl Kernel {
                 }
             }
             let first_ptr = if req.layout == Layout::InPlace {
-                // SAFETY: y has room for n elements (in place needs equal widths, refused
-                // otherwise before any call).
-                unsafe {
-                    std::ptr::copy_nonoverlapping(x.bytes.as_ptr(), y.y, n_bytes.min(x.bytes.len()))
-                };
+                y.fill(&in_place_x);
                 y.y as *const u8
             } else {
                 x.ptr as *const u8
@@ -467,20 +576,25 @@ impl Kernel {
             CALL_N.store(n as u64, Ordering::SeqCst);
             // An ENOMEM the fault handler sees must come from this call.
             set_errno(0);
-            // SAFETY: buffers hold n elements of the declared type; the kernel's declared shape
-            // is what the runner validated.
+            // SAFETY: buffers hold n elements of the declared type at their strides; the
+            // kernel's declared shape is what the runner validated.
             unsafe {
-                self.abi.call(
-                    self.symbol,
-                    first_ptr,
-                    g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8),
-                    y.y,
-                    n,
-                )
+                if self.abi.strided {
+                    self.abi
+                        .call_strided(self.symbol, first_ptr, sx, y.y, sy, n)
+                } else {
+                    self.abi.call(
+                        self.symbol,
+                        first_ptr,
+                        g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8),
+                        y.y,
+                        n,
+                    )
+                }
             };
             Y_BASE.store(0, Ordering::SeqCst);
             after = fpenv::read().unwrap_or(0);
-            outputs.push(y.values(n_bytes, ob));
+            outputs.push(y.values());
             if input_changed.is_none() && req.layout != Layout::InPlace {
                 input_changed = x.changed(eb).map(|(i, v)| (0, i, v)).or_else(|| {
                     g.as_ref()
@@ -551,13 +665,21 @@ impl Kernel {
     fn bench(&self, req: &CallRequest) -> f64 {
         let eb = self.abi.elem_bytes;
         let n = req.first.len().max(1);
-        let x = Input::new(&req.first, eb, 0);
-        let g = req.second.as_ref().map(|s| Input::new(s, eb, 0));
-        let y = Output::new(Layout::Padded, n * self.abi.out_bytes, 0);
+        let (sx, sy) = self.strides(req);
+        let x = Input::new(&req.first, eb, 0, sx, self.abi.strided);
+        let g = req.second.as_ref().map(|s| Input::new(s, eb, 0, 1, false));
+        let y = Output::new(Layout::Padded, n, self.abi.out_bytes, sy, 0);
         let gp = g.as_ref().map_or(std::ptr::null(), |g| g.ptr as *const u8);
         enter_caller_env();
+        let len = req.first.len();
         // SAFETY: as in call().
-        let once = || unsafe { self.abi.call(self.symbol, x.ptr, gp, y.y, req.first.len()) };
+        let once = || unsafe {
+            if self.abi.strided {
+                self.abi.call_strided(self.symbol, x.ptr, sx, y.y, sy, len)
+            } else {
+                self.abi.call(self.symbol, x.ptr, gp, y.y, len)
+            }
+        };
         set_errno(0);
         once();
         let mut calls = 1usize;

@@ -46,7 +46,8 @@
 //! findings, by the bounded `non_finite` listing plus `non_finite_total` and
 //! `non_finite_summary`; `compare` reads both versions.
 //! - `special_values`: [{input, expected: V, output: V | null, passed, rule, message}].
-//! - `hygiene`: [{check, passed, detail, message}] from the kernel runner.
+//! - `hygiene`: [{check, passed, detail, message}] from the kernel runner (the six checks; a
+//!   strided kernel's five `stride-*` checks after them).
 //! - Every `message` is the finding in a sentence: what went in, what came out and what was
 //!   expected ("f(65504) = NaN (0x7e00); the reference is 65504 (0x7bff)"); the verdict's
 //!   `failed` lines are these sentences.

@@ -311,6 +311,11 @@ fn hygiene_words(check: &str) -> &'static str {
         "fp-environment" => "the floating-point environment is left unchanged",
         "in-place" => "results do not change when y is x",
         "determinism" => "the same input gives the same output on every call",
+        "stride-gaps" => "nothing between or around y's strided elements is written",
+        "stride-negative" => "negative strides give the contiguous results",
+        "stride-broadcast" => "x stride 0 gives f(x[0]) in every y",
+        "stride-equivalence" => "strided calls give the contiguous results",
+        "stride-ragged" => "strided results do not depend on n",
         _ => "",
     }
 }

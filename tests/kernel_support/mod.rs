@@ -38,6 +38,7 @@ pub fn spec(lib: &str, symbol: &str, function: &str, format: &str) -> KernelSpec
         param_passing: ParamPassing::Baked,
         in_place: false,
         thread_safe: true,
+        signature: ulpgauge::kernel::Signature::Contiguous,
     }
 }
 
