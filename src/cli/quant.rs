@@ -305,6 +305,7 @@ fn check_one(
         // The worker only needs the element size: any 1-byte format carries the codes' bytes.
         format: &crate::format::E4m3 { saturating: false },
         input_format: &crate::format::E4m3 { saturating: false },
+        signature: crate::kernel::Signature::Contiguous,
         role: if entry.derivative {
             KernelRole::Derivative
         } else {
@@ -397,6 +398,12 @@ fn refuse_float_only(args: &CheckArgs) -> Result<(), Failure> {
         (args.builtin_kernel.is_some(), "--builtin-kernel"),
         (args.caller_fpenv.is_some(), "--caller-fpenv"),
         (!args.cpu_mask.is_empty(), "--cpu-mask"),
+        (
+            args.signature == super::check::SignatureArg::Strided || args.strides.is_some(),
+            "--signature strided",
+        ),
+        (args.input_format.is_some(), "--input-format"),
+        (args.output_format.is_some(), "--output-format"),
     ];
     if let Some((_, flag)) = given.iter().find(|(g, _)| *g) {
         return Err(Failure::bad_input(format!(
