@@ -549,6 +549,14 @@ pub struct RunsPart {
 }
 
 impl RunsPart {
+    /// No runs yet: the start of a walk that lists the `keep` longest runs.
+    pub fn new(format: &'static dyn Format, keep: usize) -> Self {
+        RunsPart {
+            format,
+            builder: RunBuilder::new(format, keep),
+            scanned: 0,
+        }
+    }
     /// Joins the part of the next stretch.
     pub fn merge(&mut self, other: RunsPart) {
         self.builder.merge(other.builder);
@@ -602,15 +610,33 @@ pub fn non_finite_part(
     keep: usize,
     sink: &mut dyn FindingSink,
 ) -> RunsPart {
+    let leftmost = *territory.start() == 0;
+    let fresh = RunsPart::new(format, keep);
+    continue_part(fresh, leftmost, known, probe, territory, sink)
+}
+
+/// Continues `part` (the runs of the territories just before) through the next territory, as
+/// [`non_finite_part`] does for the first: one walk over consecutive territories finds
+/// exactly the runs of one walk over their union, and settles every finished run on the way,
+/// so a sweep walked stretch by stretch keeps only a stretch's known points. `leftmost`: the
+/// first territory began at pattern 0.
+pub fn continue_part(
+    part: RunsPart,
+    leftmost: bool,
+    known: &mut Vec<Known>,
+    probe: &mut dyn Probe,
+    territory: RangeInclusive<u32>,
+    sink: &mut dyn FindingSink,
+) -> RunsPart {
+    let format = part.format;
     let l = format.layout();
     known.sort_unstable_by_key(|k| k.0);
     known.dedup_by_key(|k| k.0);
     let sign = format.infinity(true) & !format.infinity(false);
-    let leftmost = *territory.start() == 0;
     let mut walk = Walk {
-        builder: RunBuilder::new(format, keep),
+        builder: part.builder,
         next_input: Some(*territory.start()),
-        scanned: 0,
+        scanned: part.scanned,
         territory: territory.clone(),
     };
     let mismatch = |c: Option<Classes>| c.filter(|(k, r)| k != r);

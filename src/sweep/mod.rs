@@ -13,14 +13,14 @@ mod random;
 mod range;
 
 pub use bits::FormatBits;
-pub use dense::dense;
+pub use dense::Lattice;
 pub use edge::format_specials;
-pub use inputs::Inputs;
+pub use inputs::{at_sorted, Inputs, RunIter};
 pub use interesting::{
     derivative_peak, find_threshold, interesting_points, reference_thresholds, Interesting,
     Threshold, ThresholdKind,
 };
-pub use random::{random, Rng, SampleMode};
+pub use random::{Rng, SampleMode, Strata};
 pub use range::InputRange;
 
 use crate::format::Format;
@@ -89,11 +89,6 @@ pub struct Plan {
 /// chunks, so memory does not grow with the sweep).
 pub const MAX_EXHAUSTIVE: u64 = 1 << 32;
 
-/// Most inputs a random sample, or significands per binade of a dense sweep, may ask for: a
-/// sampled sweep's inputs are listed before they are measured, so this bounds its memory
-/// (16 Mi inputs, 64 MiB listed); larger ones belong to an exhaustive sweep of a range.
-pub const MAX_SAMPLED: u64 = 1 << 24;
-
 /// Builds the inputs of a sweep; `interesting` comes from [`interesting_points`].
 pub fn plan(
     format: &'static dyn Format,
@@ -102,6 +97,7 @@ pub fn plan(
 ) -> Result<Plan, String> {
     let mut measured = Vec::new();
     let mut whole = Inputs::default();
+    let (mut lattice, mut strata) = (None, None);
     let mut probes = Vec::new();
     let mut coverage = Coverage::Sampled;
     for kind in &spec.kinds {
@@ -118,24 +114,33 @@ pub fn plan(
                 coverage = Coverage::Exhaustive;
             }
             SweepKind::Dense => {
-                measured.extend(dense(format, &spec.range, spec.per_binade));
+                lattice = Some(Lattice::new(format, &spec.range, spec.per_binade));
+                measured.extend(dense::range_ends(format, &spec.range));
                 measured.extend(neighbourhoods(format, spec, &interesting));
             }
             SweepKind::Edge => {
                 probes.extend(format_specials(format));
                 measured.extend(neighbourhoods(format, spec, &interesting));
             }
-            SweepKind::Random => measured.extend(random(
-                format,
-                &spec.range,
-                spec.random_points,
-                spec.seed,
-                spec.mode,
-            )),
+            SweepKind::Random => {
+                strata = Some(Strata::new(
+                    format,
+                    &spec.range,
+                    spec.random_points,
+                    spec.seed,
+                    spec.mode,
+                )?)
+            }
             SweepKind::Recorded => {}
         }
     }
-    let measured = whole.union(&Inputs::from_list(measured));
+    // An exhaustive sweep holds every sample already.
+    if coverage == Coverage::Exhaustive {
+        (lattice, strata) = (None, None);
+    }
+    let measured = whole
+        .union(&Inputs::from_list(measured))
+        .with_samples(lattice, strata);
     probes.sort_unstable();
     probes.dedup();
     Ok(Plan {
