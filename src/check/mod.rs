@@ -293,7 +293,12 @@ fn gather(
     } else {
         &plan.measured
     };
-    let span = exhaustive.then(|| ordinal_span(format, spanned)).flatten();
+    // A plot grid fixed in advance keeps the plot's memory bounded; sampled sweeps of any
+    // size get one too (over their measured inputs, the same in every part), recorded sets
+    // keep every sample.
+    let span = (exhaustive || !recorded)
+        .then(|| ordinal_span(format, spanned))
+        .flatten();
     let stream = Stream::new(
         measure::AccuracyAcc::new(format, config.abs_floor, config.list_over, span),
         role_is_forward.then(|| measure::ShapeAcc::new(format, function.facts().monotone)),
