@@ -801,6 +801,48 @@ mod tests {
         assert_eq!((total.runs, total.inputs), (2, 16 + 0x4a10 - 0x48f1 + 1));
     }
 
+    /// One walk continued through consecutive territories (cut at known points, anywhere)
+    /// finds exactly the runs of one walk over their union, each run once to the sink.
+    #[test]
+    fn a_walk_continued_across_territories_equals_one_walk() {
+        let f = &Binary16;
+        let l = f.layout();
+        let samples: Vec<Point> = (0..0x7c00u32).step_by(0x40).map(point).collect();
+        let known: Vec<Known> = samples.iter().map(|p| (p.input, classes(l, p))).collect();
+        let mut whole_sink = Collect::default();
+        let whole = non_finite_part(
+            f,
+            &mut known.clone(),
+            &mut Fake,
+            0..=u32::MAX,
+            10,
+            &mut whole_sink,
+        );
+        let want = serde_json::to_string(&whole.finish(&mut whole_sink).listed(f)).unwrap();
+        for cuts in [vec![3usize], vec![0x48e0 / 0x40, 0x4900 / 0x40], (1..400).step_by(7).collect()] {
+            let mut sink = Collect::default();
+            let mut part = RunsPart::new(f, 10);
+            let mut start = 0u32;
+            let mut bounds = cuts.clone();
+            bounds.push(known.len());
+            let mut from = 0;
+            for &to in &bounds {
+                // The territory's own points and the known point just before it.
+                let mut these: Vec<Known> = known[from.saturating_sub(1)..to].to_vec();
+                let end = if to == known.len() { u32::MAX } else { known[to - 1].0 };
+                part = continue_part(part, true, &mut these, &mut Fake, start..=end, &mut sink);
+                start = end.wrapping_add(1);
+                from = to;
+            }
+            let got = serde_json::to_string(&part.finish(&mut sink).listed(f)).unwrap();
+            assert_eq!(got, want, "{cuts:?}");
+            let ends = |c: &Collect| -> Vec<String> {
+                c.0.iter().map(|r| format!("{}-{}", r.first.bits, r.last.bits)).collect()
+            };
+            assert_eq!(ends(&sink), ends(&whole_sink), "{cuts:?}");
+        }
+    }
+
     /// Maximal runs by definition: consecutive patterns of one sign with the same mismatched
     /// classes, found by a plain scan of every point.
     fn brute_force(l: Layout, points: &[Point]) -> Vec<(u32, u32, Classes)> {
