@@ -825,7 +825,7 @@ mod tests {
             let mut start = 0u32;
             let mut bounds = cuts.clone();
             bounds.push(known.len());
-            let mut from = 0;
+            let mut from = 0usize;
             for &to in &bounds {
                 // The territory's own points and the known point just before it.
                 let mut these: Vec<Known> = known[from.saturating_sub(1)..to].to_vec();
