@@ -337,10 +337,26 @@ fn gather(
             territory: territory(plan, before, from, to),
             keep: config.listed_runs,
         };
-        let (stream, runs) =
-            stream_scanned(prober, stream, &own, sink, leftmost, scan, &mut crashes, &mut seen);
+        let (stream, runs) = stream_scanned(
+            prober,
+            stream,
+            &own,
+            sink,
+            leftmost,
+            scan,
+            &mut crashes,
+            &mut seen,
+        );
         return finish_gather(
-            prober, setup, config, stream, Some(runs), probe_points, crashes, seen, own.len(),
+            prober,
+            setup,
+            config,
+            stream,
+            Some(runs),
+            probe_points,
+            crashes,
+            seen,
+            own.len(),
             recorded,
         );
     }
@@ -374,7 +390,16 @@ fn gather(
         part
     });
     finish_gather(
-        prober, setup, config, stream, runs, probe_points, crashes, seen, own.len(), recorded,
+        prober,
+        setup,
+        config,
+        stream,
+        runs,
+        probe_points,
+        crashes,
+        seen,
+        own.len(),
+        recorded,
     )
 }
 
@@ -545,7 +570,8 @@ fn stream_scanned(
         first = false;
         let last = carry.is_none() && runs.peek().is_none();
         let inputs: u64 = stretch.iter().map(|&(a, b)| (b - a) as u64 + 1).sum();
-        let (next, mut known) = stream_measured_runs(prober, stream, &stretch, inputs, sink, leftmost);
+        let (next, mut known) =
+            stream_measured_runs(prober, stream, &stretch, inputs, sink, leftmost);
         stream = next;
         crashes.measured.extend(crashes_since(prober, seen));
         let stop = match (last, stretch.last()) {

@@ -807,9 +807,12 @@ mod tests {
         let mut k = InProcessKernel::new(kernel);
         let mut prober = Prober::new(&mut k, &refs, false);
         let mut parts = Vec::new();
-        prober.probe_fold(run_batches(runs.iter().copied()), all.len() as u64, &folding, &mut |p| {
-            parts.push(p)
-        });
+        prober.probe_fold(
+            run_batches(runs.iter().copied()),
+            all.len() as u64,
+            &folding,
+            &mut |p| parts.push(p),
+        );
         assert_eq!(parts.len(), all.len().div_ceil(CHUNK));
         let points: Vec<Point> = parts.into_iter().flatten().collect();
         let inputs: Vec<u32> = points.iter().map(|p| p.input).collect();

@@ -819,7 +819,11 @@ mod tests {
             &mut whole_sink,
         );
         let want = serde_json::to_string(&whole.finish(&mut whole_sink).listed(f)).unwrap();
-        for cuts in [vec![3usize], vec![0x48e0 / 0x40, 0x4900 / 0x40], (1..400).step_by(7).collect()] {
+        for cuts in [
+            vec![3usize],
+            vec![0x48e0 / 0x40, 0x4900 / 0x40],
+            (1..400).step_by(7).collect(),
+        ] {
             let mut sink = Collect::default();
             let mut part = RunsPart::new(f, 10);
             let mut start = 0u32;
@@ -829,7 +833,11 @@ mod tests {
             for &to in &bounds {
                 // The territory's own points and the known point just before it.
                 let mut these: Vec<Known> = known[from.saturating_sub(1)..to].to_vec();
-                let end = if to == known.len() { u32::MAX } else { known[to - 1].0 };
+                let end = if to == known.len() {
+                    u32::MAX
+                } else {
+                    known[to - 1].0
+                };
                 part = continue_part(part, true, &mut these, &mut Fake, start..=end, &mut sink);
                 start = end.wrapping_add(1);
                 from = to;
@@ -837,7 +845,9 @@ mod tests {
             let got = serde_json::to_string(&part.finish(&mut sink).listed(f)).unwrap();
             assert_eq!(got, want, "{cuts:?}");
             let ends = |c: &Collect| -> Vec<String> {
-                c.0.iter().map(|r| format!("{}-{}", r.first.bits, r.last.bits)).collect()
+                c.0.iter()
+                    .map(|r| format!("{}-{}", r.first.bits, r.last.bits))
+                    .collect()
             };
             assert_eq!(ends(&sink), ends(&whole_sink), "{cuts:?}");
         }

@@ -37,10 +37,7 @@ struct Union<'a> {
 impl<'a> Union<'a> {
     fn new(iters: Vec<RunIter<'a>>) -> Self {
         Union {
-            sources: iters
-                .into_iter()
-                .map(|mut it| (it.next(), it))
-                .collect(),
+            sources: iters.into_iter().map(|mut it| (it.next(), it)).collect(),
         }
     }
 }

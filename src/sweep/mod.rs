@@ -214,7 +214,13 @@ mod tests {
     #[test]
     fn lazy_dense_equals_the_listed_sweep() {
         for f in crate::format::ALL.iter() {
-            for text in [None, Some("1,2"), Some("-3,0.5"), Some("-inf,-0.25"), Some("0,inf")] {
+            for text in [
+                None,
+                Some("1,2"),
+                Some("-3,0.5"),
+                Some("-inf,-0.25"),
+                Some("0,inf"),
+            ] {
                 let Ok(range) = text.map_or(Ok(InputRange::all(*f)), |t| InputRange::parse(*f, t))
                 else {
                     continue;
@@ -226,7 +232,11 @@ mod tests {
                     let got = Inputs::from_list(dense::range_ends(*f, &range))
                         .with_samples(Some(Lattice::new(*f, &range, k)), None);
                     assert_eq!(got.len(), want.len() as u64, "{} {text:?} {k}", f.name());
-                    assert!(got.iter().eq(want.iter().copied()), "{} {text:?} {k}", f.name());
+                    assert!(
+                        got.iter().eq(want.iter().copied()),
+                        "{} {text:?} {k}",
+                        f.name()
+                    );
                 }
             }
         }
@@ -240,10 +250,8 @@ mod tests {
         let range = InputRange::parse(f, "-8,8").unwrap();
         let strata = Strata::new(f, &range, 50_000, 7, SampleMode::Bits).unwrap();
         let extra = vec![0x3f80_0000, 0x3f80_0001, 0x7f80_0000, 0x0000_0000];
-        let lazy = Inputs::from_list(extra.clone()).with_samples(
-            Some(Lattice::new(f, &range, 300)),
-            Some(strata),
-        );
+        let lazy = Inputs::from_list(extra.clone())
+            .with_samples(Some(Lattice::new(f, &range, 300)), Some(strata));
         let listed: Vec<u32> = lazy.iter().collect();
         assert!(listed.windows(2).all(|w| w[0] < w[1]));
         let plain = Inputs::from_list(listed.clone());

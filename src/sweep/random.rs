@@ -89,8 +89,8 @@ impl Strata {
         mode: SampleMode,
     ) -> Result<Self, String> {
         let (lo, hi) = range.ordinals(format);
-        let finite_ends =
-            format.to_f64(format.from_ordinal(lo)).is_finite() && format.to_f64(format.from_ordinal(hi)).is_finite();
+        let finite_ends = format.to_f64(format.from_ordinal(lo)).is_finite()
+            && format.to_f64(format.from_ordinal(hi)).is_finite();
         let by_values = mode == SampleMode::Values && finite_ends;
         let mut plain = range.clone();
         plain.with_nans = false;
@@ -99,7 +99,11 @@ impl Strata {
             seed,
             points,
             domain: Inputs::of_range(format, &plain).runs().to_vec(),
-            cut: if by_values { BLOCK_LOG2.min(shift) } else { BLOCK_LOG2 },
+            cut: if by_values {
+                BLOCK_LOG2.min(shift)
+            } else {
+                BLOCK_LOG2
+            },
             by_values,
             shift,
             fields: super::FormatBits::of(format).exponent >> shift,
@@ -111,7 +115,9 @@ impl Strata {
                 "a random sample of {points} points is more than the {patterns} patterns of the range (NaNs are never drawn); an exhaustive sweep measures them all"
             ));
         }
-        strata.total = strata.cells().fold(Integer::new(), |w, (lo, hi)| w + strata.weight(lo, hi));
+        strata.total = strata
+            .cells()
+            .fold(Integer::new(), |w, (lo, hi)| w + strata.weight(lo, hi));
         Ok(strata)
     }
 
