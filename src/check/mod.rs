@@ -312,32 +312,36 @@ fn gather(
     let l = format.layout();
     if !exhaustive && !recorded {
         // A sampled sweep scans the gaps next to its non-finite runs stretch by stretch, as
-        // it goes; the probes are known points of those scans, so they come first.
-        let probe_points = prober.probe(&setup.probes);
-        crashes.probes = crashes_since(prober, &mut seen);
-        let mut known_probes: Vec<measure::Known> = probe_points
-            .iter()
-            .filter(|p| config.sweep.range.contains(format, p.input))
-            .map(|p| (p.input, measure::classes(l, p)))
-            .collect();
-        // Another part's input just before ours: evaluated again here, counted there.
-        let (evaluated, failures) = (prober.evaluated, prober.failures.len());
-        known_probes.extend(
-            prober
-                .probe(&before.into_iter().collect::<Vec<u32>>())
+        // it goes; the probes are known points of those scans, so they are evaluated after the
+        // first stretch is measured (the kernel's pace known by then), before its scans.
+        let probes = &mut |prober: &mut Prober, crashes: &mut Crashes, seen: &mut usize| {
+            let probe_points = prober.probe(&setup.probes);
+            crashes.probes = crashes_since(prober, seen);
+            let mut known: Vec<measure::Known> = probe_points
                 .iter()
-                .map(|p| (p.input, measure::classes(l, p))),
-        );
-        prober.evaluated = evaluated;
-        prober.failures.truncate(failures);
-        crashes_since(prober, &mut seen);
+                .filter(|p| config.sweep.range.contains(format, p.input))
+                .map(|p| (p.input, measure::classes(l, p)))
+                .collect();
+            // Another part's input just before ours: evaluated again here, counted there.
+            let (evaluated, failures) = (prober.evaluated, prober.failures.len());
+            known.extend(
+                prober
+                    .probe(&before.into_iter().collect::<Vec<u32>>())
+                    .iter()
+                    .map(|p| (p.input, measure::classes(l, p))),
+            );
+            prober.evaluated = evaluated;
+            prober.failures.truncate(failures);
+            crashes_since(prober, seen);
+            (probe_points, known)
+        };
         let scan = Scan {
             format,
-            known: known_probes,
+            probes,
             territory: territory(plan, before, from, to),
             keep: config.listed_runs,
         };
-        let (stream, runs) = stream_scanned(
+        let (stream, runs, probe_points) = stream_scanned(
             prober,
             stream,
             &own,
@@ -501,11 +505,17 @@ fn stream_measured(
 const STRETCH: u64 = 1 << 20;
 
 /// What the gap scans of a sampled sweep's part start from.
-struct Scan {
+struct Scan<'s> {
     /// The kernel's format.
     format: &'static dyn Format,
-    /// The probes' known points inside the range, and the previous part's last input.
-    known: Vec<measure::Known>,
+    /// Evaluates the probes: their points, and their known points inside the range with the
+    /// previous part's last input.
+    #[allow(clippy::type_complexity)] // one phase's closure
+    probes: &'s mut dyn FnMut(
+        &mut Prober,
+        &mut Crashes,
+        &mut usize,
+    ) -> (Vec<Point>, Vec<measure::Known>),
     /// The part's territory of bit patterns.
     territory: std::ops::RangeInclusive<u32>,
     /// Non-finite runs listed.
@@ -551,7 +561,7 @@ fn stream_scanned(
     scan: Scan,
     crashes: &mut Crashes,
     seen: &mut usize,
-) -> (Stream, measure::RunsPart) {
+) -> (Stream, measure::RunsPart, Vec<Point>) {
     let format = scan.format;
     let (start, end) = (*scan.territory.start(), *scan.territory.end());
     let walk_leftmost = start == 0 && !scan.territory.is_empty();
@@ -562,6 +572,7 @@ fn stream_scanned(
     let mut left: Vec<measure::Known> = Vec::new();
     let mut next_start = start;
     let mut first = true;
+    let mut probed: Option<(Vec<Point>, Vec<measure::Known>)> = None;
     loop {
         let stretch = take_stretch(&mut runs, &mut carry, STRETCH);
         if stretch.is_empty() && !first {
@@ -574,11 +585,15 @@ fn stream_scanned(
             stream_measured_runs(prober, stream, &stretch, inputs, sink, leftmost);
         stream = next;
         crashes.measured.extend(crashes_since(prober, seen));
+        if probed.is_none() {
+            probed = Some((scan.probes)(prober, crashes, seen));
+        }
+        let probe_known = &probed.as_ref().expect("probed").1;
         let stop = match (last, stretch.last()) {
             (false, Some(&(_, b))) => b,
             _ => end,
         };
-        known.extend(scan.known.iter().copied());
+        known.extend(probe_known.iter().copied());
         known.append(&mut left);
         let territory = if scan.territory.is_empty() {
             scan.territory.clone()
@@ -596,7 +611,7 @@ fn stream_scanned(
             _ => break,
         }
     }
-    (stream, part)
+    (stream, part, probed.map(|p| p.0).unwrap_or_default())
 }
 
 /// Streams a list of runs through the accumulators, keeping each point's input and classes.
