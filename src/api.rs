@@ -189,12 +189,6 @@ impl Check {
             Sweep::Random(n) if n > 0 => (vec![SweepKind::Random], n),
             Sweep::Random(_) => return Err("a random sweep needs at least one point".into()),
         };
-        if random_points > crate::sweep::MAX_SAMPLED {
-            return Err(format!(
-                "a random sweep lists at most {} points, got {random_points}",
-                crate::sweep::MAX_SAMPLED
-            ));
-        }
         if let Some(u) = self.max_ulp.filter(|u| !(u.is_finite() && *u >= 0.0)) {
             return Err(format!("max_ulp must be a finite number >= 0, got {u}"));
         }

@@ -68,3 +68,43 @@ fn two_gcc_builds_make_one_table_with_csv_and_json() {
     assert!(reports.join("gcc--O2.json").is_file());
     assert!(reports.join("gcc--O3--ffast-math.json").is_file());
 }
+
+/// `--timeout` and `--kernel-memory` are checked as `check` checks them (one line, exit 2)
+/// before anything is built, and a valid `--kernel-memory` is accepted.
+#[test]
+fn worker_bounds_are_checks_own_and_refused_before_any_build() {
+    let root = env!("CARGO_MANIFEST_DIR");
+    let d = Path::new(env!("CARGO_TARGET_TMPDIR"))
+        .join(format!("matrix-bounds-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    for (flag, value, says) in [
+        (
+            "--timeout",
+            "1e18",
+            "--timeout must be a number of seconds above 0 and at most 86400",
+        ),
+        (
+            "--timeout",
+            "0",
+            "--timeout must be a number of seconds above 0",
+        ),
+        (
+            "--kernel-memory",
+            "12Q",
+            "--kernel-memory must be a size such as 4G",
+        ),
+    ] {
+        let out = Command::new(env!("CARGO_BIN_EXE_ulpgauge"))
+            .args(["matrix", "--manifest"])
+            .arg(Path::new(root).join("kernels-under-test/lumen-edge.toml"))
+            .args(["--build", "gcc -O2", flag, value, "--work-dir"])
+            .arg(&d)
+            .output()
+            .expect("run ulpgauge");
+        let stderr = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{flag} {value}: {stderr}");
+        assert_eq!(stderr.trim().lines().count(), 1, "{stderr}");
+        assert!(stderr.contains(says), "{stderr}");
+        assert!(!d.exists(), "{flag} {value}: something was built");
+    }
+}

@@ -127,6 +127,30 @@ fn sampled_nan_runs_merge_across_many_shard_boundaries() {
 }
 
 #[test]
+fn large_sampled_sweeps_merge_across_stretches_and_shards() {
+    // 2.5 M random points (with a dense sweep, --points would be its significands per
+    // binade): the sweep is measured in stretches of 2^20 inputs whose gap scans continue one
+    // walk, so the unsharded run and every part cross stretch ends at different inputs; the
+    // NaN run above ln(f32 max) is cut by both.
+    whole_equals_merged(
+        "blended-elu-large",
+        &[
+            "--builtin-kernel",
+            "blended-elu",
+            "--function",
+            "elu",
+            "--format",
+            "f32",
+            "--sweep",
+            "edge,random",
+            "--points",
+            "2500000",
+        ],
+        &[3],
+    );
+}
+
+#[test]
 fn exhaustive_f16_with_crashes_merges() {
     // Crashes on every NaN input (measured and probed) and the non-finite runs they leave.
     whole_equals_merged(

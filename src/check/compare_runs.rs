@@ -64,11 +64,13 @@ pub fn compare_runs(
         (zero_out(first), zero_out(second))
     };
     let mut result = OutputComparison::default();
-    let total = inputs.len();
-    let mut at = 0;
-    while at < total {
-        let chunk: Vec<u32> = inputs.slice(at, (at + CHUNK).min(total)).iter().collect();
-        at += CHUNK;
+    // One pass over the inputs, CHUNK at a time (a lazy sweep is generated as it goes).
+    let mut all = inputs.iter();
+    loop {
+        let chunk: Vec<u32> = all.by_ref().take(CHUNK as usize).collect();
+        if chunk.is_empty() {
+            break;
+        }
         let (xs, args, g) = arguments(&chunk);
         let a = first.run(&args, g.as_deref()).outputs;
         let b = second.run(&args, g.as_deref()).outputs;

@@ -98,25 +98,34 @@ pub enum ReferencePath {
 const HYGIENE_SAMPLE: usize = 1024;
 const SPEED_SAMPLE: usize = 8192;
 
-/// An evenly spread sample of the finite inputs.
+/// An evenly spread sample of the finite inputs (two passes over a lazy sweep, nothing listed
+/// but the sample).
 fn spread(format: &dyn Format, inputs: &Inputs, n: usize) -> Vec<u32> {
-    let finite = inputs.finite(format);
-    let len = finite.len();
+    let len: u64 = inputs
+        .finite_runs(format)
+        .map(|(a, b)| (b - a) as u64 + 1)
+        .sum();
     if len <= n as u64 {
-        return finite.iter().collect();
+        return inputs
+            .finite_runs(format)
+            .flat_map(|(a, b)| a..=b)
+            .collect();
     }
-    finite.at_sorted((0..n as u64).map(|i| i * len / n as u64))
+    sweep::at_sorted(
+        inputs.finite_runs(format),
+        (0..n as u64).map(|i| i * len / n as u64),
+    )
 }
 
 /// Ordinal span of the finite inputs, if any.
 fn ordinal_span(format: &dyn Format, inputs: &Inputs) -> Option<(i64, i64)> {
-    let ends = inputs
-        .finite(format)
-        .runs()
-        .iter()
-        .flat_map(|&(a, b)| [format.ordinal(a), format.ordinal(b)])
-        .collect::<Vec<i64>>();
-    Some((*ends.iter().min()?, *ends.iter().max()?))
+    inputs
+        .finite_runs(format)
+        .flat_map(|(a, b)| [format.ordinal(a), format.ordinal(b)])
+        .fold(None, |span, o| match span {
+            None => Some((o, o)),
+            Some((lo, hi)) => Some((o.min(lo), o.max(hi))),
+        })
 }
 
 /// What a check settles before it calls the kernel: the constants, the references of the
@@ -282,7 +291,6 @@ fn gather(
         .map_or((0, plan.measured.len()), |s| s.bounds(plan.measured.len()));
     let own = plan.measured.slice(from, to);
     let before = from.checked_sub(1).and_then(|i| plan.measured.nth(i));
-    let after = plan.measured.nth(to);
     prober.expect(own.len() + setup.probes.len() as u64);
     // A recorded part is a slice of the whole range's sweep: its plot grid must be the whole
     // range's, as every other part's, or `merge` would join buckets of different grids.
@@ -293,7 +301,12 @@ fn gather(
     } else {
         &plan.measured
     };
-    let span = exhaustive.then(|| ordinal_span(format, spanned)).flatten();
+    // A plot grid fixed in advance keeps the plot's memory bounded; sampled sweeps of any
+    // size get one too (over their measured inputs, the same in every part), recorded sets
+    // keep every sample.
+    let span = (exhaustive || !recorded)
+        .then(|| ordinal_span(format, spanned))
+        .flatten();
     let stream = Stream::new(
         measure::AccuracyAcc::new(output, config.abs_floor, config.list_over, span)
             .with_input(format),
@@ -304,46 +317,79 @@ fn gather(
     );
     // A recorded part is measured whole but may follow other parts.
     let leftmost = from == 0 && config.shard.map_or(true, |s| !recorded || s.index == 1);
-    let (stream, measured) = stream_measured(prober, stream, &own, exhaustive, sink, leftmost);
     let mut crashes = Crashes::default();
     let mut seen = 0;
+    // Classes are of the outputs.
+    let l = output.layout();
+    if !exhaustive && !recorded {
+        // A sampled sweep scans the gaps next to its non-finite runs stretch by stretch, as
+        // it goes; the probes are known points of those scans, so they are evaluated after the
+        // first stretch is measured (the kernel's pace known by then), before its scans.
+        let probes = &mut |prober: &mut Prober, crashes: &mut Crashes, seen: &mut usize| {
+            let probe_points = prober.probe(&setup.probes);
+            crashes.probes = crashes_since(prober, seen);
+            let mut known: Vec<measure::Known> = probe_points
+                .iter()
+                .filter(|p| config.sweep.range.contains(format, p.input))
+                .map(|p| (p.input, measure::classes(l, p)))
+                .collect();
+            // Another part's input just before ours: evaluated again here, counted there.
+            let (evaluated, failures) = (prober.evaluated, prober.failures.len());
+            known.extend(
+                prober
+                    .probe(&before.into_iter().collect::<Vec<u32>>())
+                    .iter()
+                    .map(|p| (p.input, measure::classes(l, p))),
+            );
+            prober.evaluated = evaluated;
+            prober.failures.truncate(failures);
+            crashes_since(prober, seen);
+            (probe_points, known)
+        };
+        let scan = Scan {
+            format,
+            out: l,
+            probes,
+            territory: territory(plan, before, from, to),
+            keep: config.listed_runs,
+        };
+        let (stream, runs, probe_points) = stream_scanned(
+            prober,
+            stream,
+            &own,
+            sink,
+            leftmost,
+            scan,
+            &mut crashes,
+            &mut seen,
+        );
+        return finish_gather(
+            prober,
+            setup,
+            config,
+            stream,
+            Some(runs),
+            probe_points,
+            crashes,
+            seen,
+            own.len(),
+            recorded,
+        );
+    }
+    let (stream, measured) = stream_measured(prober, stream, &own, exhaustive, sink, leftmost);
     crashes.measured = crashes_since(prober, &mut seen);
     let probe_points = prober.probe(&setup.probes);
     crashes.probes = crashes_since(prober, &mut seen);
     prober.expect(0);
 
     let runs = (!exhaustive).then(|| {
-        // Another part's inputs next to ours: evaluated again here, counted there.
-        let neighbours: Vec<u32> = before.into_iter().chain(after).collect();
-        let (evaluated, failures) = (prober.evaluated, prober.failures.len());
-        let l = output.layout();
-        let mut known: Vec<measure::Known> = prober
-            .probe(&neighbours)
-            .iter()
-            .map(|p| (p.input, measure::classes(l, p)))
-            .collect();
-        prober.evaluated = evaluated;
-        prober.failures.truncate(failures);
-        crashes_since(prober, &mut seen);
-        known.extend(measured);
+        let mut known = measured;
         known.extend(
             probe_points
                 .iter()
                 .filter(|p| config.sweep.range.contains(format, p.input))
                 .map(|p| (p.input, measure::classes(l, p))),
         );
-        if !recorded {
-            let territory = territory(plan, before, from, to);
-            return measure::non_finite_part(
-                format,
-                l,
-                &mut known,
-                prober,
-                territory,
-                config.listed_runs,
-                sink,
-            );
-        }
         // The gaps of a recorded set hold only inputs it did not record (every recorded one
         // in the range is measured): its runs end next to holes, and nothing is evaluated.
         let territory = recorded::territory(config.shard, &plan.measured);
@@ -360,7 +406,40 @@ fn gather(
         part.scanned = only_present.evaluated;
         part
     });
-    crashes.scans = crashes_since(prober, &mut seen);
+    finish_gather(
+        prober,
+        setup,
+        config,
+        stream,
+        runs,
+        probe_points,
+        crashes,
+        seen,
+        own.len(),
+        recorded,
+    )
+}
+
+/// The threshold searches after the measured inputs, and everything gathered.
+#[allow(clippy::too_many_arguments)] // the pieces gathered so far
+fn finish_gather(
+    prober: &mut Prober,
+    setup: &Setup,
+    config: &CheckConfig,
+    stream: Stream,
+    runs: Option<measure::RunsPart>,
+    probe_points: Vec<Point>,
+    mut crashes: Crashes,
+    mut seen: usize,
+    inputs: u64,
+    recorded: bool,
+) -> (Gathered, Vec<measure::ThresholdReport>) {
+    let format = config.input_format;
+    let output = config.format;
+    let function = config.function;
+    let role_is_forward = config.role == CheckRole::Forward;
+    prober.expect(0);
+    crashes.scans.extend(crashes_since(prober, &mut seen));
     let search_kernel = !matches!(config.role, CheckRole::Gradient { .. });
     let evaluated = prober.evaluated;
     let thresholds = if recorded {
@@ -383,7 +462,7 @@ fn gather(
         probe_points,
         failures: prober.failures.clone(),
         crashes,
-        inputs: own.len(),
+        inputs,
         threshold_inputs,
         keeps_negative_zero: role_is_forward && function.facts().keeps_negative_zero,
         tolerance: config.max_ulp.unwrap_or(1.0).max(1.0),
@@ -427,11 +506,172 @@ fn stream_measured(
             (part, all)
         },
     };
-    let batches = probe::run_batches(own.runs());
+    let batches = probe::run_batches(own.run_iter());
     prober.probe_fold(batches, own.len(), &folding, &mut |(part, all)| {
         stream.merge(part);
         stream.settle(sink, leftmost);
         measured.extend(all.into_iter().flatten());
+    });
+    (stream, measured)
+}
+
+/// Measured inputs of a sampled sweep per stretch: the known points kept while its gaps are
+/// scanned (a few MiB), whatever the sweep's size.
+const STRETCH: u64 = 1 << 20;
+
+/// What the gap scans of a sampled sweep's part start from.
+struct Scan<'s> {
+    /// The kernel's input format (the walk's bit patterns).
+    format: &'static dyn Format,
+    /// The output format's layout, in which classes are read.
+    out: crate::format::Layout,
+    /// Evaluates the probes: their points, and their known points inside the range with the
+    /// previous part's last input.
+    #[allow(clippy::type_complexity)] // one phase's closure
+    probes: &'s mut dyn FnMut(
+        &mut Prober,
+        &mut Crashes,
+        &mut usize,
+    ) -> (Vec<Point>, Vec<measure::Known>),
+    /// The part's territory of bit patterns.
+    territory: std::ops::RangeInclusive<u32>,
+    /// Non-finite runs listed.
+    keep: usize,
+}
+
+/// The runs of a run iterator up to `most` inputs (a run cut at the limit continues in the
+/// next call).
+fn take_stretch(
+    runs: &mut std::iter::Peekable<sweep::RunIter<'_>>,
+    carry: &mut Option<(u32, u32)>,
+    most: u64,
+) -> Vec<(u32, u32)> {
+    let mut out = Vec::new();
+    let mut room = most;
+    while room > 0 {
+        let Some((a, b)) = carry.take().or_else(|| runs.next()) else {
+            break;
+        };
+        let n = (b - a) as u64 + 1;
+        if n > room {
+            let cut = a + (room - 1) as u32;
+            out.push((a, cut));
+            *carry = Some((cut + 1, b));
+            break;
+        }
+        out.push((a, b));
+        room -= n;
+    }
+    out
+}
+
+/// Streams a sampled sweep's measured inputs stretch by stretch (in bit order): each stretch
+/// through the accumulators, then its gaps next to non-finite runs scanned, continuing one
+/// walk of the part's territory; only a stretch's known points are held at a time.
+#[allow(clippy::too_many_arguments)] // one phase's inputs and its crash bookkeeping
+fn stream_scanned(
+    prober: &mut Prober,
+    mut stream: Stream,
+    own: &Inputs,
+    sink: &mut dyn measure::FindingSink,
+    leftmost: bool,
+    scan: Scan,
+    crashes: &mut Crashes,
+    seen: &mut usize,
+) -> (Stream, measure::RunsPart, Vec<Point>) {
+    let format = scan.format;
+    let (start, end) = (*scan.territory.start(), *scan.territory.end());
+    let walk_leftmost = start == 0 && !scan.territory.is_empty();
+    let mut part = measure::RunsPart::new(format, scan.keep);
+    let mut runs = own.run_iter().peekable();
+    let mut carry = None;
+    // The known point just before the next stretch's territory.
+    let mut left: Vec<measure::Known> = Vec::new();
+    let mut next_start = start;
+    let mut first = true;
+    let mut probed: Option<(Vec<Point>, Vec<measure::Known>)> = None;
+    loop {
+        let stretch = take_stretch(&mut runs, &mut carry, STRETCH);
+        if stretch.is_empty() && !first {
+            break;
+        }
+        first = false;
+        let last = carry.is_none() && runs.peek().is_none();
+        let inputs: u64 = stretch.iter().map(|&(a, b)| (b - a) as u64 + 1).sum();
+        let (next, mut known) =
+            stream_measured_runs(prober, stream, &stretch, inputs, sink, leftmost);
+        stream = next;
+        crashes.measured.extend(crashes_since(prober, seen));
+        if probed.is_none() {
+            probed = Some((scan.probes)(prober, crashes, seen));
+        }
+        let probe_known = &probed.as_ref().expect("probed").1;
+        let stop = match (last, stretch.last()) {
+            (false, Some(&(_, b))) => b,
+            _ => end,
+        };
+        known.extend(probe_known.iter().copied());
+        known.append(&mut left);
+        let territory = if scan.territory.is_empty() {
+            scan.territory.clone()
+        } else {
+            next_start..=stop
+        };
+        part = measure::continue_part(
+            part,
+            walk_leftmost,
+            scan.out,
+            &mut known,
+            prober,
+            territory,
+            sink,
+        );
+        crashes.scans.extend(crashes_since(prober, seen));
+        // `known` is sorted now: the last known point at or below the stretch's end leads the
+        // next territory.
+        let at = known.partition_point(|k| k.0 <= stop);
+        left.extend(at.checked_sub(1).map(|i| known[i]));
+        match stop.checked_add(1) {
+            Some(n) if !last => next_start = n,
+            _ => break,
+        }
+    }
+    (stream, part, probed.map(|p| p.0).unwrap_or_default())
+}
+
+/// Streams a list of runs through the accumulators, keeping each point's input and classes.
+fn stream_measured_runs(
+    prober: &mut Prober,
+    mut stream: Stream,
+    runs: &[(u32, u32)],
+    total: u64,
+    sink: &mut dyn measure::FindingSink,
+    leftmost: bool,
+) -> (Stream, Vec<measure::Known>) {
+    let mut measured: Vec<measure::Known> = Vec::new();
+    let template = stream.fresh();
+    let l = stream.layout();
+    let folding = Folding {
+        fold: &|points: &[Point]| {
+            let mut part = template.fresh();
+            part.add_all(points);
+            let known: Vec<measure::Known> = points
+                .iter()
+                .map(|p| (p.input, measure::classes(l, p)))
+                .collect();
+            (part, known)
+        },
+        join: &|(mut part, mut all): (Stream, Vec<measure::Known>), (later, more)| {
+            part.merge(later);
+            all.extend(more);
+            (part, all)
+        },
+    };
+    let batches = probe::run_batches(runs.iter().copied());
+    prober.probe_fold(batches, total, &folding, &mut |(part, all)| {
+        stream.merge(part);
+        stream.settle(sink, leftmost);
+        measured.extend(all);
     });
     (stream, measured)
 }

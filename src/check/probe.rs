@@ -361,8 +361,10 @@ impl RoleReferences {
 type Arguments = (Vec<u32>, Vec<u32>, Vec<Option<u32>>);
 
 /// Kernel batches of a sweep given as sorted runs `lo..=hi` of consecutive bit patterns.
-pub fn run_batches(runs: &[(u32, u32)]) -> impl Iterator<Item = Vec<u32>> + Send + '_ {
-    let mut runs = runs.iter().copied();
+pub fn run_batches<'a>(
+    runs: impl Iterator<Item = (u32, u32)> + Send + 'a,
+) -> impl Iterator<Item = Vec<u32>> + Send + 'a {
+    let mut runs = runs;
     let mut current: Option<(u32, u32)> = None;
     std::iter::from_fn(move || {
         let mut batch = Vec::with_capacity(CHUNK);
@@ -811,9 +813,12 @@ mod tests {
         let mut k = InProcessKernel::new(kernel);
         let mut prober = Prober::new(&mut k, &refs, false);
         let mut parts = Vec::new();
-        prober.probe_fold(run_batches(&runs), all.len() as u64, &folding, &mut |p| {
-            parts.push(p)
-        });
+        prober.probe_fold(
+            run_batches(runs.iter().copied()),
+            all.len() as u64,
+            &folding,
+            &mut |p| parts.push(p),
+        );
         assert_eq!(parts.len(), all.len().div_ceil(CHUNK));
         let points: Vec<Point> = parts.into_iter().flatten().collect();
         let inputs: Vec<u32> = points.iter().map(|p| p.input).collect();

@@ -459,18 +459,6 @@ pub fn sweep_spec(
     if options.per_binade < 2 {
         return Err(Failure::bad_input("--per-binade must be at least 2"));
     }
-    // A dense sweep of binary32 has up to 2^9 binades (both signs).
-    let max_sampled = crate::sweep::MAX_SAMPLED;
-    let too_many = |flag: &str, n: u64, max: u64| {
-        Failure::bad_input(format!(
-            "{flag} {n} is more than a sampled sweep lists (at most {max}); \
-             use --sweep exhaustive with --range for more"
-        ))
-    };
-    let points = options.points.unwrap_or(0);
-    if points > max_sampled {
-        return Err(too_many("--points", points, max_sampled));
-    }
     let kinds = if options.sweep.is_empty() {
         if format.width() <= 16 {
             vec![SweepKind::Exhaustive]
@@ -497,22 +485,31 @@ pub fn sweep_spec(
     let per_binade = dense_points
         .map(|n| u32::try_from(n).unwrap_or(u32::MAX).max(2))
         .unwrap_or(options.per_binade);
-    if u64::from(per_binade) > max_sampled >> 9 {
-        return Err(too_many(
-            "significands per binade",
-            per_binade.into(),
-            max_sampled >> 9,
-        ));
-    }
-    Ok(SweepSpec {
+    // Without --points a random sweep takes 100,000 points, or every pattern of a smaller
+    // range (NaNs are never drawn).
+    let mut plain = range.clone();
+    plain.with_nans = false;
+    let random_points = options
+        .points
+        .unwrap_or_else(|| plain.pattern_count(format).min(100_000));
+    let spec = SweepSpec {
         kinds,
         range,
         per_binade,
-        random_points: options.points.unwrap_or(100_000),
+        random_points,
         neighbours: options.neighbours,
         seed: options.seed,
         mode: options.random_mode,
-    })
+    };
+    let patterns = plain.pattern_count(format);
+    if spec.kinds.contains(&SweepKind::Random) && spec.random_points > patterns {
+        // Refused before any work: a sample is distinct points of the range.
+        return Err(Failure::bad_input(format!(
+            "--points {} is more than the {patterns} patterns of the range (NaNs are never drawn); use --sweep exhaustive to measure them all",
+            spec.random_points
+        )));
+    }
+    Ok(spec)
 }
 
 /// Most neighbours of an interesting point on each side (`--neighbours`).

@@ -7,7 +7,7 @@
 use super::check::{build_config, combine, KernelTarget};
 use super::{check_args, Failure};
 use crate::check::{library_info, run_check, RunnerKernel};
-use crate::kernel::{load_manifest, Runner, RunnerOptions};
+use crate::kernel::{load_manifest, Runner};
 use crate::matrix::{build, table, BuildResult, BuildStatus, Cell, Matrix, MATRIX_SCHEMA};
 use crate::report::{check_writable, write_atomic, Json, ReportFormat};
 use std::path::{Path, PathBuf};
@@ -36,6 +36,9 @@ pub struct Args {
     /// Seconds a batch may take before the kernel counts as hung.
     #[arg(long, value_name = "SECONDS", default_value_t = 10.0)]
     pub timeout: f64,
+    /// Address space each worker process may use (4G, 1536M, …), as in `check`.
+    #[arg(long, value_name = "SIZE", default_value = "4G")]
+    pub kernel_memory: String,
     /// Write one CSV row per kernel and build.
     #[arg(long, value_name = "FILE")]
     pub csv: Option<PathBuf>,
@@ -61,6 +64,7 @@ fn check_options(args: &Args) -> super::check::Args {
     let mut a = check_args::defaults();
     a.sweep_options = args.sweep_options.clone();
     a.timeout = args.timeout;
+    a.kernel_memory = args.kernel_memory.clone();
     a
 }
 
@@ -98,12 +102,8 @@ fn slug(label: &str) -> String {
 pub fn run(args: Args) -> Result<i32, Failure> {
     let specs = load_manifest(&args.manifest).map_err(Failure::bad_input)?;
     let options = check_options(&args);
-    if !(args.timeout.is_finite() && args.timeout > 0.0) {
-        return Err(Failure::bad_input(format!(
-            "--timeout must be a positive number of seconds, got {}",
-            args.timeout
-        )));
-    }
+    // check's own bounds for --timeout and --kernel-memory, before anything is built.
+    let runner_options = super::check::runner_options(&options)?;
     // Validate every kernel's configuration before building anything.
     let mut configs = Vec::new();
     for spec in &specs {
@@ -144,11 +144,6 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         std::fs::create_dir_all(dir)
             .map_err(|e| Failure::bad_input(format!("cannot create {}: {e}", dir.display())))?;
     }
-    let runner_options = RunnerOptions {
-        batch_timeout: crate::kernel::batch_timeout(args.timeout, "--timeout")
-            .map_err(Failure::bad_input)?,
-        ..RunnerOptions::default()
-    };
     let kernels: Vec<String> = specs.iter().map(|s| s.symbol.clone()).collect();
     let mut results = Vec::new();
     let mut cells = Vec::new();

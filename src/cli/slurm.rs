@@ -204,12 +204,8 @@ fn validate_check(line: &[String]) -> Result<(), Failure> {
             "check arguments: leave out {flag}: each task writes its shard's JSON and the merge job writes DIR/merged.json"
         )));
     }
-    if !(args.timeout.is_finite() && args.timeout > 0.0) {
-        return Err(Failure::bad_input(format!(
-            "--timeout must be a positive number of seconds, got {}",
-            args.timeout
-        )));
-    }
+    // check's own bounds, so a task never fails on what the submission accepted.
+    super::check::runner_options(&args)?;
     if let Some(manifest) = &args.manifest {
         if args.lib.is_some()
             || args.symbol.is_some()

@@ -11,7 +11,7 @@
 //! Every failed call (crash, hang, a reply the kernel forged) ends its worker, so bisection
 //! costs a worker start per failure.  Two limits bound that cost ([`RunnerOptions`]): the
 //! number of failed calls and the time they took.  A kernel that fails on every call is caught
-//! long before either: once the first calls have all failed (a few in a row, or two hangs), a
+//! long before either: once the first calls have all failed (a few in a row, or one hang), a
 //! few single inputs spread over the batch are tried in fresh workers, and if none returns
 //! either the runner stops, naming the failure "on every call".  Once stopped, the runner calls
 //! the kernel no more: later inputs get no output and no crash record, so what the caller keeps
@@ -23,10 +23,12 @@ use std::time::Duration;
 /// Failed calls in a row, with none returned yet, that make the runner ask whether every call
 /// fails.
 const EVERY_CALL_STREAK: u32 = 8;
-/// Hangs in a row (each costs a whole timeout) that do the same.
-const EVERY_CALL_HANGS: u32 = 2;
+/// Hangs in a row (each costs a whole timeout while no call has returned) that do the same.
+const EVERY_CALL_HANGS: u32 = 1;
 /// Single inputs, spread over the batch, tried to answer it.
 const EVERY_CALL_SAMPLES: usize = 3;
+/// The same after a hang, where each costs a whole timeout: one of each sign.
+const EVERY_CALL_HANG_SAMPLES: usize = 2;
 /// Parts a failing batch is split into.
 pub const SPLIT: usize = 8;
 /// Elements of the first batch while the kernel's pace is unknown.
@@ -345,12 +347,17 @@ impl Runner {
         self.faults.asked = true;
         let len = first.len();
         let sign = 1u32 << (self.spec().format.width() - 1);
-        let mut picks: Vec<usize> = (0..EVERY_CALL_SAMPLES)
-            .map(|k| (2 * k + 1) * len / (2 * EVERY_CALL_SAMPLES))
+        let samples = if matches!(e, CallError::Hang) {
+            EVERY_CALL_HANG_SAMPLES
+        } else {
+            EVERY_CALL_SAMPLES
+        };
+        let mut picks: Vec<usize> = (0..samples)
+            .map(|k| (2 * k + 1) * len / (2 * samples))
             .collect();
         picks.dedup();
         for (k, &i) in picks.iter().enumerate() {
-            let x = if k == EVERY_CALL_SAMPLES / 2 {
+            let x = if k == samples / 2 {
                 first[i] ^ sign
             } else {
                 first[i]

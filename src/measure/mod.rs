@@ -23,8 +23,9 @@ pub use exact_sum::ExactSum;
 pub use kinks::{kink_sides, KinkSide};
 pub use neighbourhood::{neighbourhoods, NearPoint, Neighbourhood};
 pub use nonfinite::{
-    classes, non_finite_part, non_finite_runs, Classes, Known, NonFiniteRun, NonFiniteStream,
-    RunCell, RunSummary, RunTotals, RunsPart, ValueClass, LISTED_RUNS, MAX_GAP_SCAN,
+    classes, continue_part, non_finite_part, non_finite_runs, Classes, Known, NonFiniteRun,
+    NonFiniteStream, RunCell, RunSummary, RunTotals, RunsPart, ValueClass, LISTED_RUNS,
+    MAX_GAP_SCAN,
 };
 pub use rounding::{RoundingCounts, RoundingDiagnosis, DIAGNOSIS_MIN_POINTS, DIAGNOSIS_SHARE};
 pub use shape::{shape, Jump, Shape, ShapeAcc, Violation};

@@ -562,6 +562,14 @@ pub struct RunsPart {
 }
 
 impl RunsPart {
+    /// No runs yet: the start of a walk that lists the `keep` longest runs.
+    pub fn new(format: &'static dyn Format, keep: usize) -> Self {
+        RunsPart {
+            format,
+            builder: RunBuilder::new(format, keep),
+            scanned: 0,
+        }
+    }
     /// Joins the part of the next stretch.
     pub fn merge(&mut self, other: RunsPart) {
         self.builder.merge(other.builder);
@@ -617,15 +625,34 @@ pub fn non_finite_part(
     keep: usize,
     sink: &mut dyn FindingSink,
 ) -> RunsPart {
+    let leftmost = *territory.start() == 0;
+    let fresh = RunsPart::new(format, keep);
+    continue_part(fresh, leftmost, out, known, probe, territory, sink)
+}
+
+/// Continues `part` (the runs of the territories just before) through the next territory, as
+/// [`non_finite_part`] does for the first: one walk over consecutive territories finds
+/// exactly the runs of one walk over their union, and settles every finished run on the way,
+/// so a sweep walked stretch by stretch keeps only a stretch's known points. `leftmost`: the
+/// first territory began at pattern 0; `out`: the layout of the outputs, in which scanned points are classed.
+pub fn continue_part(
+    part: RunsPart,
+    leftmost: bool,
+    out: Layout,
+    known: &mut Vec<Known>,
+    probe: &mut dyn Probe,
+    territory: RangeInclusive<u32>,
+    sink: &mut dyn FindingSink,
+) -> RunsPart {
+    let format = part.format;
     let l = format.layout();
     known.sort_unstable_by_key(|k| k.0);
     known.dedup_by_key(|k| k.0);
     let sign = format.infinity(true) & !format.infinity(false);
-    let leftmost = *territory.start() == 0;
     let mut walk = Walk {
-        builder: RunBuilder::new(format, keep),
+        builder: part.builder,
         next_input: Some(*territory.start()),
-        scanned: 0,
+        scanned: part.scanned,
         territory: territory.clone(),
     };
     let mismatch = |c: Option<Classes>| c.filter(|(k, r)| k != r);
@@ -788,6 +815,59 @@ mod tests {
         );
         let total = summary.totals();
         assert_eq!((total.runs, total.inputs), (2, 16 + 0x4a10 - 0x48f1 + 1));
+    }
+
+    /// One walk continued through consecutive territories (cut at known points, anywhere)
+    /// finds exactly the runs of one walk over their union, each run once to the sink.
+    #[test]
+    fn a_walk_continued_across_territories_equals_one_walk() {
+        let f = &Binary16;
+        let l = f.layout();
+        let samples: Vec<Point> = (0..0x7c00u32).step_by(0x40).map(point).collect();
+        let known: Vec<Known> = samples.iter().map(|p| (p.input, classes(l, p))).collect();
+        let mut whole_sink = Collect::default();
+        let whole = non_finite_part(
+            f,
+            l,
+            &mut known.clone(),
+            &mut Fake,
+            0..=u32::MAX,
+            10,
+            &mut whole_sink,
+        );
+        let want = serde_json::to_string(&whole.finish(&mut whole_sink).listed(f)).unwrap();
+        for cuts in [
+            vec![3usize],
+            vec![0x48e0 / 0x40, 0x4900 / 0x40],
+            (1..400).step_by(7).collect(),
+        ] {
+            let mut sink = Collect::default();
+            let mut part = RunsPart::new(f, 10);
+            let mut start = 0u32;
+            let mut bounds = cuts.clone();
+            bounds.push(known.len());
+            let mut from = 0usize;
+            for &to in &bounds {
+                // The territory's own points and the known point just before it.
+                let mut these: Vec<Known> = known[from.saturating_sub(1)..to].to_vec();
+                let end = if to == known.len() {
+                    u32::MAX
+                } else {
+                    known[to - 1].0
+                };
+                part = continue_part(part, true, l, &mut these, &mut Fake, start..=end, &mut sink);
+                start = end.wrapping_add(1);
+                from = to;
+            }
+            let got = serde_json::to_string(&part.finish(&mut sink).listed(f)).unwrap();
+            assert_eq!(got, want, "{cuts:?}");
+            let ends = |c: &Collect| -> Vec<String> {
+                c.0.iter()
+                    .map(|r| format!("{}-{}", r.first.bits, r.last.bits))
+                    .collect()
+            };
+            assert_eq!(ends(&sink), ends(&whole_sink), "{cuts:?}");
+        }
     }
 
     /// Maximal runs by definition: consecutive patterns of one sign with the same mismatched
