@@ -152,7 +152,10 @@ fn manifest_unknown_format_role_and_param() {
         "{e}"
     );
     let e = manifest_err(&format!("{HEAD}function = \"tanh\"\n"));
-    assert!(e.contains("missing field `format`"), "{e}");
+    assert!(
+        e.contains("line 3: kernel entry has no `format` (or `input-format` and `output-format`)"),
+        "{e}"
+    );
 }
 
 #[test]
