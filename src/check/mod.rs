@@ -477,9 +477,24 @@ fn finish_gather(
 /// each point's input and classes (its runs' gaps are scanned later).
 fn stream_measured(
     prober: &mut Prober,
-    mut stream: Stream,
+    stream: Stream,
     own: &Inputs,
     exhaustive: bool,
+    sink: &mut dyn measure::FindingSink,
+    leftmost: bool,
+) -> (Stream, Vec<measure::Known>) {
+    let runs = own.run_iter();
+    stream_runs(prober, stream, runs, own.len(), !exhaustive, sink, leftmost)
+}
+
+/// Streams runs of inputs through the accumulators, keeping each point's input and classes
+/// when `keep` (the gap scans of sampled sweeps need them).
+fn stream_runs(
+    prober: &mut Prober,
+    mut stream: Stream,
+    runs: impl Iterator<Item = (u32, u32)> + Send,
+    total: u64,
+    keep: bool,
     sink: &mut dyn measure::FindingSink,
     leftmost: bool,
 ) -> (Stream, Vec<measure::Known>) {
@@ -490,7 +505,7 @@ fn stream_measured(
         fold: &|points: &[Point]| {
             let mut part = template.fresh();
             part.add_all(points);
-            let known = (!exhaustive).then(|| {
+            let known = keep.then(|| {
                 points
                     .iter()
                     .map(|p| (p.input, measure::classes(l, p)))
@@ -506,8 +521,8 @@ fn stream_measured(
             (part, all)
         },
     };
-    let batches = probe::run_batches(own.run_iter());
-    prober.probe_fold(batches, own.len(), &folding, &mut |(part, all)| {
+    let batches = probe::run_batches(runs);
+    prober.probe_fold(batches, total, &folding, &mut |(part, all)| {
         stream.merge(part);
         stream.settle(sink, leftmost);
         measured.extend(all.into_iter().flatten());
@@ -642,38 +657,14 @@ fn stream_scanned(
 /// Streams a list of runs through the accumulators, keeping each point's input and classes.
 fn stream_measured_runs(
     prober: &mut Prober,
-    mut stream: Stream,
+    stream: Stream,
     runs: &[(u32, u32)],
     total: u64,
     sink: &mut dyn measure::FindingSink,
     leftmost: bool,
 ) -> (Stream, Vec<measure::Known>) {
-    let mut measured: Vec<measure::Known> = Vec::new();
-    let template = stream.fresh();
-    let l = stream.layout();
-    let folding = Folding {
-        fold: &|points: &[Point]| {
-            let mut part = template.fresh();
-            part.add_all(points);
-            let known: Vec<measure::Known> = points
-                .iter()
-                .map(|p| (p.input, measure::classes(l, p)))
-                .collect();
-            (part, known)
-        },
-        join: &|(mut part, mut all): (Stream, Vec<measure::Known>), (later, more)| {
-            part.merge(later);
-            all.extend(more);
-            (part, all)
-        },
-    };
-    let batches = probe::run_batches(runs.iter().copied());
-    prober.probe_fold(batches, total, &folding, &mut |(part, all)| {
-        stream.merge(part);
-        stream.settle(sink, leftmost);
-        measured.extend(all);
-    });
-    (stream, measured)
+    let runs = runs.iter().copied();
+    stream_runs(prober, stream, runs, total, true, sink, leftmost)
 }
 
 /// The crashes met since the last call, for the phase that just ended.

@@ -76,18 +76,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     let evaluator = &target.evaluator;
     let format = evaluator.format();
     let in_format = evaluator.input_format();
-    let mut text = String::new();
-    std::io::stdin()
-        .read_to_string(&mut text)
-        .map_err(|e| Failure::bad_input(format!("cannot read stdin: {e}")))?;
-    let inputs = text
-        .split_whitespace()
-        .enumerate()
-        .map(|(i, token)| {
-            parse_hex(in_format, token)
-                .map_err(|e| Failure::bad_input(format!("stdin item {}: {e}", i + 1)))
-        })
-        .collect::<Result<Vec<u32>, Failure>>()?;
+    let inputs = read_patterns(in_format)?;
     let outputs = inputs
         .par_iter()
         .map(|&x| evaluator.reference(x).map(|r| r.bits))
@@ -110,18 +99,7 @@ pub fn run(args: Args) -> Result<i32, Failure> {
 /// `batch` of a gated function: stdin read as pairs (a b), `0xA 0xB 0xOUT` per pair.
 fn pairs(evaluator: &crate::reference::PairEvaluator) -> Result<(), Failure> {
     let format = evaluator.format();
-    let mut text = String::new();
-    std::io::stdin()
-        .read_to_string(&mut text)
-        .map_err(|e| Failure::bad_input(format!("cannot read stdin: {e}")))?;
-    let tokens = text
-        .split_whitespace()
-        .enumerate()
-        .map(|(i, token)| {
-            parse_hex(format, token)
-                .map_err(|e| Failure::bad_input(format!("stdin item {}: {e}", i + 1)))
-        })
-        .collect::<Result<Vec<u32>, Failure>>()?;
+    let tokens = read_patterns(format)?;
     if tokens.len() % 2 != 0 {
         return Err(Failure::bad_input(format!(
             "stdin: {} takes pairs (a b), got an odd number of items ({})",
@@ -149,4 +127,19 @@ fn pairs(evaluator: &crate::reference::PairEvaluator) -> Result<(), Failure> {
         .map_err(|e| Failure::bad_input(e.to_string()))?;
     }
     Ok(())
+}
+
+/// Every whitespace-separated bit pattern on stdin, in `format`; a bad item is bad input.
+fn read_patterns(format: &dyn crate::format::Format) -> Result<Vec<u32>, Failure> {
+    let mut text = String::new();
+    std::io::stdin()
+        .read_to_string(&mut text)
+        .map_err(|e| Failure::bad_input(format!("cannot read stdin: {e}")))?;
+    text.split_whitespace()
+        .enumerate()
+        .map(|(i, token)| {
+            parse_hex(format, token)
+                .map_err(|e| Failure::bad_input(format!("stdin item {}: {e}", i + 1)))
+        })
+        .collect()
 }

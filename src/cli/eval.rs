@@ -224,15 +224,14 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
         code: 1,
         message: e.to_string(),
     })?;
-    let out = reference.bits;
-    let finite_out = !matches!(format.classify(out), Class::Nan | Class::Infinite);
-    let below = finite_out.then(|| format.next_down(out));
-    let above = finite_out.then(|| format.next_up(out));
-    let ulp = reference.exact.map(|e| e.ulp(format));
-    let rounding_error = reference
-        .exact
-        .filter(|_| finite_out)
-        .map(|e| crate::format::ulp_error(format, out, &e));
+    let rounded = Rounded::of(format, &reference);
+    let Rounded {
+        out,
+        below,
+        above,
+        ulp,
+        rounding_error,
+    } = rounded;
     let kink = (evaluator.role() == Role::Derivative)
         .then(|| {
             let x = in_format.to_f64(input.bits);
@@ -325,19 +324,7 @@ fn evaluate(args: &Args, function: &str, rest: &[String]) -> Result<i32, Failure
         ),
         None => sayln!("  input      {}", show_in(input.bits)),
     }
-    if let Some(digits) = &exact {
-        sayln!("  exact      {digits}");
-    }
-    sayln!("  rounded    {}", show(out));
-    if let (Some(b), Some(a)) = (below, above) {
-        sayln!("  neighbours {}  |  {}", show(b), show(a));
-    }
-    if let Some(u) = ulp {
-        sayln!("  ulp        {u:e}");
-    }
-    if let Some(e) = rounding_error {
-        sayln!("  |RN(y)-y|  {e:.6} ulp");
-    }
+    rounded.say(exact.as_deref(), &show);
     if let Some(k) = kink {
         sayln!(
             "  kink       f' jumps at {}: left {}, right {}; eval gives the right-hand value",
@@ -361,5 +348,50 @@ mod tests {
         assert_eq!(plain_decimal("3.0e-3"), "0.0030");
         assert_eq!(plain_decimal("7.6e-23"), "7.6e-23");
         assert_eq!(plain_decimal("0"), "0");
+    }
+}
+
+/// A reference rounded into the output format, with what `eval` shows beside it.
+#[derive(Clone, Copy)]
+pub(super) struct Rounded {
+    pub out: u32,
+    pub below: Option<u32>,
+    pub above: Option<u32>,
+    pub ulp: Option<f64>,
+    pub rounding_error: Option<f64>,
+}
+
+impl Rounded {
+    /// The neighbours, the ulp and |RN(y) − y| of a reference (none for NaN or ±∞ outputs).
+    pub fn of(format: &dyn Format, reference: &crate::reference::Reference) -> Rounded {
+        let out = reference.bits;
+        let finite_out = !matches!(format.classify(out), Class::Nan | Class::Infinite);
+        Rounded {
+            out,
+            below: finite_out.then(|| format.next_down(out)),
+            above: finite_out.then(|| format.next_up(out)),
+            ulp: reference.exact.map(|e| e.ulp(format)),
+            rounding_error: reference
+                .exact
+                .filter(|_| finite_out)
+                .map(|e| crate::format::ulp_error(format, out, &e)),
+        }
+    }
+
+    /// The terminal lines from the exact digits down to |RN(y) − y|.
+    pub fn say(&self, exact: Option<&str>, show: &dyn Fn(u32) -> String) {
+        if let Some(digits) = exact {
+            sayln!("  exact      {digits}");
+        }
+        sayln!("  rounded    {}", show(self.out));
+        if let (Some(b), Some(a)) = (self.below, self.above) {
+            sayln!("  neighbours {}  |  {}", show(b), show(a));
+        }
+        if let Some(u) = self.ulp {
+            sayln!("  ulp        {u:e}");
+        }
+        if let Some(e) = self.rounding_error {
+            sayln!("  |RN(y)-y|  {e:.6} ulp");
+        }
     }
 }

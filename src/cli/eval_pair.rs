@@ -1,8 +1,8 @@
 //! `ulpgauge eval` of a gated function: the correctly rounded y(a, b) at one pair.
 
-use super::eval::{parse_input, plain_decimal};
+use super::eval::{parse_input, plain_decimal, Rounded};
 use super::{format_pair, Failure, FunctionArgs};
-use crate::format::{hex, Class};
+use crate::format::hex;
 use crate::reference::PairEvaluator;
 use crate::report::{display_value, BitsValue};
 use rug::Float;
@@ -50,15 +50,14 @@ pub fn evaluate(function: &str, rest: &[String], opts: Options) -> Result<i32, F
         code: 1,
         message: e.to_string(),
     })?;
-    let out = reference.bits;
-    let finite_out = !matches!(format.classify(out), Class::Nan | Class::Infinite);
-    let below = finite_out.then(|| format.next_down(out));
-    let above = finite_out.then(|| format.next_up(out));
-    let ulp = reference.exact.map(|e| e.ulp(format));
-    let rounding_error = reference
-        .exact
-        .filter(|_| finite_out)
-        .map(|e| crate::format::ulp_error(format, out, &e));
+    let rounded = Rounded::of(format, &reference);
+    let Rounded {
+        out,
+        below,
+        above,
+        ulp,
+        rounding_error,
+    } = rounded;
     let exact = exact_digits(&evaluator, a.bits, b.bits);
     let name = evaluator.gated().name();
     if opts.json {
@@ -103,19 +102,7 @@ pub fn evaluate(function: &str, rest: &[String], opts: Options) -> Result<i32, F
             None => sayln!("  {label}          {}", show(input.bits)),
         }
     }
-    if let Some(digits) = &exact {
-        sayln!("  exact      {digits}");
-    }
-    sayln!("  rounded    {}", show(out));
-    if let (Some(lo), Some(hi)) = (below, above) {
-        sayln!("  neighbours {}  |  {}", show(lo), show(hi));
-    }
-    if let Some(u) = ulp {
-        sayln!("  ulp        {u:e}");
-    }
-    if let Some(e) = rounding_error {
-        sayln!("  |RN(y)-y|  {e:.6} ulp");
-    }
+    rounded.say(exact.as_deref(), &show);
     Ok(0)
 }
 
