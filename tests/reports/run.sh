@@ -37,6 +37,10 @@ run check --manifest kernels-under-test/lumen-edge-faulty.toml --timeout 1 "${qu
   --json "$out/lumen-edge-faulty.json" --html "$out/lumen-edge-faulty.html" --junit "$out/lumen-edge-faulty.xml"
 run check --lib kernels-under-test/build/liblumen_edge.so --symbol lumen_elu_f16 --function elu --format f16 \
   "${quiet[@]}" --json "$out/elu-f16.json" --html "$out/elu-f16.html" --junit "$out/elu-f16.xml"
+run check --manifest kernels-under-test/lumen-edge-mixed.toml "${quiet[@]}" \
+  --json "$out/lumen-edge-mixed.json" --html "$out/lumen-edge-mixed.html" --junit "$out/lumen-edge-mixed.xml"
+run check --manifest kernels-under-test/lumen-edge-strided.toml "${quiet[@]}" \
+  --json "$out/lumen-edge-strided.json" --html "$out/lumen-edge-strided.html" --junit "$out/lumen-edge-strided.xml"
 run certify --spec kernels-under-test/specs/sigmoid-f16.toml --quiet --no-progress \
   --json "$out/certificate.json" --html "$out/certificate.html" --junit "$out/certificate.xml"
 run check --manifest "$m" --sweep dense,edge --per-binade 8 "${quiet[@]}" --json "$out/candidate.json"
@@ -53,6 +57,8 @@ python3 tests/reports/check_pages.py "$out/screenshots" \
   "check:$out/lumen-edge.html:$out/lumen-edge.json" \
   "check:$out/lumen-edge-faulty.html:$out/lumen-edge-faulty.json" \
   "check:$out/elu-f16.html:$out/elu-f16.json" \
+  "check:$out/lumen-edge-mixed.html:$out/lumen-edge-mixed.json" \
+  "check:$out/lumen-edge-strided.html:$out/lumen-edge-strided.json" \
   "certify:$out/certificate.html:$out/certificate.json" \
   "compare:$out/compare.html:$out/compare.json" \
   "matrix:$out/matrix.html:$out/matrix.json" \
@@ -61,6 +67,8 @@ python3 tests/reports/check_junit.py \
   "check:$out/lumen-edge.xml:$out/lumen-edge.json" \
   "check:$out/lumen-edge-faulty.xml:$out/lumen-edge-faulty.json" \
   "check:$out/elu-f16.xml:$out/elu-f16.json" \
+  "check:$out/lumen-edge-mixed.xml:$out/lumen-edge-mixed.json" \
+  "check:$out/lumen-edge-strided.xml:$out/lumen-edge-strided.json" \
   "certify:$out/certificate.xml:$out/certificate.json" \
   "compare:$out/compare.xml:$out/compare.json" \
   "matrix:$out/matrix.xml:$out/matrix.json"

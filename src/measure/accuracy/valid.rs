@@ -241,7 +241,9 @@ impl Samples {
         );
         match self {
             Samples::All(list) => {
-                ensure(list.len() as u64 == points, "All", || {
+                // One per point, or one per ordinal when a small span kept its samples densely
+                // (−0 and +0 share an ordinal): never more than the points.
+                ensure(list.len() as u64 <= points, "All", || {
                     format!("{} samples of {points} points", list.len())
                 })?;
                 for (i, (ordinal, e, at)) in list.iter().enumerate() {
