@@ -8,7 +8,7 @@
 //! same binade.  [`above`] and [`below`] return a [`Value::Near`] whose offset carries only that
 //! sign, which keeps MPFR's exponent range out of reach (e^−(3.4e38) would underflow it).
 
-use super::{Limit, Value};
+use super::{Activation, Ctx, Limit, Role, Value};
 use crate::reference::Ival;
 use rug::{Float, Rational};
 
@@ -23,6 +23,15 @@ pub fn in_tail(x: &Float) -> bool {
 /// x as an exact rational (x is finite).
 pub fn rational(x: &Float) -> Rational {
     x.to_rational().expect("finite input")
+}
+
+/// `eval` of a function that is rational at every finite input: its
+/// [`Activation::eval_rational`] at x, as an exact value.
+pub fn exact_from_rational(f: &dyn Activation, x: &Float, role: Role, ctx: &Ctx) -> Value {
+    Value::Exact(
+        f.eval_rational(&rational(x), role, ctx)
+            .expect("rational at every finite input"),
+    )
 }
 
 /// The exact point x.

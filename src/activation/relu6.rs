@@ -47,10 +47,7 @@ impl Activation for Relu6 {
         }
     }
     fn eval(&self, x: &Float, role: Role, ctx: &Ctx) -> Value {
-        Value::Exact(
-            self.eval_rational(&common::rational(x), role, ctx)
-                .expect("rational"),
-        )
+        common::exact_from_rational(self, x, role, ctx)
     }
     fn eval_rational(&self, x: &Rational, role: Role, _ctx: &Ctx) -> Option<Rational> {
         Some(match role {
