@@ -107,6 +107,21 @@ fn int8_table_sigmoid_lists_every_off_by_one_code() {
     assert_eq!(acc["worst"]["q"], -45);
     assert!((acc["max_steps"].as_f64().unwrap() - 1.49698).abs() < 1e-5);
     assert_eq!(acc["rounding"]["rule"], "toward-zero");
+    // An output one step above RN(t) is t's other neighbouring code only when RN(t) is the
+    // code below t; the rest lie beyond both neighbours, which no rounding rule produces.
+    let beyond = (-128..0)
+        .filter(|&q| {
+            let t = 256.0 / (1.0 + (-(q as f64) / 16.0).exp()) - 128.0;
+            f64::from(sigmoid_i8_expected(q)) > t
+        })
+        .count();
+    assert_eq!(acc["rounding"]["other_neighbour"], 128 - beyond as u64);
+    assert!(
+        terminal.contains(&format!(
+            "off by one step: 128 ({beyond} of them beyond t's two neighbouring codes)"
+        )),
+        "{terminal}"
+    );
     assert_eq!(r["verdict"]["passed"], false);
     // The terminal fits one screen and shows the entries with input, output and expected code.
     assert!(terminal.lines().count() <= 24, "{terminal}");

@@ -81,7 +81,12 @@ fn worker_bounds_are_checks_own_and_refused_before_any_build() {
         (
             "--timeout",
             "1e18",
-            "--timeout must be a number of seconds above 0 and at most 86400",
+            "--timeout must be a number of seconds above 0 and at most 86400, got 1e18",
+        ),
+        (
+            "--timeout",
+            "1e300",
+            "--timeout must be a number of seconds above 0 and at most 86400, got 1e300",
         ),
         (
             "--timeout",

@@ -253,6 +253,11 @@ fn a_correct_strided_kernel_passes_and_measures_like_its_contiguous_twin() {
         assert_eq!(s[key], t[key], "{key}");
     }
     assert_eq!(s["verdict"]["exit_code"], t["verdict"]["exit_code"]);
+    // The kernel section says how the strided kernel was called; a contiguous one carries
+    // neither key.
+    assert_eq!(s["kernel"]["signature"], "strided");
+    assert_eq!(s["kernel"]["strides"], serde_json::json!([-2, 3]));
+    assert!(t["kernel"].get("signature").is_none() && t["kernel"].get("strides").is_none());
 }
 
 #[test]
@@ -363,6 +368,7 @@ fn the_demo_manifest_finds_the_off_by_one_and_passes_the_pointer_walk() {
         .as_str()
         .unwrap()
         .contains("called with strides (2,-3)"));
+    assert_eq!(kernels[0]["kernel"]["strides"], serde_json::json!([2, -3]));
     assert_eq!(
         failed(&kernels[1]),
         [

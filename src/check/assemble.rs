@@ -141,6 +141,8 @@ pub(super) fn report(
             library: config.library.as_ref().map(|p| p.display().to_string()),
             symbol: config.symbol.clone(),
             ns_per_element,
+            signature: None,
+            strides: None,
         },
         sweep: sweep_info,
         accuracy: AccuracySection {

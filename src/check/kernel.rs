@@ -38,6 +38,11 @@ pub trait KernelUnderTest: Send {
     fn hygiene(&mut self, sample: &[u32], second: Option<&[u32]>) -> Vec<HygieneEntry>;
     /// Throughput on a sample, in nanoseconds per element.
     fn ns_per_element(&mut self, sample: &[u32], second: Option<&[u32]>) -> Option<f64>;
+    /// The element strides `(sx, sy)` a strided kernel is called with; `None` for contiguous
+    /// arrays.
+    fn strides(&self) -> Option<(i32, i32)> {
+        None
+    }
 }
 
 /// A kernel that is a Rust closure of (first, second) → output, where `None` stands for a

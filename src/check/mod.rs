@@ -249,7 +249,8 @@ pub fn run_check_into(
     if std::env::var_os("ULPGAUGE_PIPELINE_STATS").is_some() {
         eprint!("{}", probe::stats::report());
     }
-    assemble::report(
+    let strides = prober.kernel().strides();
+    let mut report = assemble::report(
         config,
         &setup,
         gathered,
@@ -258,7 +259,12 @@ pub fn run_check_into(
         ns_per_element,
         neighbourhoods,
         sink,
-    )
+    )?;
+    if let Some((sx, sy)) = strides {
+        report.kernel.signature = Some("strided");
+        report.kernel.strides = Some([sx, sy]);
+    }
+    Ok(report)
 }
 
 /// Inputs on each side of a threshold or kink in the report's `neighbourhoods`.

@@ -37,4 +37,10 @@ impl KernelUnderTest for RunnerKernel {
     fn ns_per_element(&mut self, sample: &[u32], second: Option<&[u32]>) -> Option<f64> {
         self.0.ns_per_element(sample, second)
     }
+    fn strides(&self) -> Option<(i32, i32)> {
+        match self.0.spec().signature {
+            crate::kernel::Signature::Contiguous => None,
+            crate::kernel::Signature::Strided { sx, sy } => Some((sx, sy)),
+        }
+    }
 }

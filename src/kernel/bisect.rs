@@ -64,10 +64,21 @@ pub fn batch_timeout(seconds: f64, what: &str) -> Result<Duration, String> {
     if !(seconds.is_finite() && seconds > 0.0 && seconds <= MAX_FAULT_TIME_LIMIT) {
         return Err(format!(
             "{what} must be a number of seconds above 0 and at most {MAX_FAULT_TIME_LIMIT}, \
-             got {seconds}"
+             got {}",
+            short_number(seconds)
         ));
     }
     Ok(Duration::from_secs_f64(seconds))
+}
+
+/// A number as a one-line error shows it: plain when it is moderate, in exponent form otherwise
+/// (so that `1e300` is not printed with its 301 digits).
+fn short_number(x: f64) -> String {
+    if x.is_finite() && x != 0.0 && !(1e-4..1e9).contains(&x.abs()) {
+        format!("{x:e}")
+    } else {
+        format!("{x}")
+    }
 }
 
 /// Inputs pinned alone in a fresh worker that are remembered (and not called again).

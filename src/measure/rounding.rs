@@ -98,7 +98,7 @@ impl RoundingCounts {
                 _ => "",
             };
             format!(
-                "the outputs look {looks}: {share:.1}% of the points were {how} ({count} of the {} points one step off the correctly rounded value{same})",
+                "the outputs look {looks}: {share:.1}% of the points were {how} ({count} of the {} points whose output is the exact value's other neighbour{same})",
                 self.other_neighbour
             )
         });

@@ -162,8 +162,15 @@ impl QuantReport {
             round6(m.max_steps),
             round6(m.mean_steps)
         ));
+        // A code one step from RN(t) on t's own side is no rounding of t, so the diagnosis
+        // below counts fewer points than "off by one" when such codes exist.
+        let beyond = u64::from(m.off_by_one).saturating_sub(m.rounding.counts.other_neighbour);
+        let beyond_text = match beyond {
+            0 => String::new(),
+            n => format!(" ({n} of them beyond t's two neighbouring codes)"),
+        };
         line(format!(
-            "  off by one step: {}, by two: {}, by more: {}; exact ties: {}, outputs that round ties away instead: {}",
+            "  off by one step: {}{beyond_text}, by two: {}, by more: {}; exact ties: {}, outputs that round ties away instead: {}",
             m.off_by_one, m.off_by_two, m.off_by_more, m.ties, m.ties_away_only
         ));
         if let Some(message) = &m.rounding.message {

@@ -81,6 +81,12 @@ pub struct KernelInfo {
     pub symbol: Option<String>,
     /// Throughput, nanoseconds per element.
     pub ns_per_element: Option<f64>,
+    /// `"strided"` for a kernel of the strided signature (absent for contiguous arrays).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub signature: Option<&'static str>,
+    /// The element strides `[sx, sy]` the sweep called a strided kernel with.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub strides: Option<[i32; 2]>,
 }
 
 /// Inputs left out because their reference could not be decided (an engine limit).

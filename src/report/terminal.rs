@@ -116,11 +116,17 @@ fn summary(out: &mut String, r: &CheckReport) -> std::fmt::Result {
                 .collect();
             format!("recorded outputs {}", outputs.join(", "))
         }
-        None => r
-            .kernel
-            .symbol
-            .clone()
-            .unwrap_or_else(|| "in-process kernel".into()),
+        None => {
+            let symbol = r
+                .kernel
+                .symbol
+                .clone()
+                .unwrap_or_else(|| "in-process kernel".into());
+            match r.kernel.strides {
+                Some([sx, sy]) => format!("{symbol} (strided, strides {sx},{sy})"),
+                None => symbol,
+            }
+        }
     };
     let coverage = match r.accuracy.coverage {
         crate::sweep::Coverage::Exhaustive => "exhaustive",

@@ -305,7 +305,7 @@ pub fn section(out: &mut String, k: &KernelInput, i: usize) -> FmtResult {
     } else if rounding["other_neighbour"].as_u64().unwrap_or(0) > 0 {
         writeln!(
             out,
-            r#"<p class="rounding">Rounding diagnosis: of the {} points one step off the correctly rounded value, {} were rounded toward zero, {} up, {} down, {} were ties rounded away from zero; no rule explains almost all of them.</p>"#,
+            r#"<p class="rounding">Rounding diagnosis: of the {} points whose output is the exact value's other neighbour, {} were rounded toward zero, {} up, {} down, {} were ties rounded away from zero; no rule explains almost all of them.</p>"#,
             rounding["other_neighbour"],
             rounding["toward_zero"],
             rounding["up"],
@@ -385,6 +385,15 @@ fn card(
         (
             "library",
             format!("<code>{}</code>", esc(&text(&r["kernel"]["library"]))),
+        ),
+        (
+            "signature",
+            match r["kernel"]["strides"].as_array() {
+                Some(s) if s.len() == 2 => {
+                    format!("strided, element strides sx = {}, sy = {}", s[0], s[1])
+                }
+                _ => "contiguous".into(),
+            },
         ),
         (
             "library sha256",
