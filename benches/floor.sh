@@ -7,6 +7,7 @@
 #                    [--range LO,HI] [--param NAME=VALUE]... [--param-passing baked|trailing]
 #                    [--threads N] [--reference auto|mpfr]
 #   benches/floor.sh --libm FUNC [ROLE]     # the plain libm kernels of benches/floor/libm_kernels.c
+#                                           # (all twenty one-input functions, both roles)
 #   benches/floor.sh --demo FUNC            # the Lumen demo kernels (kernels-under-test)
 #
 # --range LO,HI (LO included, HI excluded) restricts both to one range, e.g. --range 1,2 for a
@@ -19,7 +20,7 @@ root="$(cd "$(dirname "$0")/.." && pwd)"
 work="${FLOOR_DIR:-$root/target/floor}"
 mkdir -p "$work"
 lib="" symbol="" function="" role="forward" range="" threads=2 passing="baked" reference="auto"
-params=()
+params=() extra=()
 die() { echo "floor.sh: $*" >&2; exit 2; }
 while [ $# -gt 0 ]; do
   case "$1" in
@@ -37,7 +38,9 @@ while [ $# -gt 0 ]; do
       if [ $# -gt 0 ] && [[ "$1" != --* ]]; then role="$1"; shift; fi
       lib="$work/libfloor_libm.so"
       suffix=""; [ "$role" = derivative ] && suffix="_deriv"
-      symbol="floor_${function//-/_}${suffix}_f32" ;;
+      symbol="floor_${function//-/_}${suffix}_f32"
+      # The libm SELU holds the binary32 roundings of lambda and alpha.
+      [ "$function" = selu ] && extra+=(--param-rounding f32) ;;
     --demo)
       function="$2"; shift 2
       lib="$work/demo/liblumen_edge.so"
@@ -63,7 +66,8 @@ ulpgauge="$root/target/release/ulpgauge"
 
 loop_args=("$lib" "$symbol" "$threads")
 check_args=(check --lib "$lib" --symbol "$symbol" --function "$function" --format f32
-            --role "$role" --sweep exhaustive --reference "$reference" --json "$work/check.json")
+            --role "$role" --sweep exhaustive --reference "$reference" --json "$work/check.json"
+            ${extra[@]+"${extra[@]}"})
 if [ -n "$range" ]; then
   lo="${range%,*}"; hi="${range#*,}"
   loop_args+=("$lo" "$hi")
