@@ -8,6 +8,7 @@ use crate::check::pairs::{regions, run_pairs, PairSweep, PairSweepId};
 use crate::check::{RunnerKernel, Shard};
 use crate::format::{hex, Format};
 use crate::kernel::{KernelRole, KernelSpec, ParamPassing, Runner};
+use crate::reference::PairEvaluator;
 use crate::report::display_value;
 use crate::report::pair_check::{PairCheck, PairCoverage, PairShardPart, LISTED_REGIONS};
 use crate::sweep::{InputRange, SweepKind};
@@ -18,6 +19,37 @@ const DEFAULT_RANDOM_PAIRS: u64 = 1 << 16;
 /// Runs `check` for a gated function.
 pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
     refuse_unsupported(args, function)?;
+    for path in [&args.json, &args.plot].into_iter().flatten() {
+        crate::report::check_writable(path).map_err(Failure::bad_input)?;
+    }
+    let plan = configure(args, function)?;
+    let report = measure(&plan, args)?;
+    let (code, reasons) = report.verdict();
+    if let Some(path) = &args.json {
+        let text = serde_json::to_string_pretty(&report.json(code, &reasons)).expect("json");
+        crate::report::write_atomic(path, &(text + "\n")).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.plot {
+        let svg =
+            crate::report::pair_heatmap::render(&report.acc, report.format, &report.plot_title());
+        crate::report::write_atomic(path, &svg).map_err(Failure::bad_input)?;
+    }
+    if !args.quiet {
+        terminal(&report, code, &reasons);
+    }
+    Ok(code)
+}
+
+/// A configured pair check: every option checked, nothing run yet.
+pub struct Plan {
+    evaluator: PairEvaluator,
+    sweep: PairSweep,
+    a_total: u64,
+    spec: KernelSpec,
+}
+
+/// Checks the options of a pair check (bad input before any kernel runs).
+pub fn configure(args: &Args, function: &str) -> Result<Plan, Failure> {
     let role = match args.role {
         RoleArg::Forward => GatedRole::Forward,
         RoleArg::DerivativeA => GatedRole::DerivativeA,
@@ -44,9 +76,6 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         .symbol
         .clone()
         .ok_or_else(|| Failure::bad_input("--symbol is required with --lib"))?;
-    for path in [&args.json, &args.plot].into_iter().flatten() {
-        crate::report::check_writable(path).map_err(Failure::bad_input)?;
-    }
     // The pair ABI (a, b, y, n) is the two-array shape gradient kernels use (x, g, dx, n).
     let spec = KernelSpec {
         library,
@@ -61,14 +90,33 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         thread_safe: !args.not_thread_safe,
         signature: crate::kernel::Signature::Contiguous,
     };
-    let runner = Runner::start(&spec, runner_options(args)?).map_err(Failure::bad_input)?;
+    runner_options(args)?;
+    Ok(Plan {
+        evaluator,
+        sweep,
+        a_total,
+        spec,
+    })
+}
+
+/// Runs a configured pair check.
+pub fn measure(plan: &Plan, args: &Args) -> Result<PairCheck, Failure> {
+    let Plan {
+        evaluator,
+        sweep,
+        a_total,
+        spec,
+    } = plan;
+    let (evaluator, sweep, a_total, format) = (evaluator, sweep, *a_total, evaluator.format());
+    let function = evaluator.gated().name();
+    let runner = Runner::start(spec, runner_options(args)?).map_err(Failure::bad_input)?;
     let mut kernel = RunnerKernel(runner);
     let total = sweep.count(format);
     let started = std::time::Instant::now();
     let show_progress = !args.quiet && !args.no_progress;
     let mut done = 0u64;
     let mut last = std::time::Instant::now();
-    let outcome = run_pairs(&mut kernel, &evaluator, &sweep, |n| {
+    let outcome = run_pairs(&mut kernel, evaluator, sweep, |n| {
         done += n;
         if show_progress && last.elapsed().as_secs_f64() > 2.0 {
             last = std::time::Instant::now();
@@ -94,7 +142,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         .map(Shard::parse)
         .transpose()
         .map_err(Failure::bad_input)?;
-    let part = match (&sweep, shard) {
+    let part = match (sweep, shard) {
         (PairSweep::Exhaustive { a }, Some(shard)) => Some(PairShardPart {
             shard,
             sweep: PairSweepId {
@@ -115,7 +163,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         format,
         library: spec.library.display().to_string(),
         symbol: spec.symbol.clone(),
-        coverage: coverage_of(&sweep),
+        coverage: coverage_of(sweep),
         part,
         acc: outcome.acc,
         crashes: outcome.crashes,
@@ -123,19 +171,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         allow_non_finite: args.allow_non_finite,
         seconds,
     };
-    let (code, reasons) = report.verdict();
-    if let Some(path) = &args.json {
-        let text = serde_json::to_string_pretty(&report.json(code, &reasons)).expect("json");
-        crate::report::write_atomic(path, &(text + "\n")).map_err(Failure::bad_input)?;
-    }
-    if let Some(path) = &args.plot {
-        let svg = crate::report::pair_heatmap::render(&report.acc, format, &report.plot_title());
-        crate::report::write_atomic(path, &svg).map_err(Failure::bad_input)?;
-    }
-    if !args.quiet {
-        terminal(&report, code, &reasons);
-    }
-    Ok(code)
+    Ok(report)
 }
 
 /// Options of a one-input check that a pair check does not take yet: one line each.
