@@ -105,7 +105,7 @@ fn shards_add_up_to_the_whole_range() {
 fn bad_pair_options_are_exit_2_naming_the_option() {
     for (args, needle) in [
         (&["--role", "derivative"][..], "derivative-a"),
-        (&["--html", "/tmp/x.html"][..], "--html"),
+        (&["--csv", "/tmp/x.csv"][..], "--csv"),
         (&["--sweep", "exhaustive,random"][..], "no other sweep kind"),
         (&["--role", "gradient"][..], "two inputs"),
     ] {

@@ -7,7 +7,7 @@ use super::check::{check_specs, Args, RoleArg};
 use super::check_pairs;
 use super::Failure;
 use crate::kernel::{EntryExtras, KernelSpec, PairEntry};
-use crate::report::{check_writable, write_atomic};
+use crate::report::{check_writable, html, write_atomic};
 use crate::sweep::SweepKind;
 use clap::ValueEnum;
 use std::path::Path;
@@ -31,19 +31,18 @@ pub fn run(
         ),
         (args.csv.is_some(), "--csv"),
         (args.findings.is_some(), "--findings"),
-        (args.html.is_some(), "--html"),
         (args.junit.is_some(), "--junit"),
         (args.plot.is_some(), "--plot"),
     ];
     if let Some((_, what)) = unsupported.iter().find(|(given, _)| *given) {
         return Err(Failure::bad_input(format!(
-            "manifest {}: {what} is not available with two-input entries ({}) yet (such a manifest takes --json, --shard, --max-ulp, --allow-non-finite and the sweep options)",
+            "manifest {}: {what} is not available with two-input entries ({}) yet (such a manifest takes --json, --html, --shard, --max-ulp, --allow-non-finite and the sweep options)",
             path.display(),
             pairs[0].function
         )));
     }
-    if let Some(json) = &args.json {
-        check_writable(json).map_err(Failure::bad_input)?;
+    for path in [&args.json, &args.html].into_iter().flatten() {
+        check_writable(path).map_err(Failure::bad_input)?;
     }
     let terminal = !args.quiet && !args.json.as_deref().is_some_and(crate::report::is_stdout);
     let mut plans = Vec::new();
@@ -68,6 +67,7 @@ pub fn run(
         .cloned()
         .unwrap_or_default();
     let mut codes: Vec<i32> = reports.iter().map(|r| r.verdict.exit_code).collect();
+    let mut checks = Vec::new();
     for (entry_args, plan) in &plans {
         let check = check_pairs::measure(plan, entry_args)?;
         let (code, reasons) = check.verdict();
@@ -76,6 +76,21 @@ pub fn run(
         }
         kernels.push(check.json(code, &reasons));
         codes.push(code);
+        checks.push(check);
+    }
+    if let Some(path) = &args.html {
+        let inputs = reports
+            .iter()
+            .map(html::KernelInput::of)
+            .collect::<Result<Vec<_>, String>>()
+            .map_err(|message| Failure { code: 1, message })?;
+        let pairs: Vec<_> = checks.iter().collect();
+        let page =
+            html::check_page_with_pairs(&inputs, &pairs, true).map_err(|message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            })?;
+        write_atomic(path, &page).map_err(Failure::bad_input)?;
     }
     if let Some(json) = &args.json {
         let value = serde_json::json!({

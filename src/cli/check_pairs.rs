@@ -19,7 +19,7 @@ const DEFAULT_RANDOM_PAIRS: u64 = 1 << 16;
 /// Runs `check` for a gated function.
 pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
     refuse_unsupported(args, function)?;
-    for path in [&args.json, &args.plot].into_iter().flatten() {
+    for path in [&args.json, &args.plot, &args.html].into_iter().flatten() {
         crate::report::check_writable(path).map_err(Failure::bad_input)?;
     }
     let plan = configure(args, function)?;
@@ -33,6 +33,15 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         let svg =
             crate::report::pair_heatmap::render(&report.acc, report.format, &report.plot_title());
         crate::report::write_atomic(path, &svg).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.html {
+        let page = crate::report::html::check_page_with_pairs(&[], &[&report], false).map_err(
+            |message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            },
+        )?;
+        crate::report::write_atomic(path, &page).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
         terminal(&report, code, &reasons);
@@ -181,7 +190,6 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
         (args.manifest.is_some(), "--manifest"),
         (args.csv.is_some(), "--csv"),
         (args.findings.is_some(), "--findings"),
-        (args.html.is_some(), "--html"),
         (args.junit.is_some(), "--junit"),
         (args.caller_fpenv.is_some(), "--caller-fpenv"),
         (!args.cpu_mask.is_empty(), "--cpu-mask"),
@@ -190,7 +198,7 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
     ];
     match unsupported.iter().find(|(given, _)| *given) {
         Some((_, flag)) => Err(Failure::bad_input(format!(
-            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --max-ulp, --allow-non-finite)"
+            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --html, --max-ulp, --allow-non-finite)"
         ))),
         None => Ok(()),
     }

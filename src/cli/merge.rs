@@ -99,11 +99,6 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             "merge --plot draws the heat map of one pair check's shards (a gated kernel run without --manifest)",
         ));
     }
-    if args.html.is_some() && !pair_checks.is_empty() {
-        return Err(Failure::bad_input(
-            "merge --html does not draw pair checks (gated kernels) yet: use --json and --plot",
-        ));
-    }
     if let Some(path) = &args.json {
         let mut text = serde_json::to_string_pretty(&merged.value)
             .map_err(|e| Failure::bad_input(e.to_string()))?;
@@ -121,15 +116,19 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             .kernels
             .iter()
             .zip(&merged.plots)
-            .map(|(report, buckets)| html::KernelInput {
+            .zip(&merged.pair_checks)
+            .filter(|(_, pair)| pair.is_none())
+            .map(|((report, buckets), _)| html::KernelInput {
                 report: report.clone(),
                 buckets: buckets.clone(),
             })
             .collect();
-        let text = html::check_page(&inputs, merged.manifest).map_err(|message| Failure {
-            code: 1,
-            message: format!("html report: {message}"),
-        })?;
+        let text = html::check_page_with_pairs(&inputs, &pair_checks, merged.manifest).map_err(
+            |message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            },
+        )?;
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
