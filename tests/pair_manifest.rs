@@ -210,7 +210,7 @@ fn entry_keys_that_do_not_fit_are_refused_in_one_line() {
         ),
         (format!("{one}range = \"0,1\"\n"), "", "key `range`"),
         (format!("{one}role = \"derivative-a\"\n"), "", "two-input"),
-        (format!("{pair}range = \"0,1\"\n"), "--html", "--html"),
+        (format!("{pair}range = \"0,1\"\n"), "--csv", "--csv"),
         (
             format!("{pair}sweep = \"random\"\n"),
             "--shard",
@@ -226,9 +226,9 @@ fn entry_keys_that_do_not_fit_are_refused_in_one_line() {
             "--json",
             out.to_str().unwrap(),
         ];
-        let html = dir.join("out.html");
+        let csv_out = dir.join("out.csv");
         match extra {
-            "--html" => args.extend(["--html", html.to_str().unwrap()]),
+            "--csv" => args.extend(["--csv", csv_out.to_str().unwrap()]),
             "--shard" => args.extend(["--shard", "1/2"]),
             _ => {}
         }
@@ -237,7 +237,7 @@ fn entry_keys_that_do_not_fit_are_refused_in_one_line() {
         assert!(err.contains(needle), "{needle}: {err}");
         assert_eq!(err.trim().lines().count(), 1, "{err}");
         assert!(
-            !out.exists() && !html.exists(),
+            !out.exists() && !csv_out.exists(),
             "{needle}: a file was written"
         );
     }

@@ -31,17 +31,16 @@ pub fn run(
         ),
         (args.csv.is_some(), "--csv"),
         (args.findings.is_some(), "--findings"),
-        (args.junit.is_some(), "--junit"),
         (args.plot.is_some(), "--plot"),
     ];
     if let Some((_, what)) = unsupported.iter().find(|(given, _)| *given) {
         return Err(Failure::bad_input(format!(
-            "manifest {}: {what} is not available with two-input entries ({}) yet (such a manifest takes --json, --html, --shard, --max-ulp, --allow-non-finite and the sweep options)",
+            "manifest {}: {what} is not available with two-input entries ({}) yet (such a manifest takes --json, --html, --junit, --shard, --max-ulp, --allow-non-finite and the sweep options)",
             path.display(),
             pairs[0].function
         )));
     }
-    for path in [&args.json, &args.html].into_iter().flatten() {
+    for path in [&args.json, &args.html, &args.junit].into_iter().flatten() {
         check_writable(path).map_err(Failure::bad_input)?;
     }
     let terminal = !args.quiet && !args.json.as_deref().is_some_and(crate::report::is_stdout);
@@ -78,13 +77,17 @@ pub fn run(
         codes.push(code);
         checks.push(check);
     }
+    let pairs: Vec<_> = checks.iter().collect();
+    if let Some(path) = &args.junit {
+        let xml = crate::report::junit::check_with_pairs(&reports, &pairs);
+        write_atomic(path, &xml).map_err(Failure::bad_input)?;
+    }
     if let Some(path) = &args.html {
         let inputs = reports
             .iter()
             .map(html::KernelInput::of)
             .collect::<Result<Vec<_>, String>>()
             .map_err(|message| Failure { code: 1, message })?;
-        let pairs: Vec<_> = checks.iter().collect();
         let page =
             html::check_page_with_pairs(&inputs, &pairs, true).map_err(|message| Failure {
                 code: 1,

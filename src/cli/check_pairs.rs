@@ -19,7 +19,10 @@ const DEFAULT_RANDOM_PAIRS: u64 = 1 << 16;
 /// Runs `check` for a gated function.
 pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
     refuse_unsupported(args, function)?;
-    for path in [&args.json, &args.plot, &args.html].into_iter().flatten() {
+    for path in [&args.json, &args.plot, &args.html, &args.junit, &args.csv]
+        .into_iter()
+        .flatten()
+    {
         crate::report::check_writable(path).map_err(Failure::bad_input)?;
     }
     let plan = configure(args, function)?;
@@ -42,6 +45,17 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
             },
         )?;
         crate::report::write_atomic(path, &page).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.csv {
+        let text = report.csv().map_err(|message| Failure {
+            code: 1,
+            message: format!("csv report: {message}"),
+        })?;
+        crate::report::write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.junit {
+        let xml = crate::report::junit::check_with_pairs(&[], &[&report]);
+        crate::report::write_atomic(path, &xml).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
         terminal(&report, code, &reasons);
@@ -188,9 +202,7 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
     let unsupported = [
         (args.inputs.is_some(), "--inputs"),
         (args.manifest.is_some(), "--manifest"),
-        (args.csv.is_some(), "--csv"),
         (args.findings.is_some(), "--findings"),
-        (args.junit.is_some(), "--junit"),
         (args.caller_fpenv.is_some(), "--caller-fpenv"),
         (!args.cpu_mask.is_empty(), "--cpu-mask"),
         (args.builtin_kernel.is_some(), "--builtin-kernel"),
@@ -198,7 +210,7 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
     ];
     match unsupported.iter().find(|(given, _)| *given) {
         Some((_, flag)) => Err(Failure::bad_input(format!(
-            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --html, --max-ulp, --allow-non-finite)"
+            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --html, --junit, --csv, --max-ulp, --allow-non-finite)"
         ))),
         None => Ok(()),
     }

@@ -242,3 +242,46 @@ impl PairCheck {
         report
     }
 }
+
+impl PairCheck {
+    /// The CSV of the cell grid: one row per (cell of a, cell of b) that compared a pair or
+    /// holds a spurious non-finite output (at most the format's axis², whatever the pairs).
+    pub fn csv(&self) -> Result<String, String> {
+        let f = self.format;
+        let n = self.acc.axis();
+        let mut w = csv::Writer::from_writer(Vec::new());
+        let row = |w: &mut csv::Writer<Vec<u8>>, fields: &[String]| {
+            w.write_record(fields).map_err(|e| e.to_string())
+        };
+        row(
+            &mut w,
+            &["a_cell", "b_cell", "max_ulp", "spurious_non_finite"].map(String::from),
+        )?;
+        for i in 0..n {
+            for j in 0..n {
+                let (max, spurious) = (
+                    self.acc.cell_max[i * n + j],
+                    self.acc.cell_spurious[i * n + j],
+                );
+                if max < 0.0 && spurious == 0 {
+                    continue;
+                }
+                row(
+                    &mut w,
+                    &[
+                        cells::label(f, i),
+                        cells::label(f, j),
+                        if max < 0.0 {
+                            String::new()
+                        } else {
+                            format!("{max}")
+                        },
+                        spurious.to_string(),
+                    ],
+                )?;
+            }
+        }
+        let bytes = w.into_inner().map_err(|e| e.to_string())?;
+        String::from_utf8(bytes).map_err(|e| e.to_string())
+    }
+}

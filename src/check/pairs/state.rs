@@ -101,18 +101,17 @@ impl PairShardState {
         let cell_top = acc.cell_max.iter().copied().fold(-1.0f32, f32::max);
         match &acc.worst {
             None if cell_top >= 0.0 || acc.compared > 0 => return fail("acc.worst (missing)"),
-            Some(w)
-                if !(w.ulp.is_finite() && w.ulp >= 0.0)
-                    || !in_format(w.a)
-                    || !in_format(w.b)
-                    || !in_format(w.output)
-                    || !in_format(w.reference)
-                    || w.ulp as f32 != cell_top
-                    || acc.compared == 0 =>
-            {
-                return fail("acc.worst")
+            Some(w) => {
+                let sound = w.ulp.is_finite()
+                    && w.ulp >= 0.0
+                    && [w.a, w.b, w.output, w.reference].into_iter().all(in_format)
+                    && w.ulp as f32 == cell_top
+                    && acc.compared > 0;
+                if !sound {
+                    return fail("acc.worst");
+                }
             }
-            _ => {}
+            None => {}
         }
         if self.crashes.len() > MAX_CRASHES
             || self.crashes.len() as u64 > acc.crashed
