@@ -21,7 +21,7 @@ build lumen_faulty "$src/lumen_faulty.c"
 build lumen_fastmath "$src/lumen_fastmath.c"
 build lumen_env "$src/lumen_env.c"
 build lumen_strided "$src/lumen_strided.c"
-build lumen_gated "$src/lumen_swiglu_f16.c"
+build lumen_gated "$src/lumen_swiglu_f16.c" "$src/lumen_swiglu_wide.c"
 build lumen_quant "$src/lumen_quant.c"
 if command -v cargo >/dev/null 2>&1; then
   cargo build --quiet --release --offline --manifest-path "$here/rust-kernel/Cargo.toml" \

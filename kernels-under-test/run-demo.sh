@@ -57,9 +57,8 @@ echo "== The dispatching SiLU with FMA hidden from glibc, then shown (--cpu-mask
 run check --lib kernels-under-test/build/liblumen_env.so --symbol lumen_silu_f32 --function silu \
   --format f32 --cpu-mask=-FMA --cpu-mask=+FMA --json reports/silu-f32-cpu-mask.json
 echo
-echo "== The binary16 SwiGLU that overflows in its product, every b for a in [-20, -19) (gated, two inputs)"
-run check --lib kernels-under-test/build/liblumen_gated.so --symbol lumen_swiglu_f16 --function swiglu \
-  --format f16 --range=-20,-19 --json reports/lumen-swiglu-f16.json
+echo "== Gated SwiGLU kernels over pairs (a, b): the binary16 one overflows in its product (kernels-under-test/lumen-edge-gated.toml)"
+run check --manifest kernels-under-test/lumen-edge-gated.toml --json reports/lumen-edge-gated.json
 echo
 echo "== The 8-bit path: OCP FP8 kernels, exhaustively, and a bfloat16 cast that truncates"
 run check --manifest kernels-under-test/lumen-edge-8bit.toml \

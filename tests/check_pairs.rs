@@ -105,7 +105,7 @@ fn shards_add_up_to_the_whole_range() {
 fn bad_pair_options_are_exit_2_naming_the_option() {
     for (args, needle) in [
         (&["--role", "derivative"][..], "derivative-a"),
-        (&["--html", "/tmp/x.html"][..], "--html"),
+        (&["--findings", "/tmp/x.csv"][..], "--findings"),
         (&["--sweep", "exhaustive,random"][..], "no other sweep kind"),
         (&["--role", "gradient"][..], "two inputs"),
     ] {
@@ -140,4 +140,53 @@ fn the_heat_map_marks_the_overflow_cells() {
     assert!(marked
         .iter()
         .any(|l| l.contains("b -[2^15, 2^16) .. -[2^11, 2^12)")));
+}
+
+#[test]
+fn csv_and_junit_agree_with_the_json_report() {
+    let dir = PathBuf::from(env!("CARGO_TARGET_TMPDIR")).join("check-pairs");
+    std::fs::create_dir_all(&dir).unwrap();
+    let (csv, xml) = (dir.join("swiglu.csv"), dir.join("swiglu.xml"));
+    let _ = std::fs::remove_file(&csv);
+    let _ = std::fs::remove_file(&xml);
+    let (code, report, err) = check(
+        &[
+            "--range=-20,-19.984375",
+            "--csv",
+            csv.to_str().unwrap(),
+            "--junit",
+            xml.to_str().unwrap(),
+        ],
+        "swiglu-csv.json",
+    );
+    assert_eq!(code, 1, "{err}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next(),
+        Some("a_cell,b_cell,max_ulp,spurious_non_finite")
+    );
+    let (mut spurious, mut max, mut rows) = (0u64, 0f64, 0);
+    for line in lines {
+        // The cell labels hold a comma, so they are quoted: the last two fields are numbers.
+        let mut fields = line.rsplitn(3, ',');
+        spurious += fields.next().unwrap().parse::<u64>().unwrap();
+        if let Ok(m) = fields.next().unwrap().parse::<f32>().map(f64::from) {
+            max = max.max(m);
+        }
+        assert!(
+            fields.next().unwrap().starts_with("\"-[2^4, 2^5)\""),
+            "{line}"
+        );
+        rows += 1;
+    }
+    assert_eq!(spurious, report["non_finite"]["spurious"]);
+    let json_max = report["accuracy"]["max_ulp"].as_f64().unwrap();
+    assert_eq!(max, json_max as f32 as f64);
+    // One row of a: at most every b cell of binary16 (66).
+    assert!(rows > 0 && rows <= 66, "{rows}");
+    let junit = std::fs::read_to_string(&xml).unwrap();
+    assert_eq!(junit.matches("<testcase ").count(), 1, "{junit}");
+    assert_eq!(junit.matches("<failure ").count(), 1, "{junit}");
+    assert!(junit.contains("failures=\"1\""), "{junit}");
 }

@@ -779,9 +779,48 @@ type Configured = (Box<dyn KernelUnderTest>, CheckConfig);
 /// Every kernel of a manifest, configured and started (bad input stops before any report).
 fn manifest_kernels(path: &std::path::Path, args: &Args) -> Result<Vec<Configured>, Failure> {
     let specs = load_manifest(path).map_err(Failure::bad_input)?;
+    kernels_of(path, &specs, args)
+}
+
+/// The one-input entries of a manifest that has two-input ones too: configured, started and
+/// checked; their terminal summary printed when `terminal`, their reports returned.
+pub(super) fn check_specs(
+    path: &std::path::Path,
+    specs: &[KernelSpec],
+    args: &Args,
+    terminal: bool,
+) -> Result<Vec<CheckReport>, Failure> {
+    let mut kernels = kernels_of(path, specs, args)?;
+    let mut findings = FindingsWriter::new(None, None).map_err(Failure::bad_input)?;
+    let mut reports = Vec::new();
+    for (kernel, config) in kernels.iter_mut() {
+        findings.begin(lead(config));
+        reports.push(
+            run_check_into(kernel.as_mut(), config, &mut findings)
+                .map_err(|message| Failure { code: 1, message })?,
+        );
+    }
+    findings.finish(&reports).map_err(Failure::bad_input)?;
+    if terminal && !reports.is_empty() {
+        say!(
+            "{}",
+            Terminal
+                .render(&reports, true)
+                .map_err(Failure::bad_input)?
+        );
+    }
+    Ok(reports)
+}
+
+/// Every kernel of a manifest's specs, configured and started.
+fn kernels_of(
+    path: &std::path::Path,
+    specs: &[KernelSpec],
+    args: &Args,
+) -> Result<Vec<Configured>, Failure> {
     let options = runner_options(args)?;
     let mut configs = Vec::new();
-    for spec in &specs {
+    for spec in specs {
         let target = KernelTarget::of_spec(spec);
         configs.push(build_config(&target, args).map_err(|f| {
             Failure::bad_input(format!(
@@ -897,6 +936,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             return Err(Failure::bad_input(
                 "--manifest replaces --lib, --symbol, --function and --format (or --input-format/--output-format)",
             ));
+        }
+        let (specs, pairs) =
+            crate::kernel::load_check_manifest(path).map_err(Failure::bad_input)?;
+        if !pairs.is_empty() {
+            return super::check_pair_manifest::run(path, &args, specs, pairs);
         }
         let outputs = Outputs::from_args(&args)?;
         if needs_several_runs(&args) || manifest_has_extras(path)? {

@@ -4,17 +4,14 @@
 use super::check::{runner_options, Args, RoleArg};
 use super::Failure;
 use crate::activation::GatedRole;
-use crate::check::pairs::{cells, regions, run_pairs, PairOutcome, PairSweep, Region};
+use crate::check::pairs::{regions, run_pairs, PairSweep, PairSweepId};
 use crate::check::{RunnerKernel, Shard};
 use crate::format::{hex, Format};
 use crate::kernel::{KernelRole, KernelSpec, ParamPassing, Runner};
 use crate::reference::PairEvaluator;
-use crate::report::{display_value, BitsValue};
+use crate::report::display_value;
+use crate::report::pair_check::{PairCheck, PairCoverage, PairShardPart, LISTED_REGIONS};
 use crate::sweep::{InputRange, SweepKind};
-use serde_json::json;
-
-/// Regions listed in a report (their count and pairs are exact whatever this is).
-const LISTED_REGIONS: usize = 6;
 
 /// Random pairs of a sampled sweep without `--points`.
 const DEFAULT_RANDOM_PAIRS: u64 = 1 << 16;
@@ -22,6 +19,60 @@ const DEFAULT_RANDOM_PAIRS: u64 = 1 << 16;
 /// Runs `check` for a gated function.
 pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
     refuse_unsupported(args, function)?;
+    for path in [&args.json, &args.plot, &args.html, &args.junit, &args.csv]
+        .into_iter()
+        .flatten()
+    {
+        crate::report::check_writable(path).map_err(Failure::bad_input)?;
+    }
+    let plan = configure(args, function)?;
+    let report = measure(&plan, args)?;
+    let (code, reasons) = report.verdict();
+    if let Some(path) = &args.json {
+        let text = serde_json::to_string_pretty(&report.json(code, &reasons)).expect("json");
+        crate::report::write_atomic(path, &(text + "\n")).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.plot {
+        let svg =
+            crate::report::pair_heatmap::render(&report.acc, report.format, &report.plot_title());
+        crate::report::write_atomic(path, &svg).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.html {
+        let page = crate::report::html::check_page_with_pairs(&[], &[&report], false).map_err(
+            |message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            },
+        )?;
+        crate::report::write_atomic(path, &page).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.csv {
+        let text = report.csv().map_err(|message| Failure {
+            code: 1,
+            message: format!("csv report: {message}"),
+        })?;
+        crate::report::write_atomic(path, &text).map_err(Failure::bad_input)?;
+    }
+    if let Some(path) = &args.junit {
+        let xml = crate::report::junit::check_with_pairs(&[], &[&report]);
+        crate::report::write_atomic(path, &xml).map_err(Failure::bad_input)?;
+    }
+    if !args.quiet {
+        terminal(&report, code, &reasons);
+    }
+    Ok(code)
+}
+
+/// A configured pair check: every option checked, nothing run yet.
+pub struct Plan {
+    evaluator: PairEvaluator,
+    sweep: PairSweep,
+    a_total: u64,
+    spec: KernelSpec,
+}
+
+/// Checks the options of a pair check (bad input before any kernel runs).
+pub fn configure(args: &Args, function: &str) -> Result<Plan, Failure> {
     let role = match args.role {
         RoleArg::Forward => GatedRole::Forward,
         RoleArg::DerivativeA => GatedRole::DerivativeA,
@@ -39,7 +90,7 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
     let evaluator = super::resolve_pair(function, &format_name, role, &args.function_args)?
         .expect("a gated function");
     let format = evaluator.format();
-    let sweep = pair_sweep(format, args)?;
+    let (sweep, a_total) = pair_sweep(format, args)?;
     let library = args
         .lib
         .clone()
@@ -48,9 +99,6 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         .symbol
         .clone()
         .ok_or_else(|| Failure::bad_input("--symbol is required with --lib"))?;
-    for path in [&args.json, &args.plot].into_iter().flatten() {
-        crate::report::check_writable(path).map_err(Failure::bad_input)?;
-    }
     // The pair ABI (a, b, y, n) is the two-array shape gradient kernels use (x, g, dx, n).
     let spec = KernelSpec {
         library,
@@ -65,14 +113,33 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         thread_safe: !args.not_thread_safe,
         signature: crate::kernel::Signature::Contiguous,
     };
-    let runner = Runner::start(&spec, runner_options(args)?).map_err(Failure::bad_input)?;
+    runner_options(args)?;
+    Ok(Plan {
+        evaluator,
+        sweep,
+        a_total,
+        spec,
+    })
+}
+
+/// Runs a configured pair check.
+pub fn measure(plan: &Plan, args: &Args) -> Result<PairCheck, Failure> {
+    let Plan {
+        evaluator,
+        sweep,
+        a_total,
+        spec,
+    } = plan;
+    let (evaluator, sweep, a_total, format) = (evaluator, sweep, *a_total, evaluator.format());
+    let function = evaluator.gated().name();
+    let runner = Runner::start(spec, runner_options(args)?).map_err(Failure::bad_input)?;
     let mut kernel = RunnerKernel(runner);
     let total = sweep.count(format);
     let started = std::time::Instant::now();
     let show_progress = !args.quiet && !args.no_progress;
     let mut done = 0u64;
     let mut last = std::time::Instant::now();
-    let outcome = run_pairs(&mut kernel, &evaluator, &sweep, |n| {
+    let outcome = run_pairs(&mut kernel, evaluator, sweep, |n| {
         done += n;
         if show_progress && last.elapsed().as_secs_f64() > 2.0 {
             last = std::time::Instant::now();
@@ -92,42 +159,42 @@ pub fn run(args: &Args, function: &str) -> Result<i32, Failure> {
         });
     }
     let seconds = started.elapsed().as_secs_f64();
-    let report = Report {
-        evaluator: &evaluator,
-        spec: &spec,
-        sweep: &sweep,
-        shard: args
-            .shard
-            .as_deref()
-            .map(Shard::parse)
-            .transpose()
-            .ok()
-            .flatten(),
-        outcome: &outcome,
+    let shard = args
+        .shard
+        .as_deref()
+        .map(Shard::parse)
+        .transpose()
+        .map_err(Failure::bad_input)?;
+    let part = match (sweep, shard) {
+        (PairSweep::Exhaustive { a }, Some(shard)) => Some(PairShardPart {
+            shard,
+            sweep: PairSweepId {
+                range: args.sweep_options.range.clone(),
+                a_total,
+                params: args.function_args.params.clone(),
+                param_rounding: format!("{:?}", args.function_args.param_rounding),
+            },
+            a_count: a.len() as u64,
+            a_first: a.first().copied(),
+            a_last: a.last().copied(),
+        }),
+        _ => None,
+    };
+    let report = PairCheck {
+        function: evaluator.gated().name().to_string(),
+        role: evaluator.role().name().to_string(),
+        format,
+        library: spec.library.display().to_string(),
+        symbol: spec.symbol.clone(),
+        coverage: coverage_of(sweep),
+        part,
+        acc: outcome.acc,
+        crashes: outcome.crashes,
         max_ulp: args.max_ulp,
         allow_non_finite: args.allow_non_finite,
         seconds,
     };
-    let (code, reasons) = report.verdict();
-    if let Some(path) = &args.json {
-        let text = serde_json::to_string_pretty(&report.json(code, &reasons)).expect("json");
-        crate::report::write_atomic(path, &(text + "\n")).map_err(Failure::bad_input)?;
-    }
-    if let Some(path) = &args.plot {
-        let title = format!(
-            "{} {} {}: max ulp per binade of a and b ({})",
-            evaluator.gated().name(),
-            evaluator.role().name(),
-            format.name(),
-            report.coverage()
-        );
-        let svg = crate::report::pair_heatmap::render(&outcome.acc, format, &title);
-        crate::report::write_atomic(path, &svg).map_err(Failure::bad_input)?;
-    }
-    if !args.quiet {
-        report.terminal(code, &reasons);
-    }
-    Ok(code)
+    Ok(report)
 }
 
 /// Options of a one-input check that a pair check does not take yet: one line each.
@@ -135,10 +202,7 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
     let unsupported = [
         (args.inputs.is_some(), "--inputs"),
         (args.manifest.is_some(), "--manifest"),
-        (args.csv.is_some(), "--csv"),
         (args.findings.is_some(), "--findings"),
-        (args.html.is_some(), "--html"),
-        (args.junit.is_some(), "--junit"),
         (args.caller_fpenv.is_some(), "--caller-fpenv"),
         (!args.cpu_mask.is_empty(), "--cpu-mask"),
         (args.builtin_kernel.is_some(), "--builtin-kernel"),
@@ -146,14 +210,34 @@ fn refuse_unsupported(args: &Args, function: &str) -> Result<(), Failure> {
     ];
     match unsupported.iter().find(|(given, _)| *given) {
         Some((_, flag)) => Err(Failure::bad_input(format!(
-            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --max-ulp, --allow-non-finite)"
+            "{flag} is not available for the two-input function {function} yet (check over pairs takes --lib, --symbol, --format, --role, --sweep, --range, --points, --per-binade, --seed, --shard, --json, --plot, --html, --junit, --csv, --max-ulp, --allow-non-finite)"
         ))),
         None => Ok(()),
     }
 }
 
-/// The pairs `--sweep`, `--range`, `--points`, `--per-binade`, `--seed` and `--shard` ask for.
-fn pair_sweep(format: &'static dyn Format, args: &Args) -> Result<PairSweep, Failure> {
+/// What a report says of a sweep's pairs.
+fn coverage_of(sweep: &PairSweep) -> PairCoverage {
+    match sweep {
+        PairSweep::Exhaustive { a } => PairCoverage::Exhaustive {
+            a_count: a.len() as u64,
+        },
+        PairSweep::Sampled {
+            per_cell,
+            edge,
+            random,
+            ..
+        } => PairCoverage::Sampled {
+            per_cell: *per_cell,
+            edge: *edge,
+            random: *random,
+        },
+    }
+}
+
+/// The pairs `--sweep`, `--range`, `--points`, `--per-binade`, `--seed` and `--shard` ask for,
+/// and the patterns of a in the whole exhaustive sweep (before `--shard` takes its part).
+fn pair_sweep(format: &'static dyn Format, args: &Args) -> Result<(PairSweep, u64), Failure> {
     let o = &args.sweep_options;
     let exhaustive = if o.sweep.is_empty() {
         format.width() <= 16
@@ -187,11 +271,12 @@ fn pair_sweep(format: &'static dyn Format, args: &Args) -> Result<PairSweep, Fai
                 .patterns(format),
             None => (0..format.pattern_count() as u32).collect(),
         };
+        let a_total = a.len() as u64;
         if let Some(s) = shard {
-            let (from, to) = s.bounds(a.len() as u64);
+            let (from, to) = s.bounds(a_total);
             a = a[from as usize..to as usize].to_vec();
         }
-        return Ok(PairSweep::Exhaustive { a });
+        return Ok((PairSweep::Exhaustive { a }, a_total));
     }
     if o.range.is_some() || shard.is_some() {
         return Err(Failure::bad_input(
@@ -213,219 +298,84 @@ fn pair_sweep(format: &'static dyn Format, args: &Args) -> Result<PairSweep, Fai
             "--points {random} is more than a sampled pair sweep takes (at most 2^30)"
         )));
     }
-    Ok(PairSweep::Sampled {
-        // --per-binade K (default 256) gives K/256 pairs per cell, at least one: binary32's
-        // grid already has 514 × 514 cells.
-        per_cell: if kinds.contains(&SweepKind::Dense) {
-            (o.per_binade / 256).clamp(1, 64)
-        } else {
-            0
-        },
-        edge: kinds.contains(&SweepKind::Edge),
-        random,
-        seed: o.seed,
-    })
-}
-
-/// A finished pair check, ready to print.
-struct Report<'a> {
-    evaluator: &'a PairEvaluator,
-    spec: &'a KernelSpec,
-    sweep: &'a PairSweep,
-    shard: Option<Shard>,
-    outcome: &'a PairOutcome,
-    max_ulp: Option<f64>,
-    allow_non_finite: bool,
-    seconds: f64,
-}
-
-impl Report<'_> {
-    /// Exit code (0 pass, 1 a finding failed, 3 the kernel crashed or hung) and why.
-    fn verdict(&self) -> (i32, Vec<String>) {
-        let acc = &self.outcome.acc;
-        let mut reasons = Vec::new();
-        if acc.crashed > 0 {
-            reasons.push(format!(
-                "the kernel crashed or hung on {} pairs",
-                acc.crashed
-            ));
-        }
-        let non_finite = acc.spurious_non_finite + acc.missing_non_finite;
-        if non_finite > 0 && !self.allow_non_finite {
-            reasons.push(format!(
-                "{} non-finite outputs where y is finite, {} finite or wrong where y is not",
-                acc.spurious_non_finite, acc.missing_non_finite
-            ));
-        }
-        if let Some(limit) = self.max_ulp {
-            if acc.max_ulp() > limit {
-                reasons.push(format!("max ulp {} > --max-ulp {limit}", acc.max_ulp()));
-            }
-        }
-        let code = if acc.crashed > 0 {
-            3
-        } else if reasons.is_empty() {
-            0
-        } else {
-            1
-        };
-        (code, reasons)
-    }
-
-    fn coverage(&self) -> String {
-        let format = self.evaluator.format();
-        let n = self.outcome.acc.pairs;
-        match self.sweep {
-            PairSweep::Exhaustive { a } if a.len() as u64 == format.pattern_count() => {
-                format!("exhaustive, all 2^{} pairs ({n})", 2 * format.width())
-            }
-            PairSweep::Exhaustive { a } => format!(
-                "exhaustive over b for {} patterns of a: {n} pairs{}",
-                a.len(),
-                self.shard
-                    .map(|s| format!(" (shard {}/{})", s.index, s.count))
-                    .unwrap_or_default()
-            ),
-            PairSweep::Sampled {
-                per_cell,
-                edge,
-                random,
-                ..
-            } => format!(
-                "sampled, {n} pairs ({per_cell} per sign x binade cell of a and b, {} edge x edge, {random} random)",
-                if *edge { "with" } else { "no" }
-            ),
-        }
-    }
-
-    fn region_text(&self, r: &Region) -> String {
-        let f = self.evaluator.format();
-        let span = |(lo, hi): (usize, usize)| {
-            if lo == hi {
-                cells::label(f, lo)
+    Ok((
+        PairSweep::Sampled {
+            // --per-binade K (default 256) gives K/256 pairs per cell, at least one: binary32's
+            // grid already has 514 × 514 cells.
+            per_cell: if kinds.contains(&SweepKind::Dense) {
+                (o.per_binade / 256).clamp(1, 64)
             } else {
-                format!("{} .. {}", cells::label(f, lo), cells::label(f, hi))
-            }
-        };
-        format!("a in {}, b in {}: {} pairs", span(r.a), span(r.b), r.pairs)
-    }
+                0
+            },
+            edge: kinds.contains(&SweepKind::Edge),
+            random,
+            seed: o.seed,
+        },
+        0,
+    ))
+}
 
-    fn terminal(&self, code: i32, reasons: &[String]) {
-        let f = self.evaluator.format();
-        let acc = &self.outcome.acc;
-        let v = |bits| format!("{} ({})", hex(f, bits), display_value(f, bits));
+/// The terminal summary of a pair check (a run or a merge of its shards).
+pub fn terminal(report: &PairCheck, code: i32, reasons: &[String]) {
+    let f = report.format;
+    let acc = &report.acc;
+    let v = |bits| format!("{} ({})", hex(f, bits), display_value(f, bits));
+    sayln!(
+        "{} {} {}  {} in {}",
+        report.function,
+        report.role,
+        f.name(),
+        report.symbol,
+        report.library
+    );
+    sayln!(
+        "  coverage    {} in {:.1} s",
+        report.coverage(),
+        report.seconds
+    );
+    match &acc.worst {
+        Some(w) => sayln!(
+            "  max ulp     {:.3} at a = {}, b = {}: output {}, reference {}",
+            w.ulp,
+            v(w.a),
+            v(w.b),
+            v(w.output),
+            v(w.reference)
+        ),
+        None => sayln!("  max ulp     no finite output to compare"),
+    }
+    sayln!(
+        "  pairs       {} compared, {} exact, {} within 0.5 ulp, {} over 1 ulp",
+        acc.compared,
+        acc.exact,
+        acc.within_half,
+        acc.over_one
+    );
+    let rs = regions(acc);
+    sayln!(
+        "  non-finite  {} spurious (y finite) in {} regions of binades, {} missing or wrong (y infinite or NaN)",
+        acc.spurious_non_finite,
+        rs.len(),
+        acc.missing_non_finite
+    );
+    for r in rs.iter().take(LISTED_REGIONS) {
+        sayln!("    {}", report.region_text(r));
+    }
+    if rs.len() > LISTED_REGIONS {
+        let rest: u64 = rs[LISTED_REGIONS..].iter().map(|r| r.pairs).sum();
         sayln!(
-            "{} {} {}  {} in {}",
-            self.evaluator.gated().name(),
-            self.evaluator.role().name(),
-            f.name(),
-            self.spec.symbol,
-            self.spec.library.display()
+            "    and {} more regions ({rest} pairs)",
+            rs.len() - LISTED_REGIONS
         );
-        sayln!("  coverage    {} in {:.1} s", self.coverage(), self.seconds);
-        match &acc.worst {
-            Some(w) => sayln!(
-                "  max ulp     {:.3} at a = {}, b = {}: output {}, reference {}",
-                w.ulp,
-                v(w.a),
-                v(w.b),
-                v(w.output),
-                v(w.reference)
-            ),
-            None => sayln!("  max ulp     no finite output to compare"),
-        }
-        sayln!(
-            "  pairs       {} compared, {} exact, {} within 0.5 ulp, {} over 1 ulp",
-            acc.compared,
-            acc.exact,
-            acc.within_half,
-            acc.over_one
-        );
-        let rs = regions(acc);
-        sayln!(
-            "  non-finite  {} spurious (y finite) in {} regions of binades, {} missing or wrong (y infinite or NaN)",
-            acc.spurious_non_finite,
-            rs.len(),
-            acc.missing_non_finite
-        );
-        for r in rs.iter().take(LISTED_REGIONS) {
-            sayln!("    {}", self.region_text(r));
-        }
-        if rs.len() > LISTED_REGIONS {
-            let rest: u64 = rs[LISTED_REGIONS..].iter().map(|r| r.pairs).sum();
-            sayln!(
-                "    and {} more regions ({rest} pairs)",
-                rs.len() - LISTED_REGIONS
-            );
-        }
-        if acc.crashed > 0 {
-            sayln!("  crashes     {} pairs", acc.crashed);
-            for (a, b, what) in &self.outcome.crashes {
-                sayln!("    a = {}, b = {}: {what}", v(*a), v(*b));
-            }
-        }
-        match code {
-            0 => sayln!("  verdict     PASS"),
-            _ => sayln!("  verdict     FAIL: {}", reasons.join("; ")),
+    }
+    if acc.crashed > 0 {
+        sayln!("  crashes     {} pairs", acc.crashed);
+        for (a, b, what) in &report.crashes {
+            sayln!("    a = {}, b = {}: {what}", v(*a), v(*b));
         }
     }
-
-    fn json(&self, code: i32, reasons: &[String]) -> serde_json::Value {
-        let f = self.evaluator.format();
-        let acc = &self.outcome.acc;
-        let bv = |bits| BitsValue::new(f, bits);
-        let rs = regions(acc);
-        let region = |r: &Region| {
-            json!({
-                "a_cells": [cells::label(f, r.a.0), cells::label(f, r.a.1)],
-                "b_cells": [cells::label(f, r.b.0), cells::label(f, r.b.1)],
-                "pairs": r.pairs,
-            })
-        };
-        json!({
-            "kind": "pair-check",
-            "function": self.evaluator.gated().name(),
-            "arity": 2,
-            "role": self.evaluator.role().name(),
-            "format": f.name(),
-            "library": self.spec.library.display().to_string(),
-            "symbol": self.spec.symbol,
-            "coverage": {
-                "kind": self.sweep.kind(),
-                "pairs": acc.pairs,
-                "text": self.coverage(),
-                "shard": self.shard.map(|s| json!({"index": s.index, "count": s.count})),
-            },
-            "accuracy": {
-                "max_ulp": acc.max_ulp(),
-                "worst": acc.worst.map(|w| json!({
-                    "a": bv(w.a), "b": bv(w.b), "output": bv(w.output),
-                    "reference": bv(w.reference), "ulp": w.ulp,
-                })),
-                "compared": acc.compared,
-                "exact": acc.exact,
-                "within_half_ulp": acc.within_half,
-                "over_one_ulp": acc.over_one,
-            },
-            "non_finite": {
-                "spurious": acc.spurious_non_finite,
-                "missing": acc.missing_non_finite,
-                "spurious_cells": acc.cell_spurious.iter().filter(|&&c| c > 0).count(),
-                "regions_total": rs.len(),
-                "regions": rs.iter().take(LISTED_REGIONS).map(region).collect::<Vec<_>>(),
-            },
-            "crashes": {
-                "pairs": acc.crashed,
-                "first": self.outcome.crashes.iter().map(|(a, b, s)| json!({
-                    "a": bv(*a), "b": bv(*b), "signal": s,
-                })).collect::<Vec<_>>(),
-            },
-            "seconds": self.seconds,
-            "verdict": {
-                "exit_code": code,
-                "passed": code == 0,
-                "reasons": reasons,
-            },
-        })
+    match code {
+        0 => sayln!("  verdict     PASS"),
+        _ => sayln!("  verdict     FAIL: {}", reasons.join("; ")),
     }
 }

@@ -23,6 +23,9 @@ pub struct Args {
     /// Write the merged report as a self-contained HTML page.
     #[arg(long, value_name = "FILE")]
     pub html: Option<PathBuf>,
+    /// Write the heat map of a merged pair check (gated kernel) as SVG.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
     /// Print no terminal summary.
     #[arg(long)]
     pub quiet: bool,
@@ -53,9 +56,34 @@ fn summary(report: &Value) -> String {
     )
 }
 
+/// One summary line of a merged pair check.
+fn pair_summary(check: &crate::report::pair_check::PairCheck) -> String {
+    let (code, _) = check.verdict();
+    let worst = check
+        .acc
+        .worst
+        .map_or("no finite output compared".to_string(), |w| {
+            format!(
+                "max {} ulp at a = {}, b = {}",
+                w.ulp,
+                crate::format::hex(check.format, w.a),
+                crate::format::hex(check.format, w.b)
+            )
+        });
+    format!(
+        "{} {} {} {}: {worst}, {}, {} spurious non-finite, exit {code}",
+        check.function,
+        check.format.name(),
+        check.role,
+        check.symbol,
+        check.coverage(),
+        check.acc.spurious_non_finite
+    )
+}
+
 /// Runs `merge`.
 pub fn run(args: Args) -> Result<i32, Failure> {
-    for path in [&args.json, &args.html].into_iter().flatten() {
+    for path in [&args.json, &args.html, &args.plot].into_iter().flatten() {
         check_writable(path).map_err(Failure::bad_input)?;
     }
     let files = args
@@ -65,26 +93,42 @@ pub fn run(args: Args) -> Result<i32, Failure> {
         .collect::<Result<Vec<_>, String>>()
         .map_err(Failure::bad_input)?;
     let merged = merge::merge(&files).map_err(Failure::bad_input)?;
+    let pair_checks: Vec<_> = merged.pair_checks.iter().flatten().collect();
+    if args.plot.is_some() && (merged.manifest || pair_checks.len() != 1) {
+        return Err(Failure::bad_input(
+            "merge --plot draws the heat map of one pair check's shards (a gated kernel run without --manifest)",
+        ));
+    }
     if let Some(path) = &args.json {
         let mut text = serde_json::to_string_pretty(&merged.value)
             .map_err(|e| Failure::bad_input(e.to_string()))?;
         text.push('\n');
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
+    if let Some(path) = &args.plot {
+        let check = pair_checks[0];
+        let svg =
+            crate::report::pair_heatmap::render(&check.acc, check.format, &check.plot_title());
+        write_atomic(path, &svg).map_err(Failure::bad_input)?;
+    }
     if let Some(path) = &args.html {
         let inputs: Vec<html::KernelInput> = merged
             .kernels
             .iter()
             .zip(&merged.plots)
-            .map(|(report, buckets)| html::KernelInput {
+            .zip(&merged.pair_checks)
+            .filter(|(_, pair)| pair.is_none())
+            .map(|((report, buckets), _)| html::KernelInput {
                 report: report.clone(),
                 buckets: buckets.clone(),
             })
             .collect();
-        let text = html::check_page(&inputs, merged.manifest).map_err(|message| Failure {
-            code: 1,
-            message: format!("html report: {message}"),
-        })?;
+        let text = html::check_page_with_pairs(&inputs, &pair_checks, merged.manifest).map_err(
+            |message| Failure {
+                code: 1,
+                message: format!("html report: {message}"),
+            },
+        )?;
         write_atomic(path, &text).map_err(Failure::bad_input)?;
     }
     if !args.quiet {
@@ -98,8 +142,11 @@ pub fn run(args: Args) -> Result<i32, Failure> {
             files.len(),
             merged.kernels.len()
         );
-        for report in &merged.kernels {
-            sayln!("  {}", summary(report));
+        for (report, pair) in merged.kernels.iter().zip(&merged.pair_checks) {
+            match pair {
+                Some(check) => sayln!("  {}", pair_summary(check)),
+                None => sayln!("  {}", summary(report)),
+            }
         }
     }
     Ok(combine(merged.kernels.iter().map(|r| {

@@ -29,6 +29,7 @@ mod certify;
 pub mod check;
 pub mod check_args;
 pub mod check_env;
+mod check_pair_manifest;
 mod check_pairs;
 mod compare;
 mod eval;

@@ -17,6 +17,16 @@
 //! caller-fpenv = "ftz,daz"             # run also in the caller's FP environment (see check)
 //! variants = ["lumen_elu_f32_avx2", "lumen_elu_f32_sse2"]   # instead of `symbol`: dispatch
 //!                                      # variants of one kernel, each measured and compared
+//!
+//! [[kernel]]                           # a two-input gated function, checked over pairs (a, b)
+//! symbol = "lumen_swiglu_f16"
+//! function = "swiglu"                  # swiglu | geglu | geglu-tanh | reglu
+//! format = "f16"
+//! role = "forward"                     # forward | derivative-a | derivative-b
+//! range = "-20,-19"                    # patterns of a (every b each); as check --range
+//! sweep = "dense,edge,random"          # as check --sweep; also points, per-binade, seed
+//! max-ulp = 1.0                        # as check --max-ulp, --allow-non-finite
+//! allow-non-finite = false
 //! ```
 //!
 //! Every error is one line naming the file and the line (and the key, when there is one).
@@ -64,6 +74,14 @@ struct Entry {
     signature: Option<Spanned<String>>,
     strides: Option<Spanned<super::stride::StridesValue>>,
     library: Option<Spanned<String>>,
+    // The pair-check keys of a two-input entry.
+    range: Option<Spanned<String>>,
+    sweep: Option<Spanned<String>>,
+    points: Option<Spanned<u64>>,
+    per_binade: Option<Spanned<u32>>,
+    seed: Option<Spanned<u64>>,
+    max_ulp: Option<Spanned<f64>>,
+    allow_non_finite: Option<Spanned<bool>>,
 }
 
 fn yes() -> bool {
@@ -77,6 +95,8 @@ enum Role {
     Derivative,
     Gradient,
     GradientFromOutput,
+    DerivativeA,
+    DerivativeB,
 }
 
 #[derive(Deserialize, Clone, Copy, PartialEq)]
@@ -115,6 +135,50 @@ pub struct EntryExtras {
     pub caller_fpenv: Option<String>,
 }
 
+/// A manifest entry of a two-input gated function, which `check --manifest` runs over pairs
+/// (its keys as the options of `check --function swiglu …` name them).
+#[derive(Clone, Debug, Default)]
+pub struct PairEntry {
+    /// The library, resolved.
+    pub library: PathBuf,
+    /// The kernel's symbol.
+    pub symbol: String,
+    /// The gated function's name.
+    pub function: String,
+    /// The format's name.
+    pub format: String,
+    /// forward, derivative-a or derivative-b.
+    pub role: String,
+    /// Parameters as NAME=VALUE.
+    pub params: Vec<String>,
+    /// `range`.
+    pub range: Option<String>,
+    /// `sweep`, comma-separated kinds.
+    pub sweep: Option<String>,
+    /// `points`.
+    pub points: Option<u64>,
+    /// `per-binade`.
+    pub per_binade: Option<u32>,
+    /// `seed`.
+    pub seed: Option<u64>,
+    /// `max-ulp`.
+    pub max_ulp: Option<f64>,
+    /// `allow-non-finite`.
+    pub allow_non_finite: Option<bool>,
+    /// `in-place`.
+    pub in_place: bool,
+    /// `thread-safe`.
+    pub thread_safe: bool,
+}
+
+/// A manifest as `check` runs it: the one-input entries, and the two-input (gated) ones.
+pub type CheckManifest = (Vec<(KernelSpec, EntryExtras)>, Vec<PairEntry>);
+
+/// Reads a manifest for `check`, which runs two-input entries too.
+pub fn load_check_manifest(path: &Path) -> Result<CheckManifest, String> {
+    load_manifest_inner(path).map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r"))
+}
+
 /// Reads a manifest; library paths are resolved relative to the manifest's directory.
 pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
     Ok(load_manifest_entries(path)?
@@ -125,12 +189,21 @@ pub fn load_manifest(path: &Path) -> Result<Vec<KernelSpec>, String> {
 
 /// [`load_manifest`] with each entry's variants and caller environment.
 pub fn load_manifest_entries(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, String> {
-    // User text quoted in a message stays on the message's one line.
-    load_manifest_inner(path).map_err(|e| e.replace('\n', "\\n").replace('\r', "\\r"))
+    let (entries, pairs) = load_check_manifest(path)?;
+    match pairs.first() {
+        Some(p) => Err(format!(
+            "manifest {}: kernel {}: {} takes two inputs: only `check --manifest` runs such entries",
+            path.display(),
+            p.symbol,
+            p.function
+        )
+        .replace('\n', "\\n")),
+        None => Ok(entries),
+    }
 }
 
 /// [`load_manifest_entries`], before newlines in quoted text are escaped.
-fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, String> {
+fn load_manifest_inner(path: &Path) -> Result<CheckManifest, String> {
     let shown = path.display().to_string();
     let text = std::fs::read_to_string(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => format!("manifest {shown}: no such file"),
@@ -160,6 +233,7 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
         }
     };
     let mut specs = Vec::new();
+    let mut pairs = Vec::new();
     for entry in &file.kernel {
         let k = entry.get_ref();
         let symbol = match (&k.symbol, k.variants.first()) {
@@ -198,6 +272,34 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
                     symbol.get_ref()
                 )
             })?;
+        if let Some(g) = crate::activation::lookup_gated(k.function.get_ref()) {
+            pairs.push(pair_entry(
+                k,
+                g.name(),
+                resolve(library.get_ref()),
+                symbol,
+                &at,
+            )?);
+            continue;
+        }
+        let pair_only = [
+            (k.range.as_ref().map(|v| v.span()), "range"),
+            (k.sweep.as_ref().map(|v| v.span()), "sweep"),
+            (k.points.as_ref().map(|v| v.span()), "points"),
+            (k.per_binade.as_ref().map(|v| v.span()), "per-binade"),
+            (k.seed.as_ref().map(|v| v.span()), "seed"),
+            (k.max_ulp.as_ref().map(|v| v.span()), "max-ulp"),
+            (
+                k.allow_non_finite.as_ref().map(|v| v.span()),
+                "allow-non-finite",
+            ),
+        ];
+        if let Some((Some(span), key)) = pair_only.into_iter().find(|(s, _)| s.is_some()) {
+            return Err(format!(
+                "{}: key `{key}`: applies to two-input entries (swiglu, geglu, geglu-tanh, reglu) only; a one-input entry takes the command's options",
+                at(span)
+            ));
+        }
         let function = crate::activation::lookup(k.function.get_ref()).ok_or_else(|| {
             let names: Vec<_> = crate::activation::catalog()
                 .iter()
@@ -272,6 +374,12 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
             Some(Role::Derivative) => KernelRole::Derivative,
             Some(Role::Gradient) => KernelRole::Gradient { from_output: false },
             Some(Role::GradientFromOutput) => KernelRole::Gradient { from_output: true },
+            Some(Role::DerivativeA | Role::DerivativeB) => {
+                return Err(format!(
+                    "{}: key `role`: derivative-a and derivative-b are roles of the two-input functions (swiglu, geglu, geglu-tanh, reglu)",
+                    at(k.role.as_ref().expect("set").span())
+                ))
+            }
         };
         if role == (KernelRole::Gradient { from_output: true })
             && !FROM_OUTPUT_FUNCTIONS.contains(&function.name())
@@ -348,5 +456,69 @@ fn load_manifest_inner(path: &Path) -> Result<Vec<(KernelSpec, EntryExtras)>, St
             extras,
         ));
     }
-    Ok(specs)
+    Ok((specs, pairs))
+}
+
+/// The pair entry of a gated function: keys that describe a one-input kernel are refused.
+fn pair_entry(
+    k: &Entry,
+    function: &str,
+    library: PathBuf,
+    symbol: &Spanned<String>,
+    at: &dyn Fn(std::ops::Range<usize>) -> String,
+) -> Result<PairEntry, String> {
+    let one_input = [
+        (k.variants.first().map(|v| v.span()), "variants"),
+        (k.caller_fpenv.as_ref().map(|v| v.span()), "caller-fpenv"),
+        (k.input_format.as_ref().map(|v| v.span()), "input-format"),
+        (k.output_format.as_ref().map(|v| v.span()), "output-format"),
+        (k.param_passing.as_ref().map(|v| v.span()), "param-passing"),
+        (k.signature.as_ref().map(|v| v.span()), "signature"),
+        (k.strides.as_ref().map(|v| v.span()), "strides"),
+    ];
+    if let Some((Some(span), key)) = one_input.into_iter().find(|(s, _)| s.is_some()) {
+        return Err(format!(
+            "{}: key `{key}`: not available for the two-input function {function} (its entry takes symbol, function, format, role, params, range, sweep, points, per-binade, seed, max-ulp, allow-non-finite, in-place, thread-safe, library)",
+            at(span)
+        ));
+    }
+    let format = k
+        .format
+        .as_ref()
+        .ok_or_else(|| format!("{}: kernel entry has no `format`", at(symbol.span())))?;
+    let role = match k.role.as_ref().map(|r| *r.get_ref()) {
+        None | Some(Role::Forward) => "forward",
+        Some(Role::DerivativeA) => "derivative-a",
+        Some(Role::DerivativeB) => "derivative-b",
+        Some(_) => {
+            return Err(format!(
+                "{}: key `role`: {function} takes two inputs: forward, derivative-a (dy/da) or derivative-b (dy/db)",
+                at(k.role.as_ref().expect("set").span())
+            ))
+        }
+    };
+    if symbol.get_ref().trim().is_empty() {
+        return Err(format!("{}: key `symbol`: empty", at(symbol.span())));
+    }
+    Ok(PairEntry {
+        library,
+        symbol: symbol.get_ref().clone(),
+        function: function.to_string(),
+        format: format.get_ref().clone(),
+        role: role.to_string(),
+        params: k
+            .params
+            .iter()
+            .map(|(name, v)| format!("{name}={}", v.get_ref().text()))
+            .collect(),
+        range: k.range.as_ref().map(|v| v.get_ref().clone()),
+        sweep: k.sweep.as_ref().map(|v| v.get_ref().clone()),
+        points: k.points.as_ref().map(|v| *v.get_ref()),
+        per_binade: k.per_binade.as_ref().map(|v| *v.get_ref()),
+        seed: k.seed.as_ref().map(|v| *v.get_ref()),
+        max_ulp: k.max_ulp.as_ref().map(|v| *v.get_ref()),
+        allow_non_finite: k.allow_non_finite.as_ref().map(|v| *v.get_ref()),
+        in_place: k.in_place,
+        thread_safe: k.thread_safe,
+    })
 }

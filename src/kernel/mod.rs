@@ -24,7 +24,9 @@ pub mod worker;
 
 pub use bisect::{batch_timeout, fault_limits};
 pub use hygiene::HygieneCheck;
-pub use manifest::{load_manifest, load_manifest_entries, EntryExtras};
+pub use manifest::{
+    load_check_manifest, load_manifest, load_manifest_entries, EntryExtras, PairEntry,
+};
 pub use runner::{
     CallError, CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME,
     DEFAULT_MAX_RESTARTS, PACE_FACTOR, PACE_FLOOR,

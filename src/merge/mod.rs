@@ -9,6 +9,8 @@
 //! Every figure and verdict equals the unsharded run's; `kernel.ns_per_element` and
 //! `provenance` are shard 1's.
 
+pub mod pairs;
+
 use crate::check::{Acceptance, Confirmation, Figures, Gathered, HygieneEntry, STATE_VERSION};
 use crate::format::{self, Format};
 use crate::report::model::SCHEMA;
@@ -33,6 +35,8 @@ pub struct Merged {
     pub manifest: bool,
     /// Each kernel's plot buckets (not part of the JSON), for the HTML report.
     pub plots: Vec<Vec<crate::measure::Bucket>>,
+    /// Each kernel's merged pair check, for a gated kernel (`None` for a one-input one).
+    pub pair_checks: Vec<Option<crate::report::pair_check::PairCheck>>,
 }
 
 /// Reads a shard report.
@@ -50,6 +54,10 @@ pub fn read(path: &Path) -> Result<ShardFile, String> {
 /// The kernel reports of a file, and whether it is a manifest run.
 fn kernels(file: &ShardFile) -> Result<(Vec<&Value>, bool), String> {
     let name = file.path.display();
+    // A lone pair check's report has no schema key; it is one kernel.
+    if pairs::is_pair(&file.value) {
+        return Ok((vec![&file.value], false));
+    }
     let schema = file.value.get("schema").and_then(Value::as_str);
     if schema != Some(SCHEMA) {
         return Err(format!(
@@ -459,12 +467,22 @@ fn merge_checked(files: &[ShardFile]) -> Result<Merged, String> {
             per_kernel[k].push((file.path.as_path(), report));
         }
     }
-    let (kernels, plots): (Vec<Value>, Vec<_>) = per_kernel
-        .iter()
-        .map(|shards| merge_kernel(shards))
-        .collect::<Result<Vec<_>, String>>()?
-        .into_iter()
-        .unzip();
+    let mut kernels = Vec::new();
+    let mut plots = Vec::new();
+    let mut pair_checks = Vec::new();
+    for shards in &per_kernel {
+        if shards.iter().any(|(_, r)| pairs::is_pair(r)) {
+            let (value, check) = pairs::merge_pair_kernel(shards)?;
+            kernels.push(value);
+            plots.push(Vec::new());
+            pair_checks.push(Some(check));
+        } else {
+            let (value, buckets) = merge_kernel(shards)?;
+            kernels.push(value);
+            plots.push(buckets);
+            pair_checks.push(None);
+        }
+    }
     let value = if manifest {
         serde_json::json!({ "schema": SCHEMA, "kernels": kernels })
     } else {
@@ -475,5 +493,6 @@ fn merge_checked(files: &[ShardFile]) -> Result<Merged, String> {
         kernels,
         manifest,
         plots,
+        pair_checks,
     })
 }

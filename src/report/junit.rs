@@ -444,3 +444,36 @@ pub fn matrix(m: &Matrix) -> String {
         .collect();
     document("ulpgauge matrix", &suites, None)
 }
+
+/// A pair check's suite: one case, its verdict (a crash an error, any other reason a failure).
+fn pair_suite(c: &super::pair_check::PairCheck) -> Suite {
+    let (code, reasons) = c.verdict();
+    let classname = format!("ulpgauge.{}.{}.{}", c.function, c.role, c.format.name());
+    let outcome = match code {
+        0 => Outcome::Passed,
+        3 => Outcome::Error(reasons.join("; ")),
+        _ => Outcome::Failed(reasons.join("; ")),
+    };
+    let name = format!(
+        "pair check: no spurious non-finite output{}",
+        c.max_ulp
+            .map_or(String::new(), |l| format!(", max ulp <= {l}"))
+    );
+    Suite {
+        name: format!("{} {} {} {}", c.function, c.role, c.format.name(), c.symbol),
+        cases: vec![case(name, &classname, outcome)],
+        out: format!("max error {} ulp; {}", c.acc.max_ulp(), c.coverage()),
+    }
+}
+
+/// The JUnit document of a check with pair checks (gated kernels): the one-input kernels'
+/// suites, then one suite of one case per pair check.
+pub fn check_with_pairs(
+    reports: &[CheckReport],
+    pairs: &[&super::pair_check::PairCheck],
+) -> String {
+    let mut suites: Vec<Suite> = reports.iter().map(check_suite).collect();
+    suites.extend(pairs.iter().map(|c| pair_suite(c)));
+    let date = reports.first().map(|r| r.provenance.date.as_str());
+    document("ulpgauge check", &suites, date)
+}

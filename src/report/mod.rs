@@ -7,6 +7,7 @@ pub mod html;
 pub mod json;
 pub mod junit;
 pub mod model;
+pub mod pair_check;
 pub mod pair_heatmap;
 pub mod provenance;
 pub mod sentence;

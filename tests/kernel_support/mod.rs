@@ -103,6 +103,8 @@ pub fn comparable(report: &serde_json::Value) -> serde_json::Value {
     let mut r = report.clone();
     let map = r.as_object_mut().expect("a report object");
     map.remove("provenance");
+    // A pair check's wall time.
+    map.remove("seconds");
     if let Some(kernel) = map.get_mut("kernel").and_then(|k| k.as_object_mut()) {
         kernel.remove("ns_per_element");
     }

@@ -127,6 +127,51 @@ def kernels_of(report):
     return report["kernels"] if "kernels" in report else [report]
 
 
+def one_input(kernels):
+    return [k for k in kernels if k.get("kind") != "pair-check"]
+
+
+def pairs_of(kernels):
+    return [k for k in kernels if k.get("kind") == "pair-check"]
+
+
+def check_pairs(b, pairs, all_kernels, failures, name):
+    """Pair-check sections (gated kernels) against their JSON reports."""
+    sections = b.eval("""Array.from(document.querySelectorAll('section.pair-check')).map(s => {
+        const svg = s.querySelector('figure.heatmap svg'); const r = svg ? svg.getBoundingClientRect() : null;
+        return {symbol: s.dataset.symbol, verdict: s.querySelector('.badge.verdict').textContent,
+        maxTitle: s.querySelector('.max-ulp').title, coverage: s.querySelector('.coverage').textContent,
+        a: (s.querySelector('.worst-a .bits') || {}).textContent || null,
+        b: (s.querySelector('.worst-b .bits') || {}).textContent || null,
+        regions: s.querySelectorAll('table.regions tbody tr').length,
+        cells: svg ? svg.querySelectorAll('rect').length : 0,
+        size: r ? [r.width, r.height] : [0, 0]}; })""")
+    if len(sections) != len(pairs):
+        failures.append(f"{name}: {len(sections)} pair sections, the JSON report has {len(pairs)}")
+    index_rows = b.eval("document.querySelectorAll('#pair-index tbody tr').length")
+    if len(all_kernels) > 1 and pairs and index_rows != len(pairs):
+        failures.append(f"{name}: pair index has {index_rows} rows for {len(pairs)} pair checks")
+    for i, (p, s) in enumerate(zip(pairs, sections)):
+        who = f"{name} pair check {i + 1} ({p['symbol']})"
+        if s["symbol"] != p["symbol"]:
+            failures.append(f"{who}: section is {s['symbol']}")
+        if verdict_word(p["verdict"]["exit_code"]) not in s["verdict"]:
+            failures.append(f"{who}: verdict shown {s['verdict']!r}, JSON exit code {p['verdict']['exit_code']}")
+        if float(s["maxTitle"]) != p["accuracy"]["max_ulp"]:
+            failures.append(f"{who}: max ulp {s['maxTitle']} shown, JSON {p['accuracy']['max_ulp']}")
+        if s["coverage"] != p["coverage"]["text"]:
+            failures.append(f"{who}: coverage {s['coverage']!r}, JSON {p['coverage']['text']!r}")
+        worst = p["accuracy"]["worst"]
+        if worst and (s["a"], s["b"]) != (f"({worst['a']['bits']})", f"({worst['b']['bits']})"):
+            failures.append(f"{who}: worst pair shown {s['a']}, {s['b']}, JSON {worst['a']['bits']}, {worst['b']['bits']}")
+        total = p["non_finite"]["regions_total"]
+        rows = min(total, 6) + (1 if total > 6 else 0)
+        if s["regions"] != rows:
+            failures.append(f"{who}: {s['regions']} region rows, JSON has {total} regions")
+        if s["cells"] == 0 or min(s["size"]) <= 0:
+            failures.append(f"{who}: the heat map is not drawn ({s['cells']} rects, size {s['size']})")
+
+
 def verdict_word(exit_code):
     return {0: "PASS", 3: "CRASHED"}.get(exit_code, "FAIL")
 
@@ -197,7 +242,8 @@ def main():
             b.open(page)
             b.screenshot(os.path.join(OUT, f"{name}.png"))
             if kind == "check":
-                check_kernels(b, kernels_of(report), failures, name, shots=2)
+                check_kernels(b, one_input(kernels_of(report)), failures, name, shots=2)
+                check_pairs(b, pairs_of(kernels_of(report)), kernels_of(report), failures, name)
             elif kind == "certify":
                 shown = b.eval("document.querySelector('section.certificate').dataset.verdict")
                 if shown != report["verdict"]:

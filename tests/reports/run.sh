@@ -52,6 +52,14 @@ for i in 1 2; do
   run check --manifest "$m" --sweep dense,edge --per-binade 8 --shard "$i/2" "${quiet[@]}" --json "$out/shard-$i.json"
 done
 run merge "$out/shard-1.json" "$out/shard-2.json" --quiet --json "$out/merged.json" --html "$out/merged.html"
+run check --manifest kernels-under-test/lumen-edge-gated.toml "${quiet[@]}" \
+  --json "$out/lumen-edge-gated.json" --html "$out/lumen-edge-gated.html" --junit "$out/lumen-edge-gated.xml"
+for i in 1 2; do
+  run check --lib kernels-under-test/build/liblumen_gated.so --symbol lumen_swiglu_f16 --function swiglu \
+    --format f16 --range=-20,-19.5 --shard "$i/2" "${quiet[@]}" --json "$out/swiglu-shard-$i.json"
+done
+run merge "$out/swiglu-shard-1.json" "$out/swiglu-shard-2.json" --quiet \
+  --json "$out/swiglu-merged.json" --html "$out/swiglu-merged.html"
 
 python3 tests/reports/check_pages.py "$out/screenshots" \
   "check:$out/lumen-edge.html:$out/lumen-edge.json" \
@@ -62,13 +70,16 @@ python3 tests/reports/check_pages.py "$out/screenshots" \
   "certify:$out/certificate.html:$out/certificate.json" \
   "compare:$out/compare.html:$out/compare.json" \
   "matrix:$out/matrix.html:$out/matrix.json" \
-  "check:$out/merged.html:$out/merged.json"
+  "check:$out/merged.html:$out/merged.json" \
+  "check:$out/lumen-edge-gated.html:$out/lumen-edge-gated.json" \
+  "check:$out/swiglu-merged.html:$out/swiglu-merged.json"
 python3 tests/reports/check_junit.py \
   "check:$out/lumen-edge.xml:$out/lumen-edge.json" \
   "check:$out/lumen-edge-faulty.xml:$out/lumen-edge-faulty.json" \
   "check:$out/elu-f16.xml:$out/elu-f16.json" \
   "check:$out/lumen-edge-mixed.xml:$out/lumen-edge-mixed.json" \
   "check:$out/lumen-edge-strided.xml:$out/lumen-edge-strided.json" \
+  "check:$out/lumen-edge-gated.xml:$out/lumen-edge-gated.json" \
   "certify:$out/certificate.xml:$out/certificate.json" \
   "compare:$out/compare.xml:$out/compare.json" \
   "matrix:$out/matrix.xml:$out/matrix.json"

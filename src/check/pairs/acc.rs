@@ -5,9 +5,10 @@
 use super::cells;
 use crate::format::{ulp_error, Class, Format};
 use crate::reference::Reference;
+use serde::{Deserialize, Serialize};
 
 /// One measured pair, as reports show it.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
 pub struct WorstPair {
     /// a's pattern.
     pub a: u32,
@@ -21,8 +22,9 @@ pub struct WorstPair {
     pub ulp: f64,
 }
 
-/// Accumulated figures of a set of pairs.
-#[derive(Clone, Debug, PartialEq)]
+/// Accumulated figures of a set of pairs (serialized into a shard report's state, the cell
+/// vectors sparsely: see [`super::state`]).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct PairAcc {
     axis: usize,
     /// Pairs measured.
@@ -45,8 +47,10 @@ pub struct PairAcc {
     /// The largest ulp error with its pair (ties to the lowest (a, b)).
     pub worst: Option<WorstPair>,
     /// Max ulp per cell (row a, column b); −1 where no pair was compared.
+    #[serde(with = "super::state::sparse_max")]
     pub cell_max: Vec<f32>,
     /// Spurious non-finite outputs per cell.
+    #[serde(with = "super::state::sparse_count")]
     pub cell_spurious: Vec<u64>,
 }
 

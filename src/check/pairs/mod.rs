@@ -7,8 +7,10 @@
 
 pub mod acc;
 pub mod cells;
+pub mod state;
 
 pub use acc::{regions, PairAcc, Region, WorstPair};
+pub use state::{PairShardState, PairSweepId, PAIR_STATE_VERSION};
 
 use super::kernel::KernelUnderTest;
 use crate::format::Format;

@@ -7,6 +7,7 @@
 //! [`check_page`]), [`certificate_page`], [`comparison_page`] and [`matrix_page`].
 
 mod kernel;
+mod pair;
 mod tables;
 
 pub use kernel::KernelInput;
@@ -78,15 +79,39 @@ pub(crate) fn page(title: &str, body: &str) -> String {
 
 /// The page of `check` or `merge`: one kernel, or a manifest's kernels behind an index.
 pub fn check_page(kernels: &[KernelInput], manifest: bool) -> Result<String, String> {
+    check_page_with_pairs(kernels, &[], manifest)
+}
+
+/// [`check_page`] with pair checks (gated kernels) after the one-input kernels, each group
+/// behind its own index on a manifest page.
+pub fn check_page_with_pairs(
+    kernels: &[KernelInput],
+    pairs: &[&crate::report::pair_check::PairCheck],
+    manifest: bool,
+) -> Result<String, String> {
     let mut body = String::new();
-    if manifest {
+    if manifest && !kernels.is_empty() {
         kernel::index(&mut body, kernels).map_err(|e| e.to_string())?;
+    }
+    if manifest && !pairs.is_empty() {
+        pair::index(&mut body, pairs).map_err(|e| e.to_string())?;
     }
     for (i, k) in kernels.iter().enumerate() {
         kernel::section(&mut body, k, i).map_err(|e| e.to_string())?;
     }
-    let title = match kernels {
-        [one] if !manifest => format!(
+    for (i, c) in pairs.iter().enumerate() {
+        pair::section(&mut body, c, i).map_err(|e| e.to_string())?;
+    }
+    let title = match (kernels, pairs) {
+        ([], [one]) if !manifest => format!(
+            "ulpgauge check: {} {} {} ({})",
+            one.function,
+            one.role,
+            one.format.name(),
+            one.symbol
+        ),
+        (_, [_, ..]) => format!("ulpgauge check: {} kernels", kernels.len() + pairs.len()),
+        ([one], []) if !manifest => format!(
             "ulpgauge check: {} {} {} ({})",
             kernel::text(&one.report["function"]),
             kernel::text(&one.report["role"]),
