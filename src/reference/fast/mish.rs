@@ -183,6 +183,7 @@ pub fn mish(format: Layout, x: f64, role: Role) -> Outcome {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use rug::ops::Pow;
     use rug::Float;
 
     /// The figures the band's bound quotes: Σ|b_k|·|x|^k and |b_0| − Σ_(k≥1)|b_k|·|x|^k at
