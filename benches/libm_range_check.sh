@@ -4,10 +4,13 @@
 # catalog functions; prints wall seconds per run and the ratio to the sigmoid forward run.
 # Usage: bash benches/libm_range_check.sh [REFERENCE (auto|mpfr)] [FUNCTION...]
 # (FUNCTION selu-published: SELU against its published decimal constants.)
+# Env RANGE=LO,HI replaces [1, 2) (e.g. across a fast-path band edge); env REPORTS=DIR keeps
+# each JSON report as DIR/FUNCTION-ROLE-REFERENCE.json, to compare `auto` with `mpfr` runs.
 # Benchmark only (never a timed test); note `uptime` beside any figure recorded.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 reference=${1:-auto}
+range=${RANGE:-1,2}
 shift || true
 bin=target/release/ulpgauge
 [ -x "$bin" ] || cargo build --release
@@ -40,7 +43,7 @@ LOOP(k_gelu_tanh_d, sig(2.0f * gu(v)) + 2.0f * v * C * (1.0f + 3.0f * K * v * v)
 C
 cc -O2 -fPIC -shared -o "$dir/libk.so" "$dir/k.c" -lm
 functions=${*:-sigmoid softplus log-sigmoid mish selu celu gelu-tanh}
-echo "reference=$reference  $(uptime)"
+echo "reference=$reference  range=$range  $(uptime)"
 printf '%-12s %-10s %8s %7s\n' function role seconds ratio
 base=""
 for f in $functions; do
@@ -54,11 +57,12 @@ for f in $functions; do
     [ "$f" = selu ] && extra=(--param-rounding f32)
     start=$(date +%s.%N)
     "$bin" check --lib "$dir/libk.so" --symbol "$sym" --function "$fn" --format f32 \
-      --role "$role" --sweep exhaustive --range 1,2 --reference "$reference" \
+      --role "$role" --sweep exhaustive --range "$range" --reference "$reference" \
       --allow-non-finite "${extra[@]}" --json "$dir/r.json" >/dev/null 2>"$dir/err" && rc=0 || rc=$?
     end=$(date +%s.%N)
     # 0 clean, 1 a finding failed (still a full measurement); anything else is no figure.
     [ "$rc" -le 1 ] || { echo "$f $role: exit $rc: $(head -c 300 "$dir/err")"; continue; }
+    [ -n "${REPORTS:-}" ] && cp "$dir/r.json" "$REPORTS/$f-$role-$reference.json"
     s=$(echo "$end - $start" | bc -l)
     [ -z "$base" ] && base=$s
     printf '%-12s %-10s %8.2f %7.2f\n' "$f" "$role" "$s" "$(echo "$s / $base" | bc -l)"

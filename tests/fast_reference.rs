@@ -64,7 +64,8 @@ fn rounding(params: &[&str]) -> (ParamRounding, Vec<String>) {
 const F32_ROUNDED: &str = "param-rounding=f32";
 
 /// The exact value at 256 bits, straight from the definitions (only for approximation checks;
-/// β and α as f64; SELU's λ and α rounded to binary32 when `f32_constants`).
+/// β and α as f64; SELU's λ and α, GELU-tanh's c and k rounded to binary32 when
+/// `f32_constants`).
 fn truth(name: &str, role: Role, x: f64, param: f64, f32_constants: bool) -> f64 {
     use rug::Float;
     let p = 256;
@@ -149,6 +150,15 @@ fn truth(name: &str, role: Role, x: f64, param: f64, f32_constants: bool) -> f64
             let pi = Float::with_val(p, rug::float::Constant::Pi);
             let c = Float::with_val(p, Float::with_val(p, 2) / pi).sqrt();
             let k = Float::with_val(p, 44715) / 1_000_000u32;
+            // --param-rounding f32: both constants rounded to nearest binary32.
+            let (c, k) = if f32_constants {
+                (
+                    Float::with_val(p, c.to_f32()),
+                    Float::with_val(p, k.to_f32()),
+                )
+            } else {
+                (c, k)
+            };
             let x2 = Float::with_val(p, x.square_ref());
             let u = Float::with_val(p, &x + Float::with_val(p, &x2 * &x) * &k) * &c;
             let s = sig(&Float::with_val(p, &u * 2u32));
@@ -897,6 +907,34 @@ fn elu_leading_term_bands() {
             inside.retain(|&x| f32::from_bits(x) < 0.0 && f32::from_bits(x) >= -(2f32.powi(top)));
             let edges = [-(2f64.powi(lowest.max(-60))), -(2f64.powi(top))];
             check_band("elu", role, &[alpha], &inside, &edges);
+        }
+    }
+}
+
+/// Mish's and GELU-tanh's tiny-input bands (|x| < 2^−6, no exp; src/reference/fast/mish.rs
+/// and gelu_tanh.rs): every binade of either sign (300 random binary32 patterns each) from
+/// 2^−126 (mish, plus random subnormals) or 2^−56 (GELU-tanh, whose closed form takes the
+/// inputs below), the short patterns where leading parts such as x/2 + c·x²/2, 1/2 + c·x or
+/// 3x/5 land on rounding boundaries (multiples of 5 among them make 3x/5 exact), and the
+/// bands' edges ±300 patterns in every format, both roles, against the engine; GELU-tanh also
+/// with its constants rounded to binary32 (exact binary64 numbers, the bound without their r).
+#[test]
+fn mish_gelu_tanh_bands() {
+    let mut g = Mix(83);
+    for (name, params, lowest) in [
+        ("mish", &[][..], -126),
+        ("gelu-tanh", &[], -56),
+        ("gelu-tanh", &[F32_ROUNDED][..], -56),
+    ] {
+        let mut inside = per_binade(&mut g, lowest, -6 - lowest, 300);
+        inside.extend(short_patterns(lowest));
+        if name == "mish" {
+            let sign = |g: &mut Mix| (g.next() as u32) & 0x8000_0000;
+            inside.extend((0..4000).map(|_| sign(&mut g) | (1 + (g.next() % 0x7f_ffff) as u32)));
+        }
+        let (low, high) = (2f64.powi(lowest), 2f64.powi(-6));
+        for role in [Role::Forward, Role::Derivative] {
+            check_band(name, role, params, &inside, &[low, -low, high, -high]);
         }
     }
 }

@@ -19,10 +19,11 @@
 //! [`exp`]: super::exp::exp
 
 use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL};
-use super::dd::{double_word, Dd, Ev};
+use super::dd::{double_word, two_prod, Dd, Ev};
 use super::decide::{engine_tiny, rectifier_tail, Outcome};
 use super::exp::expm1;
-use super::Kind;
+use super::series::{horner, leading, BAND_LIMIT, SECH2, TANH};
+use super::{exact_f64, Kind};
 use crate::activation::{Constants, Role};
 use crate::format::Layout;
 
@@ -30,8 +31,15 @@ use crate::format::Layout;
 /// [0.044, 0.046], the ranges the closed-form thresholds below are proved for (the default
 /// constants and their binary32, binary16 and bfloat16 roundings lie inside).
 pub(super) fn kind(c: &Constants) -> Option<Kind> {
-    let cc = double_word(c.get("c"))?;
-    let kk = double_word(c.get("k"))?;
+    // A constant that is a binary64 number (`--param-rounding`) is taken exactly (r = 0): the
+    // tiny-input band's bound carries the constants' r times the leading term, which would
+    // otherwise hide rests below 2^−103 of it.
+    let word = |name: &str| match exact_f64(c.get(name).exact()) {
+        Some(f) => Some(Ev::exact(Dd::new(f))),
+        None => double_word(c.get(name)),
+    };
+    let cc = word("c")?;
+    let kk = word("k")?;
     let ok = (0.79..=0.80).contains(&cc.v.hi) && (0.044..=0.046).contains(&kk.v.hi);
     ok.then_some(Kind::GeluTanh(cc, kk))
 }
@@ -77,6 +85,79 @@ fn closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     (x < -22.0).then(|| Outcome::Fixed(engine_tiny(format, true)))
 }
 
+/// GELU-tanh or its derivative for 2^−56 ≤ |x| < 2^−6 ([`super::series`]), without exp.  With
+/// w = x² exact, u = c·x·(1 + k·w), tanh u = u + u³·Σ_(n≥1) T_n·u^(2n−2) ([`TANH`]) and sech² u =
+/// 1 − u² + u⁴·Σ_(n≥2) S_n·u^(2n−4) ([`SECH2`]), c̃ = c_h + c_l and k̃ = k_h + k_l the double-word
+/// constants:
+/// * y = x/2 + (x/2)·tanh u = x/2 + c̃w/2 + c̃k̃w²/2 + (x/2)·u³·Σ T_n·u^(2n−2): w·c_h = p + q
+///   exactly (TwoProd; w ≥ 2^−112 keeps q normal), the leading part x/2 + p/2, the rest
+///   q/2 + w·c_l/2 + p·k_h·w/2 + (x/2)·ũ³·Σ_(n≤5) T_n·ũ^(2n−2), the first omitted series term
+///   |T_6|·|u|¹³·|x|/2;
+/// * y′ = 1/2 + tanh(u)/2 + (x/2)·u′·sech² u, u′ = c·(1 + 3k·w): u/2 + x·u′/2 = c·x·(1 + 2k·w),
+///   so y′ = 1/2 + c̃x + 2c̃k̃·x·w + (u³/2)·Σ T_n·u^(2n−2) + (x·u′/2)·u²·(−1 + u²·Σ S_n·u^(2n−4));
+///   x·c_h = p + q, the leading part 1/2 + p, the rest q + x·c_l + 2p·k_h·w + the two series
+///   kept to T_5 and S_6, the first omitted terms |T_6|·|u|¹³/2 and |S_7|·|u|¹⁴·|x·u′|/2.
+///
+/// Both series alternate with decreasing terms (u² < 2^−12; ratios in [`super::series`]), so
+/// each truncation is below its first omitted term, taken at the computed ũ (within a relative
+/// 5u, u = 2^−53, of u: its 14th power within 1.01).  The rest, in binary64: ũ = c_h·x·(1 +
+/// k_h·w) carries ≤ 4.01u (c_h and k_h against c̃, k̃ count as one rounding each; k·w < 2^−16
+/// damps its own), ũ² 9.02u, ũ³ 14.03u, the degree-4 Horner sums 9.02u (γ_8 and the
+/// coefficients, Σ|T_n|ũ^(2n) within 1 + 2^−12 of |Σ T_n ũ^(2n)|), so each series term is within
+/// 25.05u of itself, p·k_h·w 4.01u, x·c_l u, u′ and −1 + ũ²·Σ S_n… a few u more at most
+/// (16.04u for the sech² term); the three or four additions add 4u of the terms' magnitude
+/// sum: 29.1u < [`super::series::REST_REL`] of that magnitude.  The constants themselves
+/// (relative r_c and r_k of c and k; 0 when exact binary64 numbers): y − x/2 and y′ − 1/2 are
+/// sums of terms of x's sign whose relative sensitivity to c or k is ≤ 1 + 2u² ≤ 1.001, and
+/// |y − x/2| ≤ 1.001·|p|/2, |y′ − 1/2| ≤ 1.001·|p|: 1.03·(r_c + r_k) times those.
+#[inline(always)]
+fn band(x: f64, c: Ev, k: Ev, role: Role) -> Outcome {
+    let (ch, kh) = (c.v.hi, k.v.hi);
+    let w = x * x;
+    let u = ch * x * (1.0 + kh * w);
+    let v = u * u;
+    let cube = u * v;
+    let u13 = (cube * v * v * v * v * v).abs();
+    let constants = 1.03 * (c.r + k.r);
+    match role {
+        Role::Forward => {
+            let (p, q) = two_prod(w, ch);
+            let low = 0.5 * q + 0.5 * (w * c.v.lo);
+            let quartic = 0.5 * p * kh * w;
+            let series = 0.5 * x * cube * horner(&TANH[..5], v);
+            let magnitude = 0.5 * q.abs() + 0.5 * (w * c.v.lo).abs() + quartic.abs() + series.abs();
+            let truncation = 1.01 * TANH[5].abs() * u13 * x.abs() * 0.5 + constants * p.abs() * 0.5;
+            leading(
+                x * 0.5,
+                p * 0.5,
+                low + quartic + series,
+                magnitude,
+                truncation,
+            )
+        }
+        Role::Derivative => {
+            let (p, q) = two_prod(x, ch);
+            let low = x * c.v.lo;
+            let cubic = 2.0 * p * kh * w;
+            let slope = ch * (1.0 + 3.0 * kh * w);
+            let tanh_part = 0.5 * cube * horner(&TANH[..5], v);
+            let sech_part = 0.5 * x * slope * v * (v * horner(&SECH2[..5], v) - 1.0);
+            let magnitude = q.abs() + low.abs() + cubic.abs() + tanh_part.abs() + sech_part.abs();
+            let truncation = 1.01
+                * (TANH[5].abs() * u13 * 0.5
+                    + SECH2[5].abs() * u13 * u.abs() * (x * slope).abs() * 0.5)
+                + constants * p.abs();
+            leading(
+                0.5,
+                p,
+                q + low + cubic + tanh_part + sech_part,
+                magnitude,
+                truncation,
+            )
+        }
+    }
+}
+
 /// gelu_tanh(x) or its derivative.
 #[inline(always)]
 pub fn gelu_tanh(format: Layout, x: f64, c: Ev, k: Ev, role: Role) -> Outcome {
@@ -85,6 +166,9 @@ pub fn gelu_tanh(format: Layout, x: f64, c: Ev, k: Ev, role: Role) -> Outcome {
     }
     if let Some(o) = closed(format, x, role) {
         return o;
+    }
+    if x.abs() < BAND_LIMIT {
+        return band(x, c, k, role);
     }
     let w = x * x;
     let cube = Dd::prod(w, x);

@@ -11,9 +11,10 @@
 //! u < 2^−898 (x < −623), mish = x·u·(1 + O(u)) and mish′ = u·(1 + x)·(1 + O(u)) (|x|/|1 + x| ≈ 1),
 //! the dropped relative terms far below [`DROPPED`].  Bounds compose through [`Ev`].
 
-use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL};
-use super::dd::{Dd, Ev};
+use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL, TWO_M53};
+use super::dd::{constant, Dd, Ev, SLACK};
 use super::decide::{engine_tiny, rectifier_tail, Outcome};
+use super::series::horner;
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -39,6 +40,91 @@ fn closed(format: Layout, x: f64, role: Role) -> Option<Outcome> {
     }
 }
 
+/// Inputs with |x| below 2^−6 take [`band`].
+pub const BAND: f64 = 0.015625;
+
+/// mish(x) = x·g(x), g = tanh(softplus x) = (t² + 2t)/(t² + 2t + 2), t = e^x, has the Taylor
+/// series g = Σ a_n·xⁿ = 3/5 + 8x/25 − 2x²/125 − 86x³/1875 − … (rational coefficients: sympy's
+/// `series` of that quotient, each checked against mpmath at 150 digits).  These are a_2 …
+/// a_10, so mish = 3x/5 + 8x²/25 + x³·R(x), R = Σ_(n≥2) a_n·x^(n−2).
+const FORWARD: [f64; 9] = [
+    -2.0 / 125.0,
+    -86.0 / 1875.0,
+    -7.0 / 18750.0,
+    733.0 / 93750.0,
+    2413.0 / 2812500.0,
+    -124979.0 / 98437500.0,
+    -1164467.0 / 3937500000.0,
+    33303757.0 / 177187500000.0,
+    18841487.0 / 253125000000.0,
+];
+
+/// (n + 1)·a_n for n = 2 … 10: mish′ = g + x·g′ = 3/5 + 16x/25 + x²·R′(x),
+/// R′ = Σ_(n≥2) (n + 1)·a_n·x^(n−2).
+const DERIVATIVE: [f64; 9] = [
+    -6.0 / 125.0,
+    -344.0 / 1875.0,
+    -7.0 / 3750.0,
+    733.0 / 15625.0,
+    16891.0 / 2812500.0,
+    -249958.0 / 24609375.0,
+    -1164467.0 / 437500000.0,
+    33303757.0 / 17718750000.0,
+    207256357.0 / 253125000000.0,
+];
+
+/// 3/5, 8/25 and 16/25 as double-word constants (relative 2^−104 each).
+fn fractions() -> &'static [Ev; 3] {
+    static F: std::sync::OnceLock<[Ev; 3]> = std::sync::OnceLock::new();
+    F.get_or_init(|| {
+        let q = |n: u32, d: u32| constant(&(rug::Float::with_val(300, n) / d));
+        [q(3, 5), q(8, 25), q(16, 25)]
+    })
+}
+
+/// mish or mish′ for 0 < |x| < 2^−6 (nonzero finite x ≥ 2^−149 in magnitude), without exp:
+/// y = x·(3/5 + x·(8/25 + x·R)) or y′ = 3/5 + x·(16/25 + x·R′), R and R′ in binary64 by Horner,
+/// the rest in double-word.
+///
+/// Truncation.  g = 1 − 2/h, h(z) = e^(2z) + 2e^z + 2, is analytic for |z| < 2.38 (the zeros
+/// of h are z = ln √2 + i(±3π/4 + 2πm)).  On |z| = 2 the minimum of |h| over 200 000 equally
+/// spaced points is 1.1166 (mpmath, 30 digits) and |h′| ≤ 2e⁴ + 2e² < 124 there, so |h| ≥
+/// 1.1166 − 124·(2π·2/200 000)/2 > 1.112 and |g| ≤ 1 + 2/1.112 < 2.8 =: M; Cauchy's estimate
+/// gives |a_n| ≤ M/2ⁿ.  With τ = |x|/2 ≤ 2^−7 the omitted tails are ≤ M·τ^11/(x²(1 − τ)) (R)
+/// and ≤ 12·M·τ^11/(x²(1 − τ)²) (R′: n + 1 = 12 + j ≤ 12·(1 + j) for n = 11 + j), growing with
+/// |x|; relative to |R| ≥ 0.01528 and |R′| ≥ 0.04513 (the first coefficient less the others'
+/// magnitudes at |x| = 2^−6) they are at most 2^−57.5 and 2^−55.4 at the band's edge.
+///
+/// Rounding.  Σ|b_k|·|x|^k over the kept coefficients is at most 0.0168 ≤ 1.094·|R| and
+/// 0.0509 ≤ 1.127·|R′| (same bounds; checked from the tables by `band_constants` below), so
+/// Horner of degree 8 (Higham, Accuracy and Stability of
+/// Numerical Algorithms, eq. 5.3: γ_16) plus the coefficients' own roundings err by
+/// ≤ 1.13·17.1u·|R| < 20u·|R| (u = 2^−53); with the truncation < 21u·|R|, and with the product
+/// by x (one more u) |x·R̂ − x·R| ≤ 23u·|x|·|R|.  That error enters y multiplied by x² (forward)
+/// or y′ by x (derivative); relative to |y| ≥ 0.594·|x| (3/5 − 8/25·2^−6 − 0.0168·2^−12) and
+/// |y′| ≥ 0.589 (3/5 − 16/25·2^−6 − 0.0509·2^−12) it is ≤ 23u·0.0168/0.594·x² < 0.66u·x² and
+/// ≤ 23u·0.0509/0.589·x² < 2u·x²: recorded as 4u·x².  The double-word steps (DWPlusFP,
+/// DWTimesFP, AccurateDWPlusDW, DWTimesFP: each within OP of its result, of which the first two
+/// weigh |x·(8/25 + …)|/0.589 < 0.011 in the value) and the constants (2^−104 each; 3/5 weighs
+/// ≤ 1.02) add ≤ 2.03·OP + 1.03·2^−104 < 2^−98: recorded as 2^−97.  |x| ≥ 2^−149 keeps every
+/// product, part and error term of these steps above 2^−210, so none underflows.
+#[inline(always)]
+fn band(x: f64, role: Role) -> Outcome {
+    let [three_fifths, eight_25, sixteen_25] = fractions();
+    let (coefficients, slope) = match role {
+        Role::Forward => (&FORWARD, eight_25),
+        Role::Derivative => (&DERIVATIVE, sixteen_25),
+    };
+    let rest = x * horner(coefficients, x);
+    let g = slope.v.add_f(rest).mul_f(x).add(three_fifths.v);
+    let v = match role {
+        Role::Forward => g.mul_f(x),
+        Role::Derivative => g,
+    };
+    let r = (6.310887241768095e-30 + 4.0 * TWO_M53 * x * x) * SLACK; // 2^-97 + 4u·x²
+    Outcome::Value(Ev { v, r }, 0)
+}
+
 /// mish(x) or mish′(x).
 #[inline(always)]
 pub fn mish(format: Layout, x: f64, role: Role) -> Outcome {
@@ -48,6 +134,9 @@ pub fn mish(format: Layout, x: f64, role: Role) -> Outcome {
     }
     if let Some(o) = closed(format, x, role) {
         return o;
+    }
+    if a < BAND {
+        return band(x, role);
     }
     let xe = Ev::exact(Dd::new(x));
     let t = decay(Dd::new(a));
@@ -87,6 +176,60 @@ pub fn mish(format: Layout, x: f64, role: Role) -> Outcome {
         Role::Derivative => {
             let inner = u2p.mul(p2).add(xe.mul(u1).mul_f(4.0));
             Outcome::Value(t.m.mul(inner).div(p2.mul(p2)), t.k)
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use rug::ops::Pow;
+    use rug::Float;
+
+    /// The figures the band's bound quotes: Σ|b_k|·|x|^k and |b_0| − Σ_(k≥1)|b_k|·|x|^k at
+    /// |x| = 2^−6, for R and R′.
+    #[test]
+    fn band_constants() {
+        let b = BAND;
+        for (table, most, least) in [(&FORWARD, 0.0168, 0.01528), (&DERIVATIVE, 0.0509, 0.04513)] {
+            let tail: f64 = (1..9).map(|k| table[k].abs() * b.powi(k as i32)).sum();
+            assert!(table[0].abs() + tail <= most * 0.9999, "{table:?}");
+            assert!(table[0].abs() - tail >= least, "{table:?}");
+            assert!((table[0].abs() + tail) / (table[0].abs() - tail) <= 1.127 + 1e-4);
+        }
+    }
+
+    /// The tables against MPFR's mish at x = ±0.1 (inside the series' disc |x| < 2.38, where
+    /// every kept term is visible): the difference is the omitted tail, |a_11|·0.1^12 ≈
+    /// 2.4·10^−17 (forward) and 12·|a_11|·0.1^11 ≈ 2.9·10^−15 (derivative), while a wrong a_10
+    /// would show as 7.4·10^−16 and 8.2·10^−14.
+    #[test]
+    fn series_matches_mpfr() {
+        let p = 300;
+        for x in [0.1, -0.1] {
+            let xf = Float::with_val(p, x);
+            let sp = Float::with_val(p, xf.clone().exp()).ln_1p();
+            let th = Float::with_val(p, sp.clone().tanh());
+            let mish = Float::with_val(p, &th * &xf);
+            let sig = Float::with_val(p, 1) / (Float::with_val(p, -&xf).exp() + 1u32);
+            let slope = th + Float::with_val(p, &xf * sp.sech().square()) * sig;
+            let series = |table: &[f64], power: i32| {
+                let mut r = Float::with_val(p, 0);
+                for &c in table.iter().rev() {
+                    r = r * x + c;
+                }
+                r * Float::with_val(p, x).pow(power)
+            };
+            let fwd = series(&FORWARD, 3)
+                + Float::with_val(p, 3) / 5u32 * x
+                + Float::with_val(p, 8) / 25u32 * (x * x);
+            let der = series(&DERIVATIVE, 2)
+                + Float::with_val(p, 3) / 5u32
+                + Float::with_val(p, 16) / 25u32 * x;
+            let ef = Float::with_val(p, fwd - &mish).abs().to_f64();
+            let ed = Float::with_val(p, der - &slope).abs().to_f64();
+            assert!(ef < 6e-17, "forward at {x}: {ef:e}");
+            assert!(ed < 7e-15, "derivative at {x}: {ed:e}");
         }
     }
 }
