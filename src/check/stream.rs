@@ -243,37 +243,40 @@ impl Stream {
         q: &Point,
         offset: usize,
     ) -> bool {
+        // Plain branches rather than closures: a closure here was compiled out of line,
+        // without the layout's constants.
         let (a, b) = (p.reference, q.reference);
-        let consecutive = q.input.wrapping_sub(p.input) as usize == offset
+        if !(q.input.wrapping_sub(p.input) as usize == offset
             && l.sign_and_exponent(q.input) == l.sign_and_exponent(p.input)
             && q.left.is_none()
-            && q.second.is_none();
-        let equal = || {
-            q.output == p.output
-                && a.bits == b.bits
-                && a.precision == b.precision
-                && match (a.exact, b.exact) {
-                    (Some(x), Some(y)) => {
-                        x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
-                    }
-                    (None, None) => true,
-                    _ => false,
+            && q.second.is_none())
+        {
+            return false;
+        }
+        let equal = q.output == p.output
+            && a.bits == b.bits
+            && a.precision == b.precision
+            && match (a.exact, b.exact) {
+                (Some(x), Some(y)) => {
+                    x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
                 }
-        };
-        let both_exact = || {
-            let (before, now) = (l.ordinal(previous.reference.bits), l.ordinal(b.bits));
-            // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
-            let forward = if l.is_sign_negative(q.input) {
-                now <= before
-            } else {
-                now >= before
+                (None, None) => true,
+                _ => false,
             };
-            p_exact
-                && Self::exact(l, q)
-                && forward
-                && matches!(l.classify(b.bits), Class::Normal | Class::Zero)
+        if equal {
+            return true;
+        }
+        if !p_exact || !Self::exact(l, q) {
+            return false;
+        }
+        let (before, now) = (l.ordinal(previous.reference.bits), l.ordinal(b.bits));
+        // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
+        let forward = if l.is_sign_negative(q.input) {
+            now <= before
+        } else {
+            now >= before
         };
-        consecutive && (equal() || both_exact())
+        forward && matches!(l.classify(b.bits), Class::Normal | Class::Zero)
     }
 
     /// Adds a run of points (consecutive inputs, checked by [`Self::add_all`]): either every
