@@ -432,6 +432,7 @@ impl RunBuilder {
         }
         self.push_any(bits, c);
     }
+    /// The general step of [`Self::push`]: runs opened, joined or ended.
     fn push_any(&mut self, bits: u32, c: Option<Classes>) {
         let mismatch = c.filter(|(k, r)| k != r);
         let joins = self.joins(bits, mismatch);
