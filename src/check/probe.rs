@@ -258,6 +258,7 @@ const INLINE: u64 = 2 * FOLD_TASK as u64;
 /// inputs whose kernel arguments could not be computed.
 struct Called {
     inputs: Vec<u32>,
+    /// Per input; empty when no input has one (one-argument roles).
     seconds: Vec<Option<u32>>,
     outputs: Vec<Option<u32>>,
     failures: Vec<(u32, String)>,
@@ -286,10 +287,12 @@ impl RoleReferences {
         points.clear();
         for i in range {
             let x = called.inputs[i];
-            match self.reference_with(x, called.seconds[i]) {
+            // No second arguments at all: a one-argument role (see `batch_arguments`).
+            let second = called.seconds.get(i).copied().flatten();
+            match self.reference_with(x, second) {
                 Ok((reference, left)) => points.push(Point {
                     input: x,
-                    second: called.seconds[i],
+                    second,
                     output: called.outputs.get(i).copied().flatten(),
                     reference,
                     left,
@@ -303,8 +306,9 @@ impl RoleReferences {
     /// arguments fail go to `failures`.
     fn batch_arguments(&self, batch: Vec<u32>, failures: &mut Vec<(u32, String)>) -> Arguments {
         if matches!(self.role, CheckRole::Forward | CheckRole::Derivative) {
-            let seconds = vec![None; batch.len()];
-            return (batch.clone(), batch, seconds);
+            // The inputs are the first arguments and there are no second ones: no copies, no
+            // per-input `None`s (they cost a zeroed buffer per batch).
+            return (batch, None, Vec::new());
         }
         let computed: Vec<Result<(u32, Option<u32>), String>> =
             batch.par_iter().map(|&x| self.arguments(x)).collect();
@@ -321,7 +325,7 @@ impl RoleReferences {
                 Err(e) => failures.push((x, e)),
             }
         }
-        (kept, firsts, seconds)
+        (kept, Some(firsts), seconds)
     }
 
     /// Calls the kernel on one batch of inputs: the called batch, and the batch's crashes
@@ -333,11 +337,17 @@ impl RoleReferences {
     ) -> (Called, Vec<KernelCrash>) {
         let mut failures = Vec::new();
         let (kept, firsts, seconds) = self.batch_arguments(batch, &mut failures);
-        let second: Option<Vec<u32>> = seconds.iter().copied().collect();
+        let firsts = firsts.as_deref().unwrap_or(&kept);
+        // Empty `seconds` (one-argument roles) means no second argument, not an empty one.
+        let second: Option<Vec<u32>> = if seconds.is_empty() {
+            None
+        } else {
+            seconds.iter().copied().collect()
+        };
         let out = if firsts.is_empty() {
             KernelOutput::default()
         } else {
-            kernel.run(&firsts, second.as_deref())
+            kernel.run(firsts, second.as_deref())
         };
         let crashes = out
             .crashes
@@ -357,8 +367,9 @@ impl RoleReferences {
     }
 }
 
-/// Inputs kept, first arguments, second arguments.
-type Arguments = (Vec<u32>, Vec<u32>, Vec<Option<u32>>);
+/// Inputs kept, first arguments (`None`: the inputs themselves), second arguments (empty:
+/// none, for every input).
+type Arguments = (Vec<u32>, Option<Vec<u32>>, Vec<Option<u32>>);
 
 /// Kernel batches of a sweep given as sorted runs `lo..=hi` of consecutive bit patterns.
 pub fn run_batches<'a>(

@@ -10,6 +10,10 @@ use serde::{Deserialize, Serialize};
 mod valid;
 use std::collections::BTreeMap;
 
+/// binary32's layout as a constant: the per-point work of binary32 sweeps is compiled with
+/// its field widths folded in (the layouts of other formats are read at run time).
+const BINARY32: Layout = Layout::new(8, 23);
+
 /// What an exhaustive sweep keeps of its points besides the accumulators: the few points
 /// that special-value rules and kink reports look at.
 #[derive(Default, Serialize, Deserialize)]
@@ -36,6 +40,7 @@ impl Kept {
     }
 
     /// Adds the next point in bit order (`l` the inputs' layout, `out` the outputs').
+    #[inline(always)]
     pub fn add(&mut self, l: Layout, out: Layout, p: &Point) {
         if Self::always(l, p) {
             self.points.insert(p.input, p.clone());
@@ -151,26 +156,44 @@ impl Stream {
 
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        self.accuracy.add(p);
+        self.add_in(self.layout, self.il(), p);
+    }
+
+    /// [`Self::add`] with the output and input layouts passed in (this stream's own).
+    #[inline(always)]
+    fn add_in(&mut self, l: Layout, il: Layout, p: &Point) {
+        self.accuracy.add_in(l, il, p);
         if let Some(s) = &mut self.shape {
-            s.add(p);
+            s.add_in(l, il, p);
         }
         if let Some(r) = &mut self.runs {
-            r.add(p);
+            r.add_in(l, p);
         }
-        self.kept.add(self.il(), self.layout, p);
+        self.kept.add(il, l, p);
     }
 
     /// Adds points in bit order, taking runs at once (see [`Self::add_run`]).
     pub fn add_all(&mut self, points: &[Point]) {
+        // One copy of the per-point path with binary32's field widths as constants, one with
+        // the layout read at run time.
+        if self.layout == BINARY32 && self.in_layout.is_none() {
+            self.add_all_in(BINARY32, BINARY32, points);
+        } else {
+            self.add_all_in(self.layout, self.il(), points);
+        }
+    }
+
+    /// [`Self::add_all`] with the output and input layouts passed in (this stream's own).
+    #[inline(always)]
+    fn add_all_in(&mut self, l: Layout, il: Layout, points: &[Point]) {
         let mut i = 0;
         while i < points.len() {
             let p = &points[i];
             let mut end = i + 1;
-            if self.runnable(p) {
-                let exact = self.exact(p);
+            if self.runnable(l, p) {
+                let exact = Self::exact(l, p);
                 while end < points.len()
-                    && self.continues(p, exact, &points[end - 1], &points[end], end - i)
+                    && self.continues(l, p, exact, &points[end - 1], &points[end], end - i)
                 {
                     end += 1;
                 }
@@ -178,7 +201,7 @@ impl Stream {
             if end - i > 1 {
                 self.add_run(&points[i..end]);
             } else {
-                self.add(p);
+                self.add_in(l, il, p);
             }
             i = end;
         }
@@ -187,8 +210,7 @@ impl Stream {
     /// Whether a point can start a run: finite nonzero input, finite output, a reference that
     /// is finite and not subnormal (such points are kept one by one), no left-hand value.
     #[inline(always)]
-    fn runnable(&self, p: &Point) -> bool {
-        let l = self.layout;
+    fn runnable(&self, l: Layout, p: &Point) -> bool {
         // Runs compare inputs and outputs in one layout; mixed formats go point by point.
         self.in_layout.is_none()
             && p.left.is_none()
@@ -200,11 +222,11 @@ impl Stream {
 
     /// Whether the output is the reference and equals the exact value: error 0.
     #[inline(always)]
-    fn exact(&self, p: &Point) -> bool {
+    fn exact(l: Layout, p: &Point) -> bool {
         let r = p.reference;
         p.output == Some(r.bits)
             && r.exact
-                .is_some_and(|e| e.approx.to_bits() == self.layout.to_f64(r.bits).to_bits())
+                .is_some_and(|e| e.approx.to_bits() == l.to_f64(r.bits).to_bits())
     }
 
     /// Whether `q`, `offset` points after the run's first point `p` (just after `previous`),
@@ -214,44 +236,47 @@ impl Stream {
     #[inline(always)]
     fn continues(
         &self,
+        l: Layout,
         p: &Point,
         p_exact: bool,
         previous: &Point,
         q: &Point,
         offset: usize,
     ) -> bool {
-        let l = self.layout;
+        // Plain branches rather than closures: a closure here was compiled out of line,
+        // without the layout's constants.
         let (a, b) = (p.reference, q.reference);
-        let consecutive = q.input.wrapping_sub(p.input) as usize == offset
+        if !(q.input.wrapping_sub(p.input) as usize == offset
             && l.sign_and_exponent(q.input) == l.sign_and_exponent(p.input)
             && q.left.is_none()
-            && q.second.is_none();
-        let equal = || {
-            q.output == p.output
-                && a.bits == b.bits
-                && a.precision == b.precision
-                && match (a.exact, b.exact) {
-                    (Some(x), Some(y)) => {
-                        x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
-                    }
-                    (None, None) => true,
-                    _ => false,
+            && q.second.is_none())
+        {
+            return false;
+        }
+        let equal = q.output == p.output
+            && a.bits == b.bits
+            && a.precision == b.precision
+            && match (a.exact, b.exact) {
+                (Some(x), Some(y)) => {
+                    x.binade == y.binade && x.approx.to_bits() == y.approx.to_bits()
                 }
-        };
-        let both_exact = || {
-            let (before, now) = (l.ordinal(previous.reference.bits), l.ordinal(b.bits));
-            // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
-            let forward = if l.is_sign_negative(q.input) {
-                now <= before
-            } else {
-                now >= before
+                (None, None) => true,
+                _ => false,
             };
-            p_exact
-                && self.exact(q)
-                && forward
-                && matches!(l.classify(b.bits), Class::Normal | Class::Zero)
+        if equal {
+            return true;
+        }
+        if !p_exact || !Self::exact(l, q) {
+            return false;
+        }
+        let (before, now) = (l.ordinal(previous.reference.bits), l.ordinal(b.bits));
+        // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
+        let forward = if l.is_sign_negative(q.input) {
+            now <= before
+        } else {
+            now >= before
         };
-        consecutive && (equal() || both_exact())
+        forward && matches!(l.classify(b.bits), Class::Normal | Class::Zero)
     }
 
     /// Adds a run of points (consecutive inputs, checked by [`Self::add_all`]): either every

@@ -219,6 +219,7 @@ struct Judged {
     reference: u32,
 }
 
+#[inline(always)]
 fn judge(l: Layout, output: u32, r: &Reference) -> Option<Judged> {
     let exact = r.exact?;
     if !l.is_finite(r.bits) {
@@ -241,6 +242,7 @@ fn judge(l: Layout, output: u32, r: &Reference) -> Option<Judged> {
 }
 
 /// The error at a point: at a kink either one-sided value is accepted, whichever is closer.
+#[inline(always)]
 fn judge_point(l: Layout, p: &Point, output: u32) -> Option<Judged> {
     let right = judge(l, output, &p.reference);
     let left = p.left.as_ref().and_then(|l_ref| judge(l, output, l_ref));
@@ -635,7 +637,16 @@ impl AccuracyAcc {
 
     /// Adds one point; points must come in strictly increasing input bit order.
     pub fn add(&mut self, p: &Point) {
-        self.add_points(p, p.input, 1);
+        self.add_points(self.layout, self.in_layout(), p, p.input, 1);
+    }
+
+    /// [`Self::add`] with the output and input layouts passed in (they must be this
+    /// accumulator's): a caller that knows them at compile time gets them folded into the
+    /// per-point arithmetic.
+    #[inline(always)]
+    pub fn add_in(&mut self, l: Layout, il: Layout, p: &Point) {
+        debug_assert!(l == self.layout && il == self.in_layout());
+        self.add_points(l, il, p, p.input, 1);
     }
 
     /// Adds a run of points (consecutive bit patterns of one sign and one exponent field,
@@ -658,17 +669,15 @@ impl AccuracyAcc {
             }
             return;
         }
-        self.add_points(p, last.input, run.len() as u64);
+        self.add_points(self.layout, l, p, last.input, run.len() as u64);
     }
 
     /// [`Self::add`] for `n` equal points from p.input to `last` (n > 1 only on a grid and
     /// without listing, see [`Self::add_run`]).
     #[inline(always)]
-    fn add_points(&mut self, p: &Point, last: u32, n: u64) {
+    fn add_points(&mut self, l: Layout, il: Layout, p: &Point, last: u32, n: u64) {
         let format = self.format;
         let input_format = self.input_format();
-        let l = self.layout;
-        let il = self.in_layout();
         debug_assert!(self.last_input.map_or(true, |before| before < p.input));
         self.last_input = Some(last);
         let input_finite = il.is_finite(p.input);

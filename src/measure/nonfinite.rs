@@ -88,6 +88,7 @@ pub enum ValueClass {
 }
 
 impl ValueClass {
+    #[inline(always)]
     fn of(l: Layout, bits: u32) -> ValueClass {
         if l.is_finite(bits) {
             return ValueClass::Finite;
@@ -114,6 +115,7 @@ impl ValueClass {
 pub type Classes = (ValueClass, ValueClass);
 
 /// The classes of a point (`None` when the kernel crashed on it).
+#[inline(always)]
 pub fn classes(l: Layout, p: &Point) -> Option<Classes> {
     p.output
         .map(|o| (ValueClass::of(l, o), ValueClass::of(l, p.reference.bits)))
@@ -421,7 +423,17 @@ impl RunBuilder {
         self.previous = other.previous;
         self.after_hole = other.after_hole;
     }
+    /// Adds the next known point: the common case (no mismatch, no hole before it, not the
+    /// first point) only moves the previous point along, as the general path would.
+    #[inline(always)]
     fn push(&mut self, bits: u32, c: Option<Classes>) {
+        if !self.after_hole && self.first.is_some() && c.map_or(true, |(k, r)| k == r) {
+            return self.moved(bits, c);
+        }
+        self.push_any(bits, c);
+    }
+    /// The general step of [`Self::push`]: runs opened, joined or ended.
+    fn push_any(&mut self, bits: u32, c: Option<Classes>) {
         let mismatch = c.filter(|(k, r)| k != r);
         let joins = self.joins(bits, mismatch);
         let hole = std::mem::take(&mut self.after_hole);
@@ -524,8 +536,14 @@ impl NonFiniteStream {
     }
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        self.builder
-            .push(p.input, classes(self.out.unwrap_or(self.layout), p));
+        self.add_in(self.out.unwrap_or(self.layout), p);
+    }
+    /// [`Self::add`] with the output layout passed in (it must be this stream's), for callers
+    /// that know it at compile time.
+    #[inline(always)]
+    pub fn add_in(&mut self, out: Layout, p: &Point) {
+        debug_assert!(out == self.out.unwrap_or(self.layout));
+        self.builder.push(p.input, classes(out, p));
     }
     /// Adds the points of inputs `p.input..=last`, each with p's output and reference, both
     /// finite: none is a mismatch, so the run only moves the previous point along.

@@ -133,11 +133,14 @@ impl ShapeAcc {
     }
 
     /// The pair a < b (in x) of neighbouring evaluated inputs.
-    #[inline]
     fn pair(&mut self, a: Seen, b: Seen) -> Option<Violation> {
-        let l = self.layout;
+        self.pair_in(self.layout, self.in_layout(), a, b)
+    }
+
+    /// [`Self::pair`] with the accumulator's layouts passed in.
+    #[inline(always)]
+    fn pair_in(&mut self, l: Layout, il: Layout, a: Seen, b: Seen) -> Option<Violation> {
         let (ka, kb) = (l.ordinal(a.output), l.ordinal(b.output));
-        let il = self.in_layout();
         let adjacent = il.ordinal(b.input) - il.ordinal(a.input) <= 1;
         if adjacent && l.is_finite(a.reference) && l.is_finite(b.reference) {
             let kernel_steps = ka.abs_diff(kb);
@@ -171,11 +174,17 @@ impl ShapeAcc {
 
     /// Adds the next point in bit order.
     pub fn add(&mut self, p: &Point) {
-        let l = self.layout;
+        self.add_in(self.layout, self.in_layout(), p);
+    }
+
+    /// [`Self::add`] with the output and input layouts passed in (they must be this
+    /// accumulator's), for callers that know them at compile time.
+    #[inline(always)]
+    pub fn add_in(&mut self, l: Layout, il: Layout, p: &Point) {
+        debug_assert!(l == self.layout && il == self.in_layout());
         let Some(output) = p.output.filter(|&o| l.is_finite(o)) else {
             return;
         };
-        let il = self.in_layout();
         if !il.is_finite(p.input) {
             return;
         }
@@ -193,7 +202,7 @@ impl ShapeAcc {
         if let Some(prev) = last {
             // Bit order is increasing x for x ≥ 0 and decreasing x for x < 0.
             let (a, b) = if negative { (seen, prev) } else { (prev, seen) };
-            let found = self.pair(a, b);
+            let found = self.pair_in(l, il, a, b);
             let side = if negative {
                 &mut self.negative
             } else {
