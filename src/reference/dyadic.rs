@@ -59,6 +59,27 @@ impl Dyadic {
         Some(Dyadic { m, e: self.e + f })
     }
 
+    /// (self + other)/2 exactly, `None` when the aligned sum needs more than 128 bits.
+    pub fn midpoint(self, other: Dyadic) -> Option<Dyadic> {
+        let (x, y) = (self.odd(), other.odd());
+        let e = x.e.min(y.e);
+        let (sx, sy) = ((x.e - e) as u32, (y.e - e) as u32);
+        if sx > x.m.leading_zeros() || sy > y.m.leading_zeros() {
+            return None;
+        }
+        let m = (x.m << sx).checked_add(y.m << sy)?;
+        Some(Dyadic { m, e: e - 1 })
+    }
+
+    /// The same number with an odd significand.
+    fn odd(self) -> Dyadic {
+        let zeros = self.m.trailing_zeros();
+        Dyadic {
+            m: self.m >> zeros,
+            e: self.e + zeros as i32,
+        }
+    }
+
     /// ⌊log2 v⌋.
     #[inline]
     pub fn floor_log2(self) -> i32 {
@@ -192,6 +213,16 @@ mod tests {
         // Binary64 subnormals round at their own quantum 2^-1074: 3·2^-1076 = 0.75·2^-1074 → 2^-1074.
         let tiny = Dyadic { m: 3, e: -1076 };
         assert_eq!(tiny.nearest_f64(true), Some(-f64::from_bits(1)));
+    }
+
+    #[test]
+    fn midpoints_are_exact() {
+        // (3·2^-4 + 1·2^2)/2 = (3 + 64)·2^-5 = 67·2^-5.
+        let m = Dyadic { m: 3, e: -4 }.midpoint(Dyadic { m: 4, e: 0 });
+        assert_eq!(m, Some(Dyadic { m: 67, e: -5 }));
+        // Too far apart for 128 bits.
+        let far = Dyadic { m: 3, e: -200 }.midpoint(Dyadic { m: 3, e: 0 });
+        assert_eq!(far, None);
     }
 
     #[test]

@@ -2,7 +2,9 @@
 //! times the exact b, rounded once by the same Ziv loop (b enters as the engine's exact scale).
 
 use super::dyadic::{odd_significand, Dyadic};
-use super::engine::{saturated, Evaluator, Reference, ReferenceError, MAX_PRECISION};
+use super::engine::{
+    saturated, Evaluator, Reference, ReferenceError, APPROX_PRECISION_CAP, MAX_PRECISION,
+};
 use super::interval::Ival;
 use crate::activation::{Constants, Ctx, Gated, GatedRole, Limit, Value};
 use crate::format::{Class, ExactValue, Format, Layout};
@@ -31,6 +33,10 @@ struct FastAct {
     large: Dyadic,
     /// What the reference reports as its deciding precision (the engine's, for equal output).
     precision: u32,
+    /// The ends are exact and the same at every working precision of the Ziv loop (a tail
+    /// bound such as "below 2^−1080"): the engine then never narrows them and takes the
+    /// binary64 approximation from their midpoint at [`APPROX_PRECISION_CAP`] bits.
+    fixed: bool,
 }
 
 impl FastAct {
@@ -53,6 +59,7 @@ impl FastAct {
             small: Dyadic::from_float(near, false)?,
             large: Dyadic::from_float(far, true)?,
             precision: PREPARED_PRECISION,
+            fixed: false,
         })
     }
 
@@ -80,14 +87,19 @@ impl FastAct {
         } else {
             return None;
         };
-        let approx = lo.nearest_f64(negative)?;
-        if hi.nearest_f64(negative)? != approx {
-            return None;
-        }
+        let (approx, precision) = match (lo.nearest_f64(negative)?, hi.nearest_f64(negative)?) {
+            (x, y) if x == y => (x, self.precision),
+            // `Ival::approx_f64`: RN_binary64 of the midpoint, exact here (the sum fits).
+            _ if self.fixed => (
+                lo.midpoint(hi)?.nearest_f64(negative)?,
+                APPROX_PRECISION_CAP,
+            ),
+            _ => return None,
+        };
         Some(Reference {
             bits,
             exact: Some(ExactValue { approx, binade }),
-            precision: self.precision,
+            precision,
         })
     }
 }
@@ -211,6 +223,7 @@ impl PairEvaluator {
             .gated
             .act()
             .eval(&self.point(a), self.role.inner().0, &ctx);
+        let enclosed = matches!(value, Value::Enclosed(_));
         let act = match value {
             Value::Exact(q) => {
                 let fast = Dyadic::from_rational(&q)
@@ -220,6 +233,7 @@ impl PairEvaluator {
                         small: d,
                         large: d,
                         precision: 0,
+                        fixed: false,
                     });
                 return Prepared { fast, ..none };
             }
@@ -228,7 +242,13 @@ impl PairEvaluator {
                 Ival::rational(&base, PREPARED_PRECISION + 64).add(&delta, PREPARED_PRECISION + 64)
             }
         };
-        let fast = integer.then(|| FastAct::of(&act)).flatten();
+        let fast = integer
+            .then(|| FastAct::of(&act))
+            .flatten()
+            .map(|x| FastAct {
+                fixed: enclosed && self.fixed_enclosure(a, &act),
+                ..x
+            });
         Prepared {
             act: Some(act),
             fast,
@@ -270,6 +290,38 @@ impl PairEvaluator {
             }
         }
         self.reference(p.a, b)
+    }
+
+    /// Whether act(a)'s 128-bit enclosure is a wide bound (over 2^−64 relative) with exact
+    /// 104-bit ends that the evaluation returns unchanged at every precision the Ziv loop
+    /// tries up to [`APPROX_PRECISION_CAP`] (checked once per a, only for wide bounds).
+    fn fixed_enclosure(&self, a: u32, iv: &Ival) -> bool {
+        let width = Float::with_val(64, &iv.hi - &iv.lo);
+        let tight = Float::with_val(64, iv.lo.abs_ref()) >> 64u32;
+        let exact = |v: &Float| Dyadic::from_float(v, false) == Dyadic::from_float(v, true);
+        if width <= tight || !exact(&iv.lo) || !exact(&iv.hi) {
+            return false;
+        }
+        let mut prec = 64;
+        while prec <= APPROX_PRECISION_CAP {
+            let ctx = Ctx {
+                prec,
+                constants: self.constants(),
+            };
+            let same = match self
+                .gated
+                .act()
+                .eval(&self.point(a), self.role.inner().0, &ctx)
+            {
+                Value::Enclosed(j) => j.lo == iv.lo && j.hi == iv.hi,
+                _ => false,
+            };
+            if !same {
+                return false;
+            }
+            prec *= 2;
+        }
+        true
     }
 
     /// The integer path of [`PairEvaluator::reference_prepared`] alone: the reference at
