@@ -382,7 +382,7 @@ fn nearest_f64(q: &Rational) -> f64 {
 /// Beyond this working precision the approximation is taken from the interval's midpoint even if
 /// its ends still round to different binary64 values (only a value within 2^−4096 of a binary64
 /// midpoint needs it).
-const APPROX_PRECISION_CAP: u32 = 4096;
+pub(crate) const APPROX_PRECISION_CAP: u32 = 4096;
 
 /// RN_binary64 of the value enclosed by `iv`, once both ends agree on it; `None` asks the Ziv
 /// loop for more precision. The measures then see exactly RN_binary64(y), whichever path

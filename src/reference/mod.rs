@@ -2,6 +2,7 @@
 //! target format.
 
 mod constant;
+mod dyadic;
 mod engine;
 pub mod fast;
 mod interval;

@@ -1,10 +1,13 @@
 //! References of the gated functions y(a, b) = act(a)·b: the unary activation's exact value
 //! times the exact b, rounded once by the same Ziv loop (b enters as the engine's exact scale).
 
-use super::engine::{saturated, Evaluator, Reference, ReferenceError, MAX_PRECISION};
+use super::dyadic::{odd_significand, Dyadic};
+use super::engine::{
+    saturated, Evaluator, Reference, ReferenceError, APPROX_PRECISION_CAP, MAX_PRECISION,
+};
 use super::interval::Ival;
 use crate::activation::{Constants, Ctx, Gated, GatedRole, Limit, Value};
-use crate::format::{Class, ExactValue, Format};
+use crate::format::{Class, ExactValue, Format, Layout};
 use rug::{Float, Rational};
 
 /// Working precision of a prepared act(a): 128 bits leave 104 guard bits over binary32.
@@ -14,6 +17,91 @@ pub const PREPARED_PRECISION: u32 = 128;
 pub struct Prepared {
     a: u32,
     act: Option<Ival>,
+    /// The same enclosure (or exact value) in integers, for the allocation-free path.
+    fast: Option<FastAct>,
+    /// The reference of act(a)·b for finite b of each sign (+, −) when act(a) is exactly zero.
+    zero: Option<[Reference; 2]>,
+    /// The reference for every b when the role ignores b (`derivative-b` is act(a)).
+    every: Option<Reference>,
+}
+
+/// |act(a)| between two exact binary numbers (outward ends of the MPFR enclosure, or both the
+/// exact value), with act(a)'s sign.
+struct FastAct {
+    negative: bool,
+    small: Dyadic,
+    large: Dyadic,
+    /// What the reference reports as its deciding precision (the engine's, for equal output).
+    precision: u32,
+    /// The ends are exact and the same at every working precision of the Ziv loop (a tail
+    /// bound such as "below 2^−1080"): the engine then never narrows them and takes the
+    /// binary64 approximation from their midpoint at [`APPROX_PRECISION_CAP`] bits.
+    fixed: bool,
+}
+
+impl FastAct {
+    /// The enclosure's ends as outward [`Dyadic`]s, when it does not contain zero.
+    fn of(iv: &Ival) -> Option<FastAct> {
+        let negative = if iv.is_positive() {
+            false
+        } else if iv.is_negative() {
+            true
+        } else {
+            return None;
+        };
+        let (near, far) = if negative {
+            (&iv.hi, &iv.lo)
+        } else {
+            (&iv.lo, &iv.hi)
+        };
+        Some(FastAct {
+            negative,
+            small: Dyadic::from_float(near, false)?,
+            large: Dyadic::from_float(far, true)?,
+            precision: PREPARED_PRECISION,
+            fixed: false,
+        })
+    }
+
+    /// The reference of act(a)·b by the engine's decision rule (`Evaluator::decided`): both
+    /// ends of the exact products round to the same pattern, lie in the same binade clamped
+    /// at emin (or both overflow) and round to the same binary64. Rounding is monotone, so
+    /// every value between the ends (the true one and the MPFR path's ends) rounds alike and
+    /// the result is the one the MPFR path gives. `None`: undecided here.
+    #[inline]
+    fn times(&self, layout: Layout, b: f64) -> Option<Reference> {
+        let (b_negative, k, e) = odd_significand(b)?;
+        let negative = self.negative != b_negative;
+        let lo = self.small.times(k, e)?;
+        let hi = self.large.times(k, e)?;
+        let bits = lo.round_into(layout, negative)?;
+        if hi.round_into(layout, negative)? != bits {
+            return None;
+        }
+        let emin = layout.emin();
+        let (b_lo, b_hi) = (lo.floor_log2().max(emin), hi.floor_log2().max(emin));
+        let binade = if b_lo == b_hi {
+            b_lo
+        } else if !layout.is_finite(bits) {
+            layout.emax() + 1
+        } else {
+            return None;
+        };
+        let (approx, precision) = match (lo.nearest_f64(negative)?, hi.nearest_f64(negative)?) {
+            (x, y) if x == y => (x, self.precision),
+            // `Ival::approx_f64`: RN_binary64 of the midpoint, exact here (the sum fits).
+            _ if self.fixed => (
+                lo.midpoint(hi)?.nearest_f64(negative)?,
+                APPROX_PRECISION_CAP,
+            ),
+            _ => return None,
+        };
+        Some(Reference {
+            bits,
+            exact: Some(ExactValue { approx, binade }),
+            precision,
+        })
+    }
 }
 
 impl Prepared {
@@ -97,56 +185,153 @@ impl PairEvaluator {
     }
 
     /// What [`PairEvaluator::reference_prepared`] reuses for every b at one a: act(a) (or
-    /// act′(a)) enclosed once at [`PREPARED_PRECISION`] bits, when a is finite and act(a) is
-    /// neither exactly zero nor rational (those take the ordinary path, which is exact).
+    /// act′(a)) enclosed once at [`PREPARED_PRECISION`] bits and as outward 104-bit integers
+    /// (or exactly, when it is a short dyadic rational), or the two signed zero products when
+    /// it is exactly zero, or the reference itself when the role ignores b; nothing else when
+    /// a is NaN or infinite (the ordinary path).
     pub fn prepare(&self, a: u32) -> Prepared {
         let f = self.format();
-        let usable = self.role.inner().1
-            && !matches!(f.classify(a), Class::Nan | Class::Infinite)
-            && !self.exactly_zero(a);
-        let act = usable
-            .then(|| {
-                let ctx = Ctx {
-                    prec: PREPARED_PRECISION,
-                    constants: self.constants(),
-                };
-                match self
-                    .gated
-                    .act()
-                    .eval(&self.point(a), self.role.inner().0, &ctx)
-                {
-                    Value::Exact(_) => None,
-                    Value::Enclosed(iv) => Some(iv),
-                    Value::Near { base, delta } => Some(
-                        Ival::rational(&base, PREPARED_PRECISION + 64)
-                            .add(&delta, PREPARED_PRECISION + 64),
-                    ),
-                }
-            })
-            .flatten();
-        Prepared { a, act }
+        let none = Prepared {
+            a,
+            act: None,
+            fast: None,
+            zero: None,
+            every: None,
+        };
+        if !self.role.inner().1 {
+            let every = self.inner.reference(a).ok();
+            return Prepared { every, ..none };
+        }
+        if matches!(f.classify(a), Class::Nan | Class::Infinite) {
+            return none;
+        }
+        if self.exactly_zero(a) {
+            // For a finite b the plain path gives zero_times(a, sign of b) whatever b is.
+            let zero = match (self.zero_times(a, false), self.zero_times(a, true)) {
+                (Ok(p), Ok(n)) => Some([p, n]),
+                _ => None,
+            };
+            return Prepared { zero, ..none };
+        }
+        // A saturating format clamps the exact value first: the integer path does not model it.
+        let integer = !f.layout().is_saturating();
+        let ctx = Ctx {
+            prec: PREPARED_PRECISION,
+            constants: self.constants(),
+        };
+        let value = self
+            .gated
+            .act()
+            .eval(&self.point(a), self.role.inner().0, &ctx);
+        let enclosed = matches!(value, Value::Enclosed(_));
+        let act = match value {
+            Value::Exact(q) => {
+                let fast = Dyadic::from_rational(&q)
+                    .filter(|_| integer)
+                    .map(|d| FastAct {
+                        negative: q.cmp0().is_lt(),
+                        small: d,
+                        large: d,
+                        precision: 0,
+                        fixed: false,
+                    });
+                return Prepared { fast, ..none };
+            }
+            Value::Enclosed(iv) => iv,
+            Value::Near { base, delta } => {
+                Ival::rational(&base, PREPARED_PRECISION + 64).add(&delta, PREPARED_PRECISION + 64)
+            }
+        };
+        let fast = integer
+            .then(|| FastAct::of(&act))
+            .flatten()
+            .map(|x| FastAct {
+                fixed: enclosed && self.fixed_enclosure(a, &act),
+                ..x
+            });
+        Prepared {
+            act: Some(act),
+            fast,
+            ..none
+        }
     }
 
-    /// The reference at (a, b) from a prepared a: the enclosure of act(a) times the exact b
-    /// (exact products: b has at most 24 significant bits), decided by the engine's rule; the
-    /// same result as [`PairEvaluator::reference`], which it falls back to when undecided.
+    /// The reference at (a, b) from a prepared a: the integer ends of act(a) times the exact b
+    /// (at most 24 significant bits: exact in 128 bits), else the MPFR enclosure times b,
+    /// decided by the engine's rule; the same result as [`PairEvaluator::reference`], which it
+    /// falls back to when both leave it undecided.
     pub fn reference_prepared(&self, p: &Prepared, b: u32) -> Result<Reference, ReferenceError> {
-        let f = self.format();
-        if let (Some(iv), Class::Normal | Class::Subnormal) = (&p.act, f.classify(b)) {
-            let bf = f.to_f64(b);
-            let prec = iv.lo.prec().max(iv.hi.prec()) + 64;
-            let lo = Float::with_val(prec, &iv.lo * bf);
-            let hi = Float::with_val(prec, &iv.hi * bf);
-            let y = if bf < 0.0 {
-                Ival::new(hi, lo)
-            } else {
-                Ival::new(lo, hi)
-            };
-            if let Some(r) = self.inner.decide(&y, PREPARED_PRECISION) {
+        if let Some(r) = p.every {
+            return Ok(r);
+        }
+        let layout = self.format().layout();
+        let class = layout.classify(b);
+        if let (Some(z), Class::Zero | Class::Normal | Class::Subnormal) = (&p.zero, class) {
+            return Ok(z[layout.is_sign_negative(b) as usize]);
+        }
+        if matches!(class, Class::Normal | Class::Subnormal) {
+            let bf = layout.to_f64(b);
+            if let Some(r) = p.fast.as_ref().and_then(|x| x.times(layout, bf)) {
                 return Ok(r);
+            }
+            // Undecided in 104 bits: the 128-bit enclosure, then the plain path.
+            if let Some(iv) = &p.act {
+                let prec = iv.lo.prec().max(iv.hi.prec()) + 64;
+                let lo = Float::with_val(prec, &iv.lo * bf);
+                let hi = Float::with_val(prec, &iv.hi * bf);
+                let y = if bf < 0.0 {
+                    Ival::new(hi, lo)
+                } else {
+                    Ival::new(lo, hi)
+                };
+                if let Some(r) = self.inner.decide(&y, PREPARED_PRECISION) {
+                    return Ok(r);
+                }
             }
         }
         self.reference(p.a, b)
+    }
+
+    /// Whether act(a)'s 128-bit enclosure is a wide bound (over 2^−64 relative) with exact
+    /// 104-bit ends that the evaluation returns unchanged at every precision the Ziv loop
+    /// tries up to [`APPROX_PRECISION_CAP`] (checked once per a, only for wide bounds).
+    fn fixed_enclosure(&self, a: u32, iv: &Ival) -> bool {
+        let width = Float::with_val(64, &iv.hi - &iv.lo);
+        let tight = Float::with_val(64, iv.lo.abs_ref()) >> 64u32;
+        let exact = |v: &Float| Dyadic::from_float(v, false) == Dyadic::from_float(v, true);
+        if width <= tight || !exact(&iv.lo) || !exact(&iv.hi) {
+            return false;
+        }
+        let mut prec = 64;
+        while prec <= APPROX_PRECISION_CAP {
+            let ctx = Ctx {
+                prec,
+                constants: self.constants(),
+            };
+            let same = match self
+                .gated
+                .act()
+                .eval(&self.point(a), self.role.inner().0, &ctx)
+            {
+                Value::Enclosed(j) => j.lo == iv.lo && j.hi == iv.hi,
+                _ => false,
+            };
+            if !same {
+                return false;
+            }
+            prec *= 2;
+        }
+        true
+    }
+
+    /// The integer path of [`PairEvaluator::reference_prepared`] alone: the reference at
+    /// (a, b) when act(a)'s 104-bit ends times a finite nonzero b decide it, else `None`
+    /// (tests compare it with the plain path and count how often it decides).
+    pub fn reference_integer(&self, p: &Prepared, b: u32) -> Option<Reference> {
+        let layout = self.format().layout();
+        matches!(layout.classify(b), Class::Normal | Class::Subnormal)
+            .then(|| p.fast.as_ref()?.times(layout, layout.to_f64(b)))
+            .flatten()
     }
 
     /// An enclosure of y(a, b) at `prec` bits, for finite a and b (display only).

@@ -3,7 +3,7 @@
 //! outputs where the exact value is finite.
 
 use super::cells;
-use crate::format::{ulp_error, Class, Format};
+use crate::format::{ulp_error_in, Class, Format};
 use crate::reference::Reference;
 use serde::{Deserialize, Serialize};
 
@@ -33,7 +33,8 @@ pub struct PairAcc {
     pub crashed: u64,
     /// Pairs with a finite reference and a finite output (the ulp figures).
     pub compared: u64,
-    /// Outputs equal to the reference (NaN matching any NaN).
+    /// Compared pairs whose output equals the reference (a subset of `compared`: matching
+    /// non-finite outputs are the pairs no other count holds).
     pub exact: u64,
     /// Compared pairs within half an ulp (correctly rounded up to ties).
     pub within_half: u64,
@@ -86,11 +87,10 @@ impl PairAcc {
             self.crashed += 1;
             return;
         };
-        let nan = |x| format.classify(x) == Class::Nan;
-        let finite = |x| !matches!(format.classify(x), Class::Nan | Class::Infinite);
-        if out == r.bits || (nan(out) && nan(r.bits)) {
-            self.exact += 1;
-        }
+        // The layout is a plain value: per-pair tests without a virtual call each.
+        let layout = format.layout();
+        let nan = |x| layout.classify(x) == Class::Nan;
+        let finite = |x| layout.is_finite(x);
         let cell = match (cells::cell(format, a), cells::cell(format, b)) {
             (Some(i), Some(j)) => Some(i * self.axis + j),
             _ => None,
@@ -109,8 +109,11 @@ impl PairAcc {
             return;
         }
         let Some(exact) = r.exact else { return };
-        let ulp = ulp_error(format, out, &exact);
+        let ulp = ulp_error_in(layout, out, &exact);
         self.compared += 1;
+        if out == r.bits {
+            self.exact += 1;
+        }
         if ulp <= 0.5 {
             self.within_half += 1;
         }

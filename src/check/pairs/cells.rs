@@ -22,9 +22,11 @@ pub fn cell(format: &dyn Format, bits: u32) -> Option<usize> {
         Class::Zero => 0,
         Class::Subnormal => 1,
         Class::Infinite => slots - 1,
+        // A normal pattern's binade is its exponent field minus the bias, and emin = 1 − bias:
+        // slot = (field − bias) − emin + 2 = field + 1 (no logarithm per pair).
         _ => {
-            let v = format.to_f64(bits).abs();
-            (v.log2().floor() as i32 - format.emin() + 2) as usize
+            let l = format.layout();
+            (l.sign_and_exponent(bits) & ((1 << l.exp_bits()) - 1)) as usize + 1
         }
     };
     Some(if format.is_sign_negative(bits) {

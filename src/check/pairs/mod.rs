@@ -194,24 +194,20 @@ pub fn run_pairs(
         {
             crashes.push((av[c.index], bv[c.index], c.signal.clone()));
         }
+        // An exhaustive chunk holds one a for all its b: act(a) is enclosed once per chunk
+        // and shared by every task.
+        let prepared: Option<Prepared> =
+            (reuse_a && !av.is_empty()).then(|| evaluator.prepare(av[0]));
         let joined = (0..av.len())
             .collect::<Vec<_>>()
             .par_chunks(2048)
             .try_fold(
                 || PairAcc::new(format),
                 |mut acc, idx| {
-                    // An exhaustive sweep holds a fixed for 2^16 pairs: act(a) is enclosed
-                    // once per task and reused for every b.
-                    let mut prepared: Option<Prepared> = None;
                     for &i in idx {
-                        let r = if reuse_a {
-                            if prepared.as_ref().map(|p| p.a()) != Some(av[i]) {
-                                prepared = Some(evaluator.prepare(av[i]));
-                            }
-                            let p = prepared.as_ref().expect("prepared");
-                            evaluator.reference_prepared(p, bv[i])
-                        } else {
-                            evaluator.reference(av[i], bv[i])
+                        let r = match &prepared {
+                            Some(p) if p.a() == av[i] => evaluator.reference_prepared(p, bv[i]),
+                            _ => evaluator.reference(av[i], bv[i]),
                         };
                         let r = r.map_err(|e| e.to_string())?;
                         acc.add(format, av[i], bv[i], out.outputs[i], &r);

@@ -30,7 +30,20 @@ fn a_correctly_rounded_reglu_matches_everywhere() {
     assert!(out.reference_error.is_none());
     // relu(−x)·b is ±0 in IEEE arithmetic and in the reference alike; NaN·anything is NaN;
     // relu(a)·∞ is ∞ for a > 0 (IEEE 754-2019 §7.2: only 0·∞ is invalid).
-    assert_eq!(out.acc.exact, out.acc.pairs);
+    // `exact` counts compared pairs only: the matching ±∞ and NaN outputs are not compared —
+    // b = ±∞ or NaN (2·1023 NaN and 2 infinite patterns per a in IEEE 754 binary16) and the
+    // products that overflow (counted with the `half` crate's rounding of the exact product).
+    assert_eq!(out.acc.exact, out.acc.compared);
+    let a: Vec<u32> = (0x3c00..0x3c40).chain(0xbc00..0xbc08).collect();
+    let overflowing = a
+        .iter()
+        .flat_map(|&x| (0..=0xffffu32).map(move |y| (x, y)))
+        .filter(|&(x, y)| {
+            h(y).is_finite() && f16::from_f32(h(x).max(0.0) * h(y)).to_f32().is_infinite()
+        })
+        .count() as u64;
+    assert!(overflowing > 0);
+    assert_eq!(out.acc.pairs - out.acc.compared, 72 * 2048 + overflowing);
     // Correct rounding: every error at most half an ulp of y.
     assert!(out.acc.max_ulp() <= 0.5);
     assert_eq!(out.acc.within_half, out.acc.compared);
@@ -124,4 +137,20 @@ fn sampled_pairs_are_bounded_and_reproducible() {
         again.extend(a.iter().zip(b).map(|(x, y)| (*x, *y)))
     });
     assert_eq!(seen, again);
+}
+
+#[test]
+fn exact_never_exceeds_compared() {
+    // A non-finite reference matched by the output (NaN·b is NaN, 3·silu(3)·∞ is ∞: IEEE
+    // 754-2019 §6.2 and §7.2) is neither compared nor exact; a finite one matched is both.
+    let f = &Binary16;
+    let e = evaluator("swiglu");
+    let mut acc = PairAcc::new(f);
+    let three = 0x4200;
+    for b in [0x7e00, 0x7c00, 0x3c00] {
+        let r = e.reference(three, b).expect("reference");
+        acc.add(f, three, b, Some(r.bits), &r);
+    }
+    assert_eq!((acc.pairs, acc.compared, acc.exact), (3, 1, 1));
+    assert_eq!(acc.missing_non_finite + acc.spurious_non_finite, 0);
 }
