@@ -159,24 +159,7 @@ fn merge_kernel(
         }
         ordered.insert(index, (path, report));
     }
-    if ordered.len() as u64 != count {
-        // The first few missing parts: at most one per part given, plus ten, to walk.
-        let missing: Vec<String> = (1..=count)
-            .filter(|i| !ordered.contains_key(i))
-            .take(10)
-            .map(|i| format!("{i}/{count}"))
-            .collect();
-        let more = count - ordered.len() as u64 - missing.len() as u64;
-        return Err(format!(
-            "missing shard(s) {}{}",
-            missing.join(", "),
-            if more > 0 {
-                format!(" and {more} more")
-            } else {
-                String::new()
-            }
-        ));
-    }
+    all_shards_present(&ordered, count)?;
     let ordered: Vec<(&Path, &Value)> = ordered.into_values().collect();
 
     let format_name = first.get("format").and_then(Value::as_str).unwrap_or("");
@@ -495,4 +478,31 @@ fn merge_checked(files: &[ShardFile]) -> Result<Merged, String> {
         plots,
         pair_checks,
     })
+}
+
+/// Err naming the first few missing parts ("missing shard(s) 2/8, 5/8 and 3 more") unless
+/// every shard 1..=count is in `ordered`.
+fn all_shards_present<T>(
+    ordered: &std::collections::BTreeMap<u64, T>,
+    count: u64,
+) -> Result<(), String> {
+    if ordered.len() as u64 == count {
+        return Ok(());
+    }
+    // The first few missing parts: at most one per part given, plus ten, to walk.
+    let missing: Vec<String> = (1..=count)
+        .filter(|i| !ordered.contains_key(i))
+        .take(10)
+        .map(|i| format!("{i}/{count}"))
+        .collect();
+    let more = count - ordered.len() as u64 - missing.len() as u64;
+    Err(format!(
+        "missing shard(s) {}{}",
+        missing.join(", "),
+        if more > 0 {
+            format!(" and {more} more")
+        } else {
+            String::new()
+        }
+    ))
 }

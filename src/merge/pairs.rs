@@ -155,23 +155,7 @@ pub fn merge_pair_kernel(shards: &[(&Path, &Value)]) -> Result<(Value, PairCheck
         }
         ordered.insert(part.shard.index, part);
     }
-    if ordered.len() as u64 != count {
-        let missing: Vec<String> = (1..=count)
-            .filter(|i| !ordered.contains_key(i))
-            .take(10)
-            .map(|i| format!("{i}/{count}"))
-            .collect();
-        let more = count - ordered.len() as u64 - missing.len() as u64;
-        return Err(format!(
-            "missing shard(s) {}{}",
-            missing.join(", "),
-            if more > 0 {
-                format!(" and {more} more")
-            } else {
-                String::new()
-            }
-        ));
-    }
+    super::all_shards_present(&ordered, count)?;
     let sweep: PairSweepId = serde_json::from_value(first["shard"]["sweep"].clone())
         .map_err(|e| format!("{}: unreadable shard.sweep: {e}", first_path.display()))?;
     if sweep.a_total > format.pattern_count() {
