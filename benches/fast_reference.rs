@@ -194,11 +194,66 @@ fn binades(filter: Option<&str>) {
     }
 }
 
+/// One-thread ns per fast reference (MPFR fallback included) over every binary32 input of
+/// [BENCH_LO, BENCH_HI) (default [1, 2)), BENCH_REPEAT times (default 3, best reported), for
+/// one function and BENCH_ROLE: a short loop to profile or to compare two builds.
+fn range(filter: Option<&str>) {
+    let bound = |key: &str, default: f32| -> f32 {
+        std::env::var(key)
+            .ok()
+            .and_then(|s| s.parse().ok())
+            .unwrap_or(default)
+    };
+    let (lo, hi) = (bound("BENCH_LO", 1.0), bound("BENCH_HI", 2.0));
+    let repeat = bound("BENCH_REPEAT", 3.0) as usize;
+    let role = match std::env::var("BENCH_ROLE").as_deref() {
+        Ok("derivative") => Role::Derivative,
+        _ => Role::Forward,
+    };
+    // Ordered by value: negative bounds walk the sign-magnitude patterns downwards.
+    let inputs: Vec<u32> = if lo >= 0.0 {
+        (lo.to_bits()..hi.to_bits()).collect()
+    } else if hi <= 0.0 {
+        ((-hi).to_bits() + 1..=(-lo).to_bits())
+            .map(|m| m | 0x8000_0000)
+            .collect()
+    } else {
+        panic!("BENCH_LO and BENCH_HI must not straddle 0");
+    };
+    let name = filter.unwrap_or("swish");
+    let e = evaluator(name, role);
+    let fast = FastEvaluator::new(&e).expect("fast path");
+    let best = (0..repeat.max(1))
+        .map(|_| {
+            let start = Instant::now();
+            let mut s = 0u64;
+            for &x in &inputs {
+                let r = fast
+                    .try_reference(x)
+                    .unwrap_or_else(|| e.reference(x).unwrap());
+                s = s.wrapping_add(r.bits as u64 ^ r.exact.map_or(0, |v| v.approx.to_bits()));
+            }
+            std::hint::black_box(s);
+            start.elapsed().as_secs_f64()
+        })
+        .fold(f64::INFINITY, f64::min);
+    println!(
+        "{name} {} [{lo}, {hi}): {} inputs, {:.1} ns per reference (one thread, best of {repeat})",
+        role_name(role),
+        inputs.len(),
+        best * 1e9 / inputs.len() as f64
+    );
+}
+
 fn main() {
     let filter = std::env::args().nth(1).filter(|a| !a.starts_with('-'));
     let part = std::env::var("BENCH_PART").unwrap_or_default();
     if part == "binades" {
         binades(filter.as_deref());
+        return;
+    }
+    if part == "range" {
+        range(filter.as_deref());
         return;
     }
     if part != "binade" {
