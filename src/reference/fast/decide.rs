@@ -235,25 +235,10 @@ fn remembered_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
 /// (see [`finish`]); it depends on base, the side and the format only.
 #[inline(always)]
 fn decide_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
-    let (bits, binade) = match format.normal_bits(base) {
-        // base is a normal number of the format: y rounds to it (δ is far below half its ulp)
-        // and lies in its binade, or in the one below when base is a power of two and δ points
-        // towards zero — what `round_dd` gives for base ± 2^(eb−60), without its arithmetic.
-        Some(bits) => {
-            let towards_zero = up == (base < 0.0);
-            let below = is_pow2(base) && towards_zero;
-            (bits, (ilogb(base) - below as i32).max(format.emin()))
-        }
-        None => {
-            let side = if up { 1.0 } else { -1.0 };
-            let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
-            let (bits, binade) = round_dd(format, ph, pl, 0)?;
-            if !format.is_finite(bits) {
-                return None;
-            }
-            (bits, binade)
-        }
-    };
+    let (bits, binade) = round_beside(format, base, up)?;
+    if !format.is_finite(bits) {
+        return None;
+    }
     // |δ| < 2^(eb−54) is below half an ulp of base in binary64 (a quarter below a power of
     // two is still ≥ 2^(eb−54)), so RN_binary64(y) = base.
     let r = Reference {
@@ -265,6 +250,27 @@ fn decide_beside(format: Layout, base: f64, up: bool) -> Option<Reference> {
         precision: FAST_PRECISION,
     };
     Some(r)
+}
+
+/// RN into the format and the clamped binade of base + δ, δ as in [`decide_beside`] (also the
+/// engine's `above`/`below` points, base ± 2^(eb−60)); `None` on overflow.
+#[inline(always)]
+fn round_beside(format: Layout, base: f64, up: bool) -> Option<(u32, i32)> {
+    match format.normal_bits(base) {
+        // base is a normal number of the format: y rounds to it (δ is far below half its ulp)
+        // and lies in its binade, or in the one below when base is a power of two and δ points
+        // towards zero — what `round_dd` gives for base ± 2^(eb−60), without its arithmetic.
+        Some(bits) => {
+            let towards_zero = up == (base < 0.0);
+            let below = is_pow2(base) && towards_zero;
+            Some((bits, (ilogb(base) - below as i32).max(format.emin())))
+        }
+        None => {
+            let side = if up { 1.0 } else { -1.0 };
+            let (ph, pl) = two_sum(base, side * pow2(ilogb(base) - 60));
+            round_dd(format, ph, pl, 0)
+        }
+    }
 }
 
 /// Applies the decision rule to an outcome.
@@ -457,10 +463,7 @@ pub fn engine_tiny(format: Layout, negative: bool) -> Reference {
 /// point just beside a, approximated by a itself.
 #[inline(always)]
 pub fn engine_beside(format: Layout, a: f64, above: bool) -> Option<Reference> {
-    let eb = ilogb(a);
-    let side = if above { 1.0 } else { -1.0 };
-    let (ph, pl) = two_sum(a, side * pow2(eb - 60));
-    let (bits, binade) = round_dd(format, ph, pl, 0)?;
+    let (bits, binade) = round_beside(format, a, above)?;
     Some(Reference {
         bits,
         exact: Some(ExactValue { approx: a, binade }),
