@@ -13,8 +13,8 @@
 # --range LO,HI (LO included, HI excluded) restricts both to one range, e.g. --range 1,2 for a
 # quick run; without it all 2^32 patterns (a few minutes of the whole machine).  With
 # --param-passing trailing the parameter values are passed as trailing floats, as ulpgauge does.
-# Prints one line: function, role, symbol, range, inputs, floor s, check s, ratio, peak RSS of
-# the check.
+# Prints one line: function, role, symbol, range, inputs, floor s, check s, the check's CPU
+# seconds (user + system, worker included), ratio, peak RSS of the check.
 set -euo pipefail
 root="$(cd "$(dirname "$0")/.." && pwd)"
 work="${FLOOR_DIR:-$root/target/floor}"
@@ -86,13 +86,14 @@ fi
 read -r floor_s inputs checksum < <("$work/loop" "${loop_args[@]}")
 start=$(date +%s.%N)
 set +e
-/usr/bin/time -f "%M" -o "$work/rss" "$ulpgauge" "${check_args[@]}" >"$work/check.out" 2>&1
+/usr/bin/time -f "%M %U %S" -o "$work/rss" "$ulpgauge" "${check_args[@]}" >"$work/check.out" 2>&1
 status=$?
 set -e
 end=$(date +%s.%N)
 [ $status -le 1 ] || { cat "$work/check.out" >&2; die "check exited with $status"; }
-rss_kb=$(tail -1 "$work/rss")
+read -r rss_kb user_s sys_s < <(tail -1 "$work/rss")
+cpu_s=$(echo "$user_s + $sys_s" | bc -l)
 check_s=$(echo "$end - $start" | bc -l)
-printf '%-13s %-10s %-28s range=%-8s inputs=%-10s floor=%8.3fs check=%8.3fs ratio=%6.2f rss=%dMB checksum=%s load=%s\n' \
-  "$function" "$role" "$symbol" "${range:-all}" "$inputs" "$floor_s" "$check_s" \
+printf '%-13s %-10s %-28s range=%-8s inputs=%-10s floor=%8.3fs check=%8.3fs cpu=%.1fs ratio=%6.2f rss=%dMB checksum=%s load=%s\n' \
+  "$function" "$role" "$symbol" "${range:-all}" "$inputs" "$floor_s" "$check_s" "$cpu_s" \
   "$(echo "$check_s / $floor_s" | bc -l)" "$((rss_kb / 1024))" "$checksum" "$(cut -d' ' -f1 /proc/loadavg)"
