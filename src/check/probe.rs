@@ -285,6 +285,21 @@ impl RoleReferences {
         failures: &mut Vec<(u32, String)>,
     ) {
         points.clear();
+        if let Some(reference) = self.constant_span(called, range.clone()) {
+            points.extend(
+                called.inputs[range.clone()]
+                    .iter()
+                    .zip(range)
+                    .map(|(&x, i)| Point {
+                        input: x,
+                        second: None,
+                        output: called.outputs.get(i).copied().flatten(),
+                        reference,
+                        left: None,
+                    }),
+            );
+            return;
+        }
         for i in range {
             let x = called.inputs[i];
             // No second arguments at all: a one-argument role (see `batch_arguments`).
@@ -300,6 +315,39 @@ impl RoleReferences {
                 Err(e) => failures.push((x, e)),
             }
         }
+    }
+
+    /// The one reference of every input of `range`, when the fast path proves there is one
+    /// (`FastEvaluator::constant_span`): a one-argument role, inputs that are consecutive
+    /// patterns (so one interval of values when of one sign), and no kink among them (a kink
+    /// brings a second, left-hand reference).  Saturated tails and near-constant tiny inputs,
+    /// most of an exhaustive binary32 sweep for many functions, then cost no evaluation.
+    fn constant_span(&self, called: &Called, range: std::ops::Range<usize>) -> Option<Reference> {
+        let forward = match self.role {
+            CheckRole::Forward => true,
+            CheckRole::Derivative => false,
+            CheckRole::Gradient { .. } => return None,
+        };
+        if range.len() < 2 || !called.seconds.is_empty() {
+            return None;
+        }
+        let inputs = &called.inputs[range];
+        let (first, last) = (inputs[0], inputs[inputs.len() - 1]);
+        let (f, d) = self.fast.as_ref()?;
+        let fast = if forward { f } else { d }.as_ref()?;
+        let reference = fast.constant_span(first, last)?;
+        if inputs.windows(2).any(|w| w[0].checked_add(1) != Some(w[1])) {
+            return None;
+        }
+        if !forward && !self.kinks.is_empty() {
+            let input = self.input_format();
+            let (a, b) = (input.to_f64(first), input.to_f64(last));
+            let (lo, hi) = if a <= b { (a, b) } else { (b, a) };
+            if self.kinks.iter().any(|(at, _)| (lo..=hi).contains(at)) {
+                return None;
+            }
+        }
+        Some(reference)
     }
 
     /// Kernel arguments of a batch: the inputs kept, first and second arguments; inputs whose

@@ -86,8 +86,9 @@ impl Layout {
     pub const fn emin(self) -> i32 {
         1 - self.bias()
     }
+    /// The sign bit of a pattern.
     #[inline]
-    fn sign_bit(self) -> u32 {
+    pub fn sign_bit(self) -> u32 {
         1 << (self.exp_bits + self.mant_bits)
     }
     #[inline]

@@ -29,11 +29,17 @@ fn elu_closed(format: Layout, x: f64, alpha: f64, role: Role) -> Option<Outcome>
     match role {
         Role::Forward if x < -38.2 => Some(near_constant(-alpha, true)),
         Role::Derivative if x > -TWO_M55 => Some(near_constant(alpha, false)),
-        Role::Derivative if x < -((1076 + ilogb(alpha)) as f64) * 0.6932 => {
+        Role::Derivative if x < derivative_zero_below(alpha) => {
             Some(Outcome::Fixed(engine_tiny(format, false)))
         }
         _ => None,
     }
+}
+
+/// Below this x (and above −TAIL) ELU′ is the engine's +0 (see [`elu_closed`]).
+#[inline(always)]
+pub(super) fn derivative_zero_below(alpha: f64) -> f64 {
+    -((1076 + ilogb(alpha)) as f64) * 0.6932
 }
 
 /// Forward inputs −2^−8 ≤ x < 0 take [`elu_band`].

@@ -244,7 +244,7 @@ pub fn tanh(format: Layout, x: f64, role: Role) -> Outcome {
 
 /// Whether |z| ≥ 4096 for a normalized double-word z.
 #[inline(always)]
-fn dd_in_tail(z: Dd) -> bool {
+pub(super) fn dd_in_tail(z: Dd) -> bool {
     let (h, l) = if z.hi < 0.0 {
         (-z.hi, -z.lo)
     } else {

@@ -28,6 +28,7 @@ mod logistic;
 mod mills;
 mod mish;
 mod piecewise;
+mod regions;
 mod selu;
 mod series;
 mod softplus;
@@ -43,7 +44,7 @@ use rug::Rational;
 
 /// Which function, with its parameter as an exact f64.
 #[derive(Clone, Copy, Debug)]
-enum Kind {
+pub(super) enum Kind {
     Sigmoid,
     Tanh,
     Swish(f64),
@@ -152,6 +153,32 @@ impl FastEvaluator {
             return unsafe { arch::reference_fma(self, x_bits) };
         }
         self.evaluate(x_bits)
+    }
+
+    /// The reference of every input of the consecutive patterns `first..=last`, when the fast
+    /// path proves it is one and the same: both ends finite, nonzero, of one sign, in the same
+    /// constant-reference region ([`regions`]), and decided alike.  `None` says nothing.
+    pub fn constant_span(&self, first: u32, last: u32) -> Option<Reference> {
+        let format = self.layout;
+        if first > last || (first ^ last) & format.sign_bit() != 0 {
+            return None;
+        }
+        let region = |bits: u32| match format.classify(bits) {
+            Class::Normal | Class::Subnormal => {
+                regions::region(self.kind, self.role, format.to_f64(bits))
+            }
+            _ => None,
+        };
+        let id = region(first)?;
+        if region(last) != Some(id) {
+            return None;
+        }
+        let (a, b) = (self.try_reference(first)?, self.try_reference(last)?);
+        let same = a.bits == b.bits
+            && a.precision == b.precision
+            && a.exact.map(|e| (e.approx.to_bits(), e.binade))
+                == b.exact.map(|e| (e.approx.to_bits(), e.binade));
+        same.then_some(a)
     }
 
     /// The evaluation itself, inlined into each build (portable and [`arch`]).

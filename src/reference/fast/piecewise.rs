@@ -14,7 +14,7 @@ use rug::Rational;
 
 /// Below this |x| (2^−60) the x-dependent part of 1/2 + x/6, 1/2 + x/3 and x/2 + x²/6 is
 /// below a quarter of binary64's gap beside the leading term: its sign alone decides.
-const TINY: f64 = 8.673617379884035e-19;
+pub(super) const TINY: f64 = 8.673617379884035e-19;
 
 /// Largest numerator or denominator of α accepted (2^400): every product, quotient and
 /// remainder below stays normal.

@@ -12,9 +12,9 @@ use crate::format::Layout;
 /// of x, towards zero.
 const TINY: f64 = 8.673617379884035e-19;
 /// 2^60: above it, 1 − softsign(a) = 1/(1 + a) is below a quarter of the gap under 1.
-const HUGE: f64 = 1.152921504606847e18;
+pub(super) const HUGE: f64 = 1.152921504606847e18;
 /// 2^−56: below it, 1 − 1/(1 + a)² < 2a is below a quarter of the gap under 1.
-const TINY_DERIVATIVE: f64 = 1.3877787807814457e-17;
+pub(super) const TINY_DERIVATIVE: f64 = 1.3877787807814457e-17;
 
 /// Softsign (forward) or its derivative at a nonzero finite x.
 #[inline(always)]

@@ -1,0 +1,224 @@
+//! Inputs where the fast path answers one constant reference: the saturated tails, the
+//! engine's signed zeros, the constants a function sits just beside near zero, and the
+//! constant pieces of the piecewise functions.
+//!
+//! [`region`] names such a region (an id per function and role) or says "none".  The contract
+//! the caller relies on: for one function and role, the inputs of one sign with the same id
+//! form an interval of values, and on it [`super::FastEvaluator::try_reference`] returns the
+//! same reference at every input.  So when the two ends of a run of consecutive patterns of
+//! one sign share an id, the reference at one end holds for the whole run, and an exhaustive
+//! sweep need not evaluate the inputs in between.
+//!
+//! Each arm below restates a branch of its function's evaluation (the file and branch named
+//! beside it) that returns a reference independent of x: a decided `near_constant` or
+//! `engine_beside` of a constant, an `engine_tiny`, or an exact constant.  Every predicate is a
+//! comparison of x (or of RN(βx), which is monotone in x) with a constant, so each id's inputs
+//! of one sign form an interval.  Where two branches give different references (the
+//! closed form's decided point and the engine tail's, whose recorded precisions differ), they
+//! have different ids.  `tests/fast_reference.rs` (`constant_regions`) checks the contract on
+//! every pattern of the 16-bit formats and around every region's edges in binary32.
+
+use super::common::{TAIL, TWO_M26, TWO_M27, TWO_M53, TWO_M54, TWO_M55};
+use super::dd::Dd;
+use super::Kind;
+use crate::activation::Role;
+
+/// The constant-reference region of x (finite, nonzero) for this function and role.
+#[inline(always)]
+pub(super) fn region(kind: Kind, role: Role, x: f64) -> Option<u8> {
+    let forward = role == Role::Forward;
+    match kind {
+        Kind::Sigmoid => sigmoid(x, forward),
+        Kind::Tanh => tanh(x, forward),
+        Kind::Swish(beta) => swish(x, beta, forward),
+        // softplus′ and log-sigmoid′ are σ(x) and σ(−x), decided by sigmoid's forward role.
+        Kind::Softplus if !forward => sigmoid(x, true),
+        Kind::LogSigmoid if !forward => sigmoid(-x, true),
+        // softplus.rs: x ≤ −TAIL and the closed form x < −745.2 give the engine's +0;
+        // log_sigmoid.rs, mirrored: x ≥ TAIL and x > 745.2 give −0.
+        Kind::Softplus => (x < -745.2).then_some(1),
+        Kind::LogSigmoid => (x > 745.2).then_some(1),
+        Kind::Mish => rectifier(x, forward, -753.0, 22.0),
+        Kind::Gelu => gelu(x, forward),
+        Kind::Elu(alpha) => elu(x, alpha, forward),
+        Kind::Step => Some(if !forward || x < 0.0 { 1 } else { 2 }),
+        Kind::Relu => match x < 0.0 {
+            true => Some(1),
+            false => (!forward).then_some(2),
+        },
+        // leaky_relu: α·x on the left is no constant; both sides of the derivative are.
+        Kind::LeakyRelu(_) => (!forward).then_some(if x < 0.0 { 1 } else { 2 }),
+        Kind::Relu6 => relu6(x, forward),
+        Kind::HardSigmoid => hard_sigmoid(x, forward),
+        Kind::HardSwish => hard_swish(x, forward),
+        Kind::Softsign => softsign(x, forward),
+        _ => None,
+    }
+}
+
+/// logistic.rs `sigmoid`: forward x ≥ TAIL `engine_beside(1, below)`, 38 < x < TAIL
+/// `near_constant(1, below)`, x < −745.2 (the tail's and the closed form's) `engine_tiny(+)`,
+/// |x| < 2^−53 `near_constant(1/2, side of x)`; derivative |x| > 745.2 `engine_tiny(+)`,
+/// |x| < 2^−26 `near_constant(1/4, below)`.
+#[inline(always)]
+fn sigmoid(x: f64, forward: bool) -> Option<u8> {
+    let a = x.abs();
+    if forward {
+        match x {
+            _ if x >= TAIL => Some(1),
+            _ if x > 38.0 => Some(2),
+            _ if x < -745.2 => Some(3),
+            _ if a < TWO_M53 => Some(if x > 0.0 { 4 } else { 5 }),
+            _ => None,
+        }
+    } else if a > 745.2 {
+        Some(1)
+    } else {
+        (a < TWO_M26).then_some(2)
+    }
+}
+
+/// logistic.rs `tanh`: forward |x| ≥ TAIL `engine_beside(±1, towards zero)`, 19.5 < |x| <
+/// TAIL `near_constant(±1, towards zero)`; derivative |x| > 373.5 (tail and closed form)
+/// `engine_tiny(+)`, |x| < 2^−27 `near_constant(1, below)`.
+#[inline(always)]
+fn tanh(x: f64, forward: bool) -> Option<u8> {
+    let a = x.abs();
+    if forward {
+        match a {
+            _ if a >= TAIL => Some(1),
+            _ if a > 19.5 => Some(2),
+            _ => None,
+        }
+    } else if a > 373.5 {
+        Some(1)
+    } else {
+        (a < TWO_M27).then_some(2)
+    }
+}
+
+/// logistic.rs `swish`, z = βx as its TwoProd (z.hi = RN(βx), monotone in x for β > 0): the
+/// tail (|z| ≥ TAIL) forward negative and derivative negative `engine_tiny(−)`, derivative
+/// positive `engine_beside(1, above)`; then `swish_closed`: |z.hi| < 2^−54 derivative
+/// `near_constant(1/2, side of x)`; forward z.hi < −835 `engine_tiny(−)`; derivative z.hi > 42
+/// `near_constant(1, above)`, z.hi < −753 `engine_tiny(−)`.
+#[inline(always)]
+fn swish(x: f64, beta: f64, forward: bool) -> Option<u8> {
+    let z = Dd::prod(beta, x);
+    if super::logistic::dd_in_tail(z) {
+        return match (forward, z.hi > 0.0) {
+            (_, false) => Some(1),
+            (true, true) => None,
+            (false, true) => Some(2),
+        };
+    }
+    if z.hi.abs() < TWO_M54 {
+        return (!forward).then_some(if x > 0.0 { 3 } else { 4 });
+    }
+    match forward {
+        true if z.hi < -835.0 => Some(1),
+        false if z.hi > 42.0 => Some(5),
+        false if z.hi < -753.0 => Some(1),
+        _ => None,
+    }
+}
+
+/// mish.rs `mish` (and any function whose tail is `decide::rectifier_tail`): x ≤ −TAIL and
+/// the closed form x < `zero_below` `engine_tiny(−)`; derivative x ≥ TAIL
+/// `engine_beside(1, above)`, `one_above` < x < TAIL `near_constant(1, above)`.
+#[inline(always)]
+fn rectifier(x: f64, forward: bool, zero_below: f64, one_above: f64) -> Option<u8> {
+    match x {
+        _ if x < zero_below => Some(1),
+        _ if forward => None,
+        _ if x >= TAIL => Some(2),
+        _ if x > one_above => Some(3),
+        _ => None,
+    }
+}
+
+/// gelu.rs `gelu`: the rectifier tail, `gelu_closed`'s x < −38.8 (`engine_tiny(−)`) and, for
+/// the derivative, x > 9 (`near_constant(1, above)`) and |x| < 2^−55 (`near_constant(1/2,
+/// side of x)`).
+#[inline(always)]
+fn gelu(x: f64, forward: bool) -> Option<u8> {
+    if !forward && x.abs() < TWO_M55 {
+        return Some(if x > 0.0 { 4 } else { 5 });
+    }
+    rectifier(x, forward, -38.8, 9.0)
+}
+
+/// elu.rs `elu`: forward x ≤ −TAIL `engine_beside(−α, above)`, −TAIL < x < −38.2
+/// `near_constant(−α, above)`; derivative x > 0 `Exact(1)`, −2^−55 < x < 0 `near_constant(α,
+/// below)`, x ≤ −TAIL and x below `derivative_zero_below(α)` `engine_tiny(+)`.
+#[inline(always)]
+fn elu(x: f64, alpha: f64, forward: bool) -> Option<u8> {
+    if forward {
+        return match x {
+            _ if x <= -TAIL => Some(1),
+            _ if x < -38.2 => Some(2),
+            _ => None,
+        };
+    }
+    match x {
+        _ if x > 0.0 => Some(3),
+        _ if x > -TWO_M55 => Some(4),
+        _ if x <= -TAIL || x < super::elu::derivative_zero_below(alpha) => Some(5),
+        _ => None,
+    }
+}
+
+/// piecewise.rs `relu6`: 0 for x < 0; forward 6 for x ≥ 6; derivative 1 on (0, 6), 0 from 6.
+#[inline(always)]
+fn relu6(x: f64, forward: bool) -> Option<u8> {
+    match x {
+        _ if x < 0.0 => Some(1),
+        _ if forward => (x >= 6.0).then_some(2),
+        _ if x < 6.0 => Some(3),
+        _ => Some(4),
+    }
+}
+
+/// piecewise.rs `hard_sigmoid_reference`: forward 0 for x ≤ −3, 1 for x ≥ 3, `near(1/2, side
+/// of x)` for |x| < TINY; derivative 1/6 on [−3, 3), 0 elsewhere.
+#[inline(always)]
+fn hard_sigmoid(x: f64, forward: bool) -> Option<u8> {
+    if forward {
+        return match x {
+            _ if x <= -3.0 => Some(1),
+            _ if x >= 3.0 => Some(2),
+            _ if x.abs() < super::piecewise::TINY => Some(if x > 0.0 { 3 } else { 4 }),
+            _ => None,
+        };
+    }
+    Some(match x {
+        _ if x < -3.0 => 5,
+        _ if x < 3.0 => 6,
+        _ => 7,
+    })
+}
+
+/// piecewise.rs `hard_swish_reference`: forward 0 for x ≤ −3; derivative 0 for x < −3, 1 for
+/// x ≥ 3, `near(1/2, side of x)` for |x| < TINY.
+#[inline(always)]
+fn hard_swish(x: f64, forward: bool) -> Option<u8> {
+    match x {
+        _ if forward => (x <= -3.0).then_some(1),
+        _ if x < -3.0 => Some(2),
+        _ if x >= 3.0 => Some(3),
+        _ if x.abs() < super::piecewise::TINY => Some(if x > 0.0 { 4 } else { 5 }),
+        _ => None,
+    }
+}
+
+/// softsign.rs `softsign`: forward |x| ≥ HUGE `near(±1, towards zero)`; derivative |x| <
+/// TINY_DERIVATIVE `near(1, below)`.
+#[inline(always)]
+fn softsign(x: f64, forward: bool) -> Option<u8> {
+    let a = x.abs();
+    if forward {
+        (a >= super::softsign::HUGE).then_some(1)
+    } else {
+        (a < super::softsign::TINY_DERIVATIVE).then_some(2)
+    }
+}
