@@ -49,7 +49,7 @@ pub fn log_sigmoid(format: Layout, x: f64, role: Role) -> Outcome {
         return o;
     }
     if a < BAND {
-        // ln σ(x) = −softplus(−x) = −(ln 2 − x/2 + x²/8 − …).
+        // ln σ(x) = −softplus(−x) = −(ln 2 − x/2 + ln cosh(x/2)).
         return Outcome::Value(band(x, -1.0).neg(), 0);
     }
     let t = decay(Dd::new(a));
