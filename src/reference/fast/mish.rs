@@ -91,24 +91,25 @@ const fn fraction(hi: f64, lo: f64) -> Ev {
 /// 2^−109 ≥ |3/5 − THREE_FIFTHS| (2^−109.3 above).
 const THREE_FIFTHS_GAP: f64 = 1.5407439555097887e-33;
 
-/// Below 2^−24 the band's rest is a short binary64 sum beside an exact leading part ([`low`]).
-const LOW: f64 = 5.960464477539063e-8; // 2^-24
+/// Below 2^−20 the band's rest is a short binary64 sum beside an exact leading part ([`low`]).
+const LOW: f64 = 9.5367431640625e-7; // 2^-20
 
 /// 2^−57: below it mish′ sits just above 0.6 ([`low`]).
 const FLAT: f64 = 6.938893903907228e-18;
 
-/// mish or mish′ for 0 < |x| < 2^−24 (|x| ≥ 2^−149), as an exact leading part plus a binary64
+/// mish or mish′ for 0 < |x| < 2^−20 (|x| ≥ 2^−149), as an exact leading part plus a binary64
 /// rest ([`Outcome::Leading`]), with the series of [`FORWARD`] (g = Σ a_n·xⁿ) and the Cauchy
-/// estimate |a_n| ≤ M/2ⁿ, M = 2.8, argued at [`band`]; τ = |x|/2 < 2^−25.
+/// estimate |a_n| ≤ M/2ⁿ, M = 2.8, argued at [`band`]; τ = |x|/2 < 2^−21.
 ///
 /// Forward: x·0.6 = p + q exactly (TwoProd: |x·0.6| ≥ 2^−150 keeps q, a multiple of 2^−202,
 /// normal) and 3/5 = 0.6 + 2^−53/5, so y = p + q + c with c = x·2^−53/5 + 8x²/25 + a_2·x³ +
-/// Σ_(n≥3) a_n·x^(n+1); the omitted sum is ≤ |x|·M·τ³/(1 − τ) < 0.36·x⁴.  c is computed as
-/// x·(d + x·(0.32 + x·a_2)), d = RN(2^−53/5): Horner of degree 3 (γ_6, Higham, Accuracy and
-/// Stability of Numerical Algorithms, eq. 5.3) plus the three coefficients' roundings (u each,
-/// u = 2^−53) errs by ≤ 7.01u of the magnitude sum |x|·(2^−53/5 + |x|·(8/25 + |x|·|a_2|)) ≤
-/// |x|·(d + 0.33|x|)·(1 + u): well within [`REST_REL`] = 32u of the magnitude passed.  x⁴ in
-/// binary64 is within 3.01u of itself (|x|⁴ ≥ 2^−596 stays normal), so 0.4·x⁴ covers the tail.
+/// a_3·x⁴ + Σ_(n≥4) a_n·x^(n+1); the omitted sum is ≤ |x|·M·τ⁴/(1 − τ) < 0.18·|x|⁵.  c is
+/// computed as x·(d + x·(0.32 + x·(a_2 + x·a_3))), d = RN(2^−53/5): Horner of degree 4 (γ_8,
+/// Higham, Accuracy and Stability of Numerical Algorithms, eq. 5.3) plus the coefficients'
+/// roundings (u each, u = 2^−53) errs by ≤ 9.01u of the magnitude sum |x|·(2^−53/5 + |x|·(8/25
+/// + |a_2|·|x| + |a_3|·x²)) ≤ |x|·(d + 0.33|x|)·(1 + u): well within [`REST_REL`] = 32u of
+/// the magnitude passed.  |x|⁵ in binary64 is within 4.01u of itself (|x|⁵ ≥ 2^−745 stays
+/// normal), so 0.2·|x|⁵ covers the tail.
 ///
 /// Derivative, |x| < 2^−57: y′ − 0.6 = 2^−53/5 + 16x/25 + x²·R′(x) with |x²·R′| < 0.06·x² <
 /// 2^−117 ([`band`]'s bound on R′), so y′ − 0.6 lies within 2^−55.32 ± (2^−57.64 + 2^−117),
@@ -118,18 +119,18 @@ const FLAT: f64 = 6.938893903907228e-18;
 /// Derivative, 2^−57 ≤ |x| < 2^−24: y′ = s + c with s = 0.6 + RN(2^−53/5) (a normalized
 /// double-word, the lo within ulp(0.6)/2), c = 16x/25 + b_0·x² + b_1·x³ + Σ_(n≥4) (n + 1)·a_n·xⁿ
 /// + (3/5 − s) (b_k = DERIVATIVE[k]); the omitted sum is ≤ M·Σ_(n≥4) (n + 1)·τⁿ ≤ 5M·τ⁴/(1 − τ)²
-/// < 0.9·x⁴ ((n + 1) ≤ 5·(1 + j) for n = 4 + j) and |3/5 − s| ≤ 2^−109.  c is computed as
+/// < 0.9·x⁴ ((n + 1) ≤ 5·(1 + j) for n = 4 + j; x⁴ in binary64 within 3.01u of itself) and |3/5 − s| ≤ 2^−109.  c is computed as
 /// x·(0.64 + x·(b_0 + x·b_1)): as above within 7.01u of the magnitude sum
 /// |x|·(16/25 + |b_0|·|x| + |b_1|·x²) < 0.641·|x|.
 ///
 /// Both: |c| < |s|/4 (|c| < 0.33·x² forward, < 0.65·|x| derivative), and the bound passed,
-/// at most 2^−47.9 of the magnitude plus 0.4·x⁴ + 2^−109, is below |c| (as [`Outcome::Leading`]
+/// at most 2^−47.9 of the magnitude plus x⁴ + 2^−109, is below |c| (as [`Outcome::Leading`]
 /// requires; [`super::decide`] declines otherwise) except near the one point where the forward
 /// rest cancels, x = −2^−53/1.6 = −5·2^−56 (x·(2^−53/5 + 8x/25) = 0): of the magnitude
 /// |x|·(2^−53/5 + 0.33|x|) and |c| ≥ |x|·|2^−53/5 − 0.32|x||·(1 − 2^−20) only there do they
 /// differ by 2^47, within a relative 2^−45 of that point, which leaves that input alone to the
 /// engine.  The derivative's |c| ≥ 0.63·|x| exceeds 2^−47.9·0.641·|x| + x⁴ + 2^−109 for every
-/// |x| ≥ 2^−57 (x⁴ < 2^−72·|x|, 2^−109 < 2^−50·|x|).
+/// |x| ≥ 2^−57 (x⁴ < 2^−60·|x|, 2^−109 < 2^−50·|x|).
 #[inline(always)]
 fn low(x: f64, role: Role) -> Outcome {
     let a = x.abs();
@@ -138,8 +139,13 @@ fn low(x: f64, role: Role) -> Outcome {
         Role::Forward => {
             let (p, q) = two_prod(x, THREE_FIFTHS.v.hi);
             let lo = THREE_FIFTHS.v.lo;
-            let rest = x * (lo + x * (EIGHT_25.v.hi + x * FORWARD[0]));
-            (Dd { hi: p, lo: q }, rest, a * (lo + 0.33 * a), 0.4 * a4)
+            let rest = x * (lo + x * (EIGHT_25.v.hi + x * (FORWARD[0] + x * FORWARD[1])));
+            (
+                Dd { hi: p, lo: q },
+                rest,
+                a * (lo + 0.33 * a),
+                0.2 * (a4 * a),
+            )
         }
         Role::Derivative => {
             if a < FLAT {
@@ -153,7 +159,7 @@ fn low(x: f64, role: Role) -> Outcome {
     Outcome::Leading(s, rest, bound)
 }
 
-/// mish or mish′ for 2^−24 ≤ |x| < 2^−6 (below: [`low`]), without exp:
+/// mish or mish′ for 2^−20 ≤ |x| < 2^−6 (below: [`low`]), without exp:
 /// y = x·(3/5 + x·(8/25 + x·R)) or y′ = 3/5 + x·(16/25 + x·R′), R and R′ in binary64 by Horner,
 /// the rest in double-word.
 ///
@@ -288,7 +294,7 @@ mod tests {
         }
         let c = Float::with_val(300, 3) / 5u32 - THREE_FIFTHS.v.hi - THREE_FIFTHS.v.lo;
         assert!(c.abs() <= THREE_FIFTHS_GAP);
-        assert_eq!(LOW, 2f64.powi(-24));
+        assert_eq!(LOW, 2f64.powi(-20));
         assert_eq!(FLAT, 2f64.powi(-57));
         assert_eq!(THREE_FIFTHS_GAP, 2f64.powi(-109));
     }
