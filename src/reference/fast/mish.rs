@@ -106,22 +106,22 @@ const FLAT: f64 = 6.938893903907228e-18;
 /// a_3·x⁴ + Σ_(n≥4) a_n·x^(n+1); the omitted sum is ≤ |x|·M·τ⁴/(1 − τ) < 0.18·|x|⁵.  c is
 /// computed as x·(d + x·(0.32 + x·(a_2 + x·a_3))), d = RN(2^−53/5): Horner of degree 4 (γ_8,
 /// Higham, Accuracy and Stability of Numerical Algorithms, eq. 5.3) plus the coefficients'
-/// roundings (u each, u = 2^−53) errs by ≤ 9.01u of the magnitude sum |x|·(2^−53/5 + |x|·(8/25
-/// + |a_2|·|x| + |a_3|·x²)) ≤ |x|·(d + 0.33|x|)·(1 + u): well within [`REST_REL`] = 32u of
-/// the magnitude passed.  |x|⁵ in binary64 is within 4.01u of itself (|x|⁵ ≥ 2^−745 stays
-/// normal), so 0.2·|x|⁵ covers the tail.
+/// roundings (u each, u = 2^−53) errs by ≤ 9.01u of the magnitude sum
+/// |x|·(2^−53/5 + |x|·(8/25 + |a_2|·|x| + |a_3|·x²)) ≤ |x|·(d + 0.33|x|)·(1 + u): well within
+/// [`REST_REL`] = 32u of the magnitude passed.  |x|⁵ in binary64 is within 4.01u of itself
+/// (|x|⁵ ≥ 2^−745 stays normal), so 0.2·|x|⁵ covers the tail.
 ///
 /// Derivative, |x| < 2^−57: y′ − 0.6 = 2^−53/5 + 16x/25 + x²·R′(x) with |x²·R′| < 0.06·x² <
 /// 2^−117 ([`band`]'s bound on R′), so y′ − 0.6 lies within 2^−55.32 ± (2^−57.64 + 2^−117),
 /// inside (2^−55.65, 2^−55.08) ⊂ (0, 2^−55) = (0, 2^(ilogb(0.6) − 54)): just above 0.6 for
 /// every such x, decided once ([`Outcome::Beside`]).
 ///
-/// Derivative, 2^−57 ≤ |x| < 2^−24: y′ = s + c with s = 0.6 + RN(2^−53/5) (a normalized
-/// double-word, the lo within ulp(0.6)/2), c = 16x/25 + b_0·x² + b_1·x³ + Σ_(n≥4) (n + 1)·a_n·xⁿ
-/// + (3/5 − s) (b_k = DERIVATIVE[k]); the omitted sum is ≤ M·Σ_(n≥4) (n + 1)·τⁿ ≤ 5M·τ⁴/(1 − τ)²
-/// < 0.9·x⁴ ((n + 1) ≤ 5·(1 + j) for n = 4 + j; x⁴ in binary64 within 3.01u of itself) and |3/5 − s| ≤ 2^−109.  c is computed as
-/// x·(0.64 + x·(b_0 + x·b_1)): as above within 7.01u of the magnitude sum
-/// |x|·(16/25 + |b_0|·|x| + |b_1|·x²) < 0.641·|x|.
+/// Derivative, 2^−57 ≤ |x| < 2^−20: y′ = s + c with s = 0.6 + RN(2^−53/5) (a normalized
+/// double-word, the lo within ulp(0.6)/2), c = 16x/25 + b_0·x² + b_1·x³ + (3/5 − s) +
+/// Σ_(n≥4) (n + 1)·a_n·xⁿ (b_k = DERIVATIVE[k]); the omitted sum is ≤ M·Σ_(n≥4) (n + 1)·τⁿ ≤
+/// 5M·τ⁴/(1 − τ)² < 0.9·x⁴ ((n + 1) ≤ 5·(1 + j) for n = 4 + j; x⁴ in binary64 within 3.01u of
+/// itself) and |3/5 − s| ≤ 2^−109.  c is computed as x·(0.64 + x·(b_0 + x·b_1)): as above
+/// within 7.01u of the magnitude sum |x|·(16/25 + |b_0|·|x| + |b_1|·x²) < 0.641·|x|.
 ///
 /// Both: |c| < |s|/4 (|c| < 0.33·x² forward, < 0.65·|x| derivative), and the bound passed,
 /// at most 2^−47.9 of the magnitude plus x⁴ + 2^−109, is below |c| (as [`Outcome::Leading`]
