@@ -11,10 +11,10 @@
 //! u < 2^−898 (x < −623), mish = x·u·(1 + O(u)) and mish′ = u·(1 + x)·(1 + O(u)) (|x|/|1 + x| ≈ 1),
 //! the dropped relative terms far below [`DROPPED`].  Bounds compose through [`Ev`].
 
-use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL, TWO_M53};
+use super::common::{decay, near_constant, near_side, widen, DROPPED, TAIL};
 use super::dd::{two_prod, Dd, Ev, SLACK};
 use super::decide::{engine_tiny, rectifier_tail, Outcome};
-use super::series::{horner, REST_REL};
+use super::series::{horner, leading, REST_REL};
 use crate::activation::Role;
 use crate::format::Layout;
 
@@ -159,9 +159,9 @@ fn low(x: f64, role: Role) -> Outcome {
     Outcome::Leading(s, rest, bound)
 }
 
-/// mish or mish′ for 2^−20 ≤ |x| < 2^−6 (below: [`low`]), without exp:
-/// y = x·(3/5 + x·(8/25 + x·R)) or y′ = 3/5 + x·(16/25 + x·R′), R and R′ in binary64 by Horner,
-/// the rest in double-word.
+/// mish or mish′ for 2^−20 ≤ |x| < 2^−6 (below: [`low`]), without exp: an exact leading part
+/// plus a binary64 rest ([`Outcome::Leading`]), with y = x·(3/5 + x·(8/25 + x·R)) and y′ = 3/5 +
+/// x·(16/25 + x·R′), R and R′ by Horner in binary64.
 ///
 /// Truncation.  g = 1 − 2/h, h(z) = e^(2z) + 2e^z + 2, is analytic for |z| < 2.38 (the zeros
 /// of h are z = ln √2 + i(±3π/4 + 2πm)).  On |z| = 2 the minimum of |h| over 200 000 equally
@@ -172,33 +172,53 @@ fn low(x: f64, role: Role) -> Outcome {
 /// |x|; relative to |R| ≥ 0.01528 and |R′| ≥ 0.04513 (the first coefficient less the others'
 /// magnitudes at |x| = 2^−6) they are at most 2^−57.5 and 2^−55.4 at the band's edge.
 ///
-/// Rounding.  Σ|b_k|·|x|^k over the kept coefficients is at most 0.0168 ≤ 1.094·|R| and
-/// 0.0509 ≤ 1.127·|R′| (same bounds; checked from the tables by `band_constants` below), so
-/// Horner of degree 8 (Higham, Accuracy and Stability of
-/// Numerical Algorithms, eq. 5.3: γ_16) plus the coefficients' own roundings err by
-/// ≤ 1.13·17.1u·|R| < 20u·|R| (u = 2^−53); with the truncation < 21u·|R|, and with the product
-/// by x (one more u) |x·R̂ − x·R| ≤ 23u·|x|·|R|.  That error enters y multiplied by x² (forward)
-/// or y′ by x (derivative); relative to |y| ≥ 0.594·|x| (3/5 − 8/25·2^−6 − 0.0168·2^−12) and
-/// |y′| ≥ 0.589 (3/5 − 16/25·2^−6 − 0.0509·2^−12) it is ≤ 23u·0.0168/0.594·x² < 0.66u·x² and
-/// ≤ 23u·0.0509/0.589·x² < 2u·x²: recorded as 4u·x².  The double-word steps (DWPlusFP,
-/// DWTimesFP, AccurateDWPlusDW, DWTimesFP: each within OP of its result, of which the first two
-/// weigh |x·(8/25 + …)|/0.589 < 0.011 in the value) and the constants (2^−104 each; 3/5 weighs
-/// ≤ 1.02) add ≤ 2.03·OP + 1.03·2^−104 < 2^−98: recorded as 2^−97.  |x| ≥ 2^−149 keeps every
-/// product, part and error term of these steps above 2^−210, so none underflows.
+/// Rounding of R̂, R̂′.  Σ|b_k|·|x|^k over the kept coefficients is at most 0.0168 ≤ 1.094·|R|
+/// and 0.0509 ≤ 1.127·|R′| (same bounds; checked from the tables by `band_constants` below), so
+/// Horner of degree 8 (Higham, Accuracy and Stability of Numerical Algorithms, eq. 5.3: γ_16)
+/// plus the coefficients' own roundings err by ≤ 1.13·17.1u·|R| < 20u·|R| (u = 2^−53); with
+/// the truncation, R̂ and R̂′ are within 21u of R and R′.
+///
+/// The parts.  w = x² is exact (x has at most 24 significant bits).  Forward: x·0.6 = p₁ + q₁
+/// and w·0.32 = p₂ + q₂ exactly (TwoProd), the leading part p₁ + p₂ (TwoSum, exact), and the
+/// rest c = q₁ + q₂ + x·(3/5 − 0.6) + w·(8/25 − 0.32) + x·w·R summed in binary64 from
+/// q₁, q₂, RN(x·lo(3/5)), RN(w·lo(8/25)) and RN(RN(x·w)·R̂).  Derivative: x·0.64 = p + q
+/// exactly, the leading part 0.6 + p, the rest c = q + (3/5 − 0.6) + x·(16/25 − 0.64) + w·R′
+/// from q, lo(3/5), RN(x·lo(16/25)) and RN(w·R̂′).  Each lo is within a relative 2^−54 of the
+/// difference it stands for (gaps 2^−109.3, 2^−111.6, 2^−110.6 against 2^−55.3, 2^−57.1,
+/// 2^−56.1), so each term is within 2u (lo terms), 23.01u (forward x·w·R̂: x·w, R̂, the
+/// product) or 22.01u (w·R̂′) of its exact value, and the recursive sum adds γ_4 (γ_3) of the
+/// terms' magnitudes: ≤ 27.1u of the exact magnitudes, ≤ 27.2u of the computed ones passed to
+/// [`leading`] — within [`REST_REL`] = 32u, no further truncation.
+///
+/// [`Outcome::Leading`]'s conditions: |x·w·R| ≥ 0.0152·|x|³ ≥ 2^−46·|x| and |w·R′| ≥
+/// 0.045·x² ≥ 2^−45.5 exceed the other terms together (≤ 2^−53·|x| forward: |q₁| ≤ 2^−53·0.6|x|,
+/// 2^−55.3|x|, |q₂| and the 8/25 term ≤ 2^−56·|x|; ≤ 2^−54 derivative) by 2^6 at least, so
+/// |c| exceeds the bound (≤ 2^−47.9 of a magnitude at most 1.1·|c|), and |c| < |s|/4 (|c| <
+/// 0.02·|x|³ against 0.59·|x|; |c| < 0.06·x² against 0.59).  Every term is above 2^−20·2^−60,
+/// so none underflows.
 #[inline(always)]
 fn band(x: f64, role: Role) -> Outcome {
-    let (coefficients, slope) = match role {
-        Role::Forward => (&FORWARD, EIGHT_25),
-        Role::Derivative => (&DERIVATIVE, SIXTEEN_25),
-    };
-    let rest = x * horner(coefficients, x);
-    let g = slope.v.add_f(rest).mul_f(x).add(THREE_FIFTHS.v);
-    let v = match role {
-        Role::Forward => g.mul_f(x),
-        Role::Derivative => g,
-    };
-    let r = (6.310887241768095e-30 + 4.0 * TWO_M53 * x * x) * SLACK; // 2^-97 + 4u·x²
-    Outcome::Value(Ev { v, r }, 0)
+    let w = x * x;
+    match role {
+        Role::Forward => {
+            let (p1, q1) = two_prod(x, THREE_FIFTHS.v.hi);
+            let (p2, q2) = two_prod(w, EIGHT_25.v.hi);
+            let a = x * THREE_FIFTHS.v.lo;
+            let b = w * EIGHT_25.v.lo;
+            let cubic = (x * w) * horner(&FORWARD, x);
+            let rest = q1 + q2 + a + b + cubic;
+            let magnitude = q1.abs() + q2.abs() + a.abs() + b.abs() + cubic.abs();
+            leading(p1, p2, rest, magnitude, 0.0)
+        }
+        Role::Derivative => {
+            let (p, q) = two_prod(x, SIXTEEN_25.v.hi);
+            let a = x * SIXTEEN_25.v.lo;
+            let quadratic = w * horner(&DERIVATIVE, x);
+            let rest = q + THREE_FIFTHS.v.lo + a + quadratic;
+            let magnitude = q.abs() + THREE_FIFTHS.v.lo + a.abs() + quadratic.abs();
+            leading(THREE_FIFTHS.v.hi, p, rest, magnitude, 0.0)
+        }
+    }
 }
 
 /// mish(x) or mish′(x).
