@@ -916,7 +916,8 @@ fn elu_leading_term_bands() {
 /// 2^−126 (mish, plus random subnormals) or 2^−56 (GELU-tanh, whose closed form takes the
 /// inputs below), the short patterns where leading parts such as x/2 + c·x²/2, 1/2 + c·x or
 /// 3x/5 land on rounding boundaries (multiples of 5 among them make 3x/5 exact), and the
-/// bands' edges ±300 patterns in every format, both roles, against the engine; GELU-tanh also
+/// bands' edges (mish's sub-bands' too) ±300 patterns in every format, both roles, against the
+/// engine; GELU-tanh also
 /// with its constants rounded to binary32 (exact binary64 numbers, the bound without their r).
 #[test]
 fn mish_gelu_tanh_bands() {
@@ -933,8 +934,19 @@ fn mish_gelu_tanh_bands() {
             inside.extend((0..4000).map(|_| sign(&mut g) | (1 + (g.next() % 0x7f_ffff) as u32)));
         }
         let (low, high) = (2f64.powi(lowest), 2f64.powi(-6));
+        let mut edges = vec![low, -low, high, -high];
+        if name == "mish" {
+            // The sub-bands' edges: 2^−20 (exact leading part below) and 2^−57 (mish′ beside
+            // 0.6 below).
+            edges.extend([
+                2f64.powi(-20),
+                -(2f64.powi(-20)),
+                2f64.powi(-57),
+                -(2f64.powi(-57)),
+            ]);
+        }
         for role in [Role::Forward, Role::Derivative] {
-            check_band(name, role, params, &inside, &[low, -low, high, -high]);
+            check_band(name, role, params, &inside, &edges);
         }
     }
 }
