@@ -1412,3 +1412,133 @@ fn catalog_large_comparison() {
     let missing = catalog_agreement(n, 65536, only.as_deref());
     eprintln!("no fast path: {missing:?}");
 }
+
+/// Every function and parameter set with a fast path, and the formats it runs in.
+fn fast_catalog() -> Vec<(&'static str, Vec<&'static str>)> {
+    let mut all = Vec::new();
+    for name in EXACT.iter().chain(DOUBLE_WORD.iter()) {
+        for params in parameter_sets(name) {
+            all.push((*name, params));
+        }
+    }
+    all.push(("selu", vec![F32_ROUNDED]));
+    all
+}
+
+/// `FastEvaluator::constant_span` (src/reference/fast/regions.rs) claims that every input
+/// between two consecutive-pattern ends has one reference; `check` then skips the inputs in
+/// between.  Checks the claim for the spans starting at `start` in one sign: the longest claimed
+/// span (the claims must be monotone: regions are intervals), every input near its far end, a
+/// sample inside, and that one more pattern is not claimed alike.
+fn claimed_span_holds(fast: &FastEvaluator, start: u32, end_limit: u32, g: &mut Mix) -> bool {
+    let Some(r) = fast.constant_span(start, start) else {
+        return false;
+    };
+    // Largest end with a claim (binary search; claims shrink monotonically by construction).
+    let (mut lo, mut hi) = (start, end_limit);
+    while lo < hi {
+        let mid = lo + (hi - lo).div_ceil(2);
+        if fast.constant_span(start, mid).is_some() {
+            lo = mid;
+        } else {
+            hi = mid - 1;
+        }
+    }
+    let end = lo;
+    let claimed = fast.constant_span(start, end).expect("claimed");
+    assert!(
+        identical(&claimed, &r),
+        "span {start:#x}..={end:#x}: ends differ"
+    );
+    let mut probes: Vec<u32> = (end.saturating_sub(64).max(start)..=end).collect();
+    probes.extend((start..=(start + 64).min(end)).collect::<Vec<_>>());
+    for _ in 0..256 {
+        probes.push(start + (g.next() % ((end - start) as u64 + 1)) as u32);
+    }
+    for p in probes {
+        let got = fast.try_reference(p);
+        assert!(
+            got.is_some_and(|g| identical(&g, &r)),
+            "span {start:#x}..={end:#x} claims one reference, but {p:#x} has {got:?}, not {r:?}"
+        );
+    }
+    true
+}
+
+/// The constant-reference regions against the per-point fast path: every pattern of both
+/// 16-bit formats, each claimed span checked input by input (and any claim joining two spans),
+/// and in binary32 2000 random starts per function, role and parameter set, each span grown to
+/// its largest claim and checked at its ends and inside.
+#[test]
+fn constant_regions() {
+    let formats: [&'static dyn Format; 2] = [&Binary16, &Bfloat16];
+    fast_catalog().par_iter().for_each(|(name, params)| {
+        for role in [Role::Forward, Role::Derivative] {
+            for &format in &formats {
+                let e = evaluator(name, role, format, params);
+                let Some(fast) = FastEvaluator::new(&e) else {
+                    continue;
+                };
+                let sign = format.layout().sign_bit();
+                for s in [0, sign] {
+                    let patterns: Vec<u32> = (1..sign)
+                        .map(|m| s | m)
+                        .filter(|&p| format.to_f64(p).is_finite())
+                        .collect();
+                    let refs: Vec<Option<Reference>> =
+                        patterns.iter().map(|&p| fast.try_reference(p)).collect();
+                    let mut spans = Vec::new();
+                    let mut i = 0;
+                    while i < patterns.len() {
+                        let mut j = i;
+                        while j + 1 < patterns.len()
+                            && fast.constant_span(patterns[i], patterns[j + 1]).is_some()
+                        {
+                            j += 1;
+                        }
+                        if let Some(r) = fast.constant_span(patterns[i], patterns[j]) {
+                            for k in i..=j {
+                                assert!(
+                                    refs[k].is_some_and(|g| identical(&g, &r)),
+                                    "{name} {params:?} {role:?} {}: span {:#x}..={:#x}, {:#x} differs",
+                                    format.name(),
+                                    patterns[i],
+                                    patterns[j],
+                                    patterns[k]
+                                );
+                            }
+                            spans.push((i, j));
+                        }
+                        i = j + 1;
+                    }
+                    for (a, &(si, _)) in spans.iter().enumerate() {
+                        for &(_, ej) in &spans[a + 1..] {
+                            if let Some(r) = fast.constant_span(patterns[si], patterns[ej]) {
+                                assert!(
+                                    refs[si..=ej].iter().all(|g| g.is_some_and(|g| identical(&g, &r))),
+                                    "{name} {params:?} {role:?} {}: a claim joins two spans",
+                                    format.name()
+                                );
+                            }
+                        }
+                    }
+                }
+            }
+            let e = evaluator(name, role, &Binary32, params);
+            let Some(fast) = FastEvaluator::new(&e) else {
+                continue;
+            };
+            let mut g = Mix(0x5eed ^ name.len() as u64 ^ (role == Role::Forward) as u64);
+            let mut claims = 0;
+            for _ in 0..2000 {
+                let s = (g.next() as u32) & 0x8000_0000;
+                let m = 1 + (g.next() % 0x7f7f_ffff) as u32;
+                let limit = (m as u64 + (1 << (g.next() % 25))).min(0x7f7f_ffff) as u32;
+                if claimed_span_holds(&fast, s | m, s | limit, &mut g) {
+                    claims += 1;
+                }
+            }
+            eprintln!("{name} {params:?} {role:?}: binary32 spans claimed from {claims} of 2000 starts");
+        }
+    });
+}

@@ -95,7 +95,7 @@ const THREE_FIFTHS_GAP: f64 = 1.5407439555097887e-33;
 const LOW: f64 = 9.5367431640625e-7; // 2^-20
 
 /// 2^−57: below it mish′ sits just above 0.6 ([`low`]).
-const FLAT: f64 = 6.938893903907228e-18;
+pub(super) const FLAT: f64 = 6.938893903907228e-18;
 
 /// mish or mish′ for 0 < |x| < 2^−20 (|x| ≥ 2^−149), as an exact leading part plus a binary64
 /// rest ([`Outcome::Leading`]), with the series of [`FORWARD`] (g = Σ a_n·xⁿ) and the Cauchy

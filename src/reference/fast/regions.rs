@@ -38,6 +38,8 @@ pub(super) fn region(kind: Kind, role: Role, x: f64) -> Option<u8> {
         // log_sigmoid.rs, mirrored: x ≥ TAIL and x > 745.2 give −0.
         Kind::Softplus => (x < -745.2).then_some(1),
         Kind::LogSigmoid => (x > 745.2).then_some(1),
+        // mish.rs `low`: the derivative below FLAT is `near_constant(RN(3/5), above)`.
+        Kind::Mish if !forward && x.abs() < super::mish::FLAT => Some(4),
         Kind::Mish => rectifier(x, forward, -753.0, 22.0),
         Kind::Gelu => gelu(x, forward),
         Kind::Elu(alpha) => elu(x, alpha, forward),
