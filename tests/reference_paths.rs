@@ -109,45 +109,45 @@ fn constant_regions_agree() {
     // Across the edges of constant-reference regions, where `check` takes one reference for a
     // whole run of inputs (src/reference/fast/regions.rs): σ′'s engine zero beyond |x| = 745.2
     // (both signs) and tanh's level just below 1 from x = 19.5.
-    for (name, args) in [
+    for (name, symbol, function, role, range) in [
         (
             "sigmoid-derivative-zero",
-            vec![
-                "--symbol",
-                "lumen_sigmoid_deriv_f32",
-                "--function",
-                "sigmoid",
-                "--role",
-                "derivative",
-                "--range=745,745.5",
-            ],
+            "lumen_sigmoid_deriv_f32",
+            "sigmoid",
+            "derivative",
+            "--range=745,745.5",
         ),
         (
             "sigmoid-derivative-zero-negative",
-            vec![
-                "--symbol",
-                "lumen_sigmoid_deriv_f32",
-                "--function",
-                "sigmoid",
-                "--role",
-                "derivative",
-                "--range=-745.5,-745",
-            ],
+            "lumen_sigmoid_deriv_f32",
+            "sigmoid",
+            "derivative",
+            "--range=-745.5,-745",
         ),
         (
             "tanh-saturated",
-            vec![
-                "--symbol",
-                "lumen_tanh_f32",
-                "--function",
-                "tanh",
-                "--range=19,20",
-            ],
+            "lumen_tanh_f32",
+            "tanh",
+            "forward",
+            "--range=19,20",
         ),
     ] {
-        let mut all = args.clone();
-        all.extend(["--format", "f32", "--sweep", "exhaustive"]);
-        same_report(name, &all);
+        same_report(
+            name,
+            &[
+                "--symbol",
+                symbol,
+                "--function",
+                function,
+                "--role",
+                role,
+                range,
+                "--format",
+                "f32",
+                "--sweep",
+                "exhaustive",
+            ],
+        );
     }
 }
 
