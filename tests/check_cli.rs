@@ -43,7 +43,7 @@ fn bad_input_exits_2_with_one_line_and_no_file() {
     let dir = temp_dir("cli-bad");
     let json = dir.join("r.json");
     let json = json.to_str().unwrap();
-    let cases: [&[&str]; 8] = [
+    let cases: [&[&str]; 10] = [
         &["--range", "2,1"],
         &["--range", "1,1"],
         &["--range", "0,1e40"],
@@ -52,6 +52,8 @@ fn bad_input_exits_2_with_one_line_and_no_file() {
         &["--sweep", "everywhere"],
         &["--param", "alpha=1"],
         &["--abs-floor=-1"],
+        &["--kernel-workers", "0"],
+        &["--kernel-workers", "9"],
     ];
     for extra in cases {
         let mut args: Vec<&str> = vec!["--json", json];

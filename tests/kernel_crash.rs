@@ -145,3 +145,82 @@ void die_bus(const float *x, float *y, size_t n) { for (size_t i = 0; i < n; i++
         assert_eq!(out.outputs[3], Some(3.0f32.to_bits()));
     }
 }
+
+/// With two worker processes, the calls are shared while the kernel behaves; a crash in the
+/// partner's share is pinned by the main runner exactly as with one worker, and sharing ends.
+#[test]
+fn crash_in_a_partner_share_is_pinned_as_with_one_worker() {
+    let s = spec("liblumen_faulty.so", "lumen_tanh_f16_crash", "tanh", "f16");
+    // Rotated so that the crashing input falls in the second share of a paired call (with
+    // batches of 4096 after a 256-input calibration call, index 14464 lies in [12544, 16640)).
+    let mut x = all16();
+    x.rotate_left(4096);
+    let crash_at = x.iter().position(|&b| b == 0x4880).unwrap();
+    assert_eq!(crash_at, 14464);
+    let run = |workers: usize| {
+        let mut r = Runner::start(
+            &s,
+            RunnerOptions {
+                workers,
+                ..options()
+            },
+        )
+        .unwrap();
+        let out = r.run(&x, None);
+        (out, r.shared_calls)
+    };
+    let (alone, shared_alone) = run(1);
+    let (paired, shared) = run(2);
+    assert_eq!(shared_alone, 0);
+    // One pair returns before the one that crashes (pairs of 8192 from index 256: the second
+    // pair's partner share is [12544, 16640)); after the crash nothing is shared.
+    assert_eq!(shared, 1, "calls answered by the partner");
+    assert_eq!(paired.crashes, alone.crashes);
+    assert_eq!(
+        paired.crashes.iter().map(|c| c.index).collect::<Vec<_>>(),
+        [crash_at]
+    );
+    assert_eq!(paired.outputs, alone.outputs);
+}
+
+/// A kernel's outputs do not depend on how many worker processes share the calls: not even
+/// those of a kernel with a ragged-tail bug (its outputs depend on where each call ends) or one
+/// that keeps state in a global scratch buffer (not thread-safe), since shares are whole calls
+/// in separate processes.
+#[test]
+fn more_workers_give_the_outputs_of_one() {
+    // Values in [1, 2), where the ragged tail's approximation differs from σ at every input.
+    let dense: Vec<u32> = (0x3f80_0000..0x3f80_0000 + 20_003).collect();
+    let cases = [
+        (spec("liblumen_edge.so", "lumen_elu_f16", "elu", "f16"), all16()),
+        (
+            spec("liblumen_faulty.so", "lumen_sigmoid_f32_ragged", "sigmoid", "f32"),
+            dense,
+        ),
+        (
+            spec("liblumen_faulty.so", "lumen_sigmoid_f32_scratch", "sigmoid", "f32"),
+            f32_sample(20_003),
+        ),
+    ];
+    for (s, x) in cases {
+        let mut outputs = Vec::new();
+        for workers in [1, 2, 3] {
+            let mut r = Runner::start(
+                &s,
+                RunnerOptions {
+                    workers,
+                    ..options()
+                },
+            )
+            .unwrap();
+            let out = r.run(&x, None);
+            assert!(out.crashes.is_empty(), "{}: {:?}", s.symbol, out.crashes);
+            assert_eq!(r.shared_calls > 0, workers > 1, "{workers} workers");
+            outputs.push(out.outputs);
+        }
+        for (k, other) in outputs.iter().enumerate().skip(1) {
+            let differ = outputs[0].iter().zip(other).position(|(a, b)| a != b);
+            assert_eq!(differ, None, "{}: {} workers", s.symbol, k + 1);
+        }
+    }
+}

@@ -13,8 +13,9 @@ use std::io::IsTerminal;
 
 /// A batch still running after this long shows a progress bar (when stderr is a terminal).
 const PROGRESS_AFTER: std::time::Duration = std::time::Duration::from_secs(1);
-/// Inputs per kernel call.
-const CHUNK: usize = 65_536;
+/// Inputs per batch handed to the kernel: four of the runner's default calls, so that worker
+/// processes sharing a batch (`--kernel-workers`) each get a whole call.
+const CHUNK: usize = 4 * 65_536;
 
 /// The references of one role: forward, derivative, gradient (g·f′ with seeded g).
 pub struct RoleReferences {

@@ -145,6 +145,10 @@ pub struct Args {
     /// reported as the kernel running out of memory (exit 3).
     #[arg(long, value_name = "SIZE", default_value = "4G")]
     pub kernel_memory: String,
+    /// Worker processes calling the kernel at once (1 to 8; default: one per core, at most
+    /// 2); each has its own `--kernel-memory`, and after any failed call one carries on alone.
+    #[arg(long, value_name = "N")]
+    pub kernel_workers: Option<usize>,
     /// References: `auto` uses the proven fast path where it decides (identical results),
     /// `mpfr` forces MPFR for every point.
     #[arg(long, value_enum, default_value_t = ReferencePath::Auto)]
@@ -722,6 +726,16 @@ pub(super) fn runner_options(args: &Args) -> Result<RunnerOptions, Failure> {
         max_fault_time: limits.1,
         kernel_memory: crate::kernel::kernel_memory(&args.kernel_memory, "--kernel-memory")
             .map_err(Failure::bad_input)?,
+        workers: match args.kernel_workers {
+            None => crate::kernel::default_workers(),
+            Some(n @ 1..=crate::kernel::MAX_WORKERS) => n,
+            Some(n) => {
+                return Err(Failure::bad_input(format!(
+                    "--kernel-workers must be between 1 and {}, got {n}",
+                    crate::kernel::MAX_WORKERS
+                )))
+            }
+        },
         ..RunnerOptions::default()
     })
 }
@@ -891,6 +905,8 @@ pub fn run(args: Args) -> Result<i32, Failure> {
     if let Some(code) = super::quant::check(&args)? {
         return Ok(code);
     }
+    // Every kernel kind is held to the runner options, whether or not it runs in a worker.
+    runner_options(&args)?;
     let signature = signature_from_args(&args)?;
     if signature != Signature::Contiguous
         && (args.input_format.is_some() || args.output_format.is_some())

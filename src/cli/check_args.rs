@@ -52,6 +52,7 @@ pub fn defaults() -> Args {
         max_restarts: crate::kernel::DEFAULT_MAX_RESTARTS,
         max_fault_time: crate::kernel::DEFAULT_MAX_FAULT_TIME.as_secs_f64(),
         kernel_memory: "4G".to_string(),
+        kernel_workers: None,
         reference: crate::check::ReferencePath::Auto,
         shard: None,
         quiet: true,

@@ -201,10 +201,90 @@ impl Runner {
                     .find(|&i| self.pinned.contains_key(&(first[i], second.map(|s| s[i]))))
                     .unwrap_or(hi);
             }
+            if let Some(end) = self.run_shared(lo, size, first, second, &mut outcome, &mut stop) {
+                lo = end;
+                continue;
+            }
             self.run_range(lo, hi, (lo, hi), first, second, &mut outcome, &mut stop);
             lo = hi;
         }
         outcome
+    }
+
+    /// Calls the kernel on up to `workers` calls of `size` inputs from `lo` in as many worker
+    /// processes at once, this runner's own worker taking the first; where the run continues,
+    /// or `None` when the calls are not to be shared (one worker, a pace not yet known, a
+    /// failure seen, pinned inputs, `--stop-on-crash`, or inputs for one call only).  A share whose partner
+    /// fails is run again here, split as [`Self::run_range`] splits, and partners end.
+    fn run_shared(
+        &mut self,
+        lo: usize,
+        size: usize,
+        first: &[u32],
+        second: Option<&[u32]>,
+        outcome: &mut RunOutcome,
+        stop: &mut bool,
+    ) -> Option<usize> {
+        let healthy = self.faults.failed == 0 && self.faults.stopped.is_none();
+        if self.options.workers < 2
+            || self.partners_ended
+            || self.options.stop_on_crash
+            || !healthy
+            || !self.pinned.is_empty()
+            || self.pace().is_none()
+        {
+            return None;
+        }
+        // Shares are the calls one worker would make one after the other (`size` inputs
+        // each), so a kernel whose outputs depend on where a call starts or ends (a ragged
+        // tail) gives the same outputs whatever the number of workers.
+        let span = (first.len() - lo).min(self.options.workers * size);
+        let shares = span.div_ceil(size.max(1));
+        if shares < 2 {
+            return None;
+        }
+        let bound = |k: usize| (lo + k * size).min(lo + span);
+        while self.partners.len() < shares - 1 {
+            let partner = super::partner::Partner::start(self.spec(), &self.options);
+            self.partners.push(partner);
+        }
+        let sent: Vec<bool> = (1..shares)
+            .map(|k| {
+                let (a, b) = (bound(k), bound(k + 1));
+                self.partners[k - 1].send(&first[a..b], second.map(|s| &s[a..b]))
+            })
+            .collect();
+        let own = bound(1);
+        self.run_range(lo, own, (lo, own), first, second, outcome, stop);
+        let mut again = Vec::new();
+        for k in 1..shares {
+            let (a, b) = (bound(k), bound(k + 1));
+            let (result, change) = if sent[k - 1] {
+                self.partners[k - 1].receive()
+            } else {
+                (Err(CallError::Worker("no partner".into())), None)
+            };
+            if self.call_env_change.is_none() {
+                self.call_env_change = change;
+            }
+            match result {
+                Ok(ys) => {
+                    self.shared_calls += 1;
+                    for (slot, y) in outcome.outputs[a..b].iter_mut().zip(ys) {
+                        *slot = Some(y);
+                    }
+                }
+                Err(_) => again.push((a, b)),
+            }
+        }
+        if !again.is_empty() {
+            self.partners_ended = true;
+            self.partners.clear();
+            for (a, b) in again {
+                self.run_range(a, b, (a, b), first, second, outcome, stop);
+            }
+        }
+        Some(bound(shares))
     }
 
     /// Calls the kernel on `lo..hi`, part of the batch `root` as first sent, splitting it when

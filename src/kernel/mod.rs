@@ -17,6 +17,7 @@ pub mod hygiene;
 pub mod loader;
 pub mod manifest;
 pub mod protocol;
+mod partner;
 mod runner;
 mod spawn;
 pub mod stride;
@@ -28,8 +29,8 @@ pub use manifest::{
     load_check_manifest, load_manifest, load_manifest_entries, EntryExtras, PairEntry,
 };
 pub use runner::{
-    CallError, CrashRecord, RunOutcome, Runner, RunnerOptions, DEFAULT_MAX_FAULT_TIME,
-    DEFAULT_MAX_RESTARTS, PACE_FACTOR, PACE_FLOOR,
+    default_workers, CallError, CrashRecord, RunOutcome, Runner, RunnerOptions,
+    DEFAULT_MAX_FAULT_TIME, DEFAULT_MAX_RESTARTS, MAX_WORKERS, PACE_FACTOR, PACE_FLOOR,
 };
 pub use spawn::{kernel_memory, show_size, DEFAULT_KERNEL_MEMORY};
 pub use stride::Signature;

@@ -38,7 +38,19 @@ pub struct RunnerOptions {
     /// `GLIBC_TUNABLES` for the worker alone (`--cpu-mask`): what its loader and libm see of
     /// the CPU.
     pub glibc_tunables: Option<String>,
+    /// Worker processes that may call the kernel at once (`--kernel-workers`); more than one
+    /// only while no call has failed (see `partner.rs`).
+    pub workers: usize,
 }
+
+/// Default of [`RunnerOptions::workers`]: one per core, at most two (a check's reference
+/// threads need the other cores as much).
+pub fn default_workers() -> usize {
+    std::thread::available_parallelism().map_or(1, |n| n.get().min(2))
+}
+
+/// Most worker processes per kernel (`--kernel-workers`).
+pub const MAX_WORKERS: usize = 8;
 
 /// Default of [`RunnerOptions::max_restarts`]: a kernel that crashes on a few hundred inputs
 /// is still pinned input by input (each crash costs about two restarts while bisecting).
@@ -57,6 +69,7 @@ impl Default for RunnerOptions {
             kernel_memory: super::spawn::DEFAULT_KERNEL_MEMORY,
             caller_fpenv: None,
             glibc_tunables: None,
+            workers: default_workers(),
         }
     }
 }
@@ -146,8 +159,10 @@ pub struct Runner {
     pub(crate) load_env: Option<(u32, u32)>,
     /// First call after which the FP control word differed from before it: (n, before, after).
     pub(crate) call_env_change: Option<(usize, u32, u32)>,
-    /// Workers started so far.
+    /// Workers started so far (partners' not counted).
     pub workers_started: usize,
+    /// Calls answered by partner workers (`--kernel-workers`).
+    pub shared_calls: u64,
     /// Calls sent to the current worker.
     calls_in_worker: u64,
     /// Whether the last call sent was its worker's first (so a failure of it owes nothing to
@@ -159,6 +174,10 @@ pub struct Runner {
     /// Inputs (x, g) that failed alone in a fresh worker, with their failure: later runs
     /// record them again without calling the kernel.
     pub(super) pinned: std::collections::HashMap<(u32, Option<u32>), String>,
+    /// Further workers calling the kernel beside this runner's own (`partner.rs`).
+    pub(super) partners: Vec<super::partner::Partner>,
+    /// Whether partners are over for this run (a call failed, or one could not start).
+    pub(super) partners_ended: bool,
 }
 
 /// The executable to run as the worker: `$ULPGAUGE_WORKER_EXE`, else this executable when it is
@@ -258,10 +277,13 @@ impl Runner {
             load_env: None,
             call_env_change: None,
             workers_started: 0,
+            shared_calls: 0,
             calls_in_worker: 0,
             last_call_fresh: false,
             pace: None,
             pinned: std::collections::HashMap::new(),
+            partners: Vec::new(),
+            partners_ended: false,
         };
         runner.ensure_worker().map_err(|e| match e {
             CallError::Worker(m) => m,

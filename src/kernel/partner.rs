@@ -1,0 +1,92 @@
+//! More worker processes calling the same kernel, so that a slow kernel's batches run on
+//! several cores at once.
+//!
+//! A partner is a thread owning a second [`Runner`] (its own worker process, its own pace and
+//! deadlines); it takes one call at a time and answers it.  Separate processes rather than
+//! threads in one worker: a kernel need not be thread-safe, and a crash still kills only the
+//! process that ran the inputs.  Partners only ever run plain calls of a healthy kernel: the
+//! first failure of a partner's call sends its inputs back to the main runner, which splits
+//! them down to the failing input as it does alone (`bisect.rs`), and ends every partner for
+//! the rest of the run, so fault budgets, pinned inputs and `--stop-on-crash` keep the meaning
+//! they have with one worker.
+
+use super::runner::{CallError, Runner, RunnerOptions};
+use super::KernelSpec;
+use std::sync::mpsc::{channel, Receiver, Sender};
+use std::thread::JoinHandle;
+
+/// One call for a partner: first arguments and second arguments.
+type Request = (Vec<u32>, Option<Vec<u32>>);
+/// A partner's answer: the outputs or why the call failed, and the first call after which the
+/// FP control word changed (as [`Runner`] records it).
+type Answer = (Result<Vec<u32>, CallError>, Option<(usize, u32, u32)>);
+
+/// A second worker process with the thread that talks to it.
+pub(super) struct Partner {
+    requests: Option<Sender<Request>>,
+    answers: Receiver<Answer>,
+    thread: Option<JoinHandle<()>>,
+}
+
+impl Partner {
+    /// Starts the thread; its runner (and worker) starts with the first call, so a partner
+    /// that cannot start fails that call and nothing else.
+    pub(super) fn start(spec: &KernelSpec, options: &RunnerOptions) -> Partner {
+        let (requests, incoming) = channel::<Request>();
+        let (outgoing, answers) = channel::<Answer>();
+        let spec = spec.clone();
+        let options = RunnerOptions {
+            workers: 1,
+            ..options.clone()
+        };
+        let thread = std::thread::spawn(move || {
+            let mut runner: Option<Runner> = None;
+            for (first, second) in incoming {
+                let result = match &mut runner {
+                    Some(r) => r.call_plain(&first, second.as_deref()),
+                    None => match Runner::start(&spec, options.clone()) {
+                        Ok(r) => runner.insert(r).call_plain(&first, second.as_deref()),
+                        Err(m) => Err(CallError::Worker(m)),
+                    },
+                };
+                let change = runner.as_ref().and_then(|r| r.call_env_change);
+                if outgoing.send((result, change)).is_err() {
+                    break;
+                }
+            }
+        });
+        Partner {
+            requests: Some(requests),
+            answers,
+            thread: Some(thread),
+        }
+    }
+
+    /// Sends one call; [`Partner::receive`] gives its answer.
+    pub(super) fn send(&self, first: &[u32], second: Option<&[u32]>) -> bool {
+        let request = (first.to_vec(), second.map(<[u32]>::to_vec));
+        self.requests
+            .as_ref()
+            .is_some_and(|r| r.send(request).is_ok())
+    }
+
+    /// The answer to the call sent last.
+    pub(super) fn receive(&self) -> Answer {
+        self.answers.recv().unwrap_or_else(|_| {
+            (
+                Err(CallError::Worker("the partner thread ended".into())),
+                None,
+            )
+        })
+    }
+}
+
+impl Drop for Partner {
+    fn drop(&mut self) {
+        // Closing the channel ends the thread's loop; its runner then ends its worker.
+        self.requests.take();
+        if let Some(t) = self.thread.take() {
+            let _ = t.join();
+        }
+    }
+}
