@@ -47,21 +47,27 @@ fn evaluator(
     )
 }
 
-/// `param-rounding=f32` among a test's parameters stands for `--param-rounding f32` (SELU's
-/// constants then become binary64 numbers, its other fast kind); the rest are parameters.
+/// `param-rounding=f32` (`param-rounding=format`) among a test's parameters stands for
+/// `--param-rounding f32` (`format`): SELU's constants then become binary64 numbers, its other
+/// fast kind; the rest are parameters.
 fn rounding(params: &[&str]) -> (ParamRounding, Vec<String>) {
-    let f32 = params.contains(&F32_ROUNDED);
-    let rest = params.iter().filter(|p| **p != F32_ROUNDED);
-    let rounding = if f32 {
+    let rounding = if params.contains(&F32_ROUNDED) {
         ParamRounding::F32
+    } else if params.contains(&FORMAT_ROUNDED) {
+        ParamRounding::Format
     } else {
         ParamRounding::Exact
     };
+    let rest = params
+        .iter()
+        .filter(|p| **p != F32_ROUNDED && **p != FORMAT_ROUNDED);
     (rounding, rest.map(|s| s.to_string()).collect())
 }
 
 /// See [`rounding`].
 const F32_ROUNDED: &str = "param-rounding=f32";
+/// See [`rounding`].
+const FORMAT_ROUNDED: &str = "param-rounding=format";
 
 /// The exact value at 256 bits, straight from the definitions (only for approximation checks;
 /// β and α as f64; SELU's λ and α, GELU-tanh's c and k rounded to binary32 when
@@ -1421,7 +1427,12 @@ fn fast_catalog() -> Vec<(&'static str, Vec<&'static str>)> {
             all.push((*name, params));
         }
     }
+    // SELU's exact kind (`Kind::Selu`) with λ and α rounded to binary32 and to the format's
+    // own (binary16, bfloat16: another λα), GELU-tanh with binary64 c and k, CELU with α > 1.
     all.push(("selu", vec![F32_ROUNDED]));
+    all.push(("selu", vec![FORMAT_ROUNDED]));
+    all.push(("gelu-tanh", vec![F32_ROUNDED]));
+    all.push(("celu", vec!["alpha=3"]));
     all
 }
 
@@ -1465,10 +1476,49 @@ fn claimed_span_holds(fast: &FastEvaluator, start: u32, end_limit: u32, g: &mut 
     true
 }
 
+/// Every edge of a constant-reference region among the binary32 patterns of one sign, from a
+/// grid of every 2^14th pattern: wherever two neighbouring grid points are not claimed as one
+/// span but one of them lies in a region, the span is grown from the region's end inside the
+/// grid step (found by bisection) and checked there ([`claimed_span_holds`]).  Regions narrower
+/// than the grid step can be missed.  Returns the number of edges checked.
+fn region_edges_hold(fast: &FastEvaluator, sign: u32, g: &mut Mix) -> usize {
+    const STEP: u32 = 1 << 14;
+    const LAST: u32 = 0x7f7f_ffff;
+    let in_region = |m: u32| fast.constant_span(sign | m, sign | m).is_some();
+    let mut edges = 0;
+    let mut prev = 1;
+    while prev < LAST {
+        let cur = (prev + STEP).min(LAST);
+        if fast.constant_span(sign | prev, sign | cur).is_none() {
+            if in_region(prev) {
+                claimed_span_holds(fast, sign | prev, sign | cur, g);
+                edges += 1;
+            }
+            if in_region(cur) {
+                // The first pattern of cur's span: claims from p to cur hold from it on.
+                let (mut lo, mut hi) = (prev + 1, cur);
+                while lo < hi {
+                    let mid = lo + (hi - lo) / 2;
+                    if fast.constant_span(sign | mid, sign | cur).is_some() {
+                        hi = mid;
+                    } else {
+                        lo = mid + 1;
+                    }
+                }
+                claimed_span_holds(fast, sign | lo, sign | cur, g);
+                edges += 1;
+            }
+        }
+        prev = cur;
+    }
+    edges
+}
+
 /// The constant-reference regions against the per-point fast path: every pattern of both
 /// 16-bit formats, each claimed span checked input by input (and any claim joining two spans),
 /// and in binary32 2000 random starts per function, role and parameter set, each span grown to
-/// its largest claim and checked at its ends and inside.
+/// its largest claim and checked at its ends and inside, and every region edge found on a grid
+/// ([`region_edges_hold`]).
 #[test]
 fn constant_regions() {
     let formats: [&'static dyn Format; 2] = [&Binary16, &Bfloat16];
@@ -1538,7 +1588,12 @@ fn constant_regions() {
                     claims += 1;
                 }
             }
-            eprintln!("{name} {params:?} {role:?}: binary32 spans claimed from {claims} of 2000 starts");
+            let edges = region_edges_hold(&fast, 0, &mut g)
+                + region_edges_hold(&fast, 0x8000_0000, &mut g);
+            eprintln!(
+                "{name} {params:?} {role:?}: binary32 spans claimed from {claims} of 2000 \
+                 starts, {edges} region edges checked"
+            );
         }
     });
 }

@@ -108,14 +108,18 @@ fn sigmoid_exhaustive_ranges_agree() {
 fn constant_regions_agree() {
     // Across the edges of constant-reference regions, where `check` takes one reference for a
     // whole run of inputs (src/reference/fast/regions.rs): σ′'s engine zero beyond |x| = 745.2
-    // (both signs) and tanh's level just below 1 from x = 19.5.
-    for (name, symbol, function, role, range) in [
+    // (both signs), tanh's level just below 1 from x = 19.5, CELU's level just above −α below
+    // x/α = −38.3 (α = 1, the ELU kernel with its α trailing) and GELU-tanh's −0 below x = −22
+    // (the erf GELU kernel: only the two reports' agreement matters here).
+    let celu = ["--param", "alpha=1", "--param-passing", "trailing"];
+    for (name, symbol, function, role, range, extra) in [
         (
             "sigmoid-derivative-zero",
             "lumen_sigmoid_deriv_f32",
             "sigmoid",
             "derivative",
             "--range=745,745.5",
+            &[][..],
         ),
         (
             "sigmoid-derivative-zero-negative",
@@ -123,6 +127,7 @@ fn constant_regions_agree() {
             "sigmoid",
             "derivative",
             "--range=-745.5,-745",
+            &[],
         ),
         (
             "tanh-saturated",
@@ -130,24 +135,40 @@ fn constant_regions_agree() {
             "tanh",
             "forward",
             "--range=19,20",
+            &[],
+        ),
+        (
+            "celu-saturated",
+            "lumen_elu_f32",
+            "celu",
+            "forward",
+            "--range=-38.5,-38",
+            &celu[..],
+        ),
+        (
+            "gelu-tanh-negative-zero",
+            "lumen_gelu_f32",
+            "gelu-tanh",
+            "forward",
+            "--range=-22.5,-21.5",
+            &[],
         ),
     ] {
-        same_report(
-            name,
-            &[
-                "--symbol",
-                symbol,
-                "--function",
-                function,
-                "--role",
-                role,
-                range,
-                "--format",
-                "f32",
-                "--sweep",
-                "exhaustive",
-            ],
-        );
+        let mut args = vec![
+            "--symbol",
+            symbol,
+            "--function",
+            function,
+            "--role",
+            role,
+            range,
+            "--format",
+            "f32",
+            "--sweep",
+            "exhaustive",
+        ];
+        args.extend_from_slice(extra);
+        same_report(name, &args);
     }
 }
 

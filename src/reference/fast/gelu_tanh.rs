@@ -45,7 +45,7 @@ pub(super) fn kind(c: &Constants) -> Option<Kind> {
 }
 
 /// 2^−56.
-const TWO_M56: f64 = 1.3877787807814457e-17;
+pub(super) const TWO_M56: f64 = 1.3877787807814457e-17;
 
 /// GELU-tanh or its derivative where a closed form decides it (x finite, nonzero, |x| < TAIL;
 /// c ∈ [0.79, 0.80], k ∈ [0.044, 0.046]; logarithms from Python's math.log, rounded outwards).

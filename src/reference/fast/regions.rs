@@ -54,7 +54,13 @@ pub(super) fn region(kind: Kind, role: Role, x: f64) -> Option<u8> {
         Kind::HardSigmoid => hard_sigmoid(x, forward),
         Kind::HardSwish => hard_swish(x, forward),
         Kind::Softsign => softsign(x, forward),
-        _ => None,
+        // selu.rs `selu`: x ≤ 0 is ELU with α' = λα (the derivative's x > 0, `Exact(λ)`, is
+        // ELU's id 3 too); `selu_wide` has ELU's branches with the double-word λα (see
+        // [`selu_wide`]).
+        Kind::Selu(_, scaled_alpha) => elu(x, scaled_alpha, forward),
+        Kind::SeluWide(c) => selu_wide(x, c, forward),
+        Kind::Celu(alpha) => celu(x, alpha, forward),
+        Kind::GeluTanh(..) => gelu_tanh(x, forward),
     }
 }
 
@@ -168,6 +174,60 @@ fn elu(x: f64, alpha: f64, forward: bool) -> Option<u8> {
         _ if x <= -TAIL || x < super::elu::derivative_zero_below(alpha) => Some(5),
         _ => None,
     }
+}
+
+/// selu.rs `selu_wide`: forward x ≤ −TAIL `Value(−λα widened by DROPPED)`, −TAIL < x < −38.2
+/// `Value(−λα widened by 2^−55)`; derivative x > 0 `Rational(λ)`, −2^−55 < x < 0 `Value(λα
+/// widened by 2^−55)`, x ≤ −TAIL and x below `elu::derivative_zero_below(λα.hi)`
+/// `engine_tiny(+)`: ELU's predicates with α = λα's high part, each branch one constant value.
+#[inline(always)]
+fn selu_wide(x: f64, c: super::selu::Wide, forward: bool) -> Option<u8> {
+    elu(x, c.scaled_alpha_hi(), forward)
+}
+
+/// celu.rs `celu`, z = x/α: forward x ≤ −TAIL·α `engine_beside(−α, above)`, `closed`'s
+/// z.hi < −38.3 `near_constant(−α, above)`; derivative x > 0 `Exact(1)`, z.hi > −2^−55
+/// `near_constant(1, below)`, x ≤ −TAIL·α and z.hi < −745.3 `engine_tiny(+)`.
+///
+/// The z.hi branches are taken on a comparison of x with RN(C·α), C a relative 2^−30 inside
+/// the threshold t, so that each region is an interval of x and lies inside its branch: with
+/// |RN(C·α) − C·α| ≤ 2^−53·|C·α| and |z.hi − z| ≤ 2^−52·|z| (celu.rs `closed`), x < RN(C·α)
+/// gives z.hi < C·(1 − 2^−53)(1 − 2^−52) < t for t < 0, C = t·(1 + 2^−30); x > RN(C·α) gives
+/// z.hi > C·(1 + 2^−53)(1 + 2^−52) > t for C = t·(1 − 2^−30) (C's own rounding, 2^−53, is
+/// far inside the margin; the few inputs in the margins take the per-point path).
+#[inline(always)]
+fn celu(x: f64, alpha: f64, forward: bool) -> Option<u8> {
+    const MARGIN: f64 = 9.313225746154785e-10; // 2^−30
+    const LEVEL: f64 = -38.3 * (1.0 + MARGIN);
+    const NEAR_ONE: f64 = -TWO_M55 * (1.0 - MARGIN);
+    const ZERO: f64 = -745.3 * (1.0 + MARGIN);
+    // 4096·α is exact, as celu.rs compares it.
+    let tail = x <= -TAIL * alpha;
+    if forward {
+        return match x {
+            _ if tail => Some(1),
+            _ if x < LEVEL * alpha => Some(2),
+            _ => None,
+        };
+    }
+    match x {
+        _ if x > 0.0 => Some(3),
+        _ if x > NEAR_ONE * alpha => Some(4),
+        _ if tail || x < ZERO * alpha => Some(5),
+        _ => None,
+    }
+}
+
+/// gelu_tanh.rs `gelu_tanh`: the rectifier tail, `closed`'s x < −22 (`engine_tiny(−)`, as the
+/// tail's) and, for the derivative, x ≥ 8 (`near_constant(1, above)`; the region starts just
+/// above 8) and |x| < 2^−56 (`near_constant(1/2, side of x)`).  c and k do not enter: the
+/// thresholds hold for every c, k the fast kind accepts.
+#[inline(always)]
+fn gelu_tanh(x: f64, forward: bool) -> Option<u8> {
+    if !forward && x.abs() < super::gelu_tanh::TWO_M56 {
+        return Some(if x > 0.0 { 4 } else { 5 });
+    }
+    rectifier(x, forward, -22.0, 8.0)
 }
 
 /// piecewise.rs `relu6`: 0 for x < 0; forward 6 for x ≥ 6; derivative 1 on (0, 6), 0 from 6.

@@ -21,7 +21,7 @@
 //! [`DROPPED`]: super::common::DROPPED
 
 use super::common::{decay, widen, DROPPED, TAIL, TWO_M55};
-use super::dd::{double_word, ilogb, two_prod, Dd, Ev};
+use super::dd::{double_word, two_prod, Dd, Ev};
 use super::decide::{engine_tiny, Outcome};
 use super::exp::expm1;
 use super::{elu, exact_f64, Kind};
@@ -35,6 +35,14 @@ use rug::Rational;
 pub struct Wide {
     lambda: Ev,
     scaled_alpha: Ev,
+}
+
+impl Wide {
+    /// λα's high part, whose exponent places the derivative's engine-zero threshold.
+    #[inline(always)]
+    pub(super) fn scaled_alpha_hi(self) -> f64 {
+        self.scaled_alpha.v.hi
+    }
 }
 
 /// The fast-path kind for SELU's resolved constants: exact normal f64 λ, α and λα give
@@ -98,7 +106,7 @@ pub fn selu_wide(format: Layout, x: f64, c: Wide, role: Role) -> Outcome {
     match role {
         Role::Forward if x < -38.2 => return Outcome::Value(widen(la.neg(), TWO_M55), 0),
         Role::Derivative if x > -TWO_M55 => return Outcome::Value(widen(la, TWO_M55), 0),
-        Role::Derivative if x < -((1076 + ilogb(la.v.hi)) as f64) * 0.6932 => {
+        Role::Derivative if x < elu::derivative_zero_below(la.v.hi) => {
             return Outcome::Fixed(engine_tiny(format, false));
         }
         _ => {}
