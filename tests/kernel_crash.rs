@@ -192,13 +192,26 @@ fn more_workers_give_the_outputs_of_one() {
     // Values in [1, 2), where the ragged tail's approximation differs from σ at every input.
     let dense: Vec<u32> = (0x3f80_0000..0x3f80_0000 + 20_003).collect();
     let cases = [
-        (spec("liblumen_edge.so", "lumen_elu_f16", "elu", "f16"), all16()),
         (
-            spec("liblumen_faulty.so", "lumen_sigmoid_f32_ragged", "sigmoid", "f32"),
+            spec("liblumen_edge.so", "lumen_elu_f16", "elu", "f16"),
+            all16(),
+        ),
+        (
+            spec(
+                "liblumen_faulty.so",
+                "lumen_sigmoid_f32_ragged",
+                "sigmoid",
+                "f32",
+            ),
             dense,
         ),
         (
-            spec("liblumen_faulty.so", "lumen_sigmoid_f32_scratch", "sigmoid", "f32"),
+            spec(
+                "liblumen_faulty.so",
+                "lumen_sigmoid_f32_scratch",
+                "sigmoid",
+                "f32",
+            ),
             f32_sample(20_003),
         ),
     ];
