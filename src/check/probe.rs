@@ -292,10 +292,13 @@ impl<S> Folding<'_, S> {
         failures: &mut Vec<(u32, String)>,
         clock: &mut stats::Clock,
     ) -> S {
+        use std::sync::atomic::Ordering::Relaxed;
+        stats::STATS.tasks.fetch_add(1, Relaxed);
         let fold_uniform = self.uniform.filter(|_| uniform);
         let reference = refs.constant_span(called, range.clone());
         if let (Some(fold), Some(reference)) = (fold_uniform, reference) {
             if let Some(u) = uniform_span(called, range.clone(), reference) {
+                stats::STATS.uniform_tasks.fetch_add(1, Relaxed);
                 clock.lap(&stats::STATS.references);
                 return fold(&u);
             }
@@ -642,7 +645,7 @@ impl Drop for PanicFlag<'_> {
     }
 }
 
-/// Where the threads of the pipeline spend their time, printed to stderr at exit when
+/// Where the threads of the pipeline spend their time (and how many fold tasks were uniform), printed to stderr at exit when
 /// `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see DEVELOPERS.md).
 pub mod stats {
     use std::sync::atomic::{AtomicU64, Ordering};
@@ -669,6 +672,10 @@ pub mod stats {
         pub main_idle: AtomicU64,
         /// Caller's thread: the sink (merge into the sweep's accumulators, findings).
         pub main_merge: AtomicU64,
+        /// Fold tasks folded at once as uniform spans (a count).
+        pub uniform_tasks: AtomicU64,
+        /// All fold tasks (a count).
+        pub tasks: AtomicU64,
     }
 
     /// The process's figures.
@@ -682,6 +689,8 @@ pub mod stats {
         join: AtomicU64::new(0),
         main_idle: AtomicU64::new(0),
         main_merge: AtomicU64::new(0),
+        uniform_tasks: AtomicU64::new(0),
+        tasks: AtomicU64::new(0),
     };
 
     /// A stopwatch whose laps add to one of the figures.
@@ -722,6 +731,12 @@ pub mod stats {
                 v.load(Ordering::Relaxed) as f64 * 1e-9
             )
         })
+        .chain(std::iter::once(format!(
+            "{:42} {:9} of {}\n",
+            "fold tasks folded as uniform spans",
+            s.uniform_tasks.load(Ordering::Relaxed),
+            s.tasks.load(Ordering::Relaxed)
+        )))
         .collect()
     }
 }
@@ -839,10 +854,18 @@ fn pipeline<S: Send>(
                     clock.lap(&stats::STATS.accumulation);
                     let mut j = joining.lock().expect("joining");
                     j.waiting.insert(seq, (part, failed));
+                    let mut finished = true;
                     while let Some((part, mut failed)) = {
                         let next = j.next;
                         j.waiting.remove(&next)
                     } {
+                        // A batch whose tasks are all joined leaves before a task of the next
+                        // one joins it: each partial the sink gets is exactly one batch, so the
+                        // findings are streamed at the same points of the sweep every run.
+                        if !j.finish_batches(&done_tx) {
+                            finished = false;
+                            break;
+                        }
                         j.failures.append(&mut failed);
                         j.current = Some(match j.current.take() {
                             None => part,
@@ -850,7 +873,7 @@ fn pipeline<S: Send>(
                         });
                         j.next += 1;
                     }
-                    let finished = j.finish_batches(&done_tx);
+                    let finished = finished && j.finish_batches(&done_tx);
                     drop(j);
                     clock.lap(&stats::STATS.join);
                     if !finished {
@@ -953,6 +976,10 @@ mod tests {
             &mut |p| parts.push(p),
         );
         assert_eq!(parts.len(), all.len().div_ceil(CHUNK));
+        // Each partial is exactly one batch's points (the findings are settled per partial).
+        for (i, part) in parts.iter().enumerate() {
+            assert_eq!(part.len(), CHUNK.min(all.len() - i * CHUNK), "batch {i}");
+        }
         let points: Vec<Point> = parts.into_iter().flatten().collect();
         let inputs: Vec<u32> = points.iter().map(|p| p.input).collect();
         assert_eq!(inputs, all);
