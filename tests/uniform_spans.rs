@@ -2,7 +2,9 @@
 //! at once (`Stream::add_uniform`) instead of point by point: the report, the binade CSV with
 //! its listed points and the findings file must be byte for byte those of the point-by-point
 //! path (`ULPGAUGE_NO_UNIFORM=1`), for kernels that match the constant reference, miss it by a
-//! constant, and vary inside a span (a few wrong, NaN and infinite outputs).
+//! constant, and vary inside a span (a few wrong, NaN and infinite outputs). The oracle is the
+//! point-by-point path of the same program; the thresholds quoted below are binary32 and
+//! binary64 arithmetic (IEEE 754), worked out by hand.
 
 mod kernel_support;
 
@@ -11,9 +13,11 @@ use std::path::{Path, PathBuf};
 use std::process::Command;
 use std::sync::OnceLock;
 
-/// Kernels with known outputs in the saturated tail of σ (σ(x) rounds to 1 in binary32 for
-/// x > 17.33, and `check` proves one reference per task from x = 38): the constant one ulp
-/// low from 17.5 on or on [64, 64.1) only, and σ itself broken at a few scattered inputs.
+/// Kernels with known outputs in the saturated tail of σ (σ(x) = 1/(1 + e^−x) rounds to 1 in
+/// binary32 once e^−x < 2^−25, x > 17.33; its exact value rounds to 1 in binary64 once
+/// e^−x < 2^−54, x > 37.4, and `check` proves one reference per task from x = 38, the fast
+/// path's saturated region in DEVELOPERS.md): the constant one ulp low from 17.5 on or on
+/// [64, 64.1) only, and σ itself broken at a few scattered inputs.
 const TAIL_KERNELS: &str = r#"
 #include <math.h>
 #include <stdint.h>
@@ -218,8 +222,8 @@ fn constant_wrong_outputs() {
 
 /// (c) Outputs that vary inside constant-reference tasks: σ broken at a few scattered inputs
 /// (one ulp low, NaN, +∞), so that some tasks of the saturated tail are uniform and some not;
-/// across the edge of the constant region (x = 38, where the exact value rounds to 1 in
-/// binary64) and across the binade edge at 64; with and without the listing.
+/// across the edge of the constant region (x = 38) and across the binade edge at 64; with and
+/// without the listing.
 #[test]
 fn outputs_varying_inside_spans() {
     for range in ["--range=36,40", "--range=60,70"] {

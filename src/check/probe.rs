@@ -331,8 +331,8 @@ fn uniform_span(
 
 impl RoleReferences {
     /// The points of `range` of a called batch, into `points` (cleared first); inputs whose
-    /// reference fails go to `failures`.
-    /// `constant`: the task's one reference, when [`Self::constant_span`] proved one.
+    /// reference fails go to `failures`; `constant`: the task's one reference, when
+    /// [`Self::constant_span`] proved one.
     fn points_of(
         &self,
         called: &Called,
@@ -645,8 +645,9 @@ impl Drop for PanicFlag<'_> {
     }
 }
 
-/// Where the threads of the pipeline spend their time (and how many fold tasks were uniform), printed to stderr at exit when
-/// `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see DEVELOPERS.md).
+/// Where the threads of the pipeline spend their time (and how many fold tasks were uniform),
+/// printed to stderr at exit when `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see
+/// DEVELOPERS.md).
 pub mod stats {
     use std::sync::atomic::{AtomicU64, Ordering};
     use std::time::Instant;

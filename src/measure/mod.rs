@@ -77,14 +77,6 @@ impl Uniform {
             left: None,
         }
     }
-    /// The number of inputs.
-    pub fn len(&self) -> u64 {
-        (self.last - self.first) as u64 + 1
-    }
-    /// Never empty (kept for the `len` convention).
-    pub fn is_empty(&self) -> bool {
-        false
-    }
 }
 
 /// Asks the kernel and the reference about more inputs.
