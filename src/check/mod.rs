@@ -519,6 +519,15 @@ fn stream_runs(
             });
             (part, known)
         },
+        uniform: Some(&|u: &measure::Uniform| {
+            let mut part = template.fresh();
+            part.add_uniform(u);
+            let known = keep.then(|| {
+                let classes = measure::classes(l, &u.point(u.first));
+                (u.first..=u.last).map(|x| (x, classes)).collect()
+            });
+            (part, known)
+        }),
         join: &|(mut part, mut all): (Stream, Option<Vec<measure::Known>>), (later, more)| {
             part.merge(later);
             if let (Some(all), Some(more)) = (&mut all, more) {

@@ -3,7 +3,7 @@
 use super::kernel::{KernelCrash, KernelOutput, KernelUnderTest};
 use super::CheckRole;
 use crate::format::{ExactValue, Format};
-use crate::measure::{Point, Probe};
+use crate::measure::{Point, Probe, Uniform};
 use crate::reference::fast::FastEvaluator;
 use crate::reference::{floor_log2_rational, round_rational, Evaluator, Reference};
 use crate::sweep::Rng;
@@ -273,20 +273,76 @@ pub struct Folding<'f, S> {
     pub fold: &'f (dyn Fn(&[Point]) -> S + Sync),
     /// Earlier partial, later partial → the partial of both.
     pub join: &'f (dyn Fn(S, S) -> S + Sync),
+    /// A task whose points differ only in their inputs → the partial `fold` would give for
+    /// its points; without it such tasks are folded point by point too.
+    pub uniform: Option<&'f (dyn Fn(&Uniform) -> S + Sync)>,
+}
+
+impl<S> Folding<'_, S> {
+    /// The partial of one task of a called batch: at once when its points are uniform (and
+    /// `uniform` allowed), else from its points, built in `points`.
+    #[allow(clippy::too_many_arguments)] // one task and the buffers it reuses
+    fn task(
+        &self,
+        refs: &RoleReferences,
+        called: &Called,
+        range: std::ops::Range<usize>,
+        uniform: bool,
+        points: &mut Vec<Point>,
+        failures: &mut Vec<(u32, String)>,
+        clock: &mut stats::Clock,
+    ) -> S {
+        use std::sync::atomic::Ordering::Relaxed;
+        stats::STATS.tasks.fetch_add(1, Relaxed);
+        let fold_uniform = self.uniform.filter(|_| uniform);
+        let reference = refs.constant_span(called, range.clone());
+        if let (Some(fold), Some(reference)) = (fold_uniform, reference) {
+            if let Some(u) = uniform_span(called, range.clone(), reference) {
+                stats::STATS.uniform_tasks.fetch_add(1, Relaxed);
+                clock.lap(&stats::STATS.references);
+                return fold(&u);
+            }
+        }
+        refs.points_of(called, range, reference, points, failures);
+        clock.lap(&stats::STATS.references);
+        (self.fold)(points)
+    }
+}
+
+/// The task `range` of a called batch as one [`Uniform`] span, given that its reference is
+/// `reference` throughout: when every output is one finite-or-not value that is not a crash.
+fn uniform_span(
+    called: &Called,
+    range: std::ops::Range<usize>,
+    reference: Reference,
+) -> Option<Uniform> {
+    let outputs = called.outputs.get(range.clone())?;
+    let output = (*outputs.first()?)?;
+    if outputs.iter().any(|&o| o != Some(output)) {
+        return None;
+    }
+    Some(Uniform {
+        first: called.inputs[range.start],
+        last: called.inputs[range.end - 1],
+        output,
+        reference,
+    })
 }
 
 impl RoleReferences {
     /// The points of `range` of a called batch, into `points` (cleared first); inputs whose
-    /// reference fails go to `failures`.
+    /// reference fails go to `failures`; `constant`: the task's one reference, when
+    /// [`Self::constant_span`] proved one.
     fn points_of(
         &self,
         called: &Called,
         range: std::ops::Range<usize>,
+        constant: Option<Reference>,
         points: &mut Vec<Point>,
         failures: &mut Vec<(u32, String)>,
     ) {
         points.clear();
-        if let Some(reference) = self.constant_span(called, range.clone()) {
+        if let Some(reference) = constant {
             points.extend(
                 called.inputs[range.clone()]
                     .iter()
@@ -479,11 +535,14 @@ impl Prober<'_> {
             }
         };
         let refs = self.refs;
+        // Only for tests comparing reports with and without uniform tasks.
+        let uniform = std::env::var_os("ULPGAUGE_NO_UNIFORM").is_none();
         let mut failures = Vec::new();
         let mut crashes = Vec::new();
         if total <= INLINE {
             // Small sweeps: everything on this thread.
             let mut points = Vec::new();
+            let mut clock = stats::Clock::start();
             for batch in batches {
                 let len = batch.len();
                 let (called, crashed) = refs.call(&mut *self.kernel, batch);
@@ -492,8 +551,15 @@ impl Prober<'_> {
                 let mut joined = None;
                 for start in (0..called.inputs.len()).step_by(FOLD_TASK) {
                     let end = (start + FOLD_TASK).min(called.inputs.len());
-                    refs.points_of(&called, start..end, &mut points, &mut failures);
-                    let part = (folding.fold)(&points);
+                    let part = folding.task(
+                        refs,
+                        &called,
+                        start..end,
+                        uniform,
+                        &mut points,
+                        &mut failures,
+                        &mut clock,
+                    );
                     joined = Some(match joined {
                         None => part,
                         Some(j) => (folding.join)(j, part),
@@ -515,6 +581,7 @@ impl Prober<'_> {
                 &mut |len| advance(len, evaluated),
                 &mut failures,
                 &mut crashes,
+                uniform,
             );
         }
         self.failures.extend(failures);
@@ -578,8 +645,9 @@ impl Drop for PanicFlag<'_> {
     }
 }
 
-/// Where the threads of the pipeline spend their time, printed to stderr at exit when
-/// `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see DEVELOPERS.md).
+/// Where the threads of the pipeline spend their time (and how many fold tasks were uniform),
+/// printed to stderr at exit when `ULPGAUGE_PIPELINE_STATS` is set (for profiling; see
+/// DEVELOPERS.md).
 pub mod stats {
     use std::sync::atomic::{AtomicU64, Ordering};
     use std::time::Instant;
@@ -605,6 +673,10 @@ pub mod stats {
         pub main_idle: AtomicU64,
         /// Caller's thread: the sink (merge into the sweep's accumulators, findings).
         pub main_merge: AtomicU64,
+        /// Fold tasks folded at once as uniform spans (a count).
+        pub uniform_tasks: AtomicU64,
+        /// All fold tasks (a count).
+        pub tasks: AtomicU64,
     }
 
     /// The process's figures.
@@ -618,6 +690,8 @@ pub mod stats {
         join: AtomicU64::new(0),
         main_idle: AtomicU64::new(0),
         main_merge: AtomicU64::new(0),
+        uniform_tasks: AtomicU64::new(0),
+        tasks: AtomicU64::new(0),
     };
 
     /// A stopwatch whose laps add to one of the figures.
@@ -658,6 +732,12 @@ pub mod stats {
                 v.load(Ordering::Relaxed) as f64 * 1e-9
             )
         })
+        .chain(std::iter::once(format!(
+            "{:42} {:9} of {}\n",
+            "fold tasks folded as uniform spans",
+            s.uniform_tasks.load(Ordering::Relaxed),
+            s.tasks.load(Ordering::Relaxed)
+        )))
         .collect()
     }
 }
@@ -676,6 +756,7 @@ fn pipeline<S: Send>(
     advance: &mut dyn FnMut(usize),
     failures: &mut Vec<(u32, String)>,
     crashes: &mut Vec<KernelCrash>,
+    uniform: bool,
 ) {
     use std::sync::atomic::{AtomicBool, Ordering};
     use std::sync::{mpsc, Arc, Mutex};
@@ -761,17 +842,31 @@ fn pipeline<S: Send>(
                         break;
                     };
                     let mut failed = Vec::new();
-                    refs.points_of(&called, range, &mut points, &mut failed);
+                    let part = folding.task(
+                        refs,
+                        &called,
+                        range,
+                        uniform,
+                        &mut points,
+                        &mut failed,
+                        &mut clock,
+                    );
                     drop(called);
-                    clock.lap(&stats::STATS.references);
-                    let part = (folding.fold)(&points);
                     clock.lap(&stats::STATS.accumulation);
                     let mut j = joining.lock().expect("joining");
                     j.waiting.insert(seq, (part, failed));
+                    let mut finished = true;
                     while let Some((part, mut failed)) = {
                         let next = j.next;
                         j.waiting.remove(&next)
                     } {
+                        // A batch whose tasks are all joined leaves before a task of the next
+                        // one joins it: each partial the sink gets is exactly one batch, so the
+                        // findings are streamed at the same points of the sweep every run.
+                        if !j.finish_batches(&done_tx) {
+                            finished = false;
+                            break;
+                        }
                         j.failures.append(&mut failed);
                         j.current = Some(match j.current.take() {
                             None => part,
@@ -779,7 +874,7 @@ fn pipeline<S: Send>(
                         });
                         j.next += 1;
                     }
-                    let finished = j.finish_batches(&done_tx);
+                    let finished = finished && j.finish_batches(&done_tx);
                     drop(j);
                     clock.lap(&stats::STATS.join);
                     if !finished {
@@ -814,6 +909,7 @@ impl Probe for Prober<'_> {
                 a.extend(b);
                 a
             },
+            uniform: None,
         };
         let batches = inputs.chunks(CHUNK).map(|c| c.to_vec());
         self.probe_fold(batches, inputs.len() as u64, &folding, &mut |part| {
@@ -869,6 +965,7 @@ mod tests {
                 a.extend(b);
                 a
             },
+            uniform: None,
         };
         let mut k = InProcessKernel::new(kernel);
         let mut prober = Prober::new(&mut k, &refs, false);
@@ -880,6 +977,10 @@ mod tests {
             &mut |p| parts.push(p),
         );
         assert_eq!(parts.len(), all.len().div_ceil(CHUNK));
+        // Each partial is exactly one batch's points (the findings are settled per partial).
+        for (i, part) in parts.iter().enumerate() {
+            assert_eq!(part.len(), CHUNK.min(all.len() - i * CHUNK), "batch {i}");
+        }
         let points: Vec<Point> = parts.into_iter().flatten().collect();
         let inputs: Vec<u32> = points.iter().map(|p| p.input).collect();
         assert_eq!(inputs, all);

@@ -4,6 +4,7 @@
 use crate::format::{Class, Format, Layout};
 use crate::measure::{
     Accuracy, AccuracyAcc, FindingSink, NonFiniteStream, Point, RunSummary, Shape, ShapeAcc,
+    Uniform,
 };
 use serde::{Deserialize, Serialize};
 
@@ -204,6 +205,46 @@ impl Stream {
                 self.add_in(l, il, p);
             }
             i = end;
+        }
+    }
+
+    /// Adds the points of a uniform span in bit order, as [`Self::add_all`] adds them (the
+    /// same runs, the same single points) without building them: the span's points are equal
+    /// but for the input, so a run goes on to the end of its sign and exponent field.
+    pub fn add_uniform(&mut self, u: &Uniform) {
+        let (l, il) = (self.layout, self.il());
+        // Patterns sharing a sign and exponent field with x end at x with every trailing
+        // significand bit set.
+        let field = (1u32 << (il.precision() - 1)) - 1;
+        let mut p = u.point(u.first);
+        loop {
+            let end = if self.runnable(l, &p) {
+                (p.input | field).min(u.last)
+            } else {
+                p.input
+            };
+            if end > p.input {
+                self.add_uniform_run(&p, end);
+            } else {
+                self.add_in(l, il, &p);
+            }
+            if end >= u.last {
+                break;
+            }
+            p.input = end + 1;
+        }
+    }
+
+    /// [`Self::add_run`] for the points `p.input..=last`, each p but for the input.
+    fn add_uniform_run(&mut self, p: &Point, last: u32) {
+        self.accuracy.add_uniform_run(p, last);
+        if let Some(s) = &mut self.shape {
+            let mut end = p.clone();
+            end.input = last;
+            s.add_run(p, &end);
+        }
+        if let Some(r) = &mut self.runs {
+            r.add_run(p, last);
         }
     }
 
@@ -408,6 +449,68 @@ mod tests {
             push(x, Some(r), reference(r, f32::from_bits(r) as f64, 13));
         }
         v
+    }
+
+    /// A uniform span added at once leaves exactly the state that adding its points leaves:
+    /// spans across exponent fields and plot-bucket edges, both signs, with and without a
+    /// listing limit; outputs exact, wrong, non-finite; references normal, zero, subnormal.
+    #[test]
+    fn uniform_spans_add_like_their_points() {
+        let one = reference(0x3f80_0000, 1.0, 0);
+        let zero = reference(0x8000_0000, -0.0, -126);
+        let tiny = reference(0x0000_0003, 3.0 * 2f64.powi(-149), -126);
+        let spans = [
+            (0x4100_0000u32 - 700, 0x4100_0000 + 1347, 0x3f80_0000, one),
+            (0x4100_0000 - 700, 0x4100_0000 + 1347, 0x3f80_0001, one),
+            (0x4100_0000 - 1, 0x4100_0000, 0x3f7f_ffff, one),
+            (0x4100_0005, 0x4100_0005, 0x3f80_0000, one),
+            (0x4180_0000, 0x4180_07ff, 0x7f80_0000, one),
+            (0x4180_0000, 0x4180_07ff, 0x7fc0_0000, one),
+            (0xc100_0000 - 1000, 0xc100_0000 + 1047, 0x8000_0000, zero),
+            (0xc100_0000 - 1000, 0xc100_0000 + 1047, 0x0000_0001, zero),
+            (0x8100_0000, 0x8100_07ff, 0x0000_0003, tiny),
+            (0x0000_0001, 0x0000_0800, 0x0000_0000, zero),
+            (0xff7f_fc00, 0xff7f_ffff, 0x8000_0000, zero),
+        ];
+        let span = Some((-(1i64 << 31), 1i64 << 31));
+        let narrow = Some((-(1i64 << 21), 1i64 << 21));
+        for (grid, list_over) in [
+            (span, None),
+            (narrow, None),
+            (span, Some(0.5)),
+            (None, None),
+        ] {
+            let new = || {
+                Stream::new(
+                    AccuracyAcc::new(&Binary32, None, list_over, grid),
+                    Some(ShapeAcc::new(&Binary32, true)),
+                    true,
+                    10,
+                )
+            };
+            let (mut by_points, mut at_once) = (new(), new());
+            for &(first, last, output, reference) in &spans {
+                let u = Uniform {
+                    first,
+                    last,
+                    output,
+                    reference,
+                };
+                let points: Vec<Point> = (first..=last).map(|x| u.point(x)).collect();
+                let (mut a, mut b) = (by_points.fresh(), at_once.fresh());
+                a.add_all(&points);
+                b.add_uniform(&u);
+                by_points.merge(a);
+                at_once.merge(b);
+            }
+            by_points.make_portable();
+            at_once.make_portable();
+            let text = |s: &Stream| serde_json::to_string(s).unwrap();
+            assert!(
+                text(&by_points) == text(&at_once),
+                "{grid:?} {list_over:?}: states differ"
+            );
+        }
     }
 
     /// Runs taken at once leave exactly the state that adding the points one by one leaves.

@@ -672,6 +672,26 @@ impl AccuracyAcc {
         self.add_points(self.layout, l, p, last.input, run.len() as u64);
     }
 
+    /// [`Self::add_run`] for the run `p.input..=last` of a [`super::Uniform`] span (one sign and one
+    /// exponent field, finite and nonzero inputs, p's output and reference finite, none
+    /// subnormal), without its points: the same figures, the same fallback to one point at
+    /// a time.
+    pub fn add_uniform_run(&mut self, p: &Point, last: u32) {
+        let l = self.in_layout();
+        let within = self
+            .bucket_of(l.ordinal(p.input))
+            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last)));
+        if !within || self.list_over.is_some() {
+            let mut q = p.clone();
+            for x in p.input..=last {
+                q.input = x;
+                self.add(&q);
+            }
+            return;
+        }
+        self.add_points(self.layout, l, p, last, (last - p.input) as u64 + 1);
+    }
+
     /// [`Self::add`] for `n` equal points from p.input to `last` (n > 1 only on a grid and
     /// without listing, see [`Self::add_run`]).
     #[inline(always)]

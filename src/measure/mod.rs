@@ -50,6 +50,35 @@ pub struct Point {
     pub left: Option<Reference>,
 }
 
+/// Points that differ only in their input: the consecutive patterns `first..=last`, each with
+/// one kernel output and one reference, no second argument and no left-hand reference (a
+/// constant-reference span whose kernel outputs are all equal).
+#[derive(Clone, Copy, Debug)]
+pub struct Uniform {
+    /// The first input pattern.
+    pub first: u32,
+    /// The last input pattern (at least `first`).
+    pub last: u32,
+    /// The kernel's output at every input.
+    pub output: u32,
+    /// The reference at every input.
+    pub reference: Reference,
+}
+
+impl Uniform {
+    /// The point of one input of the span.
+    #[inline]
+    pub fn point(&self, input: u32) -> Point {
+        Point {
+            input,
+            second: None,
+            output: Some(self.output),
+            reference: self.reference,
+            left: None,
+        }
+    }
+}
+
 /// Asks the kernel and the reference about more inputs.
 pub trait Probe {
     /// Evaluates inputs (any order); the result is in the same order, leaving out inputs whose
