@@ -157,20 +157,8 @@ fn crash_in_a_partner_share_is_pinned_as_with_one_worker() {
     x.rotate_left(4096);
     let crash_at = x.iter().position(|&b| b == 0x4880).unwrap();
     assert_eq!(crash_at, 14464);
-    let run = |workers: usize| {
-        let mut r = Runner::start(
-            &s,
-            RunnerOptions {
-                workers,
-                ..options()
-            },
-        )
-        .unwrap();
-        let out = r.run(&x, None);
-        (out, r.shared_calls)
-    };
-    let (alone, shared_alone) = run(1);
-    let (paired, shared) = run(2);
+    let (alone, shared_alone) = run_with_workers(&s, 1, &x);
+    let (paired, shared) = run_with_workers(&s, 2, &x);
     assert_eq!(shared_alone, 0);
     // One pair returns before the one that crashes (pairs of 8192 from index 256: the second
     // pair's partner share is [12544, 16640)); after the crash nothing is shared.
@@ -218,17 +206,9 @@ fn more_workers_give_the_outputs_of_one() {
     for (s, x) in cases {
         let mut outputs = Vec::new();
         for workers in [1, 2, 3] {
-            let mut r = Runner::start(
-                &s,
-                RunnerOptions {
-                    workers,
-                    ..options()
-                },
-            )
-            .unwrap();
-            let out = r.run(&x, None);
+            let (out, shared) = run_with_workers(&s, workers, &x);
             assert!(out.crashes.is_empty(), "{}: {:?}", s.symbol, out.crashes);
-            assert_eq!(r.shared_calls > 0, workers > 1, "{workers} workers");
+            assert_eq!(shared > 0, workers > 1, "{workers} workers");
             outputs.push(out.outputs);
         }
         for (k, other) in outputs.iter().enumerate().skip(1) {
@@ -236,4 +216,23 @@ fn more_workers_give_the_outputs_of_one() {
             assert_eq!(differ, None, "{}: {} workers", s.symbol, k + 1);
         }
     }
+}
+
+/// Runs `x` through a fresh runner with `workers` worker processes: the outcome and the calls
+/// its partners answered.
+fn run_with_workers(
+    s: &ulpgauge::kernel::KernelSpec,
+    workers: usize,
+    x: &[u32],
+) -> (ulpgauge::kernel::RunOutcome, u64) {
+    let mut r = Runner::start(
+        s,
+        RunnerOptions {
+            workers,
+            ..options()
+        },
+    )
+    .unwrap();
+    let out = r.run(x, None);
+    (out, r.shared_calls)
 }

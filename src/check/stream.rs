@@ -480,14 +480,7 @@ mod tests {
             (span, Some(0.5)),
             (None, None),
         ] {
-            let new = || {
-                Stream::new(
-                    AccuracyAcc::new(&Binary32, None, list_over, grid),
-                    Some(ShapeAcc::new(&Binary32, true)),
-                    true,
-                    10,
-                )
-            };
+            let new = || binary32_stream(None, list_over, grid);
             let (mut by_points, mut at_once) = (new(), new());
             for &(first, last, output, reference) in &spans {
                 let u = Uniform {
@@ -513,6 +506,20 @@ mod tests {
         }
     }
 
+    /// An empty binary32 stream with accuracy and shape accumulators and runs kept.
+    fn binary32_stream(
+        abs_floor: Option<f64>,
+        list_over: Option<f64>,
+        grid: Option<(i64, i64)>,
+    ) -> Stream {
+        Stream::new(
+            AccuracyAcc::new(&Binary32, abs_floor, list_over, grid),
+            Some(ShapeAcc::new(&Binary32, true)),
+            true,
+            10,
+        )
+    }
+
     /// Runs taken at once leave exactly the state that adding the points one by one leaves.
     #[test]
     fn runs_add_like_single_points() {
@@ -525,14 +532,7 @@ mod tests {
             (span, Some(0.5), None),
             (None, None, None),
         ] {
-            let new = || {
-                Stream::new(
-                    AccuracyAcc::new(&Binary32, abs_floor, list_over, span),
-                    Some(ShapeAcc::new(&Binary32, true)),
-                    true,
-                    10,
-                )
-            };
+            let new = || binary32_stream(abs_floor, list_over, span);
             let (mut single, mut runs) = (new(), new());
             // Parts of 2048 points, as the sweep folds them, then merged in order.
             for chunk in points.chunks(2048) {
