@@ -1597,3 +1597,138 @@ fn constant_regions() {
         }
     });
 }
+
+/// Every field of two references equal, the recorded precision included.
+fn equal_references(a: &Reference, b: &Reference) -> bool {
+    a.bits == b.bits
+        && a.precision == b.precision
+        && a.exact.map(|e| (e.approx.to_bits(), e.binade))
+            == b.exact.map(|e| (e.approx.to_bits(), e.binade))
+}
+
+/// Checks one claimed scaled span of binary32 patterns `start..=end`: its ends, the 64
+/// patterns beside each end and 256 inside against the per-point fast path.
+fn scaled_span_holds(fast: &FastEvaluator, start: u32, end: u32, g: &mut Mix) {
+    let span = fast.scaled_span(start, end).expect("claimed");
+    let mut probes: Vec<u32> = (end.saturating_sub(64).max(start)..=end).collect();
+    probes.extend(start..=(start + 64).min(end));
+    for _ in 0..256 {
+        probes.push(start + (g.next() % ((end - start) as u64 + 1)) as u32);
+    }
+    for p in probes {
+        let got = fast.try_reference(p);
+        assert!(
+            got.is_some_and(|r| equal_references(&r, &span.reference(p))),
+            "scaled span {start:#x}..={end:#x}: {p:#x} has {got:?}, the span says {:?}",
+            span.reference(p)
+        );
+    }
+}
+
+/// `FastEvaluator::scaled_span` (src/reference/fast/regions.rs `scaled`) claims that the
+/// references of a span are its inputs scaled by a power of two; `check` then writes them
+/// from the input patterns.  Checked against the per-point fast path: in both 16-bit formats,
+/// from every start of every exponent field, the claims to the field's last pattern, to the
+/// next pattern and to a random one, input by input; in binary32, from three starts of every
+/// exponent field of both signs, the longest claim found by bisection, at its ends and inside.
+/// Each function must claim somewhere where its regions say it should (the exp-based
+/// functions' and the rectifiers' forward roles), so that the path is exercised.
+#[test]
+fn scaled_regions() {
+    let formats: [&'static dyn Format; 2] = [&Binary16, &Bfloat16];
+    fast_catalog().par_iter().for_each(|(name, params)| {
+        for role in [Role::Forward, Role::Derivative] {
+            let mut claims = 0u64;
+            for &format in &formats {
+                let e = evaluator(name, role, format, params);
+                let Some(fast) = FastEvaluator::new(&e) else {
+                    continue;
+                };
+                let l = format.layout();
+                let mut g = Mix(0x5ca1ed ^ name.len() as u64);
+                let fields = (0..1u32 << l.exp_bits()).flat_map(|f| [0, l.sign_bit()].map(|s| (s, f)));
+                for (sign, field) in fields {
+                    let first = sign | field << (l.precision() - 1);
+                    let last = first | ((1 << (l.precision() - 1)) - 1);
+                    if !format.to_f64(first).is_finite() {
+                        continue;
+                    }
+                    let refs: Vec<Option<Reference>> =
+                        (first..=last).map(|p| fast.try_reference(p)).collect();
+                    for a in first..=last {
+                        let random = a + (g.next() % ((last - a) as u64 + 1)) as u32;
+                        for b in [last, (a + 1).min(last), random] {
+                            let Some(span) = fast.scaled_span(a, b) else {
+                                continue;
+                            };
+                            claims += 1;
+                            for x in a..=b {
+                                let want = refs[(x - first) as usize];
+                                assert!(
+                                    want.is_some_and(|w| equal_references(&w, &span.reference(x))),
+                                    "{name} {params:?} {role:?} {}: span {a:#x}..={b:#x} says {:?} at {x:#x}, the fast path {want:?}",
+                                    format.name(),
+                                    span.reference(x)
+                                );
+                            }
+                        }
+                    }
+                }
+            }
+            let e = evaluator(name, role, &Binary32, params);
+            let Some(fast) = FastEvaluator::new(&e) else {
+                continue;
+            };
+            let mut g = Mix(0xf1e1d ^ name.len() as u64 ^ (role == Role::Forward) as u64);
+            let mut claims32 = 0;
+            for field in 1u32..255 {
+                for sign in [0, 0x8000_0000u32] {
+                    let first = sign | field << 23;
+                    let last = first | 0x7f_ffff;
+                    let random = first + (g.next() % 0x80_0000) as u32;
+                    for start in [first, first + 1, random] {
+                        if fast.scaled_span(start, start).is_none() {
+                            continue;
+                        }
+                        let (mut lo, mut hi) = (start, last);
+                        while lo < hi {
+                            let mid = lo + (hi - lo).div_ceil(2);
+                            if fast.scaled_span(start, mid).is_some() {
+                                lo = mid;
+                            } else {
+                                hi = mid - 1;
+                            }
+                        }
+                        scaled_span_holds(&fast, start, lo, &mut g);
+                        claims32 += 1;
+                    }
+                }
+            }
+            let expected = role == Role::Forward && SCALED.contains(name);
+            assert_eq!(
+                claims > 0 && claims32 > 0,
+                expected,
+                "{name} {params:?} {role:?}: {claims} 16-bit and {claims32} binary32 claims"
+            );
+        }
+    });
+}
+
+/// The functions whose forward role has scaled regions (src/reference/fast/regions.rs
+/// `scaled`).
+const SCALED: [&str; 14] = [
+    "swish",
+    "silu",
+    "tanh",
+    "gelu",
+    "gelu-tanh",
+    "mish",
+    "softplus",
+    "log-sigmoid",
+    "elu",
+    "celu",
+    "relu",
+    "leaky-relu",
+    "relu6",
+    "hard-swish",
+];

@@ -528,6 +528,16 @@ fn stream_runs(
             });
             (part, known)
         }),
+        exact: Some(&|e: &measure::ExactSpan| {
+            let mut part = template.fresh();
+            part.add_exact(e);
+            let known = keep.then(|| {
+                (e.first..=e.last)
+                    .map(|x| (x, measure::classes(l, &(e.point)(x))))
+                    .collect()
+            });
+            (part, known)
+        }),
         join: &|(mut part, mut all): (Stream, Option<Vec<measure::Known>>), (later, more)| {
             part.merge(later);
             if let (Some(all), Some(more)) = (&mut all, more) {

@@ -3,8 +3,8 @@
 use super::kernel::{KernelCrash, KernelOutput, KernelUnderTest};
 use super::CheckRole;
 use crate::format::{ExactValue, Format};
-use crate::measure::{Point, Probe, Uniform};
-use crate::reference::fast::FastEvaluator;
+use crate::measure::{ExactSpan, Point, Probe, Uniform};
+use crate::reference::fast::{FastEvaluator, ScaledSpan};
 use crate::reference::{floor_log2_rational, round_rational, Evaluator, Reference};
 use crate::sweep::Rng;
 use rayon::prelude::*;
@@ -276,6 +276,9 @@ pub struct Folding<'f, S> {
     /// A task whose points differ only in their inputs → the partial `fold` would give for
     /// its points; without it such tasks are folded point by point too.
     pub uniform: Option<&'f (dyn Fn(&Uniform) -> S + Sync)>,
+    /// A task whose outputs are all their references and exact → the partial `fold` would
+    /// give for its points; without it such tasks are folded point by point too.
+    pub exact: Option<&'f (dyn Fn(&ExactSpan) -> S + Sync)>,
 }
 
 impl<S> Folding<'_, S> {
@@ -303,7 +306,66 @@ impl<S> Folding<'_, S> {
                 return fold(&u);
             }
         }
+        if reference.is_none() {
+            if let Some(span) = refs.scaled_span(called, range.clone()) {
+                return self.scaled_task(&span, called, range, uniform, points, clock);
+            }
+        }
         refs.points_of(called, range, reference, points, failures);
+        clock.lap(&stats::STATS.references);
+        (self.fold)(points)
+    }
+
+    /// The partial of a task whose references are its inputs scaled by a power of two: at
+    /// once when the kernel returned every reference (and `exact` allowed), else from points
+    /// whose references are written from the inputs' patterns.
+    fn scaled_task(
+        &self,
+        span: &ScaledSpan,
+        called: &Called,
+        range: std::ops::Range<usize>,
+        uniform: bool,
+        points: &mut Vec<Point>,
+        clock: &mut stats::Clock,
+    ) -> S {
+        use std::sync::atomic::Ordering::Relaxed;
+        stats::STATS.scaled_tasks.fetch_add(1, Relaxed);
+        let inputs = &called.inputs[range.clone()];
+        let outputs = &called.outputs[range];
+        let fold_exact = self.exact.filter(|_| uniform);
+        if let Some(fold) = fold_exact {
+            let all = inputs
+                .iter()
+                .zip(outputs)
+                .all(|(&x, &o)| o == Some(span.bits(x)));
+            if all {
+                stats::STATS.exact_tasks.fetch_add(1, Relaxed);
+                clock.lap(&stats::STATS.references);
+                let point = |x: u32| {
+                    let reference = span.reference(x);
+                    Point {
+                        input: x,
+                        second: None,
+                        output: Some(reference.bits),
+                        reference,
+                        left: None,
+                    }
+                };
+                return fold(&ExactSpan {
+                    first: inputs[0],
+                    last: inputs[inputs.len() - 1],
+                    point: &point,
+                });
+            }
+        }
+        points.clear();
+        points.extend(inputs.iter().zip(outputs).map(|(&x, &output)| Point {
+            input: x,
+            second: None,
+            output,
+            reference: span.reference(x),
+            left: None,
+        }));
         clock.lap(&stats::STATS.references);
         (self.fold)(points)
     }
@@ -380,6 +442,29 @@ impl RoleReferences {
     /// brings a second, left-hand reference).  Saturated tails and near-constant tiny inputs,
     /// most of an exhaustive binary32 sweep for many functions, then cost no evaluation.
     fn constant_span(&self, called: &Called, range: std::ops::Range<usize>) -> Option<Reference> {
+        let fast = self.span_evaluator(called, range.clone())?;
+        let inputs = &called.inputs[range];
+        let reference = fast.constant_span(inputs[0], inputs[inputs.len() - 1])?;
+        self.span_inputs_hold(inputs).then_some(reference)
+    }
+
+    /// The references of `range` of a called batch as the inputs scaled by a power of two,
+    /// when the fast path proves it (`FastEvaluator::scaled_span`), on the conditions of
+    /// [`Self::constant_span`].
+    fn scaled_span(&self, called: &Called, range: std::ops::Range<usize>) -> Option<ScaledSpan> {
+        let fast = self.span_evaluator(called, range.clone())?;
+        let inputs = &called.inputs[range];
+        let span = fast.scaled_span(inputs[0], inputs[inputs.len() - 1])?;
+        self.span_inputs_hold(inputs).then_some(span)
+    }
+
+    /// The fast evaluator of a span's role, when spans may be taken at all: a one-argument
+    /// role and at least two inputs.
+    fn span_evaluator(
+        &self,
+        called: &Called,
+        range: std::ops::Range<usize>,
+    ) -> Option<&FastEvaluator> {
         let forward = match self.role {
             CheckRole::Forward => true,
             CheckRole::Derivative => false,
@@ -388,23 +473,28 @@ impl RoleReferences {
         if range.len() < 2 || !called.seconds.is_empty() {
             return None;
         }
-        let inputs = &called.inputs[range];
-        let (first, last) = (inputs[0], inputs[inputs.len() - 1]);
         let (f, d) = self.fast.as_ref()?;
-        let fast = if forward { f } else { d }.as_ref()?;
-        let reference = fast.constant_span(first, last)?;
+        if forward { f } else { d }.as_ref()
+    }
+
+    /// Whether a span's inputs are consecutive patterns with no kink among them (a kink brings
+    /// a derivative a second, left-hand reference).
+    fn span_inputs_hold(&self, inputs: &[u32]) -> bool {
         if inputs.windows(2).any(|w| w[0].checked_add(1) != Some(w[1])) {
-            return None;
+            return false;
         }
-        if !forward && !self.kinks.is_empty() {
+        if self.role == CheckRole::Derivative && !self.kinks.is_empty() {
             let input = self.input_format();
-            let (a, b) = (input.to_f64(first), input.to_f64(last));
+            let (a, b) = (
+                input.to_f64(inputs[0]),
+                input.to_f64(inputs[inputs.len() - 1]),
+            );
             let (lo, hi) = if a <= b { (a, b) } else { (b, a) };
             if self.kinks.iter().any(|(at, _)| (lo..=hi).contains(at)) {
-                return None;
+                return false;
             }
         }
-        Some(reference)
+        true
     }
 
     /// Kernel arguments of a batch: the inputs kept, first and second arguments; inputs whose
@@ -675,6 +765,10 @@ pub mod stats {
         pub main_merge: AtomicU64,
         /// Fold tasks folded at once as uniform spans (a count).
         pub uniform_tasks: AtomicU64,
+        /// Fold tasks whose references were scaled inputs (a count).
+        pub scaled_tasks: AtomicU64,
+        /// Of those, tasks folded at once as exact spans (a count).
+        pub exact_tasks: AtomicU64,
         /// All fold tasks (a count).
         pub tasks: AtomicU64,
     }
@@ -691,6 +785,8 @@ pub mod stats {
         main_idle: AtomicU64::new(0),
         main_merge: AtomicU64::new(0),
         uniform_tasks: AtomicU64::new(0),
+        scaled_tasks: AtomicU64::new(0),
+        exact_tasks: AtomicU64::new(0),
         tasks: AtomicU64::new(0),
     };
 
@@ -732,12 +828,21 @@ pub mod stats {
                 v.load(Ordering::Relaxed) as f64 * 1e-9
             )
         })
-        .chain(std::iter::once(format!(
-            "{:42} {:9} of {}\n",
-            "fold tasks folded as uniform spans",
-            s.uniform_tasks.load(Ordering::Relaxed),
-            s.tasks.load(Ordering::Relaxed)
-        )))
+        .chain(
+            [
+                ("fold tasks folded as uniform spans", &s.uniform_tasks),
+                ("fold tasks with scaled references", &s.scaled_tasks),
+                ("fold tasks folded as exact spans", &s.exact_tasks),
+            ]
+            .iter()
+            .map(|(what, v)| {
+                format!(
+                    "{what:42} {:9} of {}\n",
+                    v.load(Ordering::Relaxed),
+                    s.tasks.load(Ordering::Relaxed)
+                )
+            }),
+        )
         .collect()
     }
 }
@@ -910,6 +1015,7 @@ impl Probe for Prober<'_> {
                 a
             },
             uniform: None,
+            exact: None,
         };
         let batches = inputs.chunks(CHUNK).map(|c| c.to_vec());
         self.probe_fold(batches, inputs.len() as u64, &folding, &mut |part| {
@@ -966,6 +1072,7 @@ mod tests {
                 a
             },
             uniform: None,
+            exact: None,
         };
         let mut k = InProcessKernel::new(kernel);
         let mut prober = Prober::new(&mut k, &refs, false);

@@ -3,8 +3,8 @@
 
 use crate::format::{Class, Format, Layout};
 use crate::measure::{
-    Accuracy, AccuracyAcc, FindingSink, NonFiniteStream, Point, RunSummary, Shape, ShapeAcc,
-    Uniform,
+    Accuracy, AccuracyAcc, ExactSpan, FindingSink, NonFiniteStream, Point, RunSummary, Shape,
+    ShapeAcc, Uniform,
 };
 use serde::{Deserialize, Serialize};
 
@@ -232,6 +232,35 @@ impl Stream {
                 break;
             }
             p.input = end + 1;
+        }
+    }
+
+    /// Adds the points of an exact span as [`Self::add_all`] adds them, without building the
+    /// points in between: one sign and exponent field, every point exact, the references never
+    /// stepping back, so `add_all` takes the span as one run when its first point can start one.
+    pub fn add_exact(&mut self, span: &ExactSpan) {
+        let (l, il) = (self.layout, self.il());
+        let p = (span.point)(span.first);
+        if span.first == span.last {
+            self.add_in(l, il, &p);
+            return;
+        }
+        let last = (span.point)(span.last);
+        let one_run = self.runnable(l, &p)
+            && Self::exact(l, &p)
+            && Self::exact(l, &last)
+            && l.sign_and_exponent(p.input) == l.sign_and_exponent(last.input);
+        if !one_run {
+            let points: Vec<Point> = (span.first..=span.last).map(span.point).collect();
+            self.add_all(&points);
+            return;
+        }
+        self.accuracy.add_exact_run(&p, &last, span.point);
+        if let Some(s) = &mut self.shape {
+            s.add_run(&p, &last);
+        }
+        if let Some(r) = &mut self.runs {
+            r.add_run(&p, last.input);
         }
     }
 

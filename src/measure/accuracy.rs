@@ -692,6 +692,24 @@ impl AccuracyAcc {
         self.add_points(self.layout, l, p, last, (last - p.input) as u64 + 1);
     }
 
+    /// [`Self::add_run`] for the exact run `p.input..=last.input` of a [`super::ExactSpan`]
+    /// (its first and last points, the others built by `point` only when they must be added
+    /// one by one): the same figures, the same fallback to one point at a time.
+    pub fn add_exact_run(&mut self, p: &Point, last: &Point, point: &dyn Fn(u32) -> Point) {
+        let l = self.in_layout();
+        let within = self
+            .bucket_of(l.ordinal(p.input))
+            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last.input)));
+        if !within || self.list_over.is_some() {
+            for x in p.input..=last.input {
+                self.add(&point(x));
+            }
+            return;
+        }
+        let n = (last.input - p.input) as u64 + 1;
+        self.add_points(self.layout, l, p, last.input, n);
+    }
+
     /// [`Self::add`] for `n` equal points from p.input to `last` (n > 1 only on a grid and
     /// without listing, see [`Self::add_run`]).
     #[inline(always)]

@@ -79,6 +79,19 @@ impl Uniform {
     }
 }
 
+/// Points whose every output is its reference and equals the exact value (error 0): the
+/// consecutive patterns `first..=last` of one sign and one exponent field, no second argument
+/// and no left-hand reference, each point built on demand by `point` (a span whose references
+/// are the inputs scaled by a power of two, and the kernel returned them all).
+pub struct ExactSpan<'a> {
+    /// The first input pattern.
+    pub first: u32,
+    /// The last input pattern (at least `first`).
+    pub last: u32,
+    /// The point of one input of the span.
+    pub point: &'a (dyn Fn(u32) -> Point + Sync),
+}
+
 /// Asks the kernel and the reference about more inputs.
 pub trait Probe {
     /// Evaluates inputs (any order); the result is in the same order, leaving out inputs whose

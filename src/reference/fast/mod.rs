@@ -38,7 +38,7 @@ pub use decide::FAST_PRECISION;
 
 use super::{Evaluator, Reference};
 use crate::activation::Role;
-use crate::format::{Class, Layout};
+use crate::format::{Class, ExactValue, Layout};
 use decide::finish;
 use rug::Rational;
 
@@ -75,6 +75,55 @@ pub struct FastEvaluator {
     /// The CPU has FMA: use [`arch::reference_fma`].
     #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
     fma: bool,
+}
+
+/// The references of a span of consecutive patterns of one sign and one exponent field that
+/// are the inputs scaled by one power of two ([`FastEvaluator::scaled_span`]): after the first
+/// pattern (whose own reference is kept: a power of two may sit in the binade below), the
+/// reference of x is the pattern x + offset, its value exactly, in one binade.
+#[derive(Clone, Copy, Debug)]
+pub struct ScaledSpan {
+    /// The span's first pattern.
+    first: u32,
+    /// Its reference.
+    first_reference: Reference,
+    /// Reference pattern minus input pattern (both normal, of one sign).
+    offset: u32,
+    /// The binade of every reference after the first.
+    binade: i32,
+    /// The recorded precision of every reference.
+    precision: u32,
+    /// The format's bit arithmetic.
+    layout: Layout,
+}
+
+impl ScaledSpan {
+    /// The reference pattern at x, a pattern of the span.
+    #[inline(always)]
+    pub fn bits(&self, x: u32) -> u32 {
+        if x == self.first {
+            self.first_reference.bits
+        } else {
+            x.wrapping_add(self.offset)
+        }
+    }
+
+    /// The reference at x, a pattern of the span.
+    #[inline(always)]
+    pub fn reference(&self, x: u32) -> Reference {
+        if x == self.first {
+            return self.first_reference;
+        }
+        let bits = x.wrapping_add(self.offset);
+        Reference {
+            bits,
+            exact: Some(ExactValue {
+                approx: self.layout.to_f64(bits),
+                binade: self.binade,
+            }),
+            precision: self.precision,
+        }
+    }
 }
 
 /// A rational parameter as an f64, when exactly representable, positive and normal.
@@ -179,6 +228,51 @@ impl FastEvaluator {
             && a.exact.map(|e| (e.approx.to_bits(), e.binade))
                 == b.exact.map(|e| (e.approx.to_bits(), e.binade));
         same.then_some(a)
+    }
+
+    /// The references of the consecutive patterns `first..=last` when the fast path proves they
+    /// are the inputs scaled by one power of two ([`regions::scaled`]): both ends of one sign
+    /// and one exponent field, normal, in the same scaled region, each scaled input a normal
+    /// number of the format, and both ends' references as the region says.  `None` says nothing.
+    pub fn scaled_span(&self, first: u32, last: u32) -> Option<ScaledSpan> {
+        let format = self.layout;
+        if first > last
+            || format.sign_and_exponent(first) != format.sign_and_exponent(last)
+            || format.classify(first) != Class::Normal
+        {
+            return None;
+        }
+        let (xa, xb) = (format.to_f64(first), format.to_f64(last));
+        let region = regions::scaled(self.kind, self.role, xa)?;
+        if regions::scaled(self.kind, self.role, xb) != Some(region) {
+            return None;
+        }
+        // Exact: the scaled inputs are checked to be normal numbers of the format.
+        let scale = dd::pow2(region.shift);
+        let (ba, bb) = (xa * scale, xb * scale);
+        let (bits_a, bits_b) = (format.normal_bits(ba)?, format.normal_bits(bb)?);
+        let (ra, rb) = (self.try_reference(first)?, self.try_reference(last)?);
+        let is = |r: &Reference, bits: u32, b: f64| {
+            r.bits == bits && r.exact.is_some_and(|e| e.approx.to_bits() == b.to_bits())
+        };
+        let binade = dd::ilogb(bb);
+        // Only the field's first pattern can be a power of two, whose binade may be one lower.
+        let last_binade = rb.exact.map(|e| e.binade) == Some(binade) || first == last;
+        if !is(&ra, bits_a, ba)
+            || !is(&rb, bits_b, bb)
+            || ra.precision != rb.precision
+            || !last_binade
+        {
+            return None;
+        }
+        Some(ScaledSpan {
+            first,
+            first_reference: ra,
+            offset: bits_b.wrapping_sub(last),
+            binade,
+            precision: rb.precision,
+            layout: format,
+        })
     }
 
     /// The evaluation itself, inlined into each build (portable and [`arch`]).

@@ -284,3 +284,110 @@ fn softsign(x: f64, forward: bool) -> Option<u8> {
         (a < super::softsign::TINY_DERIVATIVE).then_some(2)
     }
 }
+
+/// How the reference of a scaled region follows x: y lies beside (or is) b = 2^shift·x.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(super) struct Scaled {
+    /// The region's id (distinct per branch of the evaluation, as in [`region`]).
+    pub id: u8,
+    /// b = 2^shift·x.
+    pub shift: i32,
+}
+
+/// The scaled region of x (finite, nonzero) for this function and role: inputs where
+/// [`super::FastEvaluator::try_reference`] answers the reference of a y that is b = 2^shift·x
+/// itself (`Outcome::Exact`, exact `value`) or lies beside it by less than 2^(ilogb(b) − 54)
+/// (`near_side`, `engine_beside`).  The contract the caller relies on: for one function and
+/// role, the inputs of one sign with the same id form an interval; on it, at every x whose b is
+/// a normal number of the format and not a power of two, the reference is b's own pattern, the
+/// approximation b and the binade ilogb(b), with one recorded precision per id (`decide_beside`
+/// and `round_beside`, `round_dd` with l = 0, `exact::near` with side 0 all give that: b is far
+/// from every rounding boundary other than itself, and only a power of two b approached from
+/// below falls into the binade below).  So an exhaustive sweep can write those references from
+/// x's pattern alone.
+///
+/// Each arm restates a branch of its function's evaluation, named beside it, in the order the
+/// evaluation takes them; every predicate is a comparison of x (or of the monotone RN(βx)) with
+/// constants, so each id's inputs of one sign form an interval.
+#[inline(always)]
+pub(super) fn scaled(kind: Kind, role: Role, x: f64) -> Option<Scaled> {
+    if role != Role::Forward {
+        return None;
+    }
+    let at = |id: u8, shift: i32| Some(Scaled { id, shift });
+    match kind {
+        // logistic.rs `swish`: the tail's positive side `engine_beside(x, below)`, then
+        // `swish_closed`: |z.hi| < 2^−54 `near_side(x/2, above)`, z.hi > 39 `near_side(x, below)`.
+        Kind::Swish(beta) => {
+            let z = Dd::prod(beta, x);
+            if super::logistic::dd_in_tail(z) {
+                return if z.hi > 0.0 { at(1, 0) } else { None };
+            }
+            match z.hi {
+                h if h.abs() < TWO_M54 => at(if x > 0.0 { 2 } else { 3 }, -1),
+                h if h > 39.0 => at(4, 0),
+                _ => None,
+            }
+        }
+        // logistic.rs `tanh`: after the tail and 19.5 < |x|, |x| < 2^−27 `near_side(x, towards
+        // zero)`.
+        Kind::Tanh => (x.abs() < TWO_M27).then_some(Scaled { id: 1, shift: 0 }),
+        // gelu.rs `gelu` / gelu_tanh.rs `gelu_tanh`: the rectifier tail x ≥ TAIL
+        // `engine_beside(x, below)`, then |x| < 2^−55 (2^−56) `near_side(x/2, above)` and
+        // x > 9 (x ≥ 8) `near_side(x, below)`.
+        Kind::Gelu => rectifier_scaled(x, TWO_M55, |x| x > 9.0),
+        Kind::GeluTanh(..) => rectifier_scaled(x, super::gelu_tanh::TWO_M56, |x| x >= 8.0),
+        // mish.rs `mish`: the rectifier tail, then `closed`'s x > 20 `near_side(x, below)`.
+        Kind::Mish => rectifier_scaled(x, 0.0, |x| x > 20.0),
+        // softplus.rs: x ≥ TAIL `engine_beside(x, above)`, `closed`'s x > 38 `near_side(x,
+        // above)`; log_sigmoid.rs mirrored: x ≤ −TAIL `engine_beside(x, below)`, x < −38
+        // `near_side(x, below)`.
+        Kind::Softplus => match x {
+            _ if x >= TAIL => at(1, 0),
+            _ if x > 38.0 => at(2, 0),
+            _ => None,
+        },
+        Kind::LogSigmoid => match x {
+            _ if x <= -TAIL => at(1, 0),
+            _ if x < -38.0 => at(2, 0),
+            _ => None,
+        },
+        // elu.rs `elu`: x > 0 `Exact(x)` (SELU's λx is no power-of-two multiple of x).
+        Kind::Elu(_) => (x > 0.0).then_some(Scaled { id: 1, shift: 0 }),
+        // celu.rs: x > 0 `Exact(x)`; x < 0 with z.hi > −2^−55 `near_side(x, above)`, taken on
+        // x > RN(C·α) with C pulled a relative 2^−30 inside, as [`celu`] argues.
+        Kind::Celu(alpha) => {
+            const MARGIN: f64 = 9.313225746154785e-10; // 2^−30
+            const NEAR_X: f64 = -TWO_M55 * (1.0 - MARGIN);
+            match x {
+                _ if x > 0.0 => at(1, 0),
+                _ if x > NEAR_X * alpha => at(2, 0),
+                _ => None,
+            }
+        }
+        // piecewise.rs: ReLU and leaky ReLU x > 0, ReLU6 0 < x < 6, hard swish x ≥ 3: `value(x)`;
+        // hard swish |x| < TINY `near(x/2, above)`.
+        Kind::Relu | Kind::LeakyRelu(_) => (x > 0.0).then_some(Scaled { id: 1, shift: 0 }),
+        Kind::Relu6 => (x > 0.0 && x < 6.0).then_some(Scaled { id: 1, shift: 0 }),
+        Kind::HardSwish => match x {
+            _ if x >= 3.0 => at(1, 0),
+            _ if x.abs() < super::piecewise::TINY => at(if x > 0.0 { 2 } else { 3 }, -1),
+            _ => None,
+        },
+        _ => None,
+    }
+}
+
+/// The forward scaled regions of a function whose tail is `decide::rectifier_tail` (GELU,
+/// GELU-tanh, mish): x ≥ TAIL `engine_beside(x, below)`; |x| < `half_below` `near_side(x/2,
+/// above)`; `upper(x)` (below TAIL) `near_side(x, below)`.
+#[inline(always)]
+fn rectifier_scaled(x: f64, half_below: f64, upper: impl Fn(f64) -> bool) -> Option<Scaled> {
+    let at = |id: u8, shift: i32| Some(Scaled { id, shift });
+    match x {
+        _ if x >= TAIL => at(1, 0),
+        _ if x.abs() < half_below => at(if x > 0.0 { 2 } else { 3 }, -1),
+        _ if upper(x) => at(4, 0),
+        _ => None,
+    }
+}
