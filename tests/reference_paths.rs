@@ -173,6 +173,67 @@ fn constant_regions_agree() {
 }
 
 #[test]
+fn scaled_regions_agree() {
+    // Inside and across the edges of scaled regions, where `check` writes each reference from
+    // the input's pattern (src/reference/fast/regions.rs `scaled`), each range a few ten
+    // thousand patterns (MPFR takes them one by one): swish just beside x/2 for |x| < 2^−54,
+    // across 2^−69 on both signs (on the negative side a power of two falls into the binade
+    // below), and just below x across z = 39; tanh just inside x across 2^−27; GELU-tanh's x/2
+    // across 2^−56 and x across 8 (the erf GELU kernel: only the reports' agreement matters).
+    for (name, symbol, function, range) in [
+        (
+            "swish-half",
+            "lumen_swish_f32",
+            "swish",
+            "--range=1.69e-21,1.70e-21",
+        ),
+        (
+            "swish-half-negative",
+            "lumen_swish_f32",
+            "swish",
+            "--range=-1.70e-21,-1.69e-21",
+        ),
+        (
+            "swish-level",
+            "lumen_swish_f32",
+            "swish",
+            "--range=38.9,39.1",
+        ),
+        (
+            "tanh-tiny",
+            "lumen_tanh_f32",
+            "tanh",
+            "--range=7.44e-9,7.46e-9",
+        ),
+        (
+            "gelu-tanh-half",
+            "lumen_gelu_f32",
+            "gelu-tanh",
+            "--range=-1.39e-17,-1.38e-17",
+        ),
+        (
+            "gelu-tanh-level",
+            "lumen_gelu_f32",
+            "gelu-tanh",
+            "--range=7.99,8.01",
+        ),
+    ] {
+        let args = vec![
+            "--symbol",
+            symbol,
+            "--function",
+            function,
+            range,
+            "--format",
+            "f32",
+            "--sweep",
+            "exhaustive",
+        ];
+        same_report(name, &args);
+    }
+}
+
+#[test]
 fn sampled_f32_kernels_agree() {
     for (name, args) in [
         (

@@ -31,6 +31,16 @@ void patch_low_sigmoid_f32(const float *x, float *y, size_t n) {
     for (size_t i = 0; i < n; i++)
         y[i] = x[i] >= 64.0f && x[i] < 64.1f ? 0x1.fffffep-1f : 1.0f / (1.0f + expf(-x[i]));
 }
+void spotty_relu_f32(const float *x, float *y, size_t n) {
+    for (size_t i = 0; i < n; i++) {
+        uint32_t b;
+        memcpy(&b, &x[i], sizeof b);
+        float v = x[i] > 0.0f ? x[i] : 0.0f;
+        if (b % 40009 == 0) v = nextafterf(v, 0.0f);
+        else if (b % 50021 == 0) v = NAN;
+        y[i] = v;
+    }
+}
 void spotty_sigmoid_f32(const float *x, float *y, size_t n) {
     for (size_t i = 0; i < n; i++) {
         uint32_t b;
@@ -241,4 +251,88 @@ fn outputs_varying_inside_spans() {
             same_outputs(&name, "libtail.so", &args, listing);
         }
     }
+}
+
+/// (d) Scaled-reference tasks (src/reference/fast/regions.rs `scaled`), whose references are
+/// written from the input patterns and which are folded at once when every output is its
+/// reference (`Stream::add_exact`): ReLU and tanh (tanhf(x) = x below 2^−27) exact across the
+/// binade edges at 1 and 2 and at 2^−27's neighbours, swish's x/2 on the negative side (where a
+/// power of two falls into the binade below), with and without the listing, in a dense sweep
+/// too; and ReLU broken at a few scattered inputs (one ulp low, NaN), so that some scaled tasks
+/// are exact and some not.
+#[test]
+fn scaled_spans() {
+    for (name, lib, symbol, function, range, listing) in [
+        (
+            "relu-exact",
+            "libfloor.so",
+            "floor_relu_f32",
+            "relu",
+            "--range=0.8,2.5",
+            Listing::None,
+        ),
+        (
+            "relu-quiet",
+            "libfloor.so",
+            "floor_relu_f32",
+            "relu",
+            "--range=0.8,2.5",
+            Listing::Quiet,
+        ),
+        (
+            "tanh-exact",
+            "libfloor.so",
+            "floor_tanh_f32",
+            "tanh",
+            "--range=1e-9,5e-9",
+            Listing::None,
+        ),
+        (
+            "swish-half",
+            "libfloor.so",
+            "floor_swish_f32",
+            "swish",
+            "--range=-3e-20,-1e-21",
+            Listing::None,
+        ),
+        (
+            "relu-spotty",
+            "libtail.so",
+            "spotty_relu_f32",
+            "relu",
+            "--range=0.8,2.5",
+            Listing::None,
+        ),
+        (
+            "relu-spotty-rows",
+            "libtail.so",
+            "spotty_relu_f32",
+            "relu",
+            "--range=0.8,2.5",
+            Listing::Rows,
+        ),
+    ] {
+        let args = [
+            "--symbol",
+            symbol,
+            "--function",
+            function,
+            "--sweep",
+            "exhaustive",
+            range,
+        ];
+        same_outputs(name, lib, &args, listing);
+    }
+    let dense = [
+        "--symbol",
+        "floor_relu_f32",
+        "--function",
+        "relu",
+        "--sweep",
+        "dense",
+        "--per-binade",
+        "8388608",
+        "--range=0.8,2.5",
+    ];
+    same_outputs("relu-dense", "libfloor.so", &dense, Listing::None);
 }
