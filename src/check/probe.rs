@@ -334,10 +334,16 @@ impl<S> Folding<'_, S> {
         let outputs = &called.outputs[range];
         let fold_exact = self.exact.filter(|_| uniform);
         if let Some(fold) = fold_exact {
-            let all = inputs
-                .iter()
-                .zip(outputs)
-                .all(|(&x, &o)| o == Some(span.bits(x)));
+            // The first pattern's reference is its own; after it, x + offset (one pass
+            // without early exit, which the compiler vectorises).
+            let offset = span.bits(inputs[1]).wrapping_sub(inputs[1]);
+            let all = outputs[0] == Some(span.bits(inputs[0]))
+                && inputs[1..]
+                    .iter()
+                    .zip(&outputs[1..])
+                    .fold(true, |all, (&x, &o)| {
+                        all & (o == Some(x.wrapping_add(offset)))
+                    });
             if all {
                 stats::STATS.exact_tasks.fetch_add(1, Relaxed);
                 clock.lap(&stats::STATS.references);
@@ -480,7 +486,13 @@ impl RoleReferences {
     /// Whether a span's inputs are consecutive patterns with no kink among them (a kink brings
     /// a derivative a second, left-hand reference).
     fn span_inputs_hold(&self, inputs: &[u32]) -> bool {
-        if inputs.windows(2).any(|w| w[0].checked_add(1) != Some(w[1])) {
+        // One pass without early exit, which the compiler vectorises.
+        let first = inputs[0];
+        let consecutive = inputs[inputs.len() - 1].wrapping_sub(first) as usize == inputs.len() - 1
+            && inputs.iter().enumerate().fold(true, |all, (i, &x)| {
+                all & (x == first.wrapping_add(i as u32))
+            });
+        if !consecutive {
             return false;
         }
         if self.role == CheckRole::Derivative && !self.kinks.is_empty() {
