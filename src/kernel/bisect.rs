@@ -270,9 +270,10 @@ impl Runner {
             match result {
                 Ok(ys) => {
                     self.shared_calls += 1;
-                    for (slot, y) in outcome.outputs[a..b].iter_mut().zip(ys) {
+                    for (slot, &y) in outcome.outputs[a..b].iter_mut().zip(&ys) {
                         *slot = Some(y);
                     }
+                    self.partners[k - 1].recycle(ys);
                 }
                 Err(_) => again.push((a, b)),
             }
@@ -303,12 +304,16 @@ impl Runner {
         if *stop || lo >= hi {
             return;
         }
-        match self.call_plain(&first[lo..hi], second.map(|s| &s[lo..hi])) {
-            Ok(ys) => {
-                for (slot, y) in outcome.outputs[lo..hi].iter_mut().zip(ys) {
-                    *slot = Some(y);
-                }
+        let mut ys = std::mem::take(&mut self.spare);
+        let called = self.call_plain_into(&first[lo..hi], second.map(|s| &s[lo..hi]), &mut ys);
+        if called.is_ok() {
+            for (slot, &y) in outcome.outputs[lo..hi].iter_mut().zip(&ys) {
+                *slot = Some(y);
             }
+        }
+        self.spare = ys;
+        match called {
+            Ok(()) => {}
             Err(CallError::Worker(message)) => {
                 // Not the kernel's doing: bisecting would only start more failing workers.
                 outcome.crashes.push(CrashRecord {

@@ -15,17 +15,27 @@ use super::KernelSpec;
 use std::sync::mpsc::{channel, Receiver, Sender};
 use std::thread::JoinHandle;
 
-/// One call for a partner: first arguments and second arguments.
-type Request = (Vec<u32>, Option<Vec<u32>>);
+/// One call for a partner: first arguments, second arguments, and a buffer for the outputs
+/// (an earlier answer's, so that its memory is reused).
+type Request = (Vec<u32>, Option<Vec<u32>>, Vec<u32>);
 /// A partner's answer: the outputs or why the call failed, and the first call after which the
 /// FP control word changed (as [`Runner`] records it).
 type Answer = (Result<Vec<u32>, CallError>, Option<(usize, u32, u32)>);
+/// An answer as the thread sends it, with the request's first arguments (their buffer, for
+/// the next request).
+type Sent = (
+    Result<Vec<u32>, CallError>,
+    Option<(usize, u32, u32)>,
+    Vec<u32>,
+);
 
 /// A second worker process with the thread that talks to it.
 pub(super) struct Partner {
     requests: Option<Sender<Request>>,
-    answers: Receiver<Answer>,
+    answers: Receiver<Sent>,
     thread: Option<JoinHandle<()>>,
+    /// Buffers of earlier calls, reused by the next: first arguments, outputs.
+    spare: (Vec<u32>, Vec<u32>),
 }
 
 impl Partner {
@@ -33,7 +43,7 @@ impl Partner {
     /// that cannot start fails that call and nothing else.
     pub(super) fn start(spec: &KernelSpec, options: &RunnerOptions) -> Partner {
         let (requests, incoming) = channel::<Request>();
-        let (outgoing, answers) = channel::<Answer>();
+        let (outgoing, answers) = channel::<Sent>();
         let spec = spec.clone();
         let options = RunnerOptions {
             workers: 1,
@@ -41,16 +51,23 @@ impl Partner {
         };
         let thread = std::thread::spawn(move || {
             let mut runner: Option<Runner> = None;
-            for (first, second) in incoming {
-                let result = match &mut runner {
-                    Some(r) => r.call_plain(&first, second.as_deref()),
+            for (first, second, mut out) in incoming {
+                let called = match &mut runner {
+                    Some(r) => r.call_plain_into(&first, second.as_deref(), &mut out),
                     None => match Runner::start(&spec, options.clone()) {
-                        Ok(r) => runner.insert(r).call_plain(&first, second.as_deref()),
+                        Ok(r) => {
+                            runner
+                                .insert(r)
+                                .call_plain_into(&first, second.as_deref(), &mut out)
+                        }
                         Err(m) => Err(CallError::Worker(m)),
                     },
                 };
                 let change = runner.as_ref().and_then(|r| r.call_env_change);
-                if outgoing.send((result, change)).is_err() {
+                if outgoing
+                    .send((called.map(|()| out), change, first))
+                    .is_err()
+                {
                     break;
                 }
             }
@@ -59,25 +76,43 @@ impl Partner {
             requests: Some(requests),
             answers,
             thread: Some(thread),
+            spare: (Vec::new(), Vec::new()),
         }
     }
 
     /// Sends one call; [`Partner::receive`] gives its answer.
-    pub(super) fn send(&self, first: &[u32], second: Option<&[u32]>) -> bool {
-        let request = (first.to_vec(), second.map(<[u32]>::to_vec));
+    pub(super) fn send(&mut self, first: &[u32], second: Option<&[u32]>) -> bool {
+        let mut firsts = std::mem::take(&mut self.spare.0);
+        firsts.clear();
+        firsts.extend_from_slice(first);
+        let request = (
+            firsts,
+            second.map(<[u32]>::to_vec),
+            std::mem::take(&mut self.spare.1),
+        );
         self.requests
             .as_ref()
             .is_some_and(|r| r.send(request).is_ok())
     }
 
-    /// The answer to the call sent last.
-    pub(super) fn receive(&self) -> Answer {
-        self.answers.recv().unwrap_or_else(|_| {
-            (
+    /// The answer to the call sent last: the outputs or why the call failed, and the first
+    /// call after which the FP control word changed.
+    pub(super) fn receive(&mut self) -> Answer {
+        match self.answers.recv() {
+            Ok((result, change, firsts)) => {
+                self.spare.0 = firsts;
+                (result, change)
+            }
+            Err(_) => (
                 Err(CallError::Worker("the partner thread ended".into())),
                 None,
-            )
-        })
+            ),
+        }
+    }
+
+    /// Gives back the outputs of an answer once they are copied, for the next call to fill.
+    pub(super) fn recycle(&mut self, outputs: Vec<u32>) {
+        self.spare.1 = outputs;
     }
 }
 

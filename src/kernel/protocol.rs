@@ -86,6 +86,44 @@ pub struct CallRequest {
     pub strides: (i32, i32),
 }
 
+/// A call request as the runner sends it: the same fields as [`CallRequest`], the arrays
+/// borrowed from the caller's batch, so that sending one copies them only into the pipe.
+#[derive(Clone, Copy, Debug)]
+pub struct CallArgs<'a> {
+    /// Buffer placement.
+    pub layout: Layout,
+    /// Byte offset of x from a 64-byte boundary.
+    pub x_offset: u32,
+    /// Byte offset of y from a 64-byte boundary.
+    pub y_offset: u32,
+    /// Threads calling concurrently.
+    pub threads: u32,
+    /// Calls per thread.
+    pub reps: u32,
+    /// x (or y for from-output gradient kernels).
+    pub first: &'a [u32],
+    /// g, for gradient kernels.
+    pub second: Option<&'a [u32]>,
+    /// Element strides (sx, sy).
+    pub strides: (i32, i32),
+}
+
+impl CallRequest {
+    /// The request as borrowed arguments.
+    pub fn args(&self) -> CallArgs<'_> {
+        CallArgs {
+            layout: self.layout,
+            x_offset: self.x_offset,
+            y_offset: self.y_offset,
+            threads: self.threads,
+            reps: self.reps,
+            first: &self.first,
+            second: self.second.as_deref(),
+            strides: self.strides,
+        }
+    }
+}
+
 /// What a successful call reports.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct CallReply {
@@ -182,17 +220,25 @@ impl<R: Read> Reader<'_, R> {
     /// Reads `n` u32 (at most [`MAX_ELEMENTS`]: callers check counts first, this is the
     /// backstop against allocating from a forged one).
     pub fn u32s(&mut self, n: usize) -> io::Result<Vec<u32>> {
+        let mut v = Vec::new();
+        self.u32s_into(n, &mut v)?;
+        Ok(v)
+    }
+    /// Reads `n` u32 into `v`, reusing its allocation: a buffer already `n` long is not
+    /// zeroed first (every element is overwritten, or the read fails).
+    pub fn u32s_into(&mut self, n: usize, v: &mut Vec<u32>) -> io::Result<()> {
         if n > MAX_ELEMENTS {
             return Err(bad(&format!("an array of {n} elements")));
         }
-        let mut v = vec![0u32; n];
+        v.truncate(n);
+        v.resize(n, 0);
         // SAFETY: the u32 buffer viewed as bytes; every byte pattern is a valid u32.
         let bytes = unsafe { std::slice::from_raw_parts_mut(v.as_mut_ptr() as *mut u8, n * 4) };
         self.0.read_exact(bytes)?;
         if cfg!(target_endian = "big") {
             v.iter_mut().for_each(|x| *x = u32::from_le(*x));
         }
-        Ok(v)
+        Ok(())
     }
     /// Reads a length-prefixed string of at most [`MAX_MESSAGE`] bytes.
     pub fn str(&mut self) -> io::Result<String> {
@@ -210,9 +256,9 @@ fn bad(what: &str) -> io::Error {
     io::Error::new(io::ErrorKind::InvalidData, what.to_string())
 }
 
-/// Encodes a call request (`op` is [`OP_CALL`] or [`OP_BENCH`]) with its token.
-pub fn encode_call(op: u32, token: u64, req: &CallRequest) -> Writer {
-    let mut w = Writer::default();
+/// The fixed-size part of a call request (op code, token and fields, up to the arrays).
+fn call_head(op: u32, token: u64, req: &CallArgs) -> Writer {
+    let mut w = Writer(Vec::with_capacity(48));
     w.u32(op)
         .u64(token)
         .u32(req.layout as u32)
@@ -223,17 +269,65 @@ pub fn encode_call(op: u32, token: u64, req: &CallRequest) -> Writer {
         .u32(req.first.len() as u32)
         .u32(req.second.is_some() as u32)
         .u32(req.strides.0 as u32)
-        .u32(req.strides.1 as u32)
-        .u32s(&req.first);
-    if let Some(s) = &req.second {
+        .u32(req.strides.1 as u32);
+    w
+}
+
+/// Encodes a call request (`op` is [`OP_CALL`] or [`OP_BENCH`]) with its token.
+pub fn encode_call(op: u32, token: u64, req: &CallRequest) -> Writer {
+    let args = req.args();
+    let mut w = call_head(op, token, &args);
+    w.u32s(args.first);
+    if let Some(s) = args.second {
         w.u32s(s);
     }
     w
 }
 
+/// Writes a call request as [`encode_call`] encodes it, the arrays straight from the caller's
+/// slices (no request buffer to fill first).
+pub fn send_call(out: &mut impl Write, op: u32, token: u64, req: &CallArgs) -> io::Result<()> {
+    out.write_all(&call_head(op, token, req).0)?;
+    write_u32s(out, req.first)?;
+    if let Some(s) = req.second {
+        write_u32s(out, s)?;
+    }
+    out.flush()
+}
+
+/// Writes an array of u32 in the protocol's byte order.
+fn write_u32s(out: &mut impl Write, v: &[u32]) -> io::Result<()> {
+    if cfg!(target_endian = "little") {
+        // SAFETY: any u32 slice is a valid byte slice of four times the length.
+        let bytes = unsafe { std::slice::from_raw_parts(v.as_ptr() as *const u8, v.len() * 4) };
+        out.write_all(bytes)
+    } else {
+        let mut w = Writer::default();
+        w.u32s(v);
+        out.write_all(&w.0)
+    }
+}
+
 /// Decodes a call request after its op code: (token, request).  Counts are bounded, so a
 /// corrupted request stream cannot make the worker allocate without limit either.
 pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<(u64, CallRequest)> {
+    let mut req = CallRequest {
+        layout: Layout::Padded,
+        x_offset: 0,
+        y_offset: 0,
+        threads: 1,
+        reps: 1,
+        first: Vec::new(),
+        second: None,
+        strides: (1, 1),
+    };
+    let token = decode_call_into(r, &mut req)?;
+    Ok((token, req))
+}
+
+/// [`decode_call`] into `req`, whose arrays' allocations are reused (the worker serves one
+/// request after the other with the same buffers); the token.
+pub fn decode_call_into<R: Read>(r: &mut Reader<R>, req: &mut CallRequest) -> io::Result<u64> {
     let token = r.u64()?;
     let layout = Layout::from_u32(r.u32()?)?;
     let (x_offset, y_offset, threads, reps) = (r.u32()?, r.u32()?, r.u32()?, r.u32()?);
@@ -256,26 +350,30 @@ pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<(u64, CallRequest)>
     if widest > super::stride::MAX_STRIDE as usize || n * widest > MAX_ELEMENTS {
         return Err(bad("strides out of bounds"));
     }
-    let first = r.u32s(n)?;
-    let second = if has_second { Some(r.u32s(n)?) } else { None };
-    Ok((
-        token,
-        CallRequest {
-            layout,
-            x_offset,
-            y_offset,
-            threads: threads.max(1),
-            reps: reps.max(1),
-            first,
-            second,
-            strides,
-        },
-    ))
+    r.u32s_into(n, &mut req.first)?;
+    if has_second {
+        let second = req.second.get_or_insert_with(Vec::new);
+        r.u32s_into(n, second)?;
+    } else {
+        req.second = None;
+    }
+    req.layout = layout;
+    req.x_offset = x_offset;
+    req.y_offset = y_offset;
+    req.threads = threads.max(1);
+    req.reps = reps.max(1);
+    req.strides = strides;
+    Ok(token)
 }
 
 /// Output arrays a reply to `req` must hold, and elements in each: one array per call of a
 /// thread, and with several threads each holds every thread's equal slice.
 pub fn reply_shape(req: &CallRequest) -> (usize, usize) {
+    shape_of(&req.args())
+}
+
+/// [`reply_shape`] of borrowed arguments.
+fn shape_of(req: &CallArgs) -> (usize, usize) {
     let n = req.first.len();
     let threads = req.threads.max(1) as usize;
     let len = if threads > 1 {
@@ -286,22 +384,49 @@ pub fn reply_shape(req: &CallRequest) -> (usize, usize) {
     (req.reps.max(1) as usize, len)
 }
 
-/// Encodes a successful call reply.
-pub fn encode_reply(token: u64, reply: &CallReply) -> Writer {
-    let mut w = Writer::default();
-    let n = reply.outputs.first().map_or(0, |o| o.len());
-    let (which, index, value) = reply.input_changed.unwrap_or((u32::MAX, 0, 0));
+/// The fields of a successful reply before its arrays.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct ReplyHead {
+    /// FP control word before and after the (last) call.
+    pub env: (u32, u32),
+    /// First input element the kernel changed: (array, index, new bits).
+    pub input_changed: Option<(u32, u32, u32)>,
+    /// Byte offset from y[0] of the first damaged canary byte.
+    pub canary: Option<i64>,
+    /// Output arrays that follow.
+    pub copies: usize,
+    /// Elements in each.
+    pub n: usize,
+}
+
+/// Encodes a successful reply up to its arrays (which follow as u32 each).
+pub fn encode_reply_head(token: u64, head: &ReplyHead) -> Writer {
+    let mut w = Writer(Vec::with_capacity(52));
+    let (which, index, value) = head.input_changed.unwrap_or((u32::MAX, 0, 0));
     w.u32(TAG_OK)
         .u64(token)
-        .u32(reply.env.0)
-        .u32(reply.env.1)
+        .u32(head.env.0)
+        .u32(head.env.1)
         .u32(which)
         .u32(index)
         .u32(value)
-        .u32(reply.canary.is_some() as u32)
-        .u64(reply.canary.unwrap_or(0) as u64)
-        .u32(reply.outputs.len() as u32)
-        .u32(n as u32);
+        .u32(head.canary.is_some() as u32)
+        .u64(head.canary.unwrap_or(0) as u64)
+        .u32(head.copies as u32)
+        .u32(head.n as u32);
+    w
+}
+
+/// Encodes a successful call reply.
+pub fn encode_reply(token: u64, reply: &CallReply) -> Writer {
+    let head = ReplyHead {
+        env: reply.env,
+        input_changed: reply.input_changed,
+        canary: reply.canary,
+        copies: reply.outputs.len(),
+        n: reply.outputs.first().map_or(0, |o| o.len()),
+    };
+    let mut w = encode_reply_head(token, &head);
     for o in &reply.outputs {
         w.u32s(o);
     }
@@ -323,13 +448,32 @@ pub fn expect_token<R: Read>(r: &mut Reader<R>, token: u64) -> io::Result<()> {
 /// request before reading the arrays: their number and length, which input changed and where,
 /// the canary flag and offset.
 pub fn decode_reply<R: Read>(r: &mut Reader<R>, req: &CallRequest) -> io::Result<CallReply> {
-    let env = (r.u32()?, r.u32()?);
-    let (which, index, value) = (r.u32()?, r.u32()?, r.u32()?);
-    let has_canary = r.u32()?;
-    let canary = r.u64()? as i64;
-    let copies = r.u32()? as usize;
-    let n = r.u32()? as usize;
-    let (want_copies, want_n) = reply_shape(req);
+    let head = decode_reply_head(r, &req.args())?;
+    let outputs = (0..head.copies)
+        .map(|_| r.u32s(head.n))
+        .collect::<io::Result<_>>()?;
+    Ok(CallReply {
+        env: head.env,
+        input_changed: head.input_changed,
+        canary: head.canary,
+        outputs,
+    })
+}
+
+/// Decodes the fields of the reply to `req` after its TAG_OK and token, checked as
+/// [`decode_reply`] checks them; the arrays ([`ReplyHead::copies`] of [`ReplyHead::n`]) follow.
+/// The 40 bytes are read at once: a reply with TAG_OK always carries all of them.
+pub fn decode_reply_head<R: Read>(r: &mut Reader<R>, req: &CallArgs) -> io::Result<ReplyHead> {
+    let mut b = [0u8; 40];
+    r.0.read_exact(&mut b)?;
+    let word = |i: usize| u32::from_le_bytes([b[i], b[i + 1], b[i + 2], b[i + 3]]);
+    let env = (word(0), word(4));
+    let (which, index, value) = (word(8), word(12), word(16));
+    let has_canary = word(20);
+    let canary = (word(24) as u64 | (word(28) as u64) << 32) as i64;
+    let copies = word(32) as usize;
+    let n = word(36) as usize;
+    let (want_copies, want_n) = shape_of(req);
     if (copies, n) != (want_copies, want_n) {
         return Err(bad(&format!(
             "{copies} output arrays of {n} elements in reply to {want_copies} of {want_n}"
@@ -350,12 +494,12 @@ pub fn decode_reply<R: Read>(r: &mut Reader<R>, req: &CallRequest) -> io::Result
         1 if canary.abs() <= reach => Some(canary),
         _ => return Err(bad("canary record out of range")),
     };
-    let outputs = (0..copies).map(|_| r.u32s(n)).collect::<io::Result<_>>()?;
-    Ok(CallReply {
+    Ok(ReplyHead {
         env,
         input_changed,
         canary,
-        outputs,
+        copies,
+        n,
     })
 }
 
@@ -564,6 +708,51 @@ mod tests {
         wide[4 + 8 + 28..4 + 8 + 32].copy_from_slice(&(-65i32 as u32).to_le_bytes());
         let mut cursor = io::Cursor::new(&wide[4..]);
         assert!(decode_call(&mut Reader(&mut cursor)).is_err());
+    }
+
+    #[test]
+    fn sent_requests_and_split_replies_match_the_whole_encodings() {
+        // The worker reuses one request for every call: a larger one with a second array
+        // before a smaller one without must leave exactly the smaller one.
+        let big = request(9, 1, 2, true);
+        let small = request(3, 1, 1, false);
+        let mut reused = big.clone();
+        for req in [&small, &big, &small] {
+            let mut sent = Vec::new();
+            send_call(&mut sent, OP_CALL, 9, &req.args()).unwrap();
+            assert_eq!(sent, encode_call(OP_CALL, 9, req).0);
+            let mut cursor = io::Cursor::new(&sent[4..]);
+            assert_eq!(
+                decode_call_into(&mut Reader(&mut cursor), &mut reused).unwrap(),
+                9
+            );
+            assert_eq!(&reused, req);
+        }
+        let good = reply(&big);
+        let head = ReplyHead {
+            env: good.env,
+            input_changed: Some((1, 8, 5)),
+            canary: Some(-3),
+            copies: 2,
+            n: 9,
+        };
+        let whole = CallReply {
+            input_changed: head.input_changed,
+            canary: head.canary,
+            ..good
+        };
+        let mut split = encode_reply_head(42, &head).0;
+        for o in &whole.outputs {
+            split.extend(o.iter().flat_map(|v| v.to_le_bytes()));
+        }
+        assert_eq!(split, encode_reply(42, &whole).0);
+        let mut cursor = io::Cursor::new(&split[4..]);
+        let mut r = Reader(&mut cursor);
+        expect_token(&mut r, 42).unwrap();
+        assert_eq!(decode_reply_head(&mut r, &big.args()).unwrap(), head);
+        let mut out = vec![u32::MAX; 20];
+        r.u32s_into(9, &mut out).unwrap();
+        assert_eq!(out, whole.outputs[0]);
     }
 
     #[test]

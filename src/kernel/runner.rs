@@ -4,9 +4,9 @@
 use super::abi::Abi;
 use super::bisect::Faults;
 use super::protocol::{
-    self, decode_bench, decode_fault, decode_reply, encode_call, expect_token, CallReply,
-    CallRequest, Fault, Layout, Reader, Writer, HELLO_MAGIC, OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR,
-    TAG_FAULT, TAG_OK,
+    self, decode_bench, decode_fault, decode_reply, decode_reply_head, expect_token, send_call,
+    CallArgs, CallReply, CallRequest, Fault, Layout, Reader, Writer, HELLO_MAGIC, OP_BENCH,
+    OP_CALL, OP_QUIT, TAG_ERROR, TAG_FAULT, TAG_OK,
 };
 use super::spawn::{Deadline, WorkerProcess};
 use super::{loader, KernelSpec};
@@ -176,6 +176,9 @@ pub struct Runner {
     pub(super) pinned: std::collections::HashMap<(u32, Option<u32>), String>,
     /// Further workers calling the kernel beside this runner's own (`partner.rs`).
     pub(super) partners: Vec<super::partner::Partner>,
+    /// Outputs of the last plain call, kept so that the next one reads into the same memory
+    /// instead of fresh, zeroed pages.
+    pub(super) spare: Vec<u32>,
     /// Whether partners are over for this run (a call failed, or one could not start).
     pub(super) partners_ended: bool,
 }
@@ -284,6 +287,7 @@ impl Runner {
             pinned: std::collections::HashMap::new(),
             partners: Vec::new(),
             partners_ended: false,
+            spare: Vec::new(),
         };
         runner.ensure_worker().map_err(|e| match e {
             CallError::Worker(m) => m,
@@ -462,7 +466,7 @@ impl Runner {
     fn exchange<T>(
         &mut self,
         op: u32,
-        request: &CallRequest,
+        request: &CallArgs,
         timeout: Duration,
         read: impl FnOnce(&mut Reader<Deadline>) -> io::Result<T>,
     ) -> Result<T, CallError> {
@@ -474,7 +478,7 @@ impl Runner {
         };
         self.calls_in_worker += 1;
         self.last_call_fresh = self.calls_in_worker == 1;
-        if let Err(e) = encode_call(op, token, request).send(&mut w.to) {
+        if let Err(e) = send_call(&mut w.to, op, token, request) {
             return Err(self.failure(e));
         }
         let got = {
@@ -511,21 +515,36 @@ impl Runner {
     /// Sends one call request and waits for the reply, until the deadline the kernel's pace
     /// gives this much work ([`Runner::deadline`]).
     pub fn call(&mut self, request: &CallRequest) -> Result<CallReply, CallError> {
-        let work = request.first.len().max(1) as f64 * request.reps.max(1) as f64;
+        let args = request.args();
+        self.call_args(&args, |r| {
+            let reply = decode_reply(r, request)?;
+            let env = reply.env;
+            Ok((reply, env))
+        })
+    }
+
+    /// [`Runner::call`] with borrowed arguments, the reply read by `read` (which checks it
+    /// against them and gives it with its FP control words before and after the call).
+    fn call_args<T>(
+        &mut self,
+        args: &CallArgs,
+        read: impl FnOnce(&mut Reader<super::spawn::Deadline>) -> io::Result<(T, (u32, u32))>,
+    ) -> Result<T, CallError> {
+        let work = args.first.len().max(1) as f64 * args.reps.max(1) as f64;
         let timeout = self.deadline(work);
-        let (reply, took) = self.guarded(|runner| {
+        let ((reply, env), took) = self.guarded(|runner| {
             runner.ensure_worker()?;
             // Time to start a worker is not the kernel's pace.
             let started = Instant::now();
-            let reply = runner.exchange(OP_CALL, request, timeout, |r| decode_reply(r, request))?;
+            let reply = runner.exchange(OP_CALL, args, timeout, read)?;
             Ok((reply, started.elapsed().as_secs_f64()))
         })?;
         let sample = (took - PACE_OVERHEAD.as_secs_f64()).max(0.0) / work;
         self.pace = Some(self.pace.map_or(sample, |p| sample.max(p * PACE_DECAY)));
         if self.call_env_change.is_none()
-            && super::fpenv::control_bits(reply.env.0) != super::fpenv::control_bits(reply.env.1)
+            && super::fpenv::control_bits(env.0) != super::fpenv::control_bits(env.1)
         {
-            self.call_env_change = Some((request.first.len(), reply.env.0, reply.env.1));
+            self.call_env_change = Some((args.first.len(), env.0, env.1));
         }
         Ok(reply)
     }
@@ -536,18 +555,36 @@ impl Runner {
         first: &[u32],
         second: Option<&[u32]>,
     ) -> Result<Vec<u32>, CallError> {
-        let req = CallRequest {
+        let mut out = Vec::new();
+        self.call_plain_into(first, second, &mut out)?;
+        Ok(out)
+    }
+
+    /// [`Runner::call_plain`] into `out`, whose allocation is reused: the arguments go from
+    /// the caller's slices straight into the pipe and the outputs straight from it into
+    /// `out`, with no request or reply buffer between.
+    pub(super) fn call_plain_into(
+        &mut self,
+        first: &[u32],
+        second: Option<&[u32]>,
+        out: &mut Vec<u32>,
+    ) -> Result<(), CallError> {
+        let args = CallArgs {
             layout: Layout::Padded,
             x_offset: 0,
             y_offset: 0,
             threads: 1,
             reps: 1,
-            first: first.to_vec(),
-            second: second.map(|s| s.to_vec()),
+            first,
+            second,
             strides: self.strides(),
         };
-        let mut reply = self.call(&req)?;
-        Ok(reply.outputs.swap_remove(0))
+        self.call_args(&args, |r| {
+            // One thread, one repetition: the head's check leaves one array of n.
+            let head = decode_reply_head(r, &args)?;
+            r.u32s_into(head.n, out)?;
+            Ok(((), head.env))
+        })
     }
 
     /// The kernel's own throughput in nanoseconds per element, timed inside the worker on the
@@ -576,7 +613,7 @@ impl Runner {
         self.guarded(|runner| {
             runner.ensure_worker()?;
             #[allow(clippy::redundant_closure)] // the closure pins the reader lifetime
-            runner.exchange(OP_BENCH, &req, timeout, |r| decode_bench(r))
+            runner.exchange(OP_BENCH, &req.args(), timeout, |r| decode_bench(r))
         })
         .ok()
     }

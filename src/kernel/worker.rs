@@ -10,8 +10,8 @@
 
 use super::abi::Abi;
 use super::protocol::{
-    self, decode_call, encode_reply, CallReply, CallRequest, Fault, Layout, Reader, Writer,
-    HELLO_MAGIC, OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR, TAG_OK,
+    self, decode_call_into, encode_reply_head, CallRequest, Fault, Layout, Reader, ReplyHead,
+    Writer, HELLO_MAGIC, OP_BENCH, OP_CALL, OP_QUIT, TAG_ERROR, TAG_OK,
 };
 use super::stride::Span;
 use super::{fpenv, loader};
@@ -177,33 +177,51 @@ pub fn serve(config: WorkerConfig) -> i32 {
         abi: config.abi,
         symbol: loaded.symbol,
     };
+    // One request and one reply buffer for the worker's life: each call overwrites them.
+    let mut req = CallRequest {
+        layout: Layout::Padded,
+        x_offset: 0,
+        y_offset: 0,
+        threads: 1,
+        reps: 1,
+        first: Vec::new(),
+        second: None,
+        strides: (1, 1),
+    };
+    let mut wire = Vec::new();
     loop {
         let mut r = Reader(&mut input);
         let op = match r.u32() {
             Ok(op) => op,
             Err(_) => return 0,
         };
-        let result = match op {
-            OP_CALL => decode_call(&mut r).map(|(token, req)| {
-                TOKEN.store(token, Ordering::SeqCst);
-                encode_reply(token, &kernel.call(&req))
-            }),
-            OP_BENCH => decode_call(&mut r).map(|(token, req)| {
-                TOKEN.store(token, Ordering::SeqCst);
-                let mut w = Writer::default();
-                w.u32(TAG_OK).u64(token).u64(kernel.bench(&req).to_bits());
-                w
-            }),
+        let sent = match op {
+            OP_CALL => match decode_call_into(&mut r, &mut req) {
+                Ok(token) => {
+                    TOKEN.store(token, Ordering::SeqCst);
+                    let head = kernel.call(&req, &mut wire);
+                    // The arrays go from the reply buffer into the pipe, without a copy into
+                    // one message first.
+                    out.write_all(&encode_reply_head(token, &head).0)
+                        .and_then(|_| out.write_all(&wire))
+                        .and_then(|_| out.flush())
+                }
+                Err(_) => return 65,
+            },
+            OP_BENCH => match decode_call_into(&mut r, &mut req) {
+                Ok(token) => {
+                    TOKEN.store(token, Ordering::SeqCst);
+                    let mut w = Writer::default();
+                    w.u32(TAG_OK).u64(token).u64(kernel.bench(&req).to_bits());
+                    w.send(&mut out)
+                }
+                Err(_) => return 65,
+            },
             OP_QUIT => return 0,
             _ => return 65,
         };
-        match result {
-            Ok(w) => {
-                if w.send(&mut out).is_err() {
-                    return 0;
-                }
-            }
-            Err(_) => return 65,
+        if sent.is_err() {
+            return 0;
         }
     }
 }
@@ -314,6 +332,11 @@ fn gap_pattern(eb: usize) -> u32 {
 }
 
 fn encode(values: &[u32], eb: usize) -> Vec<u8> {
+    if eb == 4 {
+        let mut bytes = Vec::new();
+        append_u32s(values, &mut bytes);
+        return bytes;
+    }
     let mut bytes = Vec::with_capacity(values.len() * eb);
     for &v in values {
         if eb == 1 {
@@ -325,6 +348,21 @@ fn encode(values: &[u32], eb: usize) -> Vec<u8> {
         }
     }
     bytes
+}
+
+/// Appends u32 values little-endian, as the protocol carries them: one copy on little-endian
+/// machines.
+fn append_u32s(values: &[u32], bytes: &mut Vec<u8>) {
+    if cfg!(target_endian = "little") {
+        // SAFETY: any u32 slice is a valid byte slice of four times the length.
+        let raw =
+            unsafe { std::slice::from_raw_parts(values.as_ptr() as *const u8, values.len() * 4) };
+        bytes.extend_from_slice(raw);
+    } else {
+        values
+            .iter()
+            .for_each(|v| bytes.extend_from_slice(&v.to_le_bytes()));
+    }
 }
 
 fn decode(bytes: &[u8], eb: usize) -> Vec<u32> {
@@ -487,21 +525,22 @@ impl Output {
             (a, b) => a.or(b),
         }
     }
-    fn values(&self) -> Vec<u32> {
+    /// Appends y's elements to `wire` as the reply carries them (u32 little-endian each).
+    fn append_wire(&self, wire: &mut Vec<u8>) {
         let eb = self.eb;
         // SAFETY: the span's bytes are readable.
         let bytes = unsafe {
             std::slice::from_raw_parts(self.region.base.add(self.low), self.span.elems() * eb)
         };
-        if self.span.stride == 1 {
-            return decode(bytes, eb);
+        if self.span.stride == 1 && eb == 4 && cfg!(target_endian = "little") {
+            // Four-byte elements in place are already the wire's bytes.
+            wire.extend_from_slice(bytes);
+            return;
         }
-        (0..self.span.n)
-            .map(|i| {
-                let p = self.span.pos(i) * eb;
-                decode(&bytes[p..p + eb], eb)[0]
-            })
-            .collect()
+        for i in 0..self.span.n {
+            let p = self.span.pos(i) * eb;
+            wire.extend_from_slice(&decode(&bytes[p..p + eb], eb)[0].to_le_bytes());
+        }
     }
     /// Writes `values` into y's elements (the in-place layout's x).
     fn fill(&self, values: &[u8]) {
@@ -527,9 +566,12 @@ impl Kernel {
         }
     }
 
-    fn call(&self, req: &CallRequest) -> CallReply {
+    /// Serves one call request: the reply's head, its arrays (each repetition's outputs)
+    /// written into `wire`.
+    fn call(&self, req: &CallRequest, wire: &mut Vec<u8>) -> ReplyHead {
+        wire.clear();
         if req.threads > 1 {
-            return self.call_threads(req);
+            return self.call_threads(req, wire);
         }
         let eb = self.abi.elem_bytes;
         let ob = self.abi.out_bytes;
@@ -552,7 +594,6 @@ impl Kernel {
         } else {
             Vec::new()
         };
-        let mut outputs = Vec::new();
         enter_caller_env();
         let before = fpenv::read().unwrap_or(0);
         let mut after = before;
@@ -594,7 +635,7 @@ impl Kernel {
             };
             Y_BASE.store(0, Ordering::SeqCst);
             after = fpenv::read().unwrap_or(0);
-            outputs.push(y.values());
+            y.append_wire(wire);
             if input_changed.is_none() && req.layout != Layout::InPlace {
                 input_changed = x.changed(eb).map(|(i, v)| (0, i, v)).or_else(|| {
                     g.as_ref()
@@ -606,22 +647,24 @@ impl Kernel {
         }
         GUARD_LO.store(0, Ordering::SeqCst);
         GUARD_HI.store(0, Ordering::SeqCst);
-        CallReply {
+        ReplyHead {
             env: (before, after),
             input_changed,
             canary,
-            outputs,
+            copies: req.reps as usize,
+            n,
         }
     }
 
     /// Several threads at once, thread k on its own slice k of the inputs (n/threads elements
     /// each), so that a kernel with shared scratch state sees different data in each thread.
     /// Output r is the concatenation of every thread's r-th call.
-    fn call_threads(&self, req: &CallRequest) -> CallReply {
+    fn call_threads(&self, req: &CallRequest, wire: &mut Vec<u8>) -> ReplyHead {
         let threads = req.threads as usize;
         let m = req.first.len() / threads;
         let barrier = std::sync::Barrier::new(threads);
-        let results: Vec<Vec<Vec<u32>>> = std::thread::scope(|s| {
+        // Each thread's reply arrays: reps outputs of m elements, 4 bytes each.
+        let results: Vec<Vec<u8>> = std::thread::scope(|s| {
             let handles: Vec<_> = (0..threads)
                 .map(|k| {
                     let single = CallRequest {
@@ -634,7 +677,9 @@ impl Kernel {
                     let barrier = &barrier;
                     s.spawn(move || {
                         barrier.wait();
-                        self.call(&single).outputs
+                        let mut own = Vec::new();
+                        self.call(&single, &mut own);
+                        own
                     })
                 })
                 .collect();
@@ -643,20 +688,24 @@ impl Kernel {
                 .map(|h| h.join().unwrap_or_default())
                 .collect()
         });
-        let outputs = (0..req.reps as usize)
-            .map(|rep| {
-                results
-                    .iter()
-                    .flat_map(|t| t.get(rep).cloned().unwrap_or_default())
-                    .collect()
-            })
-            .collect();
+        // A thread that died gives no outputs: the arrays come out short, and the runner
+        // refuses a reply of the wrong shape.
+        let slice = 4 * m;
+        let reps = req.reps as usize;
+        for rep in 0..reps {
+            for t in &results {
+                if let Some(bytes) = t.get(rep * slice..(rep + 1) * slice) {
+                    wire.extend_from_slice(bytes);
+                }
+            }
+        }
         let env = fpenv::read().unwrap_or(0);
-        CallReply {
+        ReplyHead {
             env: (env, env),
             input_changed: None,
             canary: None,
-            outputs,
+            copies: reps,
+            n: wire.len() / 4 / reps.max(1),
         }
     }
 
