@@ -1,7 +1,7 @@
 //! The accumulators a streamed sweep feeds, bundled so that parts of the sweep folded in
 //! parallel (or on different machines) merge into the figures of one pass in bit order.
 
-use crate::format::{Class, Format, Layout};
+use crate::format::{Class, ExactValue, Format, Layout};
 use crate::measure::{
     Accuracy, AccuracyAcc, ExactSpan, FindingSink, NonFiniteStream, Point, RunSummary, Shape,
     ShapeAcc, Uniform,
@@ -173,6 +173,22 @@ impl Stream {
         self.kept.add(il, l, p);
     }
 
+    /// [`Self::add_in`] for a point that could start a run ([`Self::runnable`]) and has a
+    /// normal reference with its exact value, output `out`: each accumulator skips the tests
+    /// such a point passes, and it is not a kept point (its input is nonzero, it has no
+    /// left-hand value and its reference is not subnormal).
+    #[inline(always)]
+    fn add_plain(&mut self, l: Layout, il: Layout, p: &Point, out: u32, exact: ExactValue) {
+        debug_assert!(!Kept::always(il, p) && l.classify(p.reference.bits) == Class::Normal);
+        self.accuracy.add_plain(l, il, p, out, exact);
+        if let Some(s) = &mut self.shape {
+            s.add_finite(l, il, p.input, out, p.reference.bits);
+        }
+        if let Some(r) = &mut self.runs {
+            r.add_finite(p.input);
+        }
+    }
+
     /// Adds points in bit order, taking runs at once (see [`Self::add_run`]).
     pub fn add_all(&mut self, points: &[Point]) {
         // One copy of the per-point path with binary32's field widths as constants, one with
@@ -191,7 +207,8 @@ impl Stream {
         while i < points.len() {
             let p = &points[i];
             let mut end = i + 1;
-            if self.runnable(l, p) {
+            let runnable = self.runnable(l, p);
+            if runnable {
                 let exact = Self::exact(l, p);
                 while end < points.len()
                     && self.continues(l, p, exact, &points[end - 1], &points[end], end - i)
@@ -201,6 +218,13 @@ impl Stream {
             }
             if end - i > 1 {
                 self.add_run(&points[i..end]);
+            } else if let (true, Some(out), Some(exact), Class::Normal) = (
+                runnable,
+                p.output,
+                p.reference.exact,
+                l.classify(p.reference.bits),
+            ) {
+                self.add_plain(l, il, p, out, exact);
             } else {
                 self.add_in(l, il, p);
             }
@@ -547,6 +571,119 @@ mod tests {
             true,
             10,
         )
+    }
+
+    /// Points like those of a leading-term band: y = x/2 + x²/4 (binary64, its exact value
+    /// for the test), outputs RN(y) most of the time and one or two ulps off (either side)
+    /// otherwise, so that no two neighbours form a run; both signs, several binades and plot
+    /// buckets, a few zero inputs, subnormal references and NaN outputs in between.
+    fn band_points() -> Vec<Point> {
+        let mut v = Vec::new();
+        let mut state = 0x2545_f491_4f6c_dd1du64;
+        let starts = [
+            0x3000_0000u32 - 3000,
+            0x3380_0000,
+            0xb000_0000 - 3000,
+            0xb380_0000,
+        ];
+        for start in starts {
+            for x in start..start + 6000 {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                let xv = f32::from_bits(x) as f64;
+                let y = xv / 2.0 + xv * xv / 4.0;
+                let rn = y as f32;
+                let binade = (((y.to_bits() >> 52) & 0x7ff) as i32 - 1023).max(-126);
+                let reference = reference(rn.to_bits(), y, binade);
+                let output = match state % 29 {
+                    0 => rn.to_bits() + 1,
+                    1 => rn.to_bits() - 1,
+                    2 => rn.to_bits() + 2,
+                    3 => 0x7fc0_0000,
+                    _ => rn.to_bits(),
+                };
+                v.push(Point {
+                    input: x,
+                    second: None,
+                    output: Some(output),
+                    reference,
+                    left: None,
+                });
+            }
+        }
+        for x in [0x8000_0000u32, 0x8000_0001] {
+            v.push(Point {
+                input: x,
+                second: None,
+                output: Some(0),
+                reference: reference(0x8000_0002, -3.0 * 2f64.powi(-149), -126),
+                left: None,
+            });
+        }
+        v.sort_by_key(|p| p.input);
+        v
+    }
+
+    /// A sink writing down every finding it gets.
+    struct Listed(String);
+
+    impl FindingSink for Listed {
+        fn run(&mut self, run: &crate::measure::NonFiniteRun) {
+            self.0 += &format!("{run:?}");
+        }
+        fn point(&mut self, point: &crate::measure::Worst) {
+            self.0 += &format!("{point:?}");
+        }
+    }
+
+    /// The path of plain points (finite normal references, no runs) leaves exactly the state
+    /// of the general path taking the points one by one, with and without listing, floor and
+    /// grid.
+    #[test]
+    fn plain_points_add_like_the_general_path() {
+        let points = band_points();
+        let plain = points
+            .iter()
+            .filter(|p| p.output != Some(0x7fc0_0000) && p.reference.bits & 0x7f80_0000 != 0)
+            .count();
+        assert!(plain > 20_000, "{plain} plain points");
+        let span = Some((-(1i64 << 31), 1i64 << 31));
+        for (grid, list_over, abs_floor) in [
+            (span, None, None),
+            (span, Some(0.75), Some(1e-9)),
+            (None, Some(1.5), None),
+            (None, None, Some(1e-12)),
+        ] {
+            let new = || binary32_stream(abs_floor, list_over, grid);
+            let (mut single, mut all) = (new(), new());
+            for chunk in points.chunks(2048) {
+                let (mut one_by_one, mut at_once) = (single.fresh(), all.fresh());
+                for p in chunk {
+                    one_by_one.add(p);
+                }
+                at_once.add_all(chunk);
+                single.merge(one_by_one);
+                all.merge(at_once);
+            }
+            single.make_portable();
+            all.make_portable();
+            let text = |s: &Stream| serde_json::to_string(s).unwrap();
+            assert!(
+                text(&single) == text(&all),
+                "{grid:?} {list_over:?} {abs_floor:?}: states differ"
+            );
+            let figures = |s: Stream| {
+                let mut sink = Listed(String::new());
+                let (accuracy, shape, runs, kept) = s.finish(&mut sink);
+                format!("{accuracy:?} {shape:?} {runs:?} {kept:?} {}", sink.0)
+            };
+            let (a, b) = (figures(single), figures(all));
+            assert!(
+                a == b,
+                "{grid:?} {list_over:?} {abs_floor:?}: figures differ"
+            );
+        }
     }
 
     /// Runs taken at once leave exactly the state that adding the points one by one leaves.

@@ -225,20 +225,26 @@ fn judge(l: Layout, output: u32, r: &Reference) -> Option<Judged> {
     if !l.is_finite(r.bits) {
         return None;
     }
+    Some(judged(l, output, r.bits, exact))
+}
+
+/// [`judge`] of a finite reference `bits` whose exact value is known.
+#[inline(always)]
+fn judged(l: Layout, output: u32, bits: u32, exact: ExactValue) -> Judged {
     let error = ulp_error_in(l, output, &exact);
-    let (out, rn) = (l.ordinal(output), l.ordinal(r.bits));
+    let (out, rn) = (l.ordinal(output), l.ordinal(bits));
     let correct = out == rn;
     // y lies between RN(y) and the neighbour on its side; that neighbour is also faithful.
-    let rv = l.to_f64(r.bits);
+    let rv = l.to_f64(bits);
     let faithful =
         correct || (exact.approx > rv && out == rn + 1) || (exact.approx < rv && out == rn - 1);
-    Some(Judged {
+    Judged {
         error,
         exact,
         correct,
         faithful,
-        reference: r.bits,
-    })
+        reference: bits,
+    }
 }
 
 /// The error at a point: at a kink either one-sided value is accepted, whichever is closer.
@@ -295,6 +301,7 @@ struct Acc {
 
 impl Acc {
     /// Adds n points of equal error, inputs `input..=last`.
+    #[inline(always)]
     fn add(&mut self, input: u32, last: u32, error: f64, correct: bool, n: u64) {
         if self.points == 0 {
             self.first = input;
@@ -714,8 +721,6 @@ impl AccuracyAcc {
     /// without listing, see [`Self::add_run`]).
     #[inline(always)]
     fn add_points(&mut self, l: Layout, il: Layout, p: &Point, last: u32, n: u64) {
-        let format = self.format;
-        let input_format = self.input_format();
         debug_assert!(self.last_input.map_or(true, |before| before < p.input));
         self.last_input = Some(last);
         let input_finite = il.is_finite(p.input);
@@ -734,6 +739,32 @@ impl AccuracyAcc {
             self.ftz += n;
             return;
         }
+        self.record(l, il, p, out, j, last, n);
+    }
+
+    /// [`Self::add_in`] for a plain point: finite input, finite output `out`, no left-hand
+    /// reference, a normal reference whose exact value is `exact` (most points outside runs).
+    /// The tests that cannot fail for it are skipped: it is judged (no exclusion) and not a
+    /// flushed subnormal.
+    #[inline(always)]
+    pub fn add_plain(&mut self, l: Layout, il: Layout, p: &Point, out: u32, exact: ExactValue) {
+        debug_assert!(l == self.layout && il == self.in_layout());
+        debug_assert!(il.is_finite(p.input) && l.is_finite(out) && p.left.is_none());
+        debug_assert!(p.output == Some(out) && p.reference.exact == Some(exact));
+        debug_assert!(l.classify(p.reference.bits) == Class::Normal);
+        debug_assert!(self.last_input.map_or(true, |before| before < p.input));
+        self.last_input = Some(p.input);
+        let j = judged(l, out, p.reference.bits, exact);
+        self.record(l, il, p, out, j, p.input, 1);
+    }
+
+    /// The figures of `n` points from p.input to `last` judged `j` (output `out`), past the
+    /// exclusions of [`Self::add_points`].
+    #[inline(always)]
+    #[allow(clippy::too_many_arguments)]
+    fn record(&mut self, l: Layout, il: Layout, p: &Point, out: u32, j: Judged, last: u32, n: u64) {
+        let format = self.format;
+        let input_format = self.input_format();
         // Strict comparison keeps the lowest input on ties: points arrive in bit order.
         if self.worst.as_ref().map_or(true, |w| j.error > w.ulp) {
             self.worst = Some(RawWorst::of(p, &j, j.error));

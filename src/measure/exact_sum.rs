@@ -66,6 +66,7 @@ fn decompose(v: f64) -> (i64, usize) {
 }
 
 impl Slot {
+    #[inline(always)]
     fn add(&mut self, k: i64) {
         self.sum += k as i128;
         let sq = (k.unsigned_abs() as u128) * (k.unsigned_abs() as u128);
@@ -96,7 +97,21 @@ impl Slot {
 }
 
 impl ExactSum {
+    /// The slot of an exponent field, made if missing.
+    #[inline(always)]
     fn slot(&mut self, field: usize) -> &mut Slot {
+        // The common case inline (every value after the first lands in a slot made for it);
+        // a field below `base` wraps to an index past the end.
+        let i = field.wrapping_sub(self.base);
+        if i < self.slots.len() {
+            return &mut self.slots[i];
+        }
+        self.new_slot(field)
+    }
+    /// [`Self::slot`] for a field without a slot yet: room is made for it.
+    #[cold]
+    #[inline(never)]
+    fn new_slot(&mut self, field: usize) -> &mut Slot {
         if self.slots.is_empty() {
             // Room at once for the exponents ulp errors usually take (2^−40 to 2^30), so
             // that a sum of typical errors never moves its slots.
@@ -117,6 +132,7 @@ impl ExactSum {
         &mut self.slots[i]
     }
     /// Adds a finite value.
+    #[inline(always)]
     pub fn add(&mut self, v: f64) {
         debug_assert!(v.is_finite());
         self.count += 1;

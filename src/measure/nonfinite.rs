@@ -545,6 +545,12 @@ impl NonFiniteStream {
         debug_assert!(out == self.out.unwrap_or(self.layout));
         self.builder.push(p.input, classes(out, p));
     }
+    /// [`Self::add_in`] for a point whose output and reference are both finite.
+    #[inline(always)]
+    pub fn add_finite(&mut self, input: u32) {
+        let finite = (ValueClass::Finite, ValueClass::Finite);
+        self.builder.push(input, Some(finite));
+    }
     /// Adds the points of inputs `p.input..=last`, each with p's output and reference, both
     /// finite: none is a mismatch, so the run only moves the previous point along.
     pub fn add_run(&mut self, p: &Point, last: u32) {

@@ -188,12 +188,19 @@ impl ShapeAcc {
         if !il.is_finite(p.input) {
             return;
         }
+        self.add_finite(l, il, p.input, output, p.reference.bits);
+    }
+
+    /// [`Self::add_in`] for a finite input and a finite output, known to be so by the caller.
+    #[inline(always)]
+    pub fn add_finite(&mut self, l: Layout, il: Layout, input: u32, output: u32, reference: u32) {
+        debug_assert!(il.is_finite(input) && l.is_finite(output));
         let seen = Seen {
-            input: p.input,
+            input,
             output,
-            reference: p.reference.bits,
+            reference,
         };
-        let negative = il.is_sign_negative(p.input);
+        let negative = il.is_sign_negative(input);
         let last = if negative {
             self.negative.last
         } else {
