@@ -41,7 +41,7 @@ pub fn two_sum(a: f64, b: f64) -> (f64, f64) {
 
 /// s + e = a + b exactly when |a| ≥ |b| or a = 0 (Dekker's FastTwoSum).
 #[inline(always)]
-fn fast_two_sum(a: f64, b: f64) -> (f64, f64) {
+pub(super) fn fast_two_sum(a: f64, b: f64) -> (f64, f64) {
     let s = a + b;
     let e = b - (s - a);
     (s, e)

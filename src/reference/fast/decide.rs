@@ -331,6 +331,44 @@ pub fn finish(format: Layout, outcome: Outcome) -> Option<Reference> {
     }
 }
 
+/// Widening of [`decide_quick`]'s enclosure (2^−80) beyond what any slower fast path that its
+/// callers skip would use (their enclosures stay within 2^−85·|y| of y).
+const QUICK_MARGIN: f64 = 8.271806125530277e-25;
+
+/// The reference of y = (h + l)·(1 + θ), |θ| ≤ rel (< 2^−55, h + l any sum of two f64), when
+/// the whole enclosure, widened by [`QUICK_MARGIN`], lies strictly inside the binary64 rounding
+/// interval of a binary64 number A that is no rounding boundary of the format; `None`
+/// otherwise (the caller then takes its slower path).
+///
+/// With A = RN(h + l) (TwoSum: A + l' = h + l exactly) normal, not a power of two, |y − A| ≤
+/// |l'| + rel·|h + l| ≤ (|l'| + rel·|A|·(1 + 2^−52)), below half the gap 2^(ilogb(A)−52) on
+/// either side when the test passes (SLACK covers the test's own two roundings and the 2^−52).
+/// In that open interval the only binary64 number is A, and every point where RN into the
+/// format (p ≤ 52) or the binade changes is a binary64 number; A itself is not one
+/// ([`round_flagged`]'s flag), so every point of the interval has RN_binary64 = A and rounds
+/// and falls like A: the answer of [`decide_interval`] for any enclosure inside it, so a
+/// slower path whose enclosure lies within the margin would decide the same reference.
+#[inline(always)]
+pub fn decide_quick(format: Layout, h: f64, l: f64, rel: f64) -> Option<Reference> {
+    let (a, rest) = two_sum(h, l);
+    if !a.is_normal() || ilogb(a) < -960 || is_pow2(a) {
+        return None;
+    }
+    let reach = (rest.abs() + (rel + QUICK_MARGIN) * a.abs()) * SLACK;
+    if !less(reach, pow2(ilogb(a) - 53)) {
+        return None;
+    }
+    let (bits, binade, boundary) = round_flagged(format, a, 0.0, 0)?;
+    if boundary || !format.is_finite(bits) {
+        return None;
+    }
+    Some(Reference {
+        bits,
+        exact: Some(ExactValue { approx: a, binade }),
+        precision: FAST_PRECISION,
+    })
+}
+
 /// RN into `format`, the clamped binade and RN_binary64 of y = s + c + θ ([`Outcome::Leading`]).
 ///
 /// Every point where one of the three changes (a midpoint or number of the format, a power of

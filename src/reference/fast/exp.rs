@@ -21,7 +21,7 @@
 //! OP.  Altogether [`exp`] returns a relative bound EXP_BASE + 1.01·ε_r, EXP_BASE = 2^−96 ≥
 //! 2^−98 + 2^−101 + 2^−119 + 2^−104 + OP (with slack).
 
-use super::dd::{constant, two_prod, two_sum, Dd, Ev, SLACK};
+use super::dd::{constant, fast_two_sum, two_prod, two_sum, Dd, Ev, SLACK};
 use rug::float::Constant;
 use rug::Float;
 use std::sync::OnceLock;
@@ -120,6 +120,59 @@ pub fn exp(a: Dd) -> (Ev, i32) {
         },
         e,
     )
+}
+
+/// Relative bound of [`exp_quick`] (2^−63.4, its comment's total 2^−63.6 rounded up).
+pub const QUICK_EXP_REL: f64 = 8.37e-20;
+
+/// e^w = 2^e·(h + l)·(1 + θ), |θ| ≤ [`QUICK_EXP_REL`], for a double-word w (|w.lo| ≤
+/// ulp(w.hi)/2) with |w.hi| < 64: a first stage of about 66 bits, for callers that only
+/// need to place y between binary64 midpoints and fall back to [`exp`] otherwise.  Returns
+/// (h, l, e) with h ∈ [0.98, 2.02], |l| ≤ 2^−13.2·h (not normalized).
+///
+/// Bound, with u = 2^−53 and the reduction of the module comment (|k| ≤ 64·64/ln 2 + 1 < 2^13):
+/// * k·C1 is exact (22 + 13 bits) and TwoSum(w_h, −k·C1) = r_h + s_l exactly; |r_h| ≤ (ln 2)/128
+///   + |k|·|C2 + C3 + ρ| < 0.0055 (|C2| < 2^−28, the 22-bit truncation's remainder).
+/// * r_l = RN(−k·C2 + RN(−k·C3 + RN(s_l + w_l))): |s_l + w_l| ≤ u·0.0055 + u·64 < 2^−46.9,
+///   |k·C3| < 2^13·2^−81, |k·C2| < 2^−15, so |r_l| < 2^−14.9 and the three roundings err by
+///   ≤ u·(2^−46.8 + 2^−46.8 + 2^−14.9) < 2^−67.8; with |k|·ρ < 2^−120 the computed r_h + r_l is
+///   within ε_1 = 2^−67.7 of r = w − k·(ln 2)/64, so e^(r_h + r_l) = e^r·(1 + θ_1), |θ_1| ≤
+///   1.01·ε_1 < 2^−67.6.
+/// * e^r = 1 + r_h + r_l + ρ2 with ρ2 = r²·Q(r), Q(r) = Σ_(n≥0) r^n/(n + 2)!.  It is evaluated
+///   at r_s = RN(r_h + r_l) (|r_s − r| ≤ u·0.0056 + ε_1 < 2^−60.4; d(r²Q)/dr = e^r − 1 ≤ 0.0057,
+///   so ≤ 2^−67.8 moved), Q kept to 1/7! (the rest ≤ 1.01·|r|^6/8! < 2^−75.1 relative to ρ2's
+///   scale, ≤ 2^−75 absolute), Horner in f64 with coefficients rounded once and terms
+///   shrinking by |r|/3 < 0.002 per step (≤ 2.1u relative), r_s² and the product (≤ 3.2u
+///   relative of |ρ2| < 2^−15.9: ≤ 2^−67.2), and t = RN(ρ2 + r_l), |t| < 2^−14.3, rounds by
+///   ≤ 2^−67.3.  So e^r = 1 + r_h + t + δ_2, |δ_2| ≤ 2^−67.8 + 2^−75 + 2^−67.2 + 2^−67.3 <
+///   2^−65.8.
+/// * The table T = T_h + T_l = 2^(j/64)·(1 + θ_T), |θ_T| ≤ 2^−104, T_h ∈ [1, 2).  T·(1 + r_h + t)
+///   = T_h + T_h·r_h + [T_l + T_l·r_h + T_h·t] + T_l·t: TwoProd(T_h, r_h) = p_h + p_l exactly;
+///   FastTwoSum(T_h, p_h) = h + l_0 exactly (|p_h| ≤ 0.011 < T_h); the bracket with p_l is
+///   formed by RN(p_l + T_l), an FMA with T_l·r_h and an FMA with T_h·t (errors ≤ u·2^−51,
+///   u·2^−51 and u·2^−13.2: < 2^−66.1), and l = RN(l_0 + it) errs by ≤ u·2^−13.2 = 2^−66.2;
+///   the dropped T_l·t ≤ 2^−52·2^−14.3 = 2^−66.3.  Relative to h + l ≥ 0.98: ≤ 2^−64.1.
+///
+/// Altogether, relative to e^w: 2^−67.6 + 2^−65.8/0.994 + 2^−64.1 + 2^−104 < 2^−63.6.
+#[inline(always)]
+pub fn exp_quick(w: Dd) -> (f64, f64, i32) {
+    let t = tables();
+    let kf = (w.hi * t.inv).round_ties_even();
+    let k = kf as i64;
+    let (rh, sl) = two_sum(w.hi, -(kf * t.c1));
+    let rl = (-kf).mul_add(t.c2, (-kf).mul_add(t.c3, sl + w.lo));
+    let rs = rh + rl;
+    let f = &t.fact_inv;
+    let mut q = f[7].hi;
+    for n in (2..7).rev() {
+        q = q.mul_add(rs, f[n].hi);
+    }
+    let tail = (rs * rs).mul_add(q, rl);
+    let table = t.pow[k.rem_euclid(64) as usize];
+    let (ph, pl) = two_prod(table.hi, rh);
+    let rest = table.hi.mul_add(tail, table.lo.mul_add(rh, pl + table.lo));
+    let (h, l0) = fast_two_sum(table.hi, ph);
+    (h, l0 + rest, k.div_euclid(64) as i32)
 }
 
 /// e^a as a plain double-word when 2^k stays in [2^−900, 2^900]; None otherwise.
@@ -281,6 +334,37 @@ mod tests {
                 got.lo.abs() <= got.hi.abs() * 2f64.powi(-53),
                 "step {i}: not normalized"
             );
+        }
+    }
+
+    /// The first stage against MPFR (300 bits) within QUICK_EXP_REL, on 2·10^5 random
+    /// double-words w (|w.hi| < 64, |w.lo| ≤ ulp(w.hi)/2) and the ends of the range.
+    #[test]
+    fn exp_quick_within_its_bound() {
+        let mut state = 0x9E37_79B9_7F4A_7C15u64;
+        let mut unit = || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            (state >> 11) as f64 * 2f64.powi(-52) - 1.0
+        };
+        let mut points: Vec<Dd> = [63.999, -63.999, 0.0, 1e-300, -0.0054, 0.0054]
+            .iter()
+            .map(|&x| Dd::new(x))
+            .collect();
+        for i in 0..200_000 {
+            let hi = if i % 2 == 0 { 64.0 } else { 0.02 } * unit();
+            points.push(Dd::sum(hi, hi * 2f64.powi(-54) * unit()));
+        }
+        for w in points {
+            let (h, l, e) = exp_quick(w);
+            let exact = (Float::with_val(300, w.hi) + w.lo).exp();
+            let got = (Float::with_val(300, h) + l) * Float::with_val(300, Float::i_exp(1, e));
+            let rel = (Float::with_val(300, &got - &exact) / &exact)
+                .abs()
+                .to_f64();
+            assert!(rel <= QUICK_EXP_REL, "exp_quick({w:?}): relative {rel:e}");
+            assert!((0.98..=2.02).contains(&h) && l.abs() <= h * 2f64.powi(-13));
         }
     }
 

@@ -30,9 +30,9 @@ use super::common::{
     beside, decay, near_constant, near_side, widen, Decay, DROPPED, TAIL, TWO_M26, TWO_M27,
     TWO_M53, TWO_M54,
 };
-use super::dd::{two_prod, Dd, Ev};
-use super::decide::{engine_beside, engine_tiny, Outcome};
-use super::exp::expm1;
+use super::dd::{fast_two_sum, pow2, two_prod, two_sum, Dd, Ev};
+use super::decide::{decide_quick, engine_beside, engine_tiny, Outcome};
+use super::exp::{exp_quick, expm1};
 use super::series::{horner, leading, BAND_LIMIT, SECH2, SWISH_SLOPE, TANH};
 use crate::activation::Role;
 use crate::format::Layout;
@@ -328,6 +328,39 @@ fn swish_band(x: f64, beta: f64, z: Dd, role: Role) -> Outcome {
     }
 }
 
+/// Relative bound of [`swish_quick`]: 2^−63 ≥ QUICK_EXP_REL (2^−63.4) + 2^−66 + 2^−99 (its
+/// comment) with room.
+const SWISH_QUICK_REL: f64 = 1.0842021724855044e-19;
+
+/// Forward swish for 2^−6 ≤ |z| with −64 < z_h < 32, through [`exp_quick`] and
+/// [`decide_quick`]: y = x/D, D = 1 + e^(−z) for either sign of z (σ(z) = 1/(1 + e^(−z))), a
+/// sum of positives.  `None` when the ~63-bit enclosure cannot decide (about 2^−8 of the
+/// inputs); the double-word path below then runs as before.
+///
+/// Bound: e^(−z) = E·(1 + θ_E), E = 2^e·(m_h + m_l), |θ_E| ≤ QUICK_EXP_REL; e ∈ [−47, 93], so
+/// the scalings are exact (an m_l·2^e below 2^−1022 errs by ≤ 2^−1074, nothing here).
+/// TwoSum(1, E_h) = d_h + d_0 exactly and d_l = RN(d_0 + E_l) errs by ≤ u·(u·d_h + 2^−13.2·E_h)
+/// < 2^−66·D, and FastTwoSum(d_h, d_l) renormalizes exactly (|d_l| < d_h; the quotient below
+/// needs |d_l| ≤ ulp(d_h)/2); E ≤ D, so D_computed = D·(1 + θ_D), |θ_D| ≤ QUICK_EXP_REL +
+/// 2^−66.  The quotient: q_h = RN(x/d_h), ρ = x − q_h·d_h exactly (an FMA; the remainder of a
+/// rounded quotient is a binary64), ρ' = RN(ρ − q_h·d_l) (|ρ'| ≤ 2^−51·|x|, error ≤
+/// 2^−104·|x|), q_l = RN(ρ'/d_h); x/(d_h + d_l) = q_h + ρ''/(d_h + d_l) with ρ'' = x −
+/// q_h·(d_h + d_l), and using ρ' and d_h for it errs by ≤ 2^−100·|y|.  So y = (q_h +
+/// q_l)·(1 + θ), |θ| ≤ QUICK_EXP_REL + 2^−66 + 2^−99, the products of θs far below the
+/// room left.
+#[inline(always)]
+fn swish_quick(format: Layout, x: f64, z: Dd) -> Option<Outcome> {
+    let (mh, ml, e) = exp_quick(z.neg());
+    let scale = pow2(e);
+    let (dh, d0) = two_sum(1.0, mh * scale);
+    let (dh, dl) = fast_two_sum(dh, d0 + ml * scale);
+    let qh = x / dh;
+    let rho = (-qh).mul_add(dh, x);
+    let rho = (-qh).mul_add(dl, rho);
+    let ql = rho / dh;
+    decide_quick(format, qh, ql, SWISH_QUICK_REL).map(Outcome::Fixed)
+}
+
 /// swish(x) = x·σ(βx) or its derivative; β > 0 an f64.
 #[inline(always)]
 pub fn swish(format: Layout, x: f64, beta: f64, role: Role) -> Outcome {
@@ -354,6 +387,15 @@ pub fn swish(format: Layout, x: f64, beta: f64, role: Role) -> Outcome {
     }
     if a.hi < BAND_LIMIT {
         return swish_band(x, beta, z, role);
+    }
+    if role == Role::Forward && z.hi > -64.0 && z.hi < 32.0 {
+        // Below z = 32 the double-word path never takes decide_beside (x·t/(1 + t) > 2^−47·x),
+        // so it decides through decide_interval, whose enclosures here stay within 2^−85·|y|
+        // of y (relative bounds ≤ 2^−90 from exp/expm1 and a few OP, widened by 2^−40 of
+        // themselves): where swish_quick decides, that path would give the same reference.
+        if let Some(o) = swish_quick(format, x, z) {
+            return o;
+        }
     }
     let xe = Ev::exact(Dd::new(x));
     if a.hi < 1.0 {
