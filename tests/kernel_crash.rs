@@ -160,8 +160,10 @@ fn crash_in_a_partner_share_is_pinned_as_with_one_worker() {
     let (alone, shared_alone) = run_with_workers(&s, 1, &x);
     let (paired, shared) = run_with_workers(&s, 2, &x);
     assert_eq!(shared_alone, 0);
-    // One pair returns before the one that crashes (pairs of 8192 from index 256: the second
-    // pair's partner share is [12544, 16640)); after the crash nothing is shared.
+    // One partner call returns before the one that crashes (the partner takes every second
+    // call of 4096 from index 256: [4352, 8448) returns, [12544, 16640) crashes, and its later
+    // calls are answered as failed and made by the main runner); after the crash nothing is
+    // shared.
     assert_eq!(shared, 1, "calls answered by the partner");
     assert_eq!(paired.crashes, alone.crashes);
     assert_eq!(

@@ -160,6 +160,10 @@ impl Faults {
     }
 }
 
+/// Calls each worker takes per shared round at most (so a long run is not copied into the
+/// partners' queues all at once).
+const SHARED_ROUNDS: usize = 4;
+
 impl Runner {
     /// Calls the kernel on `first` (x, or y for from-output gradient kernels) and optional
     /// `second` (g), in batches.
@@ -211,11 +215,14 @@ impl Runner {
         outcome
     }
 
-    /// Calls the kernel on up to `workers` calls of `size` inputs from `lo` in as many worker
-    /// processes at once, this runner's own worker taking the first; where the run continues,
-    /// or `None` when the calls are not to be shared (one worker, a pace not yet known, a
-    /// failure seen, pinned inputs, `--stop-on-crash`, or inputs for one call only).  A share whose partner
-    /// fails is run again here, split as [`Self::run_range`] splits, and partners end.
+    /// Calls the kernel on the calls of `size` inputs from `lo` (at most [`SHARED_ROUNDS`]
+    /// per worker) in `workers` worker processes at once: call k goes to worker k mod
+    /// `workers`, this runner's own worker being 0; each partner's calls queue in its thread
+    /// and run one after the other without waiting for this one.  Returns where the run
+    /// continues, or `None` when the calls are not to be shared (one worker, a pace not yet
+    /// known, a failure seen, pinned inputs, `--stop-on-crash`, or inputs for one call only).
+    /// A share whose partner fails is run again here, split as [`Self::run_range`] splits, and
+    /// partners end.
     fn run_shared(
         &mut self,
         lo: usize,
@@ -238,29 +245,40 @@ impl Runner {
         // Shares are the calls one worker would make one after the other (`size` inputs
         // each), so a kernel whose outputs depend on where a call starts or ends (a ragged
         // tail) gives the same outputs whatever the number of workers.
-        let span = (first.len() - lo).min(self.options.workers * size);
-        let shares = span.div_ceil(size.max(1));
+        let size = size.max(1);
+        let span = (first.len() - lo).min(SHARED_ROUNDS * self.options.workers * size);
+        let shares = span.div_ceil(size);
         if shares < 2 {
             return None;
         }
+        let workers = self.options.workers.min(shares);
         let bound = |k: usize| (lo + k * size).min(lo + span);
-        while self.partners.len() < shares - 1 {
+        while self.partners.len() < workers - 1 {
             let partner = super::partner::Partner::start(self.spec(), &self.options);
             self.partners.push(partner);
         }
-        let sent: Vec<bool> = (1..shares)
-            .map(|k| {
-                let (a, b) = (bound(k), bound(k + 1));
-                self.partners[k - 1].send(&first[a..b], second.map(|s| &s[a..b]))
-            })
-            .collect();
-        let own = bound(1);
-        self.run_range(lo, own, (lo, own), first, second, outcome, stop);
-        let mut again = Vec::new();
-        for k in 1..shares {
+        // Every partner's calls are queued first, so that each runs its next call as soon as
+        // the last returns, while this runner makes its own.
+        let mut sent = vec![false; shares];
+        for (k, slot) in sent
+            .iter_mut()
+            .enumerate()
+            .filter(|(k, _)| k % workers != 0)
+        {
             let (a, b) = (bound(k), bound(k + 1));
-            let (result, change) = if sent[k - 1] {
-                self.partners[k - 1].receive()
+            *slot = self.partners[k % workers - 1].send(&first[a..b], second.map(|s| &s[a..b]));
+        }
+        for k in (0..shares).step_by(workers) {
+            let (a, b) = (bound(k), bound(k + 1));
+            self.run_range(a, b, (a, b), first, second, outcome, stop);
+        }
+        let mut again = Vec::new();
+        // Each partner answers its calls in the order they were sent.
+        for k in (0..shares).filter(|k| k % workers != 0) {
+            let (a, b) = (bound(k), bound(k + 1));
+            let w = k % workers - 1;
+            let (result, change) = if sent[k] {
+                self.partners[w].receive()
             } else {
                 (Err(CallError::Worker("no partner".into())), None)
             };
@@ -273,7 +291,7 @@ impl Runner {
                     for (slot, &y) in outcome.outputs[a..b].iter_mut().zip(&ys) {
                         *slot = Some(y);
                     }
-                    self.partners[k - 1].recycle(ys);
+                    self.partners[w].recycle(ys);
                 }
                 Err(_) => again.push((a, b)),
             }

@@ -2,7 +2,9 @@
 //! several cores at once.
 //!
 //! A partner is a thread owning a second [`Runner`] (its own worker process, its own pace and
-//! deadlines); it takes one call at a time and answers it.  Separate processes rather than
+//! deadlines); it takes the calls queued for it one after the other and answers each in turn,
+//! so its worker starts the next as soon as one returns.  After a call fails it runs no more:
+//! the later calls are answered as failed, for the main runner to make.  Separate processes rather than
 //! threads in one worker: a kernel need not be thread-safe, and a crash still kills only the
 //! process that ran the inputs.  Partners only ever run plain calls of a healthy kernel: the
 //! first failure of a partner's call sends its inputs back to the main runner, which splits
@@ -35,7 +37,7 @@ pub(super) struct Partner {
     answers: Receiver<Sent>,
     thread: Option<JoinHandle<()>>,
     /// Buffers of earlier calls, reused by the next: first arguments, outputs.
-    spare: (Vec<u32>, Vec<u32>),
+    spare: (Vec<Vec<u32>>, Vec<Vec<u32>>),
 }
 
 impl Partner {
@@ -51,8 +53,10 @@ impl Partner {
         };
         let thread = std::thread::spawn(move || {
             let mut runner: Option<Runner> = None;
+            let mut failed = false;
             for (first, second, mut out) in incoming {
                 let called = match &mut runner {
+                    _ if failed => Err(CallError::Worker("an earlier call failed".into())),
                     Some(r) => r.call_plain_into(&first, second.as_deref(), &mut out),
                     None => match Runner::start(&spec, options.clone()) {
                         Ok(r) => {
@@ -63,6 +67,7 @@ impl Partner {
                         Err(m) => Err(CallError::Worker(m)),
                     },
                 };
+                failed |= called.is_err();
                 let change = runner.as_ref().and_then(|r| r.call_env_change);
                 if outgoing
                     .send((called.map(|()| out), change, first))
@@ -82,25 +87,25 @@ impl Partner {
 
     /// Sends one call; [`Partner::receive`] gives its answer.
     pub(super) fn send(&mut self, first: &[u32], second: Option<&[u32]>) -> bool {
-        let mut firsts = std::mem::take(&mut self.spare.0);
+        let mut firsts = self.spare.0.pop().unwrap_or_default();
         firsts.clear();
         firsts.extend_from_slice(first);
         let request = (
             firsts,
             second.map(<[u32]>::to_vec),
-            std::mem::take(&mut self.spare.1),
+            self.spare.1.pop().unwrap_or_default(),
         );
         self.requests
             .as_ref()
             .is_some_and(|r| r.send(request).is_ok())
     }
 
-    /// The answer to the call sent last: the outputs or why the call failed, and the first
+    /// The answer to the oldest call not yet answered: the outputs or why the call failed, and the first
     /// call after which the FP control word changed.
     pub(super) fn receive(&mut self) -> Answer {
         match self.answers.recv() {
             Ok((result, change, firsts)) => {
-                self.spare.0 = firsts;
+                self.spare.0.push(firsts);
                 (result, change)
             }
             Err(_) => (
@@ -112,7 +117,7 @@ impl Partner {
 
     /// Gives back the outputs of an answer once they are copied, for the next call to fill.
     pub(super) fn recycle(&mut self, outputs: Vec<u32>) {
-        self.spare.1 = outputs;
+        self.spare.1.push(outputs);
     }
 }
 
