@@ -248,7 +248,7 @@ impl<'a> Prober<'a> {
 }
 
 /// Inputs per task of the parallel fold (references and accumulation).
-const FOLD_TASK: usize = 2048;
+const FOLD_TASK: usize = 8192;
 /// Called batches the kernel thread may run ahead of the folds.
 const AHEAD: usize = 4;
 /// Sweeps of at most this many inputs are evaluated on the caller's thread (probes, threshold
