@@ -250,7 +250,14 @@ thread_local! {
 }
 
 impl Region {
+    /// A mapping of at least `len` bytes, canary bytes throughout.
     fn new(len: usize) -> Region {
+        Region::with_hole(len, 0..0)
+    }
+
+    /// [`Region::new`] but for the bytes of `hole`, which the caller fills at once (the
+    /// input's data: writing canaries there first would only be overwritten).
+    fn with_hole(len: usize, hole: std::ops::Range<usize>) -> Region {
         let page = PAGE.load(Ordering::Relaxed) as usize;
         let len = len.div_ceil(page) * page;
         let reused = POOL.with(|pool| {
@@ -274,9 +281,14 @@ impl Region {
             // so that the fault handler names it.
             std::process::abort();
         }
-        // A reused mapping looks exactly like a fresh one: canary bytes throughout.
-        // SAFETY: the mapping is len bytes long and writable.
-        unsafe { std::ptr::write_bytes(base as *mut u8, CANARY, len) };
+        // A reused mapping looks exactly like a fresh one: canary bytes throughout (the hole
+        // is the caller's to fill).
+        let hole = hole.start.min(len)..hole.end.min(len).max(hole.start.min(len));
+        // SAFETY: the mapping is len bytes long and writable; both ranges lie inside it.
+        unsafe {
+            std::ptr::write_bytes(base as *mut u8, CANARY, hole.start);
+            std::ptr::write_bytes((base as *mut u8).add(hole.end), CANARY, len - hole.end);
+        }
         Region {
             base: base as *mut u8,
             len,
@@ -400,7 +412,12 @@ impl Input {
             }
             encode(&laid, eb)
         };
-        let region = Region::new(2 * page + 64 + bytes.len());
+        let start = page + offset % 64;
+        let region = if around {
+            Region::new(2 * page + 64 + bytes.len())
+        } else {
+            Region::with_hole(2 * page + 64 + bytes.len(), start..start + bytes.len())
+        };
         if around {
             // Around a strided x too: a read past either end comes out as NaN.
             let nan = encode(&[gap_pattern(eb)], eb);
@@ -410,7 +427,7 @@ impl Input {
                 .for_each(|c| c.copy_from_slice(&nan));
         }
         // SAFETY: page + offset + len stays inside the region.
-        let low = unsafe { region.base.add(page + offset % 64) };
+        let low = unsafe { region.base.add(start) };
         unsafe { std::ptr::copy_nonoverlapping(bytes.as_ptr(), low, bytes.len()) };
         Input {
             _region: region,
