@@ -68,6 +68,24 @@ pub fn round_dd(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32)> {
 fn round_flagged(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32, bool)> {
     let negative = h < 0.0;
     let (h, l) = if negative { (-h, -l) } else { (h, l) };
+    if k == 0 && format == BINARY32 {
+        if let Some(r) = round_binary32(h, l, negative) {
+            return Some(r);
+        }
+    }
+    round_general(format, h, l, k, negative)
+}
+
+/// [`round_flagged`] by the format's field arithmetic, for h ≥ 0 (`negative`: the sign to
+/// encode).
+#[inline(always)]
+fn round_general(
+    format: Layout,
+    h: f64,
+    l: f64,
+    k: i32,
+    negative: bool,
+) -> Option<(u32, i32, bool)> {
     let emin = format.emin();
     let p = format.precision() as i32;
     let mut b = ilogb(h) as i64 + k as i64;
@@ -108,6 +126,51 @@ fn round_flagged(format: Layout, h: f64, l: f64, k: i32) -> Option<(u32, i32, bo
     let kint = n0 as u64 + up as u64;
     let boundary = (sh != n0 && g == 0.0) || is_pow2(h);
     Some((format.encode(negative, kint, q), cb, boundary))
+}
+
+/// binary32's layout, whose rounding the hardware does ([`round_binary32`]).
+const BINARY32: Layout = Layout::new(8, 23);
+
+/// [`round_flagged`] into binary32 for k = 0 and h ≥ 0 (`negative`: the sign to encode) by the
+/// hardware's conversion, which rounds to nearest with ties to even: that is RN of h + l
+/// except when h lies exactly halfway between two binary32 numbers and l ≠ 0, where l's sign
+/// picks the side (the general path's tie rule).  Only for h in binary32's normal range with a
+/// finite rounding; `None` leaves everything else to the general path.  The two distances to
+/// the neighbours are exact (Sterbenz: each neighbour is within a factor 2 of h).
+#[inline(always)]
+fn round_binary32(h: f64, l: f64, negative: bool) -> Option<(u32, i32, bool)> {
+    const EMIN: i32 = -126;
+    let e = ilogb(h);
+    let f = h as f32;
+    if e < EMIN || !f.is_finite() {
+        return None;
+    }
+    let near = f as f64;
+    let mut bits = f.to_bits();
+    let mut tie = false;
+    if h != near {
+        // near ≥ 2^−126 > 0, so a neighbour below it is a positive pattern.
+        let toward = if h > near { bits + 1 } else { bits - 1 };
+        let other = f32::from_bits(toward) as f64;
+        if (h - near).abs() == (other - h).abs() {
+            tie = true;
+            let (below, above) = if h > near {
+                (bits, toward)
+            } else {
+                (toward, bits)
+            };
+            if l > 0.0 {
+                bits = above;
+            } else if l < 0.0 {
+                bits = below;
+            }
+            if !f32::from_bits(bits).is_finite() {
+                return None;
+            }
+        }
+    }
+    let binade = (e - (is_pow2(h) && l < 0.0) as i32).max(EMIN);
+    Some((bits | (negative as u32) << 31, binade, tie || is_pow2(h)))
 }
 
 /// Decides 2^k·v with absolute error bound e (in the unscaled units of v): every point of
@@ -522,5 +585,63 @@ pub fn rectifier_tail(format: Layout, x: f64, role: Role) -> Outcome {
             engine_beside(format, 1.0, true).map_or(Outcome::Decline, Outcome::Fixed)
         }
         (_, false) => Outcome::Fixed(engine_tiny(format, true)),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The hardware-conversion path against the general one, on binary32 patterns' own values,
+    /// the midpoints between neighbours (ties), points a quarter of an ulp to either side, the
+    /// powers of two, the bottom of the normal range and the top of the finite range, each with
+    /// l = 0 and l of either sign.
+    #[test]
+    fn binary32_rounding_is_the_general_rounding() {
+        let mut state = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            state
+        };
+        let mut patterns: Vec<u32> = (0..200_000).map(|_| next() as u32 & 0x7fff_ffff).collect();
+        patterns.extend((0..=254u32).map(|e| e << 23));
+        patterns.extend([
+            0x0080_0000,
+            0x0080_0001,
+            0x007f_ffff,
+            0x7f7f_fffe,
+            0x7f7f_ffff,
+        ]);
+        let mut checked = 0;
+        for bits in patterns {
+            let a = f32::from_bits(bits);
+            if !a.is_finite() || a == 0.0 {
+                continue;
+            }
+            let a = a as f64;
+            let b = f32::from_bits(bits + 1) as f64;
+            let half = (b - a) / 2.0;
+            for h in [
+                a,
+                a + half,
+                a + half / 2.0,
+                a + 3.0 * half / 2.0,
+                a - half / 4.0,
+            ] {
+                for l in [0.0, h * 1e-20, -h * 1e-20] {
+                    for negative in [false, true] {
+                        let fast = round_binary32(h, l, negative);
+                        let general = round_general(BINARY32, h, l, 0, negative);
+                        if let Some(fast) = fast {
+                            assert_eq!(Some(fast), general, "h = {h:e}, l = {l:e}, {negative}");
+                            checked += 1;
+                        }
+                    }
+                }
+            }
+        }
+        assert!(checked > 5_000_000, "{checked} compared");
     }
 }
