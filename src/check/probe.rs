@@ -347,16 +347,7 @@ impl<S> Folding<'_, S> {
             if all {
                 stats::STATS.exact_tasks.fetch_add(1, Relaxed);
                 clock.lap(&stats::STATS.references);
-                let point = |x: u32| {
-                    let reference = span.reference(x);
-                    Point {
-                        input: x,
-                        second: None,
-                        output: Some(reference.bits),
-                        reference,
-                        left: None,
-                    }
-                };
+                let point = |x: u32| scaled_point(span, x, Some(span.bits(x)));
                 return fold(&ExactSpan {
                     first: inputs[0],
                     last: inputs[inputs.len() - 1],
@@ -365,15 +356,26 @@ impl<S> Folding<'_, S> {
             }
         }
         points.clear();
-        points.extend(inputs.iter().zip(outputs).map(|(&x, &output)| Point {
-            input: x,
-            second: None,
-            output,
-            reference: span.reference(x),
-            left: None,
-        }));
+        points.extend(
+            inputs
+                .iter()
+                .zip(outputs)
+                .map(|(&x, &output)| scaled_point(span, x, output)),
+        );
         clock.lap(&stats::STATS.references);
         (self.fold)(points)
+    }
+}
+
+/// The point of input x of a scaled span with the kernel's `output`.
+#[inline(always)]
+fn scaled_point(span: &ScaledSpan, x: u32, output: Option<u32>) -> Point {
+    Point {
+        input: x,
+        second: None,
+        output,
+        reference: span.reference(x),
+        left: None,
     }
 }
 

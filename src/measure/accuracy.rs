@@ -665,12 +665,9 @@ impl AccuracyAcc {
             return;
         };
         let l = self.in_layout();
-        let within = self
-            .bucket_of(l.ordinal(p.input))
-            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last.input)));
         // Listed points and points off a fixed grid are recorded one by one, each with its own
         // output and reference (a plot bucket shows its worst point's).
-        if !within || self.list_over.is_some() {
+        if !self.takes_run_at_once(p.input, last.input) {
             for q in run {
                 self.add(q);
             }
@@ -679,16 +676,23 @@ impl AccuracyAcc {
         self.add_points(self.layout, l, p, last.input, run.len() as u64);
     }
 
+    /// Whether a run of inputs `first..=last` can be added at once: no listing limit and one
+    /// plot bucket holding both ends (else its points go one by one).
+    fn takes_run_at_once(&self, first: u32, last: u32) -> bool {
+        let l = self.in_layout();
+        self.list_over.is_none()
+            && self
+                .bucket_of(l.ordinal(first))
+                .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last)))
+    }
+
     /// [`Self::add_run`] for the run `p.input..=last` of a [`super::Uniform`] span (one sign and one
     /// exponent field, finite and nonzero inputs, p's output and reference finite, none
     /// subnormal), without its points: the same figures, the same fallback to one point at
     /// a time.
     pub fn add_uniform_run(&mut self, p: &Point, last: u32) {
         let l = self.in_layout();
-        let within = self
-            .bucket_of(l.ordinal(p.input))
-            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last)));
-        if !within || self.list_over.is_some() {
+        if !self.takes_run_at_once(p.input, last) {
             let mut q = p.clone();
             for x in p.input..=last {
                 q.input = x;
@@ -704,10 +708,7 @@ impl AccuracyAcc {
     /// one by one): the same figures, the same fallback to one point at a time.
     pub fn add_exact_run(&mut self, p: &Point, last: &Point, point: &dyn Fn(u32) -> Point) {
         let l = self.in_layout();
-        let within = self
-            .bucket_of(l.ordinal(p.input))
-            .is_some_and(|(_, lo, hi)| (lo..=hi).contains(&l.ordinal(last.input)));
-        if !within || self.list_over.is_some() {
+        if !self.takes_run_at_once(p.input, last.input) {
             for x in p.input..=last.input {
                 self.add(&point(x));
             }
