@@ -308,19 +308,26 @@ fn write_u32s(out: &mut impl Write, v: &[u32]) -> io::Result<()> {
     }
 }
 
+impl CallRequest {
+    /// A plain request with no inputs, for [`decode_call_into`] to fill.
+    pub fn empty() -> CallRequest {
+        CallRequest {
+            layout: Layout::Padded,
+            x_offset: 0,
+            y_offset: 0,
+            threads: 1,
+            reps: 1,
+            first: Vec::new(),
+            second: None,
+            strides: (1, 1),
+        }
+    }
+}
+
 /// Decodes a call request after its op code: (token, request).  Counts are bounded, so a
 /// corrupted request stream cannot make the worker allocate without limit either.
 pub fn decode_call<R: Read>(r: &mut Reader<R>) -> io::Result<(u64, CallRequest)> {
-    let mut req = CallRequest {
-        layout: Layout::Padded,
-        x_offset: 0,
-        y_offset: 0,
-        threads: 1,
-        reps: 1,
-        first: Vec::new(),
-        second: None,
-        strides: (1, 1),
-    };
+    let mut req = CallRequest::empty();
     let token = decode_call_into(r, &mut req)?;
     Ok((token, req))
 }

@@ -178,16 +178,7 @@ pub fn serve(config: WorkerConfig) -> i32 {
         symbol: loaded.symbol,
     };
     // One request and one reply buffer for the worker's life: each call overwrites them.
-    let mut req = CallRequest {
-        layout: Layout::Padded,
-        x_offset: 0,
-        y_offset: 0,
-        threads: 1,
-        reps: 1,
-        first: Vec::new(),
-        second: None,
-        strides: (1, 1),
-    };
+    let mut req = CallRequest::empty();
     let mut wire = Vec::new();
     loop {
         let mut r = Reader(&mut input);
