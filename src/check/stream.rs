@@ -559,6 +559,25 @@ mod tests {
         }
     }
 
+    /// Folds `points` into two streams from `new`, in parts of 2048 merged in order as the
+    /// sweep folds them: one taking each point alone (`add`), one taking each part at once
+    /// (`add_all`, runs and plain points); both made portable for comparison.
+    fn one_by_one_and_at_once(points: &[Point], new: impl Fn() -> Stream) -> (Stream, Stream) {
+        let (mut single, mut all) = (new(), new());
+        for chunk in points.chunks(2048) {
+            let (mut one_by_one, mut at_once) = (single.fresh(), all.fresh());
+            for p in chunk {
+                one_by_one.add(p);
+            }
+            at_once.add_all(chunk);
+            single.merge(one_by_one);
+            all.merge(at_once);
+        }
+        single.make_portable();
+        all.make_portable();
+        (single, all)
+    }
+
     /// An empty binary32 stream with accuracy and shape accumulators and runs kept.
     fn binary32_stream(
         abs_floor: Option<f64>,
@@ -655,19 +674,8 @@ mod tests {
             (None, Some(1.5), None),
             (None, None, Some(1e-12)),
         ] {
-            let new = || binary32_stream(abs_floor, list_over, grid);
-            let (mut single, mut all) = (new(), new());
-            for chunk in points.chunks(2048) {
-                let (mut one_by_one, mut at_once) = (single.fresh(), all.fresh());
-                for p in chunk {
-                    one_by_one.add(p);
-                }
-                at_once.add_all(chunk);
-                single.merge(one_by_one);
-                all.merge(at_once);
-            }
-            single.make_portable();
-            all.make_portable();
+            let (single, all) =
+                one_by_one_and_at_once(&points, || binary32_stream(abs_floor, list_over, grid));
             let text = |s: &Stream| serde_json::to_string(s).unwrap();
             assert!(
                 text(&single) == text(&all),
@@ -698,20 +706,8 @@ mod tests {
             (span, Some(0.5), None),
             (None, None, None),
         ] {
-            let new = || binary32_stream(abs_floor, list_over, span);
-            let (mut single, mut runs) = (new(), new());
-            // Parts of 2048 points, as the sweep folds them, then merged in order.
-            for chunk in points.chunks(2048) {
-                let (mut one_by_one, mut at_once) = (single.fresh(), runs.fresh());
-                for p in chunk {
-                    one_by_one.add(p);
-                }
-                at_once.add_all(chunk);
-                single.merge(one_by_one);
-                runs.merge(at_once);
-            }
-            single.make_portable();
-            runs.make_portable();
+            let (single, runs) =
+                one_by_one_and_at_once(&points, || binary32_stream(abs_floor, list_over, span));
             let text = |s: &Stream| serde_json::to_string(s).unwrap();
             let (a, b) = (text(&single), text(&runs));
             let at = a.bytes().zip(b.bytes()).position(|(x, y)| x != y);
